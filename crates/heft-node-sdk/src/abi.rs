@@ -1,0 +1,178 @@
+//! The C-compatible plugin boundary. Only `#[repr(C)]` types and `extern "C"` function
+//! pointers live here; the rules:
+//!
+//! - A plugin exports one symbol, [`ENTRY_SYMBOL`], an `extern "C" fn() -> *const PluginTable`.
+//! - [`PluginTable`] starts with the ABI major and minor version and its own size in bytes,
+//!   and only ever grows by appending fields. A host accepts a plugin of the same major
+//!   version whose table is at least as large as the fields the host reads.
+//! - The host owns every buffer. A plugin writes outputs into host-allocated slices and
+//!   hands text and descriptors back through a [`ByteSink`] callback the host provides,
+//!   so no memory is ever freed by the other side's allocator.
+//! - A call returns a [`Status`] code; a panic is caught inside the plugin and reported as
+//!   [`Status::Panic`] with its message.
+
+use std::ffi::c_void;
+
+/// Incremented on any change that is not a pure append.
+pub const ABI_MAJOR: u32 = 1;
+/// Incremented when fields are appended to [`PluginTable`] or [`Call`].
+pub const ABI_MINOR: u32 = 0;
+/// The one symbol a plugin exports (the major version is part of the name).
+pub const ENTRY_SYMBOL: &str = "heft_plugin_entry_v1";
+
+/// The type of the entry symbol.
+pub type EntryFn = unsafe extern "C" fn() -> *const PluginTable;
+
+/// Result of a call across the boundary.
+#[repr(i32)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Status {
+    /// Success.
+    Ok = 0,
+    /// The node returned an error; the message was written to the call's message sink.
+    NodeError = 1,
+    /// The node panicked; the panic message was written to the message sink.
+    Panic = 2,
+    /// The call itself was malformed (unknown node index, undecodable parameters, wrong buffer sizes).
+    BadCall = 3,
+}
+
+impl Status {
+    /// Reads a status code; unknown codes are treated as a malformed call.
+    pub fn from_code(code: i32) -> Status {
+        match code {
+            0 => Status::Ok,
+            1 => Status::NodeError,
+            2 => Status::Panic,
+            _ => Status::BadCall,
+        }
+    }
+}
+
+/// A host callback that receives bytes; the plugin may call `write` several times and
+/// the host appends. The host copies the bytes before returning.
+#[repr(C)]
+#[derive(Debug, Clone, Copy)]
+pub struct ByteSink {
+    /// Opaque host context.
+    pub ctx: *mut c_void,
+    /// Appends `len` bytes at `data` to the host's buffer.
+    pub write: unsafe extern "C" fn(ctx: *mut c_void, data: *const u8, len: usize),
+}
+
+/// Borrowed bytes owned by the caller.
+#[repr(C)]
+#[derive(Debug, Clone, Copy)]
+pub struct ByteView {
+    /// Start of the bytes (may dangle when `len` is 0).
+    pub data: *const u8,
+    /// Number of bytes.
+    pub len: usize,
+}
+
+/// The frames a call evaluates: frame `start_frame + i` for `i` in `0..frame_count`,
+/// at `rate_num / rate_den` frames per second. Frame `f` is at time `f * rate_den / rate_num` s.
+#[repr(C)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Timeline {
+    /// The first frame number.
+    pub start_frame: i64,
+    /// How many frames.
+    pub frame_count: u64,
+    /// Frame rate numerator (frames).
+    pub rate_num: u32,
+    /// Frame rate denominator (seconds); 24000/1001 is NTSC film rate.
+    pub rate_den: u32,
+}
+
+impl Timeline {
+    /// Frame rate in frames per second.
+    pub fn fps(&self) -> f64 {
+        f64::from(self.rate_num) / f64::from(self.rate_den)
+    }
+    /// Seconds between frames.
+    pub fn dt(&self) -> f64 {
+        f64::from(self.rate_den) / f64::from(self.rate_num)
+    }
+    /// Frame count as usize.
+    pub fn frames(&self) -> usize {
+        usize::try_from(self.frame_count).unwrap_or(usize::MAX)
+    }
+    /// The frame number of the `i`-th frame of the call.
+    pub fn frame_number(&self, i: usize) -> i64 {
+        self.start_frame + i as i64
+    }
+    /// Time in seconds of the `i`-th frame of the call (frame numbers times the frame duration).
+    pub fn time(&self, i: usize) -> f64 {
+        (self.start_frame + i as i64) as f64 * f64::from(self.rate_den) / f64::from(self.rate_num)
+    }
+}
+
+/// A read-only series: `len` values, `width` per frame, frame-major.
+#[repr(C)]
+#[derive(Debug, Clone, Copy)]
+pub struct SeriesView {
+    /// Start of the values (may dangle when `len` is 0).
+    pub data: *const f64,
+    /// Number of values (frames times width).
+    pub len: usize,
+    /// Values per frame.
+    pub width: usize,
+}
+
+/// A writable series allocated by the host.
+#[repr(C)]
+#[derive(Debug, Clone, Copy)]
+pub struct SeriesViewMut {
+    /// Start of the values (may dangle when `len` is 0).
+    pub data: *mut f64,
+    /// Number of values (frames times width).
+    pub len: usize,
+    /// Values per frame.
+    pub width: usize,
+}
+
+/// One call of a node: which node type, its parameters and its data.
+#[repr(C)]
+#[derive(Debug, Clone, Copy)]
+pub struct Call {
+    /// `size_of::<Call>()` as the host built it; a plugin reads only fields inside it.
+    pub struct_size: usize,
+    /// Index of the node type in the plugin's descriptor.
+    pub node_index: u32,
+    /// Parameters, encoded by [`crate::codec`] as a `Vec<ParamValue>` in descriptor order.
+    pub params: ByteView,
+    /// The frames.
+    pub timeline: Timeline,
+    /// Input series, one per declared input; for a shape query only `width` is set.
+    pub inputs: *const SeriesView,
+    /// Number of inputs.
+    pub input_count: usize,
+    /// Output series, one per declared output; empty for a shape query.
+    pub outputs: *const SeriesViewMut,
+    /// Number of outputs.
+    pub output_count: usize,
+    /// Receives an error message when the call fails.
+    pub message: ByteSink,
+    /// Receives warnings (UTF-8, one per write) while the call succeeds.
+    pub warning: ByteSink,
+}
+
+/// The function table a plugin exports. Fields are only ever appended.
+#[repr(C)]
+#[derive(Debug)]
+pub struct PluginTable {
+    /// Must equal the host's [`ABI_MAJOR`].
+    pub abi_major: u32,
+    /// The plugin's [`ABI_MINOR`]; a host reads only fields that exist at this minor.
+    pub abi_minor: u32,
+    /// `size_of::<PluginTable>()` in the plugin.
+    pub table_size: usize,
+    /// Writes the encoded [`crate::descriptor::PluginDescriptor`] to the sink.
+    pub describe: unsafe extern "C" fn(sink: ByteSink) -> i32,
+    /// For the call's node type, parameters and input widths, writes the point count N of
+    /// every output (0 for non-points outputs) into `points[..count]`.
+    pub output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
+    /// Evaluates the call, writing every output buffer.
+    pub evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
+}

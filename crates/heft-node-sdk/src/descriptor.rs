@@ -1,0 +1,315 @@
+//! What a plugin says about itself: its node types, their ports and parameters.
+//! Encoded with [`crate::codec`] to cross the plugin boundary.
+
+use serde::{Deserialize, Serialize};
+
+use crate::units::Dimension;
+
+/// The kind of data on a port. Every kind is a series of `f64` per frame, in
+/// frame-major layout; [`PortKind::width`] says how many values one frame holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+pub enum PortKind {
+    /// One value per frame.
+    Scalar,
+    /// x, y, z per frame.
+    Vec3,
+    /// Translation x, y, z then a unit quaternion x, y, z, w per frame (7 values).
+    Transform,
+    /// On (1.0) or off (0.0) per frame.
+    Flag,
+    /// N points of x, y, z per frame; N is fixed per port and known before evaluation.
+    Points,
+}
+
+impl PortKind {
+    /// Values per frame for this kind; `points` is N for [`PortKind::Points`] and ignored otherwise.
+    pub fn width(self, points: usize) -> usize {
+        match self {
+            PortKind::Scalar | PortKind::Flag => 1,
+            PortKind::Vec3 => 3,
+            PortKind::Transform => 7,
+            PortKind::Points => 3 * points,
+        }
+    }
+
+    /// The word the graph language and `heft nodes` use for this kind.
+    pub fn name(self) -> &'static str {
+        match self {
+            PortKind::Scalar => "scalar",
+            PortKind::Vec3 => "vec3",
+            PortKind::Transform => "transform",
+            PortKind::Flag => "flag",
+            PortKind::Points => "points",
+        }
+    }
+}
+
+/// The shape of the data on one port: its kind and, for points, how many.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+pub struct Shape {
+    /// The kind of data.
+    pub kind: PortKind,
+    /// N for [`PortKind::Points`]; 0 for every other kind.
+    pub points: usize,
+}
+
+impl Shape {
+    /// A shape of a kind that is not `Points`.
+    pub const fn of(kind: PortKind) -> Shape {
+        Shape { kind, points: 0 }
+    }
+    /// A points shape with `n` points.
+    pub const fn points(n: usize) -> Shape {
+        Shape {
+            kind: PortKind::Points,
+            points: n,
+        }
+    }
+    /// Values per frame.
+    pub fn width(self) -> usize {
+        self.kind.width(self.points)
+    }
+}
+
+impl std::fmt::Display for Shape {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self.kind {
+            PortKind::Points => write!(f, "points[{}]", self.points),
+            k => f.write_str(k.name()),
+        }
+    }
+}
+
+/// One input or output port of a node type.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PortSpec {
+    /// Port name, unique among the node's inputs (or outputs).
+    pub name: String,
+    /// Kind of data.
+    pub kind: PortKind,
+    /// For a points port: `Some(n)` when N is fixed by the node type. For an input,
+    /// `None` accepts any N; for an output, `None` means the node computes N from its
+    /// parameters and inputs before evaluation.
+    pub points: Option<usize>,
+    /// The SI dimension of the values (positions are a length, and so on).
+    pub dimension: Dimension,
+    /// An unconnected optional input is passed as an empty series.
+    pub optional: bool,
+    /// One line of documentation.
+    pub doc: String,
+}
+
+impl PortSpec {
+    /// A required port.
+    pub fn new(name: &str, kind: PortKind, dimension: Dimension, doc: &str) -> PortSpec {
+        PortSpec {
+            name: name.to_owned(),
+            kind,
+            points: None,
+            dimension,
+            optional: false,
+            doc: doc.to_owned(),
+        }
+    }
+    /// Marks an input optional.
+    pub fn optional(mut self) -> PortSpec {
+        self.optional = true;
+        self
+    }
+    /// Fixes N for a points port.
+    pub fn with_points(mut self, n: usize) -> PortSpec {
+        self.points = Some(n);
+        self
+    }
+}
+
+/// A parameter value, always in SI units.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub enum ParamValue {
+    /// A real number in the SI unit of the parameter's dimension.
+    Number(f64),
+    /// A whole number.
+    Integer(i64),
+    /// On or off.
+    Bool(bool),
+    /// One of a fixed set of words.
+    Choice(String),
+    /// A vector in the SI unit of the parameter's dimension.
+    Vec3([f64; 3]),
+    /// Keyframes: (time in seconds, value vector in SI), in increasing time.
+    Keys(Vec<(f64, [f64; 3])>),
+}
+
+impl ParamValue {
+    /// The word for this value's type, for messages.
+    pub fn type_name(&self) -> &'static str {
+        match self {
+            ParamValue::Number(_) => "number",
+            ParamValue::Integer(_) => "integer",
+            ParamValue::Bool(_) => "bool",
+            ParamValue::Choice(_) => "choice",
+            ParamValue::Vec3(_) => "vec3",
+            ParamValue::Keys(_) => "keys",
+        }
+    }
+}
+
+/// The type of a parameter and its valid range.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub enum ParamType {
+    /// A real number of a dimension, valid in `min..=max` (SI units).
+    Number {
+        /// Physical dimension.
+        dimension: Dimension,
+        /// Smallest valid value.
+        min: f64,
+        /// Largest valid value.
+        max: f64,
+    },
+    /// A whole number valid in `min..=max`.
+    Integer {
+        /// Smallest valid value.
+        min: i64,
+        /// Largest valid value.
+        max: i64,
+    },
+    /// On or off.
+    Bool,
+    /// One of these words.
+    Choice {
+        /// The accepted words.
+        options: Vec<String>,
+    },
+    /// A vector of a dimension, each component valid in `min..=max`.
+    Vec3 {
+        /// Physical dimension.
+        dimension: Dimension,
+        /// Smallest valid component.
+        min: f64,
+        /// Largest valid component.
+        max: f64,
+    },
+    /// Keyframes `time: vector` with strictly increasing times; the vector has this dimension.
+    Keys {
+        /// Physical dimension of the vectors.
+        dimension: Dimension,
+        /// Fewest keys accepted.
+        min_keys: usize,
+    },
+}
+
+/// One parameter of a node type.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ParamSpec {
+    /// Parameter name, unique in the node type.
+    pub name: String,
+    /// Type, dimension and valid range.
+    pub ty: ParamType,
+    /// Value used when the graph gives none; `None` makes the parameter required.
+    pub default: Option<ParamValue>,
+    /// One line of documentation.
+    pub doc: String,
+}
+
+impl ParamSpec {
+    /// A real-valued parameter with a default.
+    pub fn number(name: &str, dimension: Dimension, default: f64, range: (f64, f64), doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Number {
+                dimension,
+                min: range.0,
+                max: range.1,
+            },
+            default: Some(ParamValue::Number(default)),
+            doc: doc.to_owned(),
+        }
+    }
+    /// A whole-number parameter with a default.
+    pub fn integer(name: &str, default: i64, range: (i64, i64), doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Integer {
+                min: range.0,
+                max: range.1,
+            },
+            default: Some(ParamValue::Integer(default)),
+            doc: doc.to_owned(),
+        }
+    }
+    /// An on/off parameter with a default.
+    pub fn boolean(name: &str, default: bool, doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Bool,
+            default: Some(ParamValue::Bool(default)),
+            doc: doc.to_owned(),
+        }
+    }
+    /// A choice among words, defaulting to the first.
+    pub fn choice(name: &str, options: &[&str], doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Choice {
+                options: options.iter().map(|s| (*s).to_owned()).collect(),
+            },
+            default: options.first().map(|s| ParamValue::Choice((*s).to_owned())),
+            doc: doc.to_owned(),
+        }
+    }
+    /// A vector parameter with a default.
+    pub fn vec3(name: &str, dimension: Dimension, default: [f64; 3], range: (f64, f64), doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Vec3 {
+                dimension,
+                min: range.0,
+                max: range.1,
+            },
+            default: Some(ParamValue::Vec3(default)),
+            doc: doc.to_owned(),
+        }
+    }
+    /// A required keyframe list.
+    pub fn keys(name: &str, dimension: Dimension, min_keys: usize, doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Keys { dimension, min_keys },
+            default: None,
+            doc: doc.to_owned(),
+        }
+    }
+    /// Makes the parameter required (no default).
+    pub fn required(mut self) -> ParamSpec {
+        self.default = None;
+        self
+    }
+}
+
+/// One node type a plugin offers.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct NodeSpec {
+    /// Node type name inside the plugin (the graph names it `plugin.node`).
+    pub name: String,
+    /// One line of documentation.
+    pub doc: String,
+    /// Longer notes: method, sources, stability limits.
+    pub notes: String,
+    /// Input ports, in order.
+    pub inputs: Vec<PortSpec>,
+    /// Output ports, in order.
+    pub outputs: Vec<PortSpec>,
+    /// Parameters, in order.
+    pub params: Vec<ParamSpec>,
+}
+
+/// Everything a plugin says about itself.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PluginDescriptor {
+    /// Plugin name: the first half of `plugin.node`.
+    pub name: String,
+    /// Plugin version (the node crate's version).
+    pub version: String,
+    /// The node types, in order; a call names a node type by its index here.
+    pub nodes: Vec<NodeSpec>,
+}

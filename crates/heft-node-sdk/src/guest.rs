@@ -1,0 +1,529 @@
+//! The plugin side of the boundary: the safe [`Node`] trait node authors implement, and
+//! the `extern "C"` glue behind [`crate::export_plugin!`]. Node crates contain no `unsafe`;
+//! every raw pointer a host passes is turned into a slice here, once, after checking sizes.
+
+use std::panic::{AssertUnwindSafe, catch_unwind};
+
+use crate::abi::{ABI_MAJOR, ABI_MINOR, ByteSink, Call, PluginTable, SeriesView, SeriesViewMut, Status, Timeline};
+use crate::codec;
+use crate::descriptor::{NodeSpec, ParamValue, PluginDescriptor, PortKind};
+
+/// An error a node returns; the host reports it with the node instance's name.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct NodeError(pub String);
+
+impl NodeError {
+    /// An error with a message.
+    pub fn new(msg: impl Into<String>) -> NodeError {
+        NodeError(msg.into())
+    }
+}
+
+impl std::fmt::Display for NodeError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for NodeError {}
+
+/// A node type. Implementations are pure: the same parameters and inputs give
+/// bit-identical outputs, and they do no file or network I/O.
+pub trait Node: 'static {
+    /// Ports, parameters and docs. Must return the same value on every call.
+    fn spec() -> NodeSpec;
+
+    /// The point count N of every output, in output order (0 for outputs that are not
+    /// points). The default takes N from each output's fixed `points` in the spec; a node
+    /// whose N depends on parameters or inputs overrides this.
+    fn output_points(params: &Params, inputs: &[usize]) -> Result<Vec<usize>, NodeError> {
+        let _ = (params, inputs);
+        Ok(Self::spec().outputs.iter().map(|p| p.points.unwrap_or(0)).collect())
+    }
+
+    /// Computes every output for every frame of the timeline.
+    fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError>;
+}
+
+/// Parameter values of one node instance, complete (defaults filled in by the host),
+/// checked against the spec's types and ranges, in SI units.
+#[derive(Debug, Clone)]
+pub struct Params {
+    names: Vec<String>,
+    values: Vec<ParamValue>,
+}
+
+impl Params {
+    /// Pairs a spec's parameter names with values (in spec order). Used by the glue and by
+    /// tests that call a node directly.
+    pub fn new(spec: &NodeSpec, values: Vec<ParamValue>) -> Result<Params, NodeError> {
+        if values.len() != spec.params.len() {
+            return Err(NodeError::new(format!(
+                "expected {} parameter values, got {}",
+                spec.params.len(),
+                values.len()
+            )));
+        }
+        Ok(Params {
+            names: spec.params.iter().map(|p| p.name.clone()).collect(),
+            values,
+        })
+    }
+
+    /// The defaults of a spec, for tests; fails if a parameter has no default.
+    pub fn defaults(spec: &NodeSpec) -> Result<Params, NodeError> {
+        let values = spec
+            .params
+            .iter()
+            .map(|p| {
+                p.default
+                    .clone()
+                    .ok_or_else(|| NodeError::new(format!("parameter `{}` has no default", p.name)))
+            })
+            .collect::<Result<Vec<_>, _>>()?;
+        Params::new(spec, values)
+    }
+
+    /// Replaces one value (for tests and sweeps).
+    pub fn with(mut self, name: &str, value: ParamValue) -> Result<Params, NodeError> {
+        let i = self.index(name)?;
+        self.values[i] = value;
+        Ok(self)
+    }
+
+    /// The values in spec order.
+    pub fn values(&self) -> &[ParamValue] {
+        &self.values
+    }
+
+    fn index(&self, name: &str) -> Result<usize, NodeError> {
+        self.names
+            .iter()
+            .position(|n| n == name)
+            .ok_or_else(|| NodeError::new(format!("no parameter `{name}`")))
+    }
+
+    fn get(&self, name: &str) -> Result<&ParamValue, NodeError> {
+        Ok(&self.values[self.index(name)?])
+    }
+
+    fn wrong(name: &str, want: &str, got: &ParamValue) -> NodeError {
+        NodeError::new(format!("parameter `{name}` is a {}, not a {want}", got.type_name()))
+    }
+
+    /// A number parameter in SI units.
+    pub fn number(&self, name: &str) -> Result<f64, NodeError> {
+        match self.get(name)? {
+            ParamValue::Number(v) => Ok(*v),
+            other => Err(Self::wrong(name, "number", other)),
+        }
+    }
+    /// An integer parameter.
+    pub fn integer(&self, name: &str) -> Result<i64, NodeError> {
+        match self.get(name)? {
+            ParamValue::Integer(v) => Ok(*v),
+            other => Err(Self::wrong(name, "integer", other)),
+        }
+    }
+    /// A bool parameter.
+    pub fn boolean(&self, name: &str) -> Result<bool, NodeError> {
+        match self.get(name)? {
+            ParamValue::Bool(v) => Ok(*v),
+            other => Err(Self::wrong(name, "bool", other)),
+        }
+    }
+    /// A choice parameter.
+    pub fn choice(&self, name: &str) -> Result<&str, NodeError> {
+        match self.get(name)? {
+            ParamValue::Choice(v) => Ok(v),
+            other => Err(Self::wrong(name, "choice", other)),
+        }
+    }
+    /// A vector parameter in SI units.
+    pub fn vec3(&self, name: &str) -> Result<[f64; 3], NodeError> {
+        match self.get(name)? {
+            ParamValue::Vec3(v) => Ok(*v),
+            other => Err(Self::wrong(name, "vec3", other)),
+        }
+    }
+    /// A keyframe parameter: (time s, vector SI) in increasing time.
+    pub fn keys(&self, name: &str) -> Result<&[(f64, [f64; 3])], NodeError> {
+        match self.get(name)? {
+            ParamValue::Keys(v) => Ok(v),
+            other => Err(Self::wrong(name, "keys", other)),
+        }
+    }
+}
+
+/// Read access to one input series.
+#[derive(Debug, Clone, Copy)]
+pub struct Series<'a> {
+    data: &'a [f64],
+    width: usize,
+}
+
+impl<'a> Series<'a> {
+    /// Wraps a frame-major slice with `width` values per frame.
+    pub fn new(data: &'a [f64], width: usize) -> Series<'a> {
+        Series { data, width }
+    }
+    /// Values per frame.
+    pub fn width(&self) -> usize {
+        self.width
+    }
+    /// Number of frames held.
+    pub fn frames(&self) -> usize {
+        self.data.len().checked_div(self.width).unwrap_or(0)
+    }
+    /// The values of frame `i` (0-based within the call).
+    pub fn frame(&self, i: usize) -> &'a [f64] {
+        &self.data[i * self.width..(i + 1) * self.width]
+    }
+    /// Frame `i` as a vector (the first three values).
+    pub fn vec3(&self, i: usize) -> [f64; 3] {
+        let f = self.frame(i);
+        [f[0], f[1], f[2]]
+    }
+    /// All values.
+    pub fn as_slice(&self) -> &'a [f64] {
+        self.data
+    }
+    /// True when the series holds nothing (an unconnected optional input).
+    pub fn is_empty(&self) -> bool {
+        self.data.is_empty()
+    }
+}
+
+/// The inputs and outputs of one evaluation.
+#[derive(Debug)]
+pub struct Io<'a> {
+    timeline: Timeline,
+    spec: &'a NodeSpec,
+    inputs: Vec<Series<'a>>,
+    outputs: Vec<&'a mut [f64]>,
+    widths: Vec<usize>,
+    warnings: Vec<String>,
+}
+
+impl<'a> Io<'a> {
+    /// Assembles an evaluation over borrowed buffers (used by the glue, and by tests that
+    /// call a node without the plugin boundary). Output slices must be sized
+    /// frames times width.
+    pub fn new(
+        timeline: Timeline,
+        spec: &'a NodeSpec,
+        inputs: Vec<Series<'a>>,
+        outputs: Vec<&'a mut [f64]>,
+        widths: Vec<usize>,
+    ) -> Io<'a> {
+        Io {
+            timeline,
+            spec,
+            inputs,
+            outputs,
+            widths,
+            warnings: Vec::new(),
+        }
+    }
+    /// The frames to compute.
+    pub fn timeline(&self) -> Timeline {
+        self.timeline
+    }
+    /// Number of frames.
+    pub fn frames(&self) -> usize {
+        self.timeline.frames()
+    }
+    /// An input by name. Unconnected optional inputs are empty.
+    pub fn input(&self, name: &str) -> Result<Series<'a>, NodeError> {
+        let i = self
+            .spec
+            .inputs
+            .iter()
+            .position(|p| p.name == name)
+            .ok_or_else(|| NodeError::new(format!("no input port `{name}`")))?;
+        self.inputs
+            .get(i)
+            .copied()
+            .ok_or_else(|| NodeError::new(format!("input `{name}` was not passed")))
+    }
+    /// An output by name, as a frame-major slice; also returns its width.
+    pub fn output(&mut self, name: &str) -> Result<(&mut [f64], usize), NodeError> {
+        let i = self
+            .spec
+            .outputs
+            .iter()
+            .position(|p| p.name == name)
+            .ok_or_else(|| NodeError::new(format!("no output port `{name}`")))?;
+        let w = self.widths.get(i).copied().unwrap_or(0);
+        match self.outputs.get_mut(i) {
+            Some(s) => Ok((&mut **s, w)),
+            None => Err(NodeError::new(format!("output `{name}` was not passed"))),
+        }
+    }
+    /// Writes a whole output from a function of the frame index.
+    pub fn fill(&mut self, name: &str, mut f: impl FnMut(usize, &mut [f64])) -> Result<(), NodeError> {
+        let (buf, w) = self.output(name)?;
+        if w == 0 {
+            return Ok(());
+        }
+        for (i, chunk) in buf.chunks_exact_mut(w).enumerate() {
+            f(i, chunk);
+        }
+        Ok(())
+    }
+    /// Records a warning for the host to show (it names the node instance).
+    pub fn warn(&mut self, message: impl Into<String>) {
+        self.warnings.push(message.into());
+    }
+    /// Warnings recorded so far.
+    pub fn warnings(&self) -> &[String] {
+        &self.warnings
+    }
+}
+
+/// One node type as the glue sees it: plain function pointers, built at compile time.
+#[derive(Debug, Clone, Copy)]
+pub struct NodeEntry {
+    /// The node's spec.
+    pub spec: fn() -> NodeSpec,
+    /// The node's output point counts.
+    pub output_points: fn(&Params, &[usize]) -> Result<Vec<usize>, NodeError>,
+    /// The node's evaluation.
+    pub evaluate: fn(&Params, &mut Io<'_>) -> Result<(), NodeError>,
+}
+
+impl NodeEntry {
+    /// The entry for a node type.
+    pub const fn of<N: Node>() -> NodeEntry {
+        NodeEntry {
+            spec: N::spec,
+            output_points: N::output_points,
+            evaluate: N::evaluate,
+        }
+    }
+}
+
+/// What [`crate::export_plugin!`] implements for a plugin.
+pub trait Exports: 'static {
+    /// The plugin name (first half of `plugin.node`).
+    const NAME: &'static str;
+    /// The plugin version.
+    const VERSION: &'static str;
+    /// The node types.
+    fn nodes() -> &'static [NodeEntry];
+}
+
+/// The plugin's descriptor, built from its node entries.
+pub fn descriptor<E: Exports>() -> PluginDescriptor {
+    PluginDescriptor {
+        name: E::NAME.to_owned(),
+        version: E::VERSION.to_owned(),
+        nodes: E::nodes().iter().map(|n| (n.spec)()).collect(),
+    }
+}
+
+/// The function table of a plugin; built in a `static` by [`crate::export_plugin!`].
+pub const fn table<E: Exports>() -> PluginTable {
+    PluginTable {
+        abi_major: ABI_MAJOR,
+        abi_minor: ABI_MINOR,
+        table_size: std::mem::size_of::<PluginTable>(),
+        describe: describe::<E>,
+        output_points: output_points::<E>,
+        evaluate: evaluate::<E>,
+    }
+}
+
+fn panic_text(payload: &(dyn std::any::Any + Send)) -> String {
+    if let Some(s) = payload.downcast_ref::<&str>() {
+        (*s).to_owned()
+    } else if let Some(s) = payload.downcast_ref::<String>() {
+        s.clone()
+    } else {
+        "panic with a non-text payload".to_owned()
+    }
+}
+
+fn send(sink: ByteSink, bytes: &[u8]) {
+    // SAFETY: the host built `sink` for this call; `write` copies `len` bytes from a
+    // pointer that is valid for reads of `bytes.len()` bytes for the duration of the call.
+    unsafe { (sink.write)(sink.ctx, bytes.as_ptr(), bytes.len()) }
+}
+
+/// Runs `f`, turning a panic into [`Status::Panic`] with its message sent to `sink`.
+fn guarded(sink: ByteSink, f: impl FnOnce() -> Result<(), (Status, String)>) -> i32 {
+    match catch_unwind(AssertUnwindSafe(f)) {
+        Ok(Ok(())) => Status::Ok as i32,
+        Ok(Err((status, msg))) => {
+            send(sink, msg.as_bytes());
+            status as i32
+        }
+        Err(payload) => {
+            send(sink, format!("panicked: {}", panic_text(payload.as_ref())).as_bytes());
+            Status::Panic as i32
+        }
+    }
+}
+
+unsafe extern "C" fn describe<E: Exports>(sink: ByteSink) -> i32 {
+    guarded(sink, || {
+        let bytes = codec::encode(&descriptor::<E>()).map_err(|e| (Status::BadCall, e))?;
+        send(sink, &bytes);
+        Ok(())
+    })
+}
+
+/// The pieces of a call that do not depend on buffers, checked.
+struct Decoded {
+    entry: NodeEntry,
+    spec: NodeSpec,
+    params: Params,
+}
+
+fn bad(msg: impl Into<String>) -> (Status, String) {
+    (Status::BadCall, msg.into())
+}
+
+fn decode_call<E: Exports>(call: &Call) -> Result<Decoded, (Status, String)> {
+    let entry = *E::nodes()
+        .get(call.node_index as usize)
+        .ok_or_else(|| bad(format!("no node type with index {}", call.node_index)))?;
+    let spec = (entry.spec)();
+    let bytes: &[u8] = if call.params.len == 0 {
+        &[]
+    } else {
+        // SAFETY: the host passes parameter bytes valid for `len` bytes for the whole call.
+        unsafe { std::slice::from_raw_parts(call.params.data, call.params.len) }
+    };
+    let values: Vec<ParamValue> = codec::decode(bytes).map_err(|e| bad(format!("parameters: {e}")))?;
+    let params = Params::new(&spec, values).map_err(|e| bad(e.0))?;
+    Ok(Decoded { entry, spec, params })
+}
+
+fn input_views(call: &Call) -> &[SeriesView] {
+    if call.input_count == 0 {
+        return &[];
+    }
+    // SAFETY: the host passes `input_count` initialised views that live for the call.
+    unsafe { std::slice::from_raw_parts(call.inputs, call.input_count) }
+}
+
+unsafe extern "C" fn output_points<E: Exports>(call: *const Call, points: *mut usize, count: usize) -> i32 {
+    // SAFETY: the host passes a pointer to a `Call` that lives for the duration of this call.
+    let call = unsafe { &*call };
+    guarded(call.message, || {
+        let d = decode_call::<E>(call)?;
+        let widths: Vec<usize> = input_views(call).iter().map(|v| v.width).collect();
+        let n = (d.entry.output_points)(&d.params, &widths).map_err(|e| (Status::NodeError, e.0))?;
+        if n.len() != count || n.len() != d.spec.outputs.len() {
+            return Err(bad(format!(
+                "node `{}` reports {} output shapes for {} outputs",
+                d.spec.name,
+                n.len(),
+                d.spec.outputs.len()
+            )));
+        }
+        if count > 0 {
+            // SAFETY: the host passes room for `count` values that lives for the call.
+            let out = unsafe { std::slice::from_raw_parts_mut(points, count) };
+            out.copy_from_slice(&n);
+        }
+        Ok(())
+    })
+}
+
+unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
+    // SAFETY: the host passes a pointer to a `Call` that lives for the duration of this call.
+    let call = unsafe { &*call };
+    guarded(call.message, || {
+        let d = decode_call::<E>(call)?;
+        if call.input_count != d.spec.inputs.len() || call.output_count != d.spec.outputs.len() {
+            return Err(bad("port count does not match the node type"));
+        }
+        let frames = call.timeline.frames();
+        let mut inputs = Vec::with_capacity(call.input_count);
+        for (view, port) in input_views(call).iter().zip(&d.spec.inputs) {
+            if view.len == 0 {
+                inputs.push(Series::new(&[], view.width));
+                continue;
+            }
+            if Some(view.len) != frames.checked_mul(view.width) {
+                return Err(bad(format!("input `{}` has the wrong length", port.name)));
+            }
+            // SAFETY: the host passes `len` initialised values per view, alive for the call
+            // and not written by anyone during it.
+            let data = unsafe { std::slice::from_raw_parts(view.data, view.len) };
+            inputs.push(Series::new(data, view.width));
+        }
+        let out_views: &[SeriesViewMut] = if call.output_count == 0 {
+            &[]
+        } else {
+            // SAFETY: the host passes `output_count` views that live for the call.
+            unsafe { std::slice::from_raw_parts(call.outputs, call.output_count) }
+        };
+        let mut outputs = Vec::with_capacity(out_views.len());
+        let mut widths = Vec::with_capacity(out_views.len());
+        for (view, port) in out_views.iter().zip(&d.spec.outputs) {
+            if Some(view.len) != frames.checked_mul(view.width)
+                || (port.kind != PortKind::Points && view.width != port.kind.width(0))
+            {
+                return Err(bad(format!("output `{}` has the wrong size", port.name)));
+            }
+            let data: &mut [f64] = if view.len == 0 {
+                &mut []
+            } else {
+                // SAFETY: the host allocates each output separately (no two views overlap
+                // and none overlaps an input), `len` values long, exclusively for this call.
+                unsafe { std::slice::from_raw_parts_mut(view.data, view.len) }
+            };
+            outputs.push(data);
+            widths.push(view.width);
+        }
+        let mut io = Io::new(call.timeline, &d.spec, inputs, outputs, widths);
+        let result = (d.entry.evaluate)(&d.params, &mut io);
+        for w in io.warnings() {
+            send(call.warning, w.as_bytes());
+        }
+        result.map_err(|e| (Status::NodeError, e.0))
+    })
+}
+
+/// Exports a plugin: the entry symbol and a safe `plugin_table()` for static linking.
+///
+/// ```ignore
+/// heft_node_sdk::export_plugin!(name: "trajectory", nodes: [Ballistic, Keyed]);
+/// ```
+#[macro_export]
+macro_rules! export_plugin {
+    (name: $name:expr, nodes: [$($node:ty),+ $(,)?] $(,)?) => {
+        #[doc(hidden)]
+        #[derive(Debug)]
+        pub struct __HeftExports;
+
+        impl $crate::guest::Exports for __HeftExports {
+            const NAME: &'static str = $name;
+            const VERSION: &'static str = env!("CARGO_PKG_VERSION");
+            fn nodes() -> &'static [$crate::guest::NodeEntry] {
+                static NODES: &[$crate::guest::NodeEntry] = &[$($crate::guest::NodeEntry::of::<$node>()),+];
+                NODES
+            }
+        }
+
+        static __HEFT_TABLE: $crate::abi::PluginTable = $crate::guest::table::<__HeftExports>();
+
+        /// This plugin's function table, for linking it statically into a host.
+        pub fn plugin_table() -> &'static $crate::abi::PluginTable {
+            &__HEFT_TABLE
+        }
+
+        /// The plugin entry symbol (`heft_node_sdk::abi::ENTRY_SYMBOL`).
+        // SAFETY: exporting an unmangled symbol is unsafe only if another symbol of the same
+        // name exists in the library; the SDK's versioned name is reserved for this macro,
+        // which a crate can invoke once.
+        #[allow(unsafe_code)]
+        #[unsafe(no_mangle)]
+        pub extern "C" fn heft_plugin_entry_v1() -> *const $crate::abi::PluginTable {
+            &__HEFT_TABLE
+        }
+    };
+}

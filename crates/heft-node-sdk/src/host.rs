@@ -1,0 +1,345 @@
+//! The host side of the boundary: opening a plugin library, checking its ABI, and calling
+//! it with host-owned buffers. Libraries are leaked on purpose and never unloaded while the
+//! process runs: unloading code that registered thread-local destructors is unsound.
+
+use std::ffi::c_void;
+use std::path::{Path, PathBuf};
+
+use crate::abi::{
+    ABI_MAJOR, ABI_MINOR, ByteSink, ByteView, Call, ENTRY_SYMBOL, EntryFn, PluginTable, SeriesView, SeriesViewMut,
+    Status, Timeline,
+};
+use crate::codec;
+use crate::descriptor::{ParamValue, PluginDescriptor};
+
+/// Why a plugin could not be loaded. Every variant names the file.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum LoadError {
+    /// The file could not be opened as a shared library.
+    Open {
+        /// The file.
+        path: PathBuf,
+        /// The loader's message.
+        reason: String,
+    },
+    /// The library has no entry symbol: it is not a heft plugin (or one of another major version).
+    MissingEntry {
+        /// The file.
+        path: PathBuf,
+    },
+    /// The entry symbol returned a null table.
+    NullTable {
+        /// The file.
+        path: PathBuf,
+    },
+    /// The plugin was built for another ABI, or its table is smaller than this host reads.
+    AbiMismatch {
+        /// The file.
+        path: PathBuf,
+        /// The plugin's major.minor and table size.
+        plugin: (u32, u32, usize),
+        /// This host's major.minor and table size.
+        host: (u32, u32, usize),
+    },
+    /// The plugin could not describe itself.
+    Describe {
+        /// The file.
+        path: PathBuf,
+        /// What went wrong.
+        reason: String,
+    },
+}
+
+impl std::fmt::Display for LoadError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            LoadError::Open { path, reason } => {
+                write!(f, "{}: cannot open as a plugin library: {reason}", path.display())
+            }
+            LoadError::MissingEntry { path } => write!(
+                f,
+                "{}: not a heft plugin: it has no `{ENTRY_SYMBOL}` symbol (built for another heft ABI, or not a plugin)",
+                path.display()
+            ),
+            LoadError::NullTable { path } => {
+                write!(f, "{}: the plugin entry returned no function table", path.display())
+            }
+            LoadError::AbiMismatch { path, plugin, host } => write!(
+                f,
+                "{}: plugin ABI {}.{} (table of {} bytes) does not match this heft's ABI {}.{} (table of {} bytes); rebuild the plugin against this heft",
+                path.display(),
+                plugin.0,
+                plugin.1,
+                plugin.2,
+                host.0,
+                host.1,
+                host.2
+            ),
+            LoadError::Describe { path, reason } => {
+                write!(f, "{}: the plugin could not describe itself: {reason}", path.display())
+            }
+        }
+    }
+}
+
+impl std::error::Error for LoadError {}
+
+/// A failed call into a plugin.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct CallError {
+    /// How it failed.
+    pub status: Status,
+    /// The node's (or the glue's) message.
+    pub message: String,
+}
+
+impl std::fmt::Display for CallError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self.status {
+            Status::Panic => write!(f, "the node panicked: {}", self.message),
+            Status::BadCall => write!(f, "malformed call: {}", self.message),
+            _ => f.write_str(&self.message),
+        }
+    }
+}
+
+impl std::error::Error for CallError {}
+
+/// A loaded plugin: its table and what it said about itself.
+#[derive(Debug, Clone)]
+pub struct Plugin {
+    origin: PathBuf,
+    table: &'static PluginTable,
+    descriptor: PluginDescriptor,
+}
+
+/// The fields every table version starts with.
+#[repr(C)]
+struct TableHeader {
+    abi_major: u32,
+    abi_minor: u32,
+    table_size: usize,
+}
+
+unsafe extern "C" fn append_bytes(ctx: *mut c_void, data: *const u8, len: usize) {
+    if len == 0 || data.is_null() || ctx.is_null() {
+        return;
+    }
+    // SAFETY: `ctx` is the `&mut Vec<u8>` this module put in the sink for the current call,
+    // alive and not otherwise borrowed while the plugin runs; the plugin passes `len`
+    // readable bytes at `data`.
+    let (buf, bytes) = unsafe { (&mut *ctx.cast::<Vec<u8>>(), std::slice::from_raw_parts(data, len)) };
+    buf.extend_from_slice(bytes);
+}
+
+unsafe extern "C" fn push_text(ctx: *mut c_void, data: *const u8, len: usize) {
+    if data.is_null() || ctx.is_null() {
+        return;
+    }
+    // SAFETY: as in `append_bytes`, with `ctx` a `&mut Vec<String>`.
+    let (list, bytes) = unsafe { (&mut *ctx.cast::<Vec<String>>(), std::slice::from_raw_parts(data, len)) };
+    list.push(String::from_utf8_lossy(bytes).into_owned());
+}
+
+fn byte_sink(buf: &mut Vec<u8>) -> ByteSink {
+    ByteSink {
+        ctx: (buf as *mut Vec<u8>).cast(),
+        write: append_bytes,
+    }
+}
+
+fn text_sink(list: &mut Vec<String>) -> ByteSink {
+    ByteSink {
+        ctx: (list as *mut Vec<String>).cast(),
+        write: push_text,
+    }
+}
+
+impl Plugin {
+    /// Opens a plugin library, checks its ABI and reads its descriptor.
+    pub fn load(path: &Path) -> Result<Plugin, LoadError> {
+        let path_buf = path.to_path_buf();
+        // SAFETY: opening a library runs its initialisers. heft loads only files the user put
+        // on its plugin path; the ABI check below rejects libraries that are not heft plugins
+        // before any other function of theirs is called.
+        let lib = unsafe { libloading::Library::new(path) }.map_err(|e| LoadError::Open {
+            path: path_buf.clone(),
+            reason: e.to_string(),
+        })?;
+        // Never unloaded: see the module docs.
+        let lib: &'static libloading::Library = Box::leak(Box::new(lib));
+        // SAFETY: the symbol is declared by the SDK with exactly the type `EntryFn`; a
+        // library that exports the versioned name with another type is not a heft plugin
+        // of this major version, which the header check below catches before any use.
+        let entry: libloading::Symbol<'static, EntryFn> = unsafe { lib.get(ENTRY_SYMBOL.as_bytes()) }
+            .map_err(|_| LoadError::MissingEntry { path: path_buf.clone() })?;
+        // SAFETY: the entry function takes no arguments and returns a pointer to a static.
+        let table = unsafe { entry() };
+        // SAFETY: `table` comes from the library, which is never unloaded.
+        unsafe { Plugin::from_raw(table, path_buf) }
+    }
+
+    /// Wraps a plugin linked into this program (see `export_plugin!`'s `plugin_table()`).
+    pub fn from_static(table: &'static PluginTable, origin: &str) -> Result<Plugin, LoadError> {
+        // SAFETY: a `&'static PluginTable` is valid for reads for the whole program.
+        unsafe { Plugin::from_raw(table, PathBuf::from(origin)) }
+    }
+
+    /// # Safety
+    /// `table` is null or points to a table that stays valid for the rest of the process.
+    unsafe fn from_raw(table: *const PluginTable, path: PathBuf) -> Result<Plugin, LoadError> {
+        if table.is_null() {
+            return Err(LoadError::NullTable { path });
+        }
+        // SAFETY: every table version starts with the header fields; read them alone first.
+        let header = unsafe { &*table.cast::<TableHeader>() };
+        let ours = std::mem::size_of::<PluginTable>();
+        if header.abi_major != ABI_MAJOR || header.table_size < ours {
+            return Err(LoadError::AbiMismatch {
+                path,
+                plugin: (header.abi_major, header.abi_minor, header.table_size),
+                host: (ABI_MAJOR, ABI_MINOR, ours),
+            });
+        }
+        // SAFETY: same major version and a table at least as large as ours: every field this
+        // host reads exists with the layout it expects (fields are only appended).
+        let table: &'static PluginTable = unsafe { &*table };
+        let mut bytes = Vec::new();
+        // SAFETY: the sink's context is `bytes`, alive across the call.
+        let code = unsafe { (table.describe)(byte_sink(&mut bytes)) };
+        if Status::from_code(code) != Status::Ok {
+            return Err(LoadError::Describe {
+                path,
+                reason: String::from_utf8_lossy(&bytes).into_owned(),
+            });
+        }
+        let descriptor: PluginDescriptor =
+            codec::decode(&bytes).map_err(|reason| LoadError::Describe { path: path.clone(), reason })?;
+        Ok(Plugin {
+            origin: path,
+            table,
+            descriptor,
+        })
+    }
+
+    /// The library file (or the static origin label).
+    pub fn origin(&self) -> &Path {
+        &self.origin
+    }
+
+    /// What the plugin said about itself.
+    pub fn descriptor(&self) -> &PluginDescriptor {
+        &self.descriptor
+    }
+
+    /// Encodes parameter values for [`Plugin::evaluate`].
+    pub fn encode_params(values: &[ParamValue]) -> Result<Vec<u8>, String> {
+        codec::encode(&values.to_vec())
+    }
+
+    fn call(node_index: u32, params: &[u8], timeline: Timeline) -> Call {
+        Call {
+            struct_size: std::mem::size_of::<Call>(),
+            node_index,
+            params: ByteView {
+                data: params.as_ptr(),
+                len: params.len(),
+            },
+            timeline,
+            inputs: std::ptr::null(),
+            input_count: 0,
+            outputs: std::ptr::null(),
+            output_count: 0,
+            message: ByteSink {
+                ctx: std::ptr::null_mut(),
+                write: append_bytes,
+            },
+            warning: ByteSink {
+                ctx: std::ptr::null_mut(),
+                write: push_text,
+            },
+        }
+    }
+
+    /// Asks the node type for the point count of each of its `output_count` outputs.
+    pub fn output_points(
+        &self,
+        node_index: u32,
+        params: &[u8],
+        timeline: Timeline,
+        input_widths: &[usize],
+        output_count: usize,
+    ) -> Result<Vec<usize>, CallError> {
+        let views: Vec<SeriesView> = input_widths
+            .iter()
+            .map(|&width| SeriesView {
+                data: std::ptr::null(),
+                len: 0,
+                width,
+            })
+            .collect();
+        let mut message = Vec::new();
+        let mut call = Plugin::call(node_index, params, timeline);
+        call.inputs = views.as_ptr();
+        call.input_count = views.len();
+        call.message = byte_sink(&mut message);
+        let mut points = vec![0usize; output_count];
+        // SAFETY: `call` and everything it points to (params, views, message buffer) and
+        // `points` (room for `output_count` values) outlive the call.
+        let code = unsafe { (self.table.output_points)(&call, points.as_mut_ptr(), output_count) };
+        match Status::from_code(code) {
+            Status::Ok => Ok(points),
+            status => Err(CallError {
+                status,
+                message: String::from_utf8_lossy(&message).into_owned(),
+            }),
+        }
+    }
+
+    /// Evaluates a node over `timeline`. Inputs are (values, width); outputs are
+    /// host-allocated buffers of frames times width. Returns the node's warnings.
+    pub fn evaluate(
+        &self,
+        node_index: u32,
+        params: &[u8],
+        timeline: Timeline,
+        inputs: &[(&[f64], usize)],
+        outputs: &mut [(&mut [f64], usize)],
+    ) -> Result<Vec<String>, CallError> {
+        let in_views: Vec<SeriesView> = inputs
+            .iter()
+            .map(|(data, width)| SeriesView {
+                data: data.as_ptr(),
+                len: data.len(),
+                width: *width,
+            })
+            .collect();
+        let out_views: Vec<SeriesViewMut> = outputs
+            .iter_mut()
+            .map(|(data, width)| SeriesViewMut {
+                data: data.as_mut_ptr(),
+                len: data.len(),
+                width: *width,
+            })
+            .collect();
+        let mut message = Vec::new();
+        let mut warnings = Vec::new();
+        let mut call = Plugin::call(node_index, params, timeline);
+        call.inputs = in_views.as_ptr();
+        call.input_count = in_views.len();
+        call.outputs = out_views.as_ptr();
+        call.output_count = out_views.len();
+        call.message = byte_sink(&mut message);
+        call.warning = text_sink(&mut warnings);
+        // SAFETY: every pointer in `call` refers to data borrowed for this function: inputs
+        // shared, outputs exclusively (`&mut`), distinct slices; the sinks' buffers live here.
+        let code = unsafe { (self.table.evaluate)(&call) };
+        match Status::from_code(code) {
+            Status::Ok => Ok(warnings),
+            status => Err(CallError {
+                status,
+                message: String::from_utf8_lossy(&message).into_owned(),
+            }),
+        }
+    }
+}
