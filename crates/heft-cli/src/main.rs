@@ -1,1 +1,181 @@
-fn main(){}
+//! `heft`: evaluate secondary-motion graphs from the command line.
+#![forbid(unsafe_code)]
+
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::time::Instant;
+
+use clap::{Args, Parser, Subcommand};
+use heft_runtime::check::{Overrides, Plan};
+use heft_runtime::diag::render;
+use heft_runtime::registry::{Registry, search_path};
+use heft_runtime::{check, eval, output, read_graph};
+
+mod describe;
+
+/// heft evaluates secondary-motion graphs: it loads node plugins, wires them as a graph
+/// file says, evaluates every frame headlessly and writes the results.
+#[derive(Parser, Debug)]
+#[command(name = "heft", version, about, long_about = None)]
+struct Cli {
+    /// A folder to load node plugins from (repeatable; searched before HEFT_PLUGIN_PATH
+    /// and the folder of the heft executable).
+    #[arg(long = "plugins", value_name = "DIR", global = true)]
+    plugins: Vec<PathBuf>,
+
+    /// Print only errors.
+    #[arg(long, short, global = true)]
+    quiet: bool,
+
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Check a graph, evaluate it and write its outputs.
+    Run {
+        #[command(flatten)]
+        graph: GraphArgs,
+        /// Folder for the outputs (created if missing).
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        /// Worker threads (default: one per core). Results do not depend on it.
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+        threads: Option<u16>,
+    },
+    /// Check a graph against the plugins without evaluating it.
+    Check {
+        #[command(flatten)]
+        graph: GraphArgs,
+    },
+    /// List the plugins and node types found, or describe one node type.
+    Nodes {
+        /// A node type `plugin.node` to describe in full.
+        #[arg(value_name = "TYPE")]
+        node_type: Option<String>,
+    },
+}
+
+#[derive(Args, Debug)]
+struct GraphArgs {
+    /// The graph file.
+    #[arg(value_name = "GRAPH")]
+    graph: PathBuf,
+    /// Override a parameter: `node.param=VALUE`, with units (`jump.mass=58 kg`). Repeatable.
+    #[arg(long = "set", value_name = "NODE.PARAM=VALUE")]
+    set: Vec<String>,
+    /// Evaluate these frames instead of the graph's range: `A..B`, inclusive.
+    #[arg(long, value_name = "A..B", value_parser = parse_frames)]
+    frames: Option<(i64, i64)>,
+}
+
+fn parse_frames(s: &str) -> Result<(i64, i64), String> {
+    let (a, b) = s.split_once("..").ok_or("expected A..B, e.g. 1..48")?;
+    let a: i64 = a.trim().parse().map_err(|_| format!("`{a}` is not a whole frame number"))?;
+    let b: i64 = b.trim().parse().map_err(|_| format!("`{b}` is not a whole frame number"))?;
+    if b < a {
+        return Err(format!("the range {a}..{b} ends before it starts"));
+    }
+    Ok((a, b))
+}
+
+/// Exit code for graph, input and evaluation errors (usage errors exit with 2 through clap).
+const FAILED: u8 = 1;
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let color = std::io::stderr().is_terminal();
+    let registry = Registry::discover(&search_path(&cli.plugins));
+    match &cli.command {
+        Command::Nodes { node_type } => describe::nodes(&registry, node_type.as_deref()),
+        Command::Check { graph } => match plan(&registry, graph, color, cli.quiet) {
+            Some(plan) => {
+                if !cli.quiet {
+                    println!(
+                        "{}: ok ({} nodes, {} frames, {} outputs)",
+                        graph.graph.display(),
+                        plan.nodes.len(),
+                        plan.timeline.frame_count,
+                        plan.writes.len()
+                    );
+                }
+                ExitCode::SUCCESS
+            }
+            None => ExitCode::from(FAILED),
+        },
+        Command::Run { graph, out, threads } => {
+            let started = Instant::now();
+            let Some(plan) = plan(&registry, graph, color, cli.quiet) else {
+                return ExitCode::from(FAILED);
+            };
+            run(&plan, &graph.graph, out, threads.map(usize::from), started, cli.quiet)
+        }
+    }
+}
+
+fn warn_failures(registry: &Registry, quiet: bool) {
+    if quiet {
+        return;
+    }
+    for f in registry.failures() {
+        eprintln!("warning: skipped a plugin file: {f}");
+    }
+}
+
+fn plan(registry: &Registry, args: &GraphArgs, color: bool, quiet: bool) -> Option<Plan> {
+    warn_failures(registry, quiet);
+    let (graph, problems) = match read_graph(&args.graph) {
+        Ok(g) => g,
+        Err(e) => {
+            eprintln!("error: cannot read the graph file {}: {e}", args.graph.display());
+            return None;
+        }
+    };
+    let overrides = Overrides {
+        set: args.set.clone(),
+        frames: args.frames,
+    };
+    match check::check(&graph, problems, registry, &overrides) {
+        Ok(plan) => Some(plan),
+        Err(problems) => {
+            eprint!("{}", render(&problems, color));
+            None
+        }
+    }
+}
+
+fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: Instant, quiet: bool) -> ExitCode {
+    let evaluation = match eval::evaluate(plan, threads) {
+        Ok(e) => e,
+        Err(e) => {
+            eprintln!("error: {e}");
+            return ExitCode::from(FAILED);
+        }
+    };
+    if !quiet {
+        for (node, w) in &evaluation.warnings {
+            eprintln!("warning: node `{node}`: {w}");
+        }
+    }
+    match output::write_all(plan, &evaluation, graph, out, started.elapsed()) {
+        Ok(paths) => {
+            if !quiet {
+                println!(
+                    "evaluated {} nodes over {} frames in {:.3} s; wrote {} files to {}",
+                    plan.nodes.len(),
+                    plan.timeline.frame_count,
+                    evaluation.wall.as_secs_f64(),
+                    paths.len(),
+                    out.display()
+                );
+            }
+            ExitCode::SUCCESS
+        }
+        Err(e) => {
+            eprintln!("error: cannot write the outputs: {e}");
+            ExitCode::from(FAILED)
+        }
+    }
+}

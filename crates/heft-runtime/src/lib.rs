@@ -1,1 +1,39 @@
-//! placeholder
+//! The heft runtime: reads graph files, finds and loads node plugins, checks a graph
+//! against them, evaluates it (independent branches in parallel) and writes outputs.
+//!
+//! This crate does all of heft's file I/O; it holds no `unsafe` (the plugin boundary is
+//! `heft-node-sdk`'s).
+#![forbid(unsafe_code)]
+#![warn(missing_docs)]
+
+pub mod diag;
+pub mod graph;
+pub mod units;
+pub mod check;
+pub mod eval;
+pub mod output;
+pub mod registry;
+
+use std::path::Path;
+use std::sync::Arc;
+
+/// Reads and parses a graph file. `Err` only when the file cannot be read; syntax
+/// problems come back with what could be parsed.
+pub fn read_graph(path: &Path) -> Result<(graph::GraphFile, Vec<diag::Problem>), std::io::Error> {
+    let text = std::fs::read_to_string(path)?;
+    let source: Arc<diag::Source> = diag::Source::new(path.display().to_string(), text);
+    Ok(graph::parse(&source))
+}
+
+/// Parses and checks graph text in one step (for tests and tools).
+pub fn plan_text(
+    name: &str,
+    text: &str,
+    registry: &registry::Registry,
+    overrides: &check::Overrides,
+) -> Result<check::Plan, Vec<diag::Problem>> {
+    let source = diag::Source::new(name, text);
+    let (graph, problems) = graph::parse(&source);
+    check::check(&graph, problems, registry, overrides)
+}
+pub mod node_docs;

@@ -1,0 +1,691 @@
+//! Checking a parsed graph against the loaded plugins and turning it into a [`Plan`]:
+//! node types resolved, parameters converted to SI and range-checked, wires type-checked,
+//! cycles refused, output shapes known, evaluation order fixed. Every problem found is
+//! reported, not only the first.
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::sync::Arc;
+
+use heft_node_sdk::host::Plugin;
+use heft_node_sdk::{Dimension, ParamSpec, ParamType, ParamValue, PortKind, Shape, Timeline};
+
+use crate::diag::{Place, Problem, Source, Span};
+use crate::graph::{GraphFile, ParamLine, PortRef, Spanned, UnitText, Value, parse_value};
+use crate::registry::{NodeType, Registry, closest};
+use crate::units;
+
+/// What the command line changes in a graph.
+#[derive(Debug, Clone, Default)]
+pub struct Overrides {
+    /// `node.param=VALUE`, in the order given; later ones win.
+    pub set: Vec<String>,
+    /// `--frames A..B`: replaces the graph's frame range.
+    pub frames: Option<(i64, i64)>,
+}
+
+/// A node instance ready to evaluate.
+#[derive(Debug, Clone)]
+pub struct PlannedNode {
+    /// Instance name.
+    pub name: String,
+    /// Its type.
+    pub ty: NodeType,
+    /// Parameter values in spec order, SI.
+    pub params: Vec<ParamValue>,
+    /// The same, encoded for the plugin boundary.
+    pub params_bytes: Vec<u8>,
+    /// For each input: the (node, output) feeding it, or `None` for an unconnected optional input.
+    pub inputs: Vec<Option<(usize, usize)>>,
+    /// Shape of each output.
+    pub outputs: Vec<Shape>,
+}
+
+/// An output to write.
+#[derive(Debug, Clone)]
+pub struct PlannedWrite {
+    /// Node index.
+    pub node: usize,
+    /// Output index.
+    pub output: usize,
+    /// File stem (without `.csv`).
+    pub stem: String,
+}
+
+/// A checked graph: everything needed to evaluate it.
+#[derive(Debug, Clone)]
+pub struct Plan {
+    /// The graph file.
+    pub source: Arc<Source>,
+    /// The frames to evaluate.
+    pub timeline: Timeline,
+    /// Nodes in declaration order.
+    pub nodes: Vec<PlannedNode>,
+    /// Evaluation levels: every node's inputs come from earlier levels; nodes in one
+    /// level are independent and may run in parallel.
+    pub levels: Vec<Vec<usize>>,
+    /// Outputs to write.
+    pub writes: Vec<PlannedWrite>,
+}
+
+fn si_text(v: f64, d: Dimension) -> String {
+    let s = d.si_symbol();
+    if s.is_empty() { format!("{v}") } else { format!("{v} {s}") }
+}
+
+fn range_text(min: f64, max: f64, d: Dimension) -> String {
+    format!("{} to {}", si_text(min, d), si_text(max, d))
+}
+
+/// Applies a written unit for a parameter of dimension `dim`; returns the factor to SI.
+fn unit_factor(source: &Arc<Source>, unit: &UnitText, dim: Dimension, param: &str, value_span: Span) -> Result<f64, Problem> {
+    match unit {
+        None if dim == Dimension::Dimensionless => Ok(1.0),
+        None => Err(Problem::new(source, value_span, format!("`{param}` is {} and needs a unit", dim.describe()))
+            .label("no unit")
+            .help(format!("write it with one of: {}", units::symbols_for(dim).join(", ")))),
+        Some(u) => match units::lookup(&u.value) {
+            None => Err(Problem::new(source, u.span, format!("unknown unit `{}`", u.value))
+                .label("unknown unit")
+                .help(format!("`{param}` is {}: use one of {}", dim.describe(), units::symbols_for(dim).join(", ")))),
+            Some((d, f)) if d == dim => Ok(f),
+            Some((d, _)) => Err(Problem::new(source, u.span, format!(
+                "`{}` is {}, but `{param}` is {}",
+                u.value,
+                d.describe(),
+                dim.describe()
+            ))
+            .label("wrong dimension")
+            .help(format!("use one of: {}", units::symbols_for(dim).join(", ")))),
+        },
+    }
+}
+
+/// Converts a written value to the parameter's SI value, checking type, unit and range.
+pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -> Result<ParamValue, Problem> {
+    let name = &spec.name;
+    let span = value.span;
+    let mismatch = |want: &str| {
+        Problem::new(source, span, format!("`{name}` takes {want}"))
+            .label(format!("not {want}"))
+            .help(format!("{name}: {}", spec.doc))
+    };
+    match (&spec.ty, &value.value) {
+        (ParamType::Number { dimension, min, max }, Value::Number { value: v, unit, .. }) => {
+            let si = v * unit_factor(source, unit, *dimension, name, span)?;
+            if !(si >= *min && si <= *max) {
+                return Err(Problem::new(source, span, format!(
+                    "`{name}` = {} is out of range",
+                    si_text(si, *dimension)
+                ))
+                .label("out of range")
+                .help(format!("valid range: {}", range_text(*min, *max, *dimension))));
+            }
+            Ok(ParamValue::Number(si))
+        }
+        (ParamType::Number { dimension, .. }, _) => Err(mismatch(&format!("a number ({})", dimension.describe()))),
+        (ParamType::Integer { min, max }, Value::Number { value: v, whole, unit }) => {
+            if let Some(u) = unit {
+                return Err(Problem::new(source, u.span, format!("`{name}` is a count and takes no unit")).label("unexpected unit"));
+            }
+            if !whole || v.abs() > 9.0e15 {
+                return Err(mismatch("a whole number"));
+            }
+            let i = *v as i64;
+            if i < *min || i > *max {
+                return Err(Problem::new(source, span, format!("`{name}` = {i} is out of range"))
+                    .label("out of range")
+                    .help(format!("valid range: {min} to {max}")));
+            }
+            Ok(ParamValue::Integer(i))
+        }
+        (ParamType::Integer { .. }, _) => Err(mismatch("a whole number")),
+        (ParamType::Bool, Value::Word(w)) => match w.as_str() {
+            "true" | "on" | "yes" => Ok(ParamValue::Bool(true)),
+            "false" | "off" | "no" => Ok(ParamValue::Bool(false)),
+            _ => Err(mismatch("`true` or `false`")),
+        },
+        (ParamType::Bool, _) => Err(mismatch("`true` or `false`")),
+        (ParamType::Choice { options }, Value::Word(w)) => {
+            if options.contains(w) {
+                Ok(ParamValue::Choice(w.clone()))
+            } else {
+                let mut p = Problem::new(source, span, format!("`{w}` is not an option of `{name}`"))
+                    .label("unknown option")
+                    .help(format!("options: {}", options.join(", ")));
+                if let Some(c) = closest(w, options.iter().map(String::as_str)) {
+                    p = p.help(format!("did you mean `{c}`? options: {}", options.join(", ")));
+                }
+                Err(p)
+            }
+        }
+        (ParamType::Choice { options }, _) => Err(mismatch(&format!("one of {}", options.join(", ")))),
+        (ParamType::Vec3 { dimension, min, max }, Value::Vector { values, unit }) => {
+            let f = unit_factor(source, unit, *dimension, name, span)?;
+            let si = values.map(|v| v * f);
+            if let Some(bad) = si.iter().find(|v| !(**v >= *min && **v <= *max)) {
+                return Err(Problem::new(source, span, format!(
+                    "`{name}` has a component {} out of range",
+                    si_text(*bad, *dimension)
+                ))
+                .label("out of range")
+                .help(format!("valid range of each component: {}", range_text(*min, *max, *dimension))));
+            }
+            Ok(ParamValue::Vec3(si))
+        }
+        (ParamType::Vec3 { dimension, .. }, _) => Err(mismatch(&format!("a vector `(x, y, z)` ({})", dimension.describe()))),
+        (ParamType::Keys { dimension, .. }, Value::Key { time, time_unit, values, unit }) => {
+            let tf = unit_factor(source, time_unit, Dimension::Time, "the key time", span)?;
+            let f = unit_factor(source, unit, *dimension, name, span)?;
+            Ok(ParamValue::Keys(vec![(time * tf, values.map(|v| v * f))]))
+        }
+        (ParamType::Keys { dimension, .. }, _) => Err(mismatch(&format!(
+            "keys `time: (x, y, z) unit` ({})",
+            dimension.describe()
+        ))),
+    }
+}
+
+/// A parameter line with the source it was written in (the graph or a `--set`).
+struct Written<'a> {
+    source: Arc<Source>,
+    line: &'a ParamLine,
+}
+
+fn parse_overrides(set: &[String], problems: &mut Vec<Problem>) -> Vec<(Arc<Source>, Spanned<String>, ParamLine)> {
+    let mut out = Vec::new();
+    for (i, text) in set.iter().enumerate() {
+        let source = Source::new(format!("--set {}", i + 1), text.clone());
+        let Some(eq) = text.find('=') else {
+            problems.push(Problem::new(&source, Span::new(0, text.len()), "expected `node.param=VALUE`").label("no `=`"));
+            continue;
+        };
+        let target = &text[..eq];
+        let Some(dot) = target.find('.') else {
+            problems.push(Problem::new(&source, Span::new(0, eq), "expected `node.param` before `=`").label("no `.`"));
+            continue;
+        };
+        let node = target[..dot].trim();
+        let param = target[dot + 1..].trim();
+        match parse_value(&source, &text[eq + 1..], eq + 1) {
+            Ok(value) => out.push((
+                Arc::clone(&source),
+                Spanned {
+                    value: node.to_owned(),
+                    span: Span::new(0, dot),
+                },
+                ParamLine {
+                    name: Spanned {
+                        value: param.to_owned(),
+                        span: Span::new(dot + 1, eq),
+                    },
+                    value,
+                },
+            )),
+            Err(p) => problems.push(p),
+        }
+    }
+    out
+}
+
+struct NodeState {
+    ty: Option<NodeType>,
+    params: Vec<ParamValue>,
+    ok: bool,
+}
+
+/// Checks a parsed graph (with the problems its parse found) and builds a plan.
+pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registry, overrides: &Overrides) -> Result<Plan, Vec<Problem>> {
+    let src = &graph.source;
+    let mut problems = parse_problems;
+    let place = |span: Span| Place {
+        source: Arc::clone(src),
+        span,
+    };
+
+    // Timeline.
+    let (rate_num, rate_den) = graph.rate.as_ref().map_or((24, 1), |r| r.value);
+    let (first, last) = overrides.frames.or(graph.frames.as_ref().map(|f| f.value)).unwrap_or((1, 1));
+    let timeline = Timeline {
+        start_frame: first,
+        frame_count: (last - first + 1).max(0) as u64,
+        rate_num,
+        rate_den,
+    };
+
+    // Node names and types.
+    let mut by_name: BTreeMap<&str, usize> = BTreeMap::new();
+    let mut states: Vec<NodeState> = Vec::with_capacity(graph.nodes.len());
+    for (i, decl) in graph.nodes.iter().enumerate() {
+        let mut state = NodeState {
+            ty: None,
+            params: Vec::new(),
+            ok: true,
+        };
+        if let Some(&first) = by_name.get(decl.name.value.as_str()) {
+            problems.push(
+                Problem::new(src, decl.name.span, format!("a node named `{}` is declared twice", decl.name.value))
+                    .label("second declaration")
+                    .also(place(graph.nodes[first].name.span), "first declared here"),
+            );
+            state.ok = false;
+        } else {
+            by_name.insert(&decl.name.value, i);
+        }
+        match registry.lookup(&decl.ty.value) {
+            Ok(Some(t)) => state.ty = Some(t.clone()),
+            Ok(None) => {
+                let mut p = Problem::new(src, decl.ty.span, format!("unknown node type `{}`", decl.ty.value)).label("unknown node type");
+                if let Some(c) = registry.closest(&decl.ty.value) {
+                    p = p.help(format!("did you mean `{c}`?"));
+                } else if registry.failures().is_empty() {
+                    p = p.help("`heft nodes` lists the node types of the loaded plugins");
+                }
+                if !registry.failures().is_empty() {
+                    let why: Vec<String> = registry.failures().iter().map(ToString::to_string).collect();
+                    let prior = p.help.take().map(|h| format!("{h}\n")).unwrap_or_default();
+                    p = p.help(format!("{prior}some plugin files failed to load:\n{}", why.join("\n")));
+                }
+                problems.push(p);
+                state.ok = false;
+            }
+            Err(many) => {
+                let files: Vec<String> = many.iter().map(|t| t.plugin.plugin.origin().display().to_string()).collect();
+                problems.push(
+                    Problem::new(src, decl.ty.span, format!("node type `{}` is offered by more than one plugin", decl.ty.value))
+                        .label("ambiguous")
+                        .help(format!("offered by: {}; remove one from the plugin path", files.join(" and "))),
+                );
+                state.ok = false;
+            }
+        }
+        states.push(state);
+    }
+
+    // Parameters: the graph's lines, then the overrides.
+    let set = parse_overrides(&overrides.set, &mut problems);
+    let mut written: Vec<Vec<Written<'_>>> = graph
+        .nodes
+        .iter()
+        .map(|d| {
+            d.params
+                .iter()
+                .map(|line| Written {
+                    source: Arc::clone(src),
+                    line,
+                })
+                .collect()
+        })
+        .collect();
+    for (source, node, line) in &set {
+        match by_name.get(node.value.as_str()) {
+            Some(&i) => written[i].push(Written {
+                source: Arc::clone(source),
+                line,
+            }),
+            None => {
+                let mut p = Problem::new(source, node.span, format!("no node named `{}` in the graph", node.value)).label("unknown node");
+                if let Some(c) = closest(&node.value, by_name.keys().copied()) {
+                    p = p.help(format!("did you mean `{c}`?"));
+                }
+                problems.push(p);
+            }
+        }
+    }
+    for (i, decl) in graph.nodes.iter().enumerate() {
+        let Some(ty) = states[i].ty.clone() else { continue };
+        let spec = ty.spec();
+        let mut values: Vec<Option<ParamValue>> = vec![None; spec.params.len()];
+        let mut from_graph: Vec<Option<Span>> = vec![None; spec.params.len()];
+        for w in &written[i] {
+            let name = &w.line.name;
+            let Some(k) = spec.params.iter().position(|p| p.name == name.value) else {
+                let mut p = Problem::new(&w.source, name.span, format!("`{}` has no parameter `{}`", decl.ty.value, name.value))
+                    .label("unknown parameter");
+                if let Some(c) = closest(&name.value, spec.params.iter().map(|p| p.name.as_str())) {
+                    p = p.help(format!("did you mean `{c}`?"));
+                } else {
+                    let all: Vec<&str> = spec.params.iter().map(|p| p.name.as_str()).collect();
+                    p = p.help(format!("parameters: {}", all.join(", ")));
+                }
+                problems.push(p);
+                states[i].ok = false;
+                continue;
+            };
+            let is_override = !Arc::ptr_eq(&w.source, src);
+            match convert(&w.source, &w.line.value, &spec.params[k]) {
+                Ok(ParamValue::Keys(mut new)) => {
+                    // Key lines append in the graph; an override replaces the list.
+                    if let (false, Some(ParamValue::Keys(old))) = (is_override, values[k].take()) {
+                        let mut all = old;
+                        if let (Some(prev), Some(next)) = (all.last(), new.first())
+                            && next.0 <= prev.0
+                        {
+                            problems.push(
+                                Problem::new(&w.source, w.line.value.span, "key times must increase from line to line")
+                                    .label(format!("{} s is not after {} s", next.0, prev.0)),
+                            );
+                            states[i].ok = false;
+                        }
+                        all.append(&mut new);
+                        new = all;
+                    }
+                    values[k] = Some(ParamValue::Keys(new));
+                }
+                Ok(v) => {
+                    if let (false, Some(first)) = (is_override, from_graph[k]) {
+                        problems.push(
+                            Problem::new(&w.source, name.span, format!("`{}` is set twice", name.value))
+                                .label("set again")
+                                .also(place(first), "first set here"),
+                        );
+                        states[i].ok = false;
+                    }
+                    if !is_override {
+                        from_graph[k] = Some(name.span);
+                    }
+                    values[k] = Some(v);
+                }
+                Err(p) => {
+                    problems.push(p);
+                    states[i].ok = false;
+                }
+            }
+        }
+        let mut complete = Vec::with_capacity(spec.params.len());
+        for (k, p) in spec.params.iter().enumerate() {
+            match values[k].take().or_else(|| p.default.clone()) {
+                Some(v) => {
+                    if let (ParamType::Keys { min_keys, .. }, ParamValue::Keys(keys)) = (&p.ty, &v)
+                        && keys.len() < *min_keys
+                    {
+                        problems.push(
+                            Problem::new(src, decl.name.span, format!("`{}` needs at least {min_keys} `{}` lines, has {}", decl.name.value, p.name, keys.len()))
+                                .label("too few keys"),
+                        );
+                        states[i].ok = false;
+                    }
+                    complete.push(v);
+                }
+                None => {
+                    problems.push(
+                        Problem::new(src, decl.name.span, format!("`{}` needs a value for `{}`", decl.name.value, p.name))
+                            .label("missing parameter")
+                            .help(format!("add an indented line `{} = ...` under the node: {}", p.name, p.doc)),
+                    );
+                    states[i].ok = false;
+                }
+            }
+        }
+        states[i].params = complete;
+    }
+
+    // Wires.
+    let n = graph.nodes.len();
+    let mut inputs: Vec<Vec<Option<(usize, usize)>>> = states
+        .iter()
+        .map(|s| s.ty.as_ref().map_or_else(Vec::new, |t| vec![None; t.spec().inputs.len()]))
+        .collect();
+    let mut driver_wire: BTreeMap<(usize, usize), usize> = BTreeMap::new();
+    let mut edges: Vec<(usize, usize, usize)> = Vec::new(); // (from node, to node, wire index)
+    let resolve_node = |r: &PortRef, problems: &mut Vec<Problem>| -> Option<usize> {
+        match by_name.get(r.node.value.as_str()) {
+            Some(&i) => Some(i),
+            None => {
+                let mut p = Problem::new(src, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
+                if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
+                    p = p.help(format!("did you mean `{c}`?"));
+                }
+                problems.push(p);
+                None
+            }
+        }
+    };
+    let port_problem = |r: &PortRef, ty: &NodeType, output: bool| {
+        let spec = ty.spec();
+        let (want, other) = if output { (&spec.outputs, &spec.inputs) } else { (&spec.inputs, &spec.outputs) };
+        let side = if output { "output" } else { "input" };
+        let mut p = Problem::new(src, r.port.span, format!("`{}` ({}) has no {side} port `{}`", r.node.value, ty.full_name, r.port.value))
+            .label(format!("unknown {side}"));
+        if other.iter().any(|o| o.name == r.port.value) {
+            let other_side = if output { "an input" } else { "an output" };
+            p = p.help(format!("`{}` is {other_side}; wires run from an output to an input", r.port.value));
+        } else if let Some(c) = closest(&r.port.value, want.iter().map(|o| o.name.as_str())) {
+            p = p.help(format!("did you mean `{c}`?"));
+        } else {
+            let all: Vec<&str> = want.iter().map(|o| o.name.as_str()).collect();
+            p = p.help(format!("{side}s: {}", all.join(", ")));
+        }
+        p
+    };
+    for (w, wire) in graph.wires.iter().enumerate() {
+        let a = resolve_node(&wire.from, &mut problems);
+        let b = resolve_node(&wire.to, &mut problems);
+        let (Some(a), Some(b)) = (a, b) else { continue };
+        let (Some(ta), Some(tb)) = (states[a].ty.clone(), states[b].ty.clone()) else { continue };
+        let out_k = ta.spec().outputs.iter().position(|p| p.name == wire.from.port.value);
+        let in_k = tb.spec().inputs.iter().position(|p| p.name == wire.to.port.value);
+        if out_k.is_none() {
+            problems.push(port_problem(&wire.from, &ta, true));
+        }
+        if in_k.is_none() {
+            problems.push(port_problem(&wire.to, &tb, false));
+        }
+        let (Some(ok), Some(ik)) = (out_k, in_k) else { continue };
+        let (op, ip) = (&ta.spec().outputs[ok], &tb.spec().inputs[ik]);
+        if op.kind != ip.kind {
+            problems.push(
+                Problem::new(src, wire.from.span().to(wire.to.span()), format!(
+                    "`{}` is {} but `{}` takes {}",
+                    wire.from.text(),
+                    op.kind.name(),
+                    wire.to.text(),
+                    ip.kind.name()
+                ))
+                .label("kind mismatch"),
+            );
+            continue;
+        }
+        if let Some(&first) = driver_wire.get(&(b, ik)) {
+            problems.push(
+                Problem::new(src, wire.to.span(), format!("input `{}` is driven twice", wire.to.text()))
+                    .label("second driver")
+                    .also(place(graph.wires[first].to.span()), "first driven here")
+                    .help("an input takes exactly one wire"),
+            );
+            continue;
+        }
+        driver_wire.insert((b, ik), w);
+        inputs[b][ik] = Some((a, ok));
+        edges.push((a, b, w));
+    }
+    for (i, decl) in graph.nodes.iter().enumerate() {
+        let Some(ty) = states[i].ty.clone() else { continue };
+        for (k, port) in ty.spec().inputs.iter().enumerate() {
+            if !port.optional && inputs[i][k].is_none() {
+                problems.push(
+                    Problem::new(src, decl.name.span, format!("input `{}.{}` is not connected", decl.name.value, port.name))
+                        .label("unconnected input")
+                        .help(format!("add a wire `some_node.output -> {}.{}` ({}: {})", decl.name.value, port.name, port.kind.name(), port.doc)),
+                );
+                states[i].ok = false;
+            }
+        }
+    }
+
+    // Order (Kahn); whatever is left over lies on or behind a cycle.
+    let mut indegree = vec![0usize; n];
+    let mut outgoing: Vec<Vec<usize>> = vec![Vec::new(); n];
+    for &(a, b, _) in &edges {
+        indegree[b] += 1;
+        outgoing[a].push(b);
+    }
+    let mut level_of = vec![usize::MAX; n];
+    let mut current: Vec<usize> = (0..n).filter(|&i| indegree[i] == 0).collect();
+    let mut levels: Vec<Vec<usize>> = Vec::new();
+    while !current.is_empty() {
+        let mut next = BTreeSet::new();
+        for &i in &current {
+            level_of[i] = levels.len();
+            for &j in &outgoing[i] {
+                indegree[j] -= 1;
+                if indegree[j] == 0 {
+                    next.insert(j);
+                }
+            }
+        }
+        levels.push(current);
+        current = next.into_iter().collect();
+    }
+    if let Some(start) = (0..n).find(|&i| level_of[i] == usize::MAX && edges.iter().any(|e| e.1 == i)) {
+        // Walk back along unplaced drivers until a node repeats: that is a cycle.
+        let mut path = vec![start];
+        let mut wires_on_path = Vec::new();
+        let mut at = start;
+        loop {
+            let Some(&(a, _, w)) = edges.iter().find(|e| e.1 == at && level_of[e.0] == usize::MAX) else { break };
+            wires_on_path.push(w);
+            if let Some(pos) = path.iter().position(|&p| p == a) {
+                path.drain(..pos);
+                let keep = path.len();
+                wires_on_path.drain(..wires_on_path.len() - keep);
+                break;
+            }
+            path.push(a);
+            at = a;
+        }
+        wires_on_path.reverse();
+        let mut text: Vec<String> = wires_on_path
+            .iter()
+            .map(|&w| format!("{} -> {}", graph.wires[w].from.text(), graph.wires[w].to.text()))
+            .collect();
+        text.dedup();
+        let first = wires_on_path.first().copied().unwrap_or(0);
+        let mut p = Problem::new(src, graph.wires[first].from.span().to(graph.wires[first].to.span()), format!(
+            "the graph has a cycle: {}",
+            text.join(", then ")
+        ))
+        .label("this wire closes a loop")
+        .help("a node cannot depend on its own outputs; remove one of these wires");
+        for &w in wires_on_path.iter().skip(1) {
+            p = p.also(place(graph.wires[w].from.span().to(graph.wires[w].to.span())), "on the cycle");
+        }
+        problems.push(p);
+    }
+
+    // Output shapes, in order.
+    let mut shapes: Vec<Option<Vec<Shape>>> = vec![None; n];
+    let mut params_bytes: Vec<Vec<u8>> = vec![Vec::new(); n];
+    for level in &levels {
+        for &i in level {
+            let (Some(ty), true) = (&states[i].ty, states[i].ok) else { continue };
+            let spec = ty.spec();
+            let mut widths = Vec::with_capacity(spec.inputs.len());
+            let mut inputs_ok = true;
+            for (k, port) in spec.inputs.iter().enumerate() {
+                match inputs[i][k] {
+                    None => widths.push(0),
+                    Some((a, ok)) => match &shapes[a] {
+                        Some(s) => {
+                            let shape = s[ok];
+                            if let (PortKind::Points, Some(need)) = (port.kind, port.points)
+                                && shape.points != need
+                            {
+                                let w = driver_wire[&(i, k)];
+                                problems.push(
+                                    Problem::new(src, graph.wires[w].from.span().to(graph.wires[w].to.span()), format!(
+                                        "`{}` carries {} but `{}` takes points[{need}]",
+                                        graph.wires[w].from.text(),
+                                        shape,
+                                        graph.wires[w].to.text()
+                                    ))
+                                    .label("shape mismatch"),
+                                );
+                                inputs_ok = false;
+                            }
+                            widths.push(shape.width());
+                        }
+                        None => inputs_ok = false,
+                    },
+                }
+            }
+            if !inputs_ok {
+                continue;
+            }
+            let bytes = match Plugin::encode_params(&states[i].params) {
+                Ok(b) => b,
+                Err(e) => {
+                    problems.push(Problem::new(src, graph.nodes[i].name.span, format!("cannot encode the parameters: {e}")));
+                    continue;
+                }
+            };
+            match ty.plugin.plugin.output_points(ty.index, &bytes, timeline, &widths, spec.outputs.len()) {
+                Ok(points) => {
+                    shapes[i] = Some(
+                        spec.outputs
+                            .iter()
+                            .zip(points)
+                            .map(|(o, p)| match o.kind {
+                                PortKind::Points => Shape::points(p),
+                                k => Shape::of(k),
+                            })
+                            .collect(),
+                    );
+                    params_bytes[i] = bytes;
+                }
+                Err(e) => problems.push(
+                    Problem::new(src, graph.nodes[i].name.span, format!("node `{}` cannot size its outputs: {e}", graph.nodes[i].name.value))
+                        .label("this node"),
+                ),
+            }
+        }
+    }
+
+    // Writes.
+    let mut writes = Vec::new();
+    let mut stems: BTreeMap<String, Span> = BTreeMap::new();
+    for wd in &graph.writes {
+        let Some(i) = resolve_node(&wd.port, &mut problems) else { continue };
+        let Some(ty) = &states[i].ty else { continue };
+        let Some(k) = ty.spec().outputs.iter().position(|p| p.name == wd.port.port.value) else {
+            problems.push(port_problem(&wd.port, ty, true));
+            continue;
+        };
+        let stem = wd.name.as_ref().map_or_else(|| wd.port.text(), |s| s.value.clone());
+        let stem_span = wd.name.as_ref().map_or(wd.port.span(), |s| s.span);
+        if let Some(first) = stems.get(&stem) {
+            problems.push(
+                Problem::new(src, stem_span, format!("two outputs would be written to `{stem}.csv`"))
+                    .label("same file")
+                    .also(place(*first), "first written here")
+                    .help("give one of them another name with `as NAME`"),
+            );
+            continue;
+        }
+        stems.insert(stem.clone(), stem_span);
+        writes.push(PlannedWrite { node: i, output: k, stem });
+    }
+
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    let nodes = states
+        .into_iter()
+        .zip(&graph.nodes)
+        .enumerate()
+        .map(|(i, (s, d))| PlannedNode {
+            name: d.name.value.clone(),
+            ty: s.ty.clone().expect("checked: every node has a type"),
+            params: s.params,
+            params_bytes: std::mem::take(&mut params_bytes[i]),
+            inputs: std::mem::take(&mut inputs[i]),
+            outputs: shapes[i].take().expect("checked: every node has shapes"),
+        })
+        .collect();
+    Ok(Plan {
+        source: Arc::clone(src),
+        timeline,
+        nodes,
+        levels,
+        writes,
+    })
+}

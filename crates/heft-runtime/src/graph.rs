@@ -1,0 +1,690 @@
+//! The graph language: a line-oriented text format of heft's own.
+//!
+//! ```text
+//! # comments run from `#` to the end of the line
+//! format 1                          # format version, first
+//! rate 24 fps                       # or a ratio: 24000/1001 fps
+//! frames 1..96                      # inclusive frame range
+//!
+//! toss = trajectory.ballistic       # a node instance: name = plugin.node
+//!     launch_velocity = (0.4, 0, 3.1) m/s     # indented lines are its parameters
+//!     launch_time = 0.5 s
+//!
+//! toss.position -> follow.target    # a wire from an output port to an input port
+//! write toss.position               # an output: out/toss.position.csv
+//! write toss.velocity as toss_speed # ... or out/toss_speed.csv
+//! ```
+//!
+//! Parsing only checks the shape of each line; what the names mean is checked against the
+//! loaded plugins by [`crate::check`].
+
+use std::sync::Arc;
+
+use crate::diag::{Problem, Source, Span};
+
+/// The graph format version this heft reads.
+pub const FORMAT_VERSION: u32 = 1;
+
+/// Words that start a statement and cannot name a node.
+pub const KEYWORDS: &[&str] = &["format", "rate", "frames", "write", "as"];
+
+/// A value with its place in the source.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Spanned<T> {
+    /// The value.
+    pub value: T,
+    /// Where it is written.
+    pub span: Span,
+}
+
+/// A unit symbol as written, with its place.
+pub type UnitText = Option<Spanned<String>>;
+
+/// A parameter value as written (units not yet applied).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Value {
+    /// `1.02 m`, `12`, `-3e-2 s`.
+    Number {
+        /// The number.
+        value: f64,
+        /// True when written without a fraction or exponent.
+        whole: bool,
+        /// The unit as written.
+        unit: UnitText,
+    },
+    /// `(0, 0, 1.02) m`.
+    Vector {
+        /// Components.
+        values: [f64; 3],
+        /// The unit as written, applying to every component.
+        unit: UnitText,
+    },
+    /// A bare word: `true`, `ring`.
+    Word(String),
+    /// A keyframe `0.4 s: (0, 0, 1.02) m`.
+    Key {
+        /// Time.
+        time: f64,
+        /// Unit of the time.
+        time_unit: UnitText,
+        /// Value vector.
+        values: [f64; 3],
+        /// Unit of the vector.
+        unit: UnitText,
+    },
+}
+
+/// `name = value` under a node.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ParamLine {
+    /// Parameter name.
+    pub name: Spanned<String>,
+    /// Its value.
+    pub value: Spanned<Value>,
+}
+
+/// `name = plugin.node` and its parameter lines.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NodeDecl {
+    /// Instance name.
+    pub name: Spanned<String>,
+    /// Node type `plugin.node`.
+    pub ty: Spanned<String>,
+    /// Parameter lines in order.
+    pub params: Vec<ParamLine>,
+}
+
+/// `node.port`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PortRef {
+    /// Node instance name.
+    pub node: Spanned<String>,
+    /// Port name.
+    pub port: Spanned<String>,
+}
+
+impl PortRef {
+    /// The whole `node.port` span.
+    pub fn span(&self) -> Span {
+        self.node.span.to(self.port.span)
+    }
+    /// `node.port`.
+    pub fn text(&self) -> String {
+        format!("{}.{}", self.node.value, self.port.value)
+    }
+}
+
+/// `a.out -> b.in`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Wire {
+    /// The output port.
+    pub from: PortRef,
+    /// The input port.
+    pub to: PortRef,
+}
+
+/// `write node.port [as name]`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WriteDecl {
+    /// The output port to write.
+    pub port: PortRef,
+    /// File stem, if given.
+    pub name: Option<Spanned<String>>,
+    /// The whole statement.
+    pub span: Span,
+}
+
+/// A parsed graph file.
+#[derive(Debug, Clone)]
+pub struct GraphFile {
+    /// The text it came from.
+    pub source: Arc<Source>,
+    /// `format N`.
+    pub format: Option<Spanned<u32>>,
+    /// `rate N fps` or `rate N/D fps`, as (numerator, denominator).
+    pub rate: Option<Spanned<(u32, u32)>>,
+    /// `frames A..B`, inclusive.
+    pub frames: Option<Spanned<(i64, i64)>>,
+    /// Node instances.
+    pub nodes: Vec<NodeDecl>,
+    /// Wires.
+    pub wires: Vec<Wire>,
+    /// Outputs to write.
+    pub writes: Vec<WriteDecl>,
+}
+
+/// A cursor over one line; offsets are bytes into the whole source.
+struct Line<'a> {
+    text: &'a str,
+    base: usize,
+    pos: usize,
+}
+
+impl<'a> Line<'a> {
+    fn new(text: &'a str, base: usize) -> Line<'a> {
+        Line { text, base, pos: 0 }
+    }
+    fn rest(&self) -> &'a str {
+        &self.text[self.pos..]
+    }
+    fn at(&self) -> usize {
+        self.base + self.pos
+    }
+    fn span_from(&self, start: usize) -> Span {
+        Span::new(start, self.at())
+    }
+    fn skip_ws(&mut self) {
+        let trimmed = self.rest().trim_start();
+        self.pos = self.text.len() - trimmed.len();
+    }
+    fn done(&mut self) -> bool {
+        self.skip_ws();
+        self.pos >= self.text.len()
+    }
+    fn peek(&self) -> Option<char> {
+        self.rest().chars().next()
+    }
+    fn eat(&mut self, s: &str) -> bool {
+        self.skip_ws();
+        if self.rest().starts_with(s) {
+            self.pos += s.len();
+            true
+        } else {
+            false
+        }
+    }
+    fn ident(&mut self) -> Option<Spanned<String>> {
+        self.skip_ws();
+        let start = self.at();
+        let rest = self.rest();
+        let mut chars = rest.char_indices();
+        match chars.next() {
+            Some((_, c)) if c.is_ascii_alphabetic() || c == '_' => {}
+            _ => return None,
+        }
+        let end = chars
+            .find(|(_, c)| !(c.is_ascii_alphanumeric() || *c == '_' || *c == '-'))
+            .map_or(rest.len(), |(i, _)| i);
+        self.pos += end;
+        Some(Spanned {
+            value: rest[..end].to_owned(),
+            span: self.span_from(start),
+        })
+    }
+    /// A number in the usual decimal syntax; returns the value and whether it is whole.
+    fn number(&mut self) -> Option<Spanned<(f64, bool)>> {
+        self.skip_ws();
+        let start = self.at();
+        let rest = self.rest();
+        let b = rest.as_bytes();
+        let mut i = 0;
+        if i < b.len() && (b[i] == b'-' || b[i] == b'+') {
+            i += 1;
+        }
+        let digits_start = i;
+        while i < b.len() && b[i].is_ascii_digit() {
+            i += 1;
+        }
+        let mut whole = true;
+        // A fraction, but not the `..` of a range.
+        if i < b.len() && b[i] == b'.' && !(i + 1 < b.len() && b[i + 1] == b'.') {
+            whole = false;
+            i += 1;
+            while i < b.len() && b[i].is_ascii_digit() {
+                i += 1;
+            }
+        }
+        if i == digits_start || (i == digits_start + 1 && !whole) {
+            return None;
+        }
+        if i < b.len() && (b[i] == b'e' || b[i] == b'E') {
+            let mut j = i + 1;
+            if j < b.len() && (b[j] == b'-' || b[j] == b'+') {
+                j += 1;
+            }
+            if j < b.len() && b[j].is_ascii_digit() {
+                while j < b.len() && b[j].is_ascii_digit() {
+                    j += 1;
+                }
+                whole = false;
+                i = j;
+            }
+        }
+        let value: f64 = rest[..i].parse().ok()?;
+        self.pos += i;
+        Some(Spanned {
+            value: (value, whole),
+            span: self.span_from(start),
+        })
+    }
+    /// The rest of the line up to `stop` (exclusive), trimmed, as a unit symbol.
+    fn unit_until(&mut self, stop: Option<char>) -> UnitText {
+        self.skip_ws();
+        let rest = self.rest();
+        let end = stop.and_then(|c| rest.find(c)).unwrap_or(rest.len());
+        let text = rest[..end].trim_end();
+        let start = self.at();
+        self.pos += end;
+        if text.is_empty() {
+            None
+        } else {
+            Some(Spanned {
+                value: text.to_owned(),
+                span: Span::new(start, start + text.len()),
+            })
+        }
+    }
+}
+
+fn problem(source: &Arc<Source>, span: Span, msg: impl Into<String>) -> Problem {
+    Problem::new(source, span, msg)
+}
+
+fn valid_unit(source: &Arc<Source>, unit: &UnitText) -> Result<(), Problem> {
+    if let Some(u) = unit
+        && !u
+            .value
+            .chars()
+            .all(|c| c.is_ascii_alphanumeric() || " /^*%·".contains(c))
+    {
+        return Err(problem(source, u.span, format!("`{}` is not a unit", u.value))
+            .label("not a unit")
+            .help("write a number and a unit, e.g. `28 cm`, `(0, 0, 1) m`, `3.1 m/s`"));
+    }
+    Ok(())
+}
+
+fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<[f64; 3], Problem> {
+    let open = line.at();
+    if !line.eat("(") {
+        return Err(problem(source, Span::new(open, open + 1), "expected `(` to start a vector"));
+    }
+    let mut values = [0.0; 3];
+    for (k, v) in values.iter_mut().enumerate() {
+        if k > 0 && !line.eat(",") {
+            line.skip_ws();
+            let at = line.at();
+            return Err(problem(source, Span::new(at, at + 1), "expected `,` between vector components")
+                .label("expected `,`")
+                .help("a vector has three components: `(x, y, z) unit`"));
+        }
+        match line.number() {
+            Some(n) => *v = n.value.0,
+            None => {
+                line.skip_ws();
+                let at = line.at();
+                return Err(problem(source, Span::new(at, at + 1), "expected a number in the vector")
+                    .label("expected a number")
+                    .help("a vector has three components: `(x, y, z) unit`"));
+            }
+        }
+    }
+    if !line.eat(")") {
+        line.skip_ws();
+        let at = line.at();
+        return Err(problem(source, Span::new(at, at + 1), "expected `)` after three components")
+            .label("expected `)`")
+            .help("a vector has three components: `(x, y, z) unit`"));
+    }
+    Ok(values)
+}
+
+/// Parses a parameter value such as `28 cm`, `(0, 0, 1) m`, `ring` or `0.4 s: (0, 0, 1) m`.
+/// `line` is the text of the value, starting at byte `base` of `source`.
+pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Spanned<Value>, Problem> {
+    let mut line = Line::new(text, base);
+    line.skip_ws();
+    let start = line.at();
+    let value = match line.peek() {
+        None => return Err(problem(source, Span::new(start, start + 1), "expected a value after `=`")),
+        Some('(') => {
+            let values = vector(&mut line, source)?;
+            let unit = line.unit_until(None);
+            valid_unit(source, &unit)?;
+            Value::Vector { values, unit }
+        }
+        Some(c) if c.is_ascii_digit() || c == '-' || c == '+' || c == '.' => {
+            let n = line
+                .number()
+                .ok_or_else(|| problem(source, Span::new(start, start + 1), "expected a number"))?;
+            let unit = line.unit_until(Some(':'));
+            if line.eat(":") {
+                valid_unit(source, &unit)?;
+                let values = vector(&mut line, source)?;
+                let vunit = line.unit_until(None);
+                valid_unit(source, &vunit)?;
+                Value::Key {
+                    time: n.value.0,
+                    time_unit: unit,
+                    values,
+                    unit: vunit,
+                }
+            } else {
+                valid_unit(source, &unit)?;
+                Value::Number {
+                    value: n.value.0,
+                    whole: n.value.1,
+                    unit,
+                }
+            }
+        }
+        Some(_) => {
+            let w = line.ident().ok_or_else(|| {
+                problem(source, Span::new(start, start + 1), "expected a number, a vector `(x, y, z)` or a word")
+            })?;
+            if !line.done() {
+                let at = line.at();
+                return Err(problem(source, Span::new(at, base + text.len()), "unexpected text after the value"));
+            }
+            Value::Word(w.value)
+        }
+    };
+    let end = base + text.trim_end().len();
+    Ok(Spanned {
+        value,
+        span: Span::new(start, end),
+    })
+}
+
+fn port_ref(line: &mut Line<'_>, source: &Arc<Source>, what: &str) -> Result<PortRef, Problem> {
+    line.skip_ws();
+    let at = line.at();
+    let node = line.ident();
+    let dot = line.rest().starts_with('.');
+    if dot {
+        line.pos += 1;
+    }
+    let port = if dot { line.ident() } else { None };
+    match (node, port) {
+        (Some(node), Some(port)) => Ok(PortRef { node, port }),
+        _ => Err(problem(source, Span::new(at, at.max(line.at()) + 1), format!("expected {what} as `node.port`"))
+            .label("expected `node.port`")),
+    }
+}
+
+fn statement(
+    source: &Arc<Source>,
+    line: &mut Line<'_>,
+    graph: &mut GraphFile,
+    current: &mut Option<NodeDecl>,
+) -> Result<(), Problem> {
+    let start = line.at();
+    let Some(word) = line.ident() else {
+        return Err(problem(source, Span::new(start, start + 1), "expected a statement")
+            .label("not a statement")
+            .help("statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in` and `write node.port`"));
+    };
+    let end_check = |line: &mut Line<'_>| -> Result<(), Problem> {
+        if line.done() {
+            Ok(())
+        } else {
+            let at = line.at();
+            Err(problem(source, Span::new(at, line.base + line.text.len()), "unexpected text at the end of the line")
+                .label("unexpected"))
+        }
+    };
+    match word.value.as_str() {
+        "format" => {
+            let n = line.number().filter(|n| n.value.1 && n.value.0 >= 0.0).ok_or_else(|| {
+                problem(source, line.span_from(start), "expected a format version number: `format 1`")
+            })?;
+            end_check(line)?;
+            if graph.format.is_some() {
+                return Err(problem(source, word.span, "the format version is given twice"));
+            }
+            graph.format = Some(Spanned {
+                value: n.value.0 as u32,
+                span: n.span,
+            });
+        }
+        "rate" => {
+            let num = line.number();
+            let mut den = None;
+            if line.eat("/") {
+                den = line.number();
+            }
+            let unit = line.unit_until(None);
+            let ok_int = |n: &Spanned<(f64, bool)>| n.value.1 && n.value.0 >= 1.0 && n.value.0 <= f64::from(u32::MAX);
+            let span = line.span_from(start);
+            let (Some(num), true) = (num, unit.as_ref().is_some_and(|u| u.value == "fps")) else {
+                return Err(problem(source, span, "expected a frame rate such as `rate 24 fps` or `rate 24000/1001 fps`")
+                    .label("not a frame rate"));
+            };
+            if !ok_int(&num) || den.as_ref().is_some_and(|d| !ok_int(d)) {
+                return Err(problem(source, span, "a frame rate is a whole number of frames per second or a ratio of whole numbers")
+                    .help("for 23.976 fps write `rate 24000/1001 fps`"));
+            }
+            if graph.rate.is_some() {
+                return Err(problem(source, word.span, "the frame rate is given twice"));
+            }
+            graph.rate = Some(Spanned {
+                value: (num.value.0 as u32, den.map_or(1, |d| d.value.0 as u32)),
+                span,
+            });
+        }
+        "frames" => {
+            let a = line.number();
+            let dots = line.eat("..");
+            let b = line.number();
+            let span = line.span_from(start);
+            let (Some(a), true, Some(b)) = (a, dots, b) else {
+                return Err(problem(source, span, "expected a frame range such as `frames 1..96`"));
+            };
+            end_check(line)?;
+            if !a.value.1 || !b.value.1 {
+                return Err(problem(source, span, "frame numbers are whole numbers"));
+            }
+            if b.value.0 < a.value.0 {
+                return Err(problem(source, span, "the frame range ends before it starts")
+                    .help("write the first frame, then the last: `frames 1..96`"));
+            }
+            if graph.frames.is_some() {
+                return Err(problem(source, word.span, "the frame range is given twice"));
+            }
+            graph.frames = Some(Spanned {
+                value: (a.value.0 as i64, b.value.0 as i64),
+                span,
+            });
+        }
+        "write" => {
+            let port = port_ref(line, source, "the output to write")?;
+            let mut name = None;
+            if !line.done() {
+                let at = line.at();
+                match line.ident() {
+                    Some(w) if w.value == "as" => {
+                        name = Some(line.ident().ok_or_else(|| {
+                            problem(source, line.span_from(at), "expected a file name after `as`")
+                        })?);
+                    }
+                    _ => {
+                        return Err(problem(source, Span::new(at, line.base + line.text.len()), "expected `as NAME` or the end of the line"));
+                    }
+                }
+            }
+            end_check(line)?;
+            graph.writes.push(WriteDecl {
+                port,
+                name,
+                span: line.span_from(start),
+            });
+        }
+        _ => {
+            if line.rest().starts_with('.') {
+                // A wire: node.port -> node.port
+                line.pos = start - line.base;
+                let from = port_ref(line, source, "an output port")?;
+                if !line.eat("->") {
+                    let at = line.at();
+                    return Err(problem(source, Span::new(at, at + 1), "expected `->` after the output port")
+                        .help("a wire reads `from_node.output -> to_node.input`"));
+                }
+                let to = port_ref(line, source, "an input port")?;
+                end_check(line)?;
+                graph.wires.push(Wire { from, to });
+            } else if line.eat("=") {
+                let ty_start = {
+                    line.skip_ws();
+                    line.at()
+                };
+                let plugin = line.ident();
+                let dot = line.rest().starts_with('.');
+                if dot {
+                    line.pos += 1;
+                }
+                let node = if dot { line.ident() } else { None };
+                let (Some(_), Some(_)) = (plugin, node) else {
+                    return Err(problem(source, line.span_from(ty_start).to(Span::new(ty_start, ty_start + 1)), "expected a node type as `plugin.node`")
+                        .label("expected `plugin.node`"));
+                };
+                let ty = Spanned {
+                    value: line.text[ty_start - line.base..line.pos].to_owned(),
+                    span: line.span_from(ty_start),
+                };
+                end_check(line)?;
+                if KEYWORDS.contains(&word.value.as_str()) {
+                    return Err(problem(source, word.span, format!("`{}` is a keyword and cannot name a node", word.value)));
+                }
+                *current = Some(NodeDecl {
+                    name: word,
+                    ty,
+                    params: Vec::new(),
+                });
+            } else {
+                return Err(problem(source, word.span, format!("unknown statement `{}`", word.value))
+                    .label("not a statement")
+                    .help("statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in` and `write node.port`"));
+            }
+        }
+    }
+    Ok(())
+}
+
+/// Parses a graph file. Returns what could be read and every problem found.
+pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
+    let mut graph = GraphFile {
+        source: Arc::clone(source),
+        format: None,
+        rate: None,
+        frames: None,
+        nodes: Vec::new(),
+        wires: Vec::new(),
+        writes: Vec::new(),
+    };
+    let mut problems = Vec::new();
+    let mut current: Option<NodeDecl> = None;
+    let mut offset = 0;
+    for raw in source.text.split_inclusive('\n') {
+        let base = offset;
+        offset += raw.len();
+        let text = raw.trim_end_matches(['\n', '\r']);
+        let text = match text.find('#') {
+            Some(i) => &text[..i],
+            None => text,
+        };
+        if text.trim().is_empty() {
+            continue;
+        }
+        let indented = text.starts_with([' ', '\t']);
+        if indented {
+            let mut line = Line::new(text, base);
+            let Some(node) = current.as_mut() else {
+                line.skip_ws();
+                problems.push(
+                    problem(source, Span::new(line.at(), base + text.len()), "an indented parameter line outside a node")
+                        .help("parameter lines follow a node line `name = plugin.node`; other statements start at the beginning of the line"),
+                );
+                continue;
+            };
+            let Some(name) = line.ident() else {
+                line.skip_ws();
+                let at = line.at();
+                problems.push(problem(source, Span::new(at, at + 1), "expected a parameter name").label("expected `name = value`"));
+                continue;
+            };
+            if !line.eat("=") {
+                let at = line.at();
+                problems.push(
+                    problem(source, Span::new(at, at + 1), format!("expected `=` after the parameter name `{}`", name.value))
+                        .label("expected `=`"),
+                );
+                continue;
+            }
+            let value_base = line.at();
+            match parse_value(source, line.rest(), value_base) {
+                Ok(value) => node.params.push(ParamLine { name, value }),
+                Err(p) => problems.push(p),
+            }
+            continue;
+        }
+        if let Some(done) = current.take() {
+            graph.nodes.push(done);
+        }
+        let mut line = Line::new(text, base);
+        if let Err(p) = statement(source, &mut line, &mut graph, &mut current) {
+            problems.push(p);
+        }
+    }
+    if let Some(done) = current.take() {
+        graph.nodes.push(done);
+    }
+    let end = Span::new(0, 0);
+    if graph.format.is_none() {
+        problems.push(
+            problem(source, end, format!("the graph does not say its format version"))
+                .help(format!("start the file with `format {FORMAT_VERSION}`")),
+        );
+    } else if let Some(f) = &graph.format
+        && f.value != FORMAT_VERSION
+    {
+        problems.push(
+            problem(source, f.span, format!("format {} is not known to this heft (it reads format {FORMAT_VERSION})", f.value))
+                .label("unknown format"),
+        );
+    }
+    if graph.rate.is_none() {
+        problems.push(problem(source, end, "the graph has no frame rate").help("add a line such as `rate 24 fps`"));
+    }
+    if graph.frames.is_none() {
+        problems.push(problem(source, end, "the graph has no frame range").help("add a line such as `frames 1..96`"));
+    }
+    (graph, problems)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse_ok(text: &str) -> GraphFile {
+        let src = Source::new("t.graph", text);
+        let (g, p) = parse(&src);
+        assert!(p.is_empty(), "{p:?}");
+        g
+    }
+
+    #[test]
+    fn reads_every_statement() {
+        let g = parse_ok(
+            "format 1\nrate 24000/1001 fps # film\nframes -5..96\n\na = trajectory.ballistic\n  launch_time = 0.5 s\n  launch_velocity = (1, -2.5e-1, 3) m/s\n  k = 0.1 s: (0, 0, 1) m\n  mode = ring\n\na.position -> b.target\nwrite a.position\nwrite a.velocity as speed\n",
+        );
+        assert_eq!(g.rate.map(|r| r.value), Some((24000, 1001)));
+        assert_eq!(g.frames.map(|r| r.value), Some((-5, 96)));
+        assert_eq!(g.nodes.len(), 1);
+        let n = &g.nodes[0];
+        assert_eq!(n.ty.value, "trajectory.ballistic");
+        assert_eq!(n.params.len(), 4);
+        assert!(matches!(&n.params[1].value.value, Value::Vector { values, unit: Some(u) } if values == &[1.0, -0.25, 3.0] && u.value == "m/s"));
+        assert!(matches!(&n.params[2].value.value, Value::Key { time, .. } if *time == 0.1));
+        assert!(matches!(&n.params[3].value.value, Value::Word(w) if w == "ring"));
+        assert_eq!(g.wires.len(), 1);
+        assert_eq!(g.writes[1].name.as_ref().map(|n| n.value.as_str()), Some("speed"));
+    }
+
+    #[test]
+    fn reports_every_bad_line_with_its_column() {
+        let src = Source::new("t.graph", "format 1\nrate 24 fps\nframes 1..10\nbogus line\na = x.y\n  v = (1, 2 m\nb.c -> \n");
+        let (_, p) = parse(&src);
+        let at: Vec<String> = p.iter().map(|p| p.location()).collect();
+        assert_eq!(at, vec!["t.graph:4:1", "t.graph:6:13", "t.graph:7:8"], "{p:?}");
+    }
+}

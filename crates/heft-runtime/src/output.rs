@@ -1,0 +1,215 @@
+//! Writing results: one CSV per output and a JSON run summary, each written to a temporary
+//! file in the output folder and renamed into place, so a failed run leaves no half-written
+//! or mismatched files.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::Duration;
+
+use heft_node_sdk::{Dimension, PortKind, Shape};
+use serde::Serialize;
+
+use crate::check::Plan;
+use crate::eval::Evaluation;
+
+/// Column names of a port, with units: `position.x [m]`, `hips.qw`, `tips.p3.z [m]`.
+pub fn columns(port: &str, shape: Shape, dimension: Dimension) -> Vec<String> {
+    let unit = match dimension.si_symbol() {
+        "" => String::new(),
+        s => format!(" [{s}]"),
+    };
+    match shape.kind {
+        PortKind::Scalar => vec![format!("{port}{unit}")],
+        PortKind::Flag => vec![format!("{port} [on/off]")],
+        PortKind::Vec3 => ["x", "y", "z"].iter().map(|a| format!("{port}.{a}{unit}")).collect(),
+        PortKind::Transform => ["tx", "ty", "tz"]
+            .iter()
+            .map(|a| format!("{port}.{a}{unit}"))
+            .chain(["qx", "qy", "qz", "qw"].iter().map(|a| format!("{port}.{a}")))
+            .collect(),
+        PortKind::Points => (0..shape.points)
+            .flat_map(|p| {
+                let unit = unit.clone();
+                ["x", "y", "z"].into_iter().map(move |a| format!("{port}.p{p}.{a}{unit}"))
+            })
+            .collect(),
+    }
+}
+
+/// Why outputs could not be written.
+#[derive(Debug)]
+pub struct WriteError {
+    /// The file (or folder) involved.
+    pub path: PathBuf,
+    /// What failed.
+    pub reason: String,
+}
+
+impl std::fmt::Display for WriteError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {}", self.path.display(), self.reason)
+    }
+}
+
+impl std::error::Error for WriteError {}
+
+fn werr(path: &Path, e: impl std::fmt::Display) -> WriteError {
+    WriteError {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+    }
+}
+
+/// The CSV text of one output.
+pub fn csv_text(plan: &Plan, eval: &Evaluation, node: usize, output: usize) -> Result<Vec<u8>, String> {
+    let pn = &plan.nodes[node];
+    let port = &pn.ty.spec().outputs[output];
+    let shape = pn.outputs[output];
+    let values = &eval.values[node][output];
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut header = vec!["frame".to_owned(), "time [s]".to_owned()];
+    header.extend(columns(&port.name, shape, port.dimension));
+    w.write_record(&header).map_err(|e| e.to_string())?;
+    let width = shape.width();
+    let mut row: Vec<String> = Vec::with_capacity(width + 2);
+    for i in 0..plan.timeline.frames() {
+        row.clear();
+        row.push(plan.timeline.frame_number(i).to_string());
+        row.push(format!("{}", plan.timeline.time(i)));
+        row.extend(values[i * width..(i + 1) * width].iter().map(|v| format!("{v}")));
+        w.write_record(&row).map_err(|e| e.to_string())?;
+    }
+    w.into_inner().map_err(|e| e.to_string())
+}
+
+#[derive(Serialize)]
+struct PluginEntry {
+    name: String,
+    version: String,
+    file: String,
+    sha256: String,
+}
+
+#[derive(Serialize)]
+struct NodeEntry {
+    name: String,
+    #[serde(rename = "type")]
+    ty: String,
+    seconds: f64,
+}
+
+#[derive(Serialize)]
+struct OutputEntry {
+    file: String,
+    node: String,
+    port: String,
+    kind: String,
+    columns: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct TimelineEntry {
+    first_frame: i64,
+    last_frame: i64,
+    frame_count: u64,
+    rate: String,
+    fps: f64,
+}
+
+#[derive(Serialize)]
+struct Summary {
+    heft_version: &'static str,
+    graph: String,
+    timeline: TimelineEntry,
+    plugins: Vec<PluginEntry>,
+    nodes: Vec<NodeEntry>,
+    outputs: Vec<OutputEntry>,
+    warnings: Vec<String>,
+    evaluation_seconds: f64,
+    wall_seconds: f64,
+}
+
+/// The file name of the run summary in the output folder.
+pub const SUMMARY_FILE: &str = "run.json";
+
+/// Writes every planned output and the run summary into `dir` (created if missing).
+/// Either every file is replaced or none is. Returns the paths written.
+pub fn write_all(plan: &Plan, eval: &Evaluation, graph_path: &Path, dir: &Path, wall: Duration) -> Result<Vec<PathBuf>, WriteError> {
+    std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the output folder: {e}")))?;
+    let mut staged: Vec<(tempfile::NamedTempFile, PathBuf)> = Vec::new();
+    let mut stage = |bytes: &[u8], path: PathBuf| -> Result<(), WriteError> {
+        let mut tmp = tempfile::Builder::new()
+            .prefix(".heft-")
+            .suffix(".partial")
+            .tempfile_in(dir)
+            .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
+        tmp.write_all(bytes).map_err(|e| werr(&path, e))?;
+        tmp.as_file().sync_all().map_err(|e| werr(&path, e))?;
+        staged.push((tmp, path));
+        Ok(())
+    };
+    let mut outputs = Vec::new();
+    for w in &plan.writes {
+        let path = dir.join(format!("{}.csv", w.stem));
+        let text = csv_text(plan, eval, w.node, w.output).map_err(|e| werr(&path, e))?;
+        stage(&text, path.clone())?;
+        let pn = &plan.nodes[w.node];
+        let port = &pn.ty.spec().outputs[w.output];
+        outputs.push(OutputEntry {
+            file: format!("{}.csv", w.stem),
+            node: pn.name.clone(),
+            port: port.name.clone(),
+            kind: pn.outputs[w.output].to_string(),
+            columns: columns(&port.name, pn.outputs[w.output], port.dimension),
+        });
+    }
+    let mut plugins: Vec<PluginEntry> = Vec::new();
+    for n in &plan.nodes {
+        let p = &n.ty.plugin;
+        let file = p.plugin.origin().display().to_string();
+        if !plugins.iter().any(|e| e.file == file) {
+            plugins.push(PluginEntry {
+                name: p.plugin.descriptor().name.clone(),
+                version: p.plugin.descriptor().version.clone(),
+                file,
+                sha256: p.sha256.clone(),
+            });
+        }
+    }
+    let tl = plan.timeline;
+    let summary = Summary {
+        heft_version: env!("CARGO_PKG_VERSION"),
+        graph: graph_path.display().to_string(),
+        timeline: TimelineEntry {
+            first_frame: tl.start_frame,
+            last_frame: tl.start_frame + tl.frame_count as i64 - 1,
+            frame_count: tl.frame_count,
+            rate: format!("{}/{}", tl.rate_num, tl.rate_den),
+            fps: tl.fps(),
+        },
+        plugins,
+        nodes: plan
+            .nodes
+            .iter()
+            .zip(&eval.node_time)
+            .map(|(n, t)| NodeEntry {
+                name: n.name.clone(),
+                ty: n.ty.full_name.clone(),
+                seconds: t.as_secs_f64(),
+            })
+            .collect(),
+        outputs,
+        warnings: eval.warnings.iter().map(|(n, w)| format!("{n}: {w}")).collect(),
+        evaluation_seconds: eval.wall.as_secs_f64(),
+        wall_seconds: wall.as_secs_f64(),
+    };
+    let summary_path = dir.join(SUMMARY_FILE);
+    let json = serde_json::to_vec_pretty(&summary).map_err(|e| werr(&summary_path, e))?;
+    stage(&json, summary_path)?;
+    let mut written = Vec::new();
+    for (tmp, path) in staged {
+        tmp.persist(&path).map_err(|e| werr(&path, e.error))?;
+        written.push(path);
+    }
+    Ok(written)
+}

@@ -1,0 +1,177 @@
+//! Finding and loading plugins, and looking node types up by `plugin.node`.
+//!
+//! Search order: the `--plugins` folders in the order given, the `HEFT_PLUGIN_PATH` list,
+//! then the folder of the running `heft` executable. Every file with the platform's
+//! shared-library extension in those folders (not below them) is tried. A file that is
+//! not a loadable heft plugin is reported and skipped, so one stray library does not stop
+//! a run that does not need it.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+use heft_node_sdk::NodeSpec;
+use heft_node_sdk::abi::PluginTable;
+use heft_node_sdk::host::{LoadError, Plugin};
+use sha2::{Digest, Sha256};
+
+/// The environment variable holding extra plugin folders (`:`-separated on Unix).
+pub const PLUGIN_PATH_VAR: &str = "HEFT_PLUGIN_PATH";
+
+/// A loaded plugin and where it came from.
+#[derive(Debug)]
+pub struct LoadedPlugin {
+    /// The loaded library.
+    pub plugin: Plugin,
+    /// SHA-256 of the library file, hex (empty for a statically linked plugin).
+    pub sha256: String,
+}
+
+/// A node type offered by a loaded plugin.
+#[derive(Debug, Clone)]
+pub struct NodeType {
+    /// `plugin.node`.
+    pub full_name: String,
+    /// The plugin offering it.
+    pub plugin: Arc<LoadedPlugin>,
+    /// Its index in the plugin's descriptor.
+    pub index: u32,
+}
+
+impl NodeType {
+    /// Its spec.
+    pub fn spec(&self) -> &NodeSpec {
+        &self.plugin.plugin.descriptor().nodes[self.index as usize]
+    }
+}
+
+/// Every plugin found, and every file that failed to load.
+#[derive(Debug, Default)]
+pub struct Registry {
+    plugins: Vec<Arc<LoadedPlugin>>,
+    failures: Vec<LoadError>,
+    types: BTreeMap<String, Vec<NodeType>>,
+}
+
+/// The folders searched, in order, given the `--plugins` folders.
+pub fn search_path(explicit: &[PathBuf]) -> Vec<PathBuf> {
+    let mut dirs: Vec<PathBuf> = explicit.to_vec();
+    if let Some(list) = std::env::var_os(PLUGIN_PATH_VAR) {
+        dirs.extend(std::env::split_paths(&list).filter(|p| !p.as_os_str().is_empty()));
+    }
+    if let Some(dir) = std::env::current_exe().ok().and_then(|e| e.parent().map(Path::to_path_buf)) {
+        dirs.push(dir);
+    }
+    dirs
+}
+
+fn is_library(path: &Path) -> bool {
+    path.is_file() && path.extension().is_some_and(|e| e == std::env::consts::DLL_EXTENSION)
+}
+
+fn sha256_hex(path: &Path) -> String {
+    match std::fs::read(path) {
+        Ok(bytes) => Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect(),
+        Err(_) => String::new(),
+    }
+}
+
+impl Registry {
+    /// An empty registry.
+    pub fn new() -> Registry {
+        Registry::default()
+    }
+
+    /// Loads every plugin in the folders, in order. Missing folders are skipped; the same
+    /// file reached twice is loaded once.
+    pub fn discover(dirs: &[PathBuf]) -> Registry {
+        let mut reg = Registry::new();
+        let mut seen = std::collections::BTreeSet::new();
+        for dir in dirs {
+            let Ok(entries) = std::fs::read_dir(dir) else { continue };
+            let mut files: Vec<PathBuf> = entries.filter_map(|e| e.ok().map(|e| e.path())).filter(|p| is_library(p)).collect();
+            files.sort();
+            for file in files {
+                let key = std::fs::canonicalize(&file).unwrap_or_else(|_| file.clone());
+                if seen.insert(key) {
+                    reg.load_file(&file);
+                }
+            }
+        }
+        reg
+    }
+
+    /// Loads one library file; a failure is recorded, not returned.
+    pub fn load_file(&mut self, path: &Path) {
+        match Plugin::load(path) {
+            Ok(plugin) => self.add(LoadedPlugin {
+                sha256: sha256_hex(path),
+                plugin,
+            }),
+            Err(e) => self.failures.push(e),
+        }
+    }
+
+    /// Adds a plugin linked into this program.
+    pub fn add_static(&mut self, table: &'static PluginTable, origin: &str) -> Result<(), LoadError> {
+        let plugin = Plugin::from_static(table, origin)?;
+        self.add(LoadedPlugin {
+            plugin,
+            sha256: String::new(),
+        });
+        Ok(())
+    }
+
+    fn add(&mut self, loaded: LoadedPlugin) {
+        let loaded = Arc::new(loaded);
+        let d = loaded.plugin.descriptor();
+        for (i, n) in d.nodes.iter().enumerate() {
+            let full_name = format!("{}.{}", d.name, n.name);
+            self.types.entry(full_name.clone()).or_default().push(NodeType {
+                full_name,
+                plugin: Arc::clone(&loaded),
+                index: i as u32,
+            });
+        }
+        self.plugins.push(loaded);
+    }
+
+    /// Loaded plugins in load order.
+    pub fn plugins(&self) -> &[Arc<LoadedPlugin>] {
+        &self.plugins
+    }
+
+    /// Files that failed to load, with the reason.
+    pub fn failures(&self) -> &[LoadError] {
+        &self.failures
+    }
+
+    /// All node type names, sorted.
+    pub fn type_names(&self) -> impl Iterator<Item = &str> {
+        self.types.keys().map(String::as_str)
+    }
+
+    /// Looks a node type up. `Err` holds every offer when two or more plugins offer the name;
+    /// `Ok(None)` means nobody offers it.
+    pub fn lookup(&self, full_name: &str) -> Result<Option<&NodeType>, &[NodeType]> {
+        match self.types.get(full_name).map(Vec::as_slice) {
+            None | Some([]) => Ok(None),
+            Some([one]) => Ok(Some(one)),
+            Some(many) => Err(many),
+        }
+    }
+
+    /// The known type name closest to `name`, if any is close enough to be a likely typo.
+    pub fn closest(&self, name: &str) -> Option<&str> {
+        closest(name, self.type_names())
+    }
+}
+
+/// The candidate closest to `name` by edit distance, if close enough to suggest.
+pub fn closest<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Option<&'a str> {
+    candidates
+        .map(|c| (strsim::damerau_levenshtein(name, c), c))
+        .filter(|(d, c)| *d <= (c.len().max(name.len()) / 3).max(2))
+        .min_by_key(|(d, _)| *d)
+        .map(|(_, c)| c)
+}
