@@ -1,1 +1,158 @@
+//! The plugin boundary, exercised through real dynamically loaded libraries: the ABI check,
+//! files that are not plugins, a node that panics or refuses, NaN detection, name clashes.
 
+use heft_integration_tests::{fixture_dir, library, plugin_dir, registry, registry_with_probe};
+use heft_node_sdk::abi::{ABI_MAJOR, ABI_MINOR};
+use heft_node_sdk::host::{LoadError, Plugin};
+use heft_runtime::check::Overrides;
+use heft_runtime::eval::{EvalError, evaluate};
+use heft_runtime::plan_text;
+use heft_runtime::registry::Registry;
+
+fn with_probe() -> Registry {
+    registry_with_probe()
+}
+
+#[test]
+fn a_plugin_of_another_abi_version_is_refused_naming_file_and_versions() {
+    let path = library(fixture_dir(), "heft_test_plugin_wrong_abi");
+    let err = Plugin::load(&path).expect_err("ABI 99 must be refused");
+    match &err {
+        LoadError::AbiMismatch { path: p, plugin, host } => {
+            assert_eq!(p, &path);
+            assert_eq!((plugin.0, plugin.1), (99, 3));
+            assert_eq!((host.0, host.1), (ABI_MAJOR, ABI_MINOR));
+        }
+        other => panic!("expected an ABI mismatch, got {other:?}"),
+    }
+    let text = err.to_string();
+    assert!(text.contains("libheft_test_plugin_wrong_abi"), "{text}");
+    assert!(text.contains("plugin ABI 99.3"), "{text}");
+    assert!(text.contains(&format!("this heft's ABI {ABI_MAJOR}.{ABI_MINOR}")), "{text}");
+}
+
+#[test]
+fn a_library_without_the_entry_symbol_is_refused() {
+    let path = library(fixture_dir(), "heft_test_plugin_no_entry");
+    let err = Plugin::load(&path).expect_err("not a plugin");
+    assert!(matches!(err, LoadError::MissingEntry { .. }), "{err:?}");
+    let text = err.to_string();
+    assert!(text.contains("not a heft plugin") && text.contains("heft_plugin_entry_v1"), "{text}");
+}
+
+#[test]
+fn a_file_that_is_not_a_library_is_refused_and_discovery_goes_on() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let fake = library(dir.path(), "heft_not_really");
+    std::fs::write(&fake, "this is text, not machine code\n").expect("write");
+    let err = Plugin::load(&fake).expect_err("text is not a library");
+    assert!(matches!(err, LoadError::Open { .. }), "{err:?}");
+    assert!(err.to_string().contains("cannot open as a plugin library"), "{err}");
+    // Discovery records the failure and still loads the real plugins next to it.
+    let real = dir.path().join("real");
+    std::fs::create_dir(&real).expect("mkdir");
+    std::fs::copy(library(plugin_dir(), "heft_trajectory"), library(&real, "heft_trajectory")).expect("copy");
+    let reg = Registry::discover(&[dir.path().to_path_buf(), real]);
+    assert_eq!(reg.failures().len(), 1);
+    assert!(matches!(reg.lookup("trajectory.ballistic"), Ok(Some(_))));
+}
+
+#[test]
+fn the_real_plugin_describes_itself() {
+    let reg = registry();
+    let t = reg.lookup("trajectory.keyed").expect("unique").expect("present");
+    let d = t.plugin.plugin.descriptor();
+    assert_eq!(d.name, "trajectory");
+    assert_eq!(d.version, env!("CARGO_PKG_VERSION"));
+    assert_eq!(t.spec().outputs.len(), 3);
+    assert_eq!(t.plugin.sha256.len(), 64, "the file hash is recorded");
+}
+
+const PANIC_GRAPH: &str = "format 1\nrate 24 fps\nframes 1..10\nboom = probe.explode\nwrite boom.value\n";
+const GOOD_GRAPH: &str = "format 1\nrate 24 fps\nframes 1..10\nc = probe.cloud\n    count = 2\nwrite c.points\n";
+
+#[test]
+fn a_panicking_node_is_an_error_naming_it_and_the_host_goes_on() {
+    let reg = with_probe();
+    let plan = plan_text("p.graph", PANIC_GRAPH, &reg, &Overrides::default()).expect("checks");
+    for _ in 0..3 {
+        let err = evaluate(&plan, Some(1)).expect_err("the node panics");
+        match &err {
+            EvalError::Node { node, ty, message } => {
+                assert_eq!(node, "boom");
+                assert_eq!(ty, "probe.explode");
+                assert!(message.contains("panicked") && message.contains("index out of bounds"), "{message}");
+            }
+            other => panic!("expected a node error, got {other:?}"),
+        }
+    }
+    // The same process evaluates another graph afterwards.
+    let plan = plan_text("g.graph", GOOD_GRAPH, &reg, &Overrides::default()).expect("checks");
+    let e = evaluate(&plan, Some(2)).expect("evaluates after the panic");
+    assert_eq!(e.values[0][0].len(), 10 * 2 * 3);
+    assert_eq!(&e.values[0][0][..6], &[0.0, 0.0, 0.0, 1.0, 0.0, 0.0]);
+}
+
+#[test]
+fn a_node_can_return_its_own_error() {
+    let reg = with_probe();
+    let g = "format 1\nrate 24 fps\nframes 1..3\nno = probe.refuse\nwrite no.value\n";
+    let plan = plan_text("r.graph", g, &reg, &Overrides::default()).expect("checks");
+    let err = evaluate(&plan, None).expect_err("refuses").to_string();
+    assert_eq!(
+        err,
+        "node `no` (probe.refuse) failed: the strand would pass through the collider at frame 12; raise the substeps"
+    );
+}
+
+#[test]
+fn nan_output_names_node_port_column_and_first_bad_frame() {
+    let reg = with_probe();
+    let g = "format 1\nrate 24 fps\nframes 101..140\nsour = probe.spoil\n    from_frame = 117\nwrite sour.value\n";
+    let plan = plan_text("n.graph", g, &reg, &Overrides::default()).expect("checks");
+    match evaluate(&plan, None).expect_err("NaN is refused") {
+        EvalError::NonFinite {
+            node,
+            port,
+            frame,
+            column,
+            value,
+        } => {
+            assert_eq!((node.as_str(), port.as_str(), frame), ("sour", "value", 117));
+            assert_eq!(column, "value.z [m]");
+            assert_eq!(value, "NaN");
+        }
+        other => panic!("expected NonFinite, got {other:?}"),
+    }
+}
+
+#[test]
+fn two_plugins_offering_one_node_type_is_an_error_naming_both_files() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let original = library(plugin_dir(), "heft_trajectory");
+    let copy = library(dir.path(), "heft_trajectory_copy");
+    std::fs::copy(&original, &copy).expect("copy the plugin");
+    let mut reg = registry();
+    reg.load_file(&copy);
+    let offers = reg.lookup("trajectory.ballistic").expect_err("two offers");
+    assert_eq!(offers.len(), 2);
+    let g = "format 1\nrate 24 fps\nframes 1..3\nb = trajectory.ballistic\nwrite b.position\n";
+    let problems = plan_text("d.graph", g, &reg, &Overrides::default()).expect_err("ambiguous");
+    assert_eq!(problems.len(), 1);
+    let p = &problems[0];
+    assert_eq!(p.location(), "d.graph:4:5");
+    assert!(p.message.contains("offered by more than one plugin"), "{}", p.message);
+    let help = p.help.clone().unwrap_or_default();
+    assert!(help.contains(&copy.display().to_string()), "{help}");
+    assert!(help.contains(&original.display().to_string()), "{help}");
+}
+
+#[test]
+fn the_same_file_reached_twice_is_loaded_once() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    std::fs::copy(library(plugin_dir(), "heft_trajectory"), library(dir.path(), "heft_trajectory")).expect("copy");
+    let d = dir.path().to_path_buf();
+    let reg = Registry::discover(&[d.clone(), d.join("."), d]);
+    assert_eq!(reg.plugins().len(), 1);
+    assert!(matches!(reg.lookup("trajectory.ballistic"), Ok(Some(_))));
+}

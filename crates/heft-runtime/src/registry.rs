@@ -171,7 +171,7 @@ impl Registry {
 pub fn closest<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Option<&'a str> {
     candidates
         .map(|c| (strsim::damerau_levenshtein(name, c), c))
-        .filter(|(d, c)| *d <= (c.len().max(name.len()) / 3).max(2))
+        .filter(|(d, c)| *d < name.len().max(2) && *d <= (c.len().max(name.len()) / 3).max(1))
         .min_by_key(|(d, _)| *d)
         .map(|(_, c)| c)
 }
