@@ -5,12 +5,20 @@ use std::process::Output;
 use heft_integration_tests::{fixture_dir, heft, heft_in, install, library, plugin_dir, read_csv};
 
 fn text(o: &Output) -> (String, String) {
-    (String::from_utf8_lossy(&o.stdout).into_owned(), String::from_utf8_lossy(&o.stderr).into_owned())
+    (
+        String::from_utf8_lossy(&o.stdout).into_owned(),
+        String::from_utf8_lossy(&o.stderr).into_owned(),
+    )
 }
 
 #[test]
 fn help_is_there_for_every_command() {
-    for args in [&["--help"][..], &["run", "--help"], &["check", "--help"], &["nodes", "--help"]] {
+    for args in [
+        &["--help"][..],
+        &["run", "--help"],
+        &["check", "--help"],
+        &["nodes", "--help"],
+    ] {
         let o = heft().args(args).output().expect("heft runs");
         assert!(o.status.success(), "{args:?}");
         let (out, _) = text(&o);
@@ -24,7 +32,12 @@ fn help_is_there_for_every_command() {
 
 #[test]
 fn usage_errors_exit_with_2() {
-    for args in [&["run"][..], &["frobnicate"], &["run", "graphs/toss.graph", "--frames", "9..3"], &["run", "graphs/toss.graph", "--threads", "0"]] {
+    for args in [
+        &["run"][..],
+        &["frobnicate"],
+        &["run", "graphs/toss.graph", "--frames", "9..3"],
+        &["run", "graphs/toss.graph", "--threads", "0"],
+    ] {
         let o = heft().args(args).output().expect("heft runs");
         assert_eq!(o.status.code(), Some(2), "{args:?}");
     }
@@ -34,18 +47,32 @@ fn usage_errors_exit_with_2() {
 fn check_accepts_a_good_graph_and_reports_a_bad_one_with_place_and_caret() {
     let o = heft().args(["check", "graphs/toss.graph"]).output().expect("runs");
     assert!(o.status.success());
-    assert!(text(&o).0.contains("graphs/toss.graph: ok (2 nodes, 49 frames, 4 outputs)"));
+    assert!(
+        text(&o)
+            .0
+            .contains("graphs/toss.graph: ok (2 nodes, 49 frames, 4 outputs)")
+    );
 
     let dir = tempfile::tempdir().expect("temp dir");
     let bad = dir.path().join("bad.graph");
-    std::fs::write(&bad, "format 1\nrate 24 fps\nframes 1..4\nb = trajectory.ballistic\n    gravity = 9.8 kg\n").expect("write");
+    std::fs::write(
+        &bad,
+        "format 1\nrate 24 fps\nframes 1..4\nb = trajectory.ballistic\n    gravity = 9.8 kg\n",
+    )
+    .expect("write");
     let o = heft().arg("check").arg(&bad).output().expect("runs");
     assert_eq!(o.status.code(), Some(1));
     let (_, err) = text(&o);
     assert!(err.contains(&format!("{}:5:19", bad.display())), "{err}");
-    assert!(err.contains("`kg` is a mass, but `gravity` is an acceleration"), "{err}");
+    assert!(
+        err.contains("`kg` is a mass, but `gravity` is an acceleration"),
+        "{err}"
+    );
     assert!(err.contains("    gravity = 9.8 kg"), "the source line is shown: {err}");
-    assert!(err.contains("   ·                   ─┬"), "a caret marks the place: {err}");
+    assert!(
+        err.contains("   ·                   ─┬"),
+        "a caret marks the place: {err}"
+    );
 }
 
 #[test]
@@ -60,7 +87,12 @@ fn set_and_frames_override_the_graph() {
     let out = tempfile::tempdir().expect("temp dir");
     let o = heft()
         .args(["run", "graphs/toss.graph", "--quiet", "--frames", "10..12"])
-        .args(["--set", "parcel.launch_velocity=(0, 0, 0) m/s", "--set", "parcel.launch_position=(1, 2, 300) cm"])
+        .args([
+            "--set",
+            "parcel.launch_velocity=(0, 0, 0) m/s",
+            "--set",
+            "parcel.launch_position=(1, 2, 300) cm",
+        ])
         .arg("--out")
         .arg(out.path())
         .output()
@@ -73,7 +105,10 @@ fn set_and_frames_override_the_graph() {
     assert!((rows[1][4] - (3.0 - 0.5 * 9.80665 * t * t)).abs() < 1e-12);
     assert_eq!((rows[1][2], rows[1][3]), (0.01, 0.02));
 
-    let o = heft().args(["check", "graphs/toss.graph", "--set", "parcel.launch_time=2 kg"]).output().expect("runs");
+    let o = heft()
+        .args(["check", "graphs/toss.graph", "--set", "parcel.launch_time=2 kg"])
+        .output()
+        .expect("runs");
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o).1.contains("--set 1:1:22"), "{}", text(&o).1);
 }
@@ -83,7 +118,9 @@ fn nodes_lists_and_describes() {
     let o = heft().arg("nodes").output().expect("runs");
     assert!(o.status.success());
     let (out, _) = text(&o);
-    assert!(out.contains("trajectory 0.1.0") && out.contains("trajectory.ballistic") && out.contains("trajectory.keyed"));
+    assert!(
+        out.contains("trajectory 0.1.0") && out.contains("trajectory.ballistic") && out.contains("trajectory.keyed")
+    );
 
     let (out, _) = text(&heft().args(["nodes", "trajectory.ballistic"]).output().expect("runs"));
     assert!(out.contains("launch_velocity"), "{out}");
@@ -103,9 +140,18 @@ fn plugins_are_found_by_flag_environment_and_executable_folder() {
     let o = heft_in(bare.path()).args(graph).output().expect("runs");
     assert_eq!(o.status.code(), Some(1), "no plugins: unknown node types");
     assert!(text(&o).1.contains("unknown node type `trajectory.ballistic`"));
-    let o = heft_in(bare.path()).args(graph).arg("--plugins").arg(plugin_dir()).output().expect("runs");
+    let o = heft_in(bare.path())
+        .args(graph)
+        .arg("--plugins")
+        .arg(plugin_dir())
+        .output()
+        .expect("runs");
     assert!(o.status.success(), "--plugins: {}", text(&o).1);
-    let o = heft_in(bare.path()).args(graph).env("HEFT_PLUGIN_PATH", plugin_dir()).output().expect("runs");
+    let o = heft_in(bare.path())
+        .args(graph)
+        .env("HEFT_PLUGIN_PATH", plugin_dir())
+        .output()
+        .expect("runs");
     assert!(o.status.success(), "HEFT_PLUGIN_PATH: {}", text(&o).1);
     let beside = install(&[library(plugin_dir(), "heft_trajectory")]);
     let o = heft_in(beside.path()).args(graph).output().expect("runs");
@@ -116,7 +162,10 @@ fn plugins_are_found_by_flag_environment_and_executable_folder() {
 /// run's files untouched.
 #[test]
 fn a_failed_run_leaves_previous_outputs_untouched() {
-    let inst = install(&[library(plugin_dir(), "heft_trajectory"), library(fixture_dir(), "heft_test_plugin_probe")]);
+    let inst = install(&[
+        library(plugin_dir(), "heft_trajectory"),
+        library(fixture_dir(), "heft_test_plugin_probe"),
+    ]);
     let out = tempfile::tempdir().expect("temp dir");
     let dir = tempfile::tempdir().expect("temp dir");
     let graph = dir.path().join("spoil.graph");
@@ -125,7 +174,13 @@ fn a_failed_run_leaves_previous_outputs_untouched() {
         "format 1\nrate 24 fps\nframes 1..20\nb = trajectory.ballistic\ns = probe.spoil\n    from_frame = 30\nwrite b.position\nwrite s.value\n",
     )
     .expect("write");
-    let ok = heft_in(inst.path()).arg("run").arg(&graph).arg("--out").arg(out.path()).output().expect("runs");
+    let ok = heft_in(inst.path())
+        .arg("run")
+        .arg(&graph)
+        .arg("--out")
+        .arg(out.path())
+        .output()
+        .expect("runs");
     assert!(ok.status.success(), "{}", text(&ok).1);
     let before: Vec<(String, Vec<u8>)> = listing(out.path());
     assert_eq!(before.len(), 3, "two CSV files and run.json");
@@ -139,13 +194,20 @@ fn a_failed_run_leaves_previous_outputs_untouched() {
         .expect("runs");
     assert_eq!(bad.status.code(), Some(1));
     let (_, err) = text(&bad);
-    assert!(err.contains("node `s` wrote NaN to output `value` (column `value.z [m]`) at frame 7"), "{err}");
+    assert!(
+        err.contains("node `s` wrote NaN to output `value` (column `value.z [m]`) at frame 7"),
+        "{err}"
+    );
     assert_eq!(listing(out.path()), before, "nothing changed, nothing left over");
 
     // An output folder that cannot be made is an error too, with nothing written.
     let file = dir.path().join("a-file");
     std::fs::write(&file, "x").expect("write");
-    let o = heft().args(["run", "graphs/toss.graph", "--out"]).arg(&file).output().expect("runs");
+    let o = heft()
+        .args(["run", "graphs/toss.graph", "--out"])
+        .arg(&file)
+        .output()
+        .expect("runs");
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o).1.contains("cannot create the output folder"), "{}", text(&o).1);
 }
@@ -155,7 +217,10 @@ fn listing(dir: &std::path::Path) -> Vec<(String, Vec<u8>)> {
         .expect("dir")
         .map(|e| {
             let p = e.expect("entry").path();
-            (p.file_name().expect("name").to_string_lossy().into_owned(), std::fs::read(&p).expect("read"))
+            (
+                p.file_name().expect("name").to_string_lossy().into_owned(),
+                std::fs::read(&p).expect("read"),
+            )
         })
         .collect();
     v.sort();
@@ -165,9 +230,14 @@ fn listing(dir: &std::path::Path) -> Vec<(String, Vec<u8>)> {
 #[test]
 fn the_run_summary_names_graph_plugins_timeline_and_outputs() {
     let out = tempfile::tempdir().expect("temp dir");
-    let o = heft().args(["run", "graphs/toss.graph", "--quiet", "--out"]).arg(out.path()).output().expect("runs");
+    let o = heft()
+        .args(["run", "graphs/toss.graph", "--quiet", "--out"])
+        .arg(out.path())
+        .output()
+        .expect("runs");
     assert!(o.status.success());
-    let s: serde_json::Value = serde_json::from_slice(&std::fs::read(out.path().join("run.json")).expect("run.json")).expect("JSON");
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.path().join("run.json")).expect("run.json")).expect("JSON");
     assert_eq!(s["graph"], "graphs/toss.graph");
     assert_eq!(s["timeline"]["frame_count"], 49);
     assert_eq!(s["timeline"]["rate"], "24/1");

@@ -45,18 +45,46 @@ fn ballistic_apex_and_flight_time_match_closed_form() {
         .expect("heft runs");
     assert!(status.success());
     let (header, rows) = read_csv(&out.path().join("tamsin.position.csv"));
-    assert_eq!(header, ["frame", "time [s]", "position.x [m]", "position.y [m]", "position.z [m]"]);
+    assert_eq!(
+        header,
+        [
+            "frame",
+            "time [s]",
+            "position.x [m]",
+            "position.y [m]",
+            "position.z [m]"
+        ]
+    );
     let (_, vel) = read_csv(&out.path().join("tamsin.velocity.csv"));
     let (z0, vz, t0, fps) = (0.98, 4.903325, 0.5, 24.0);
-    let row_at = |t: f64| rows.iter().position(|r| (r[1] - t).abs() < 1e-12).expect("a frame at that time");
+    let row_at = |t: f64| {
+        rows.iter()
+            .position(|r| (r[1] - t).abs() < 1e-12)
+            .expect("a frame at that time")
+    };
     let apex_t = t0 + vz / G;
     let land_t = t0 + 2.0 * vz / G;
-    assert!((apex_t * fps - (apex_t * fps).round()).abs() < 1e-12, "the apex falls on a frame");
+    assert!(
+        (apex_t * fps - (apex_t * fps).round()).abs() < 1e-12,
+        "the apex falls on a frame"
+    );
     let apex = row_at(apex_t);
     let land = row_at(land_t);
-    assert!(rel(rows[apex][4] - z0, vz * vz / (2.0 * G)) < 1e-9, "apex rise {}", rows[apex][4] - z0);
-    assert!(vel[apex][4].abs() < 1e-12, "vertical speed at the apex {}", vel[apex][4]);
-    assert!((rows[land][4] - z0).abs() < 1e-9 * z0, "height after 2 v_z / g: {}", rows[land][4]);
+    assert!(
+        rel(rows[apex][4] - z0, vz * vz / (2.0 * G)) < 1e-9,
+        "apex rise {}",
+        rows[apex][4] - z0
+    );
+    assert!(
+        vel[apex][4].abs() < 1e-12,
+        "vertical speed at the apex {}",
+        vel[apex][4]
+    );
+    assert!(
+        (rows[land][4] - z0).abs() < 1e-9 * z0,
+        "height after 2 v_z / g: {}",
+        rows[land][4]
+    );
     assert!(rel(vel[land][4], -vz) < 1e-9, "landing speed {}", vel[land][4]);
     // Flight time 2 v_z / g = 1 s: launch and landing are 24 frames apart.
     assert_eq!(rows[land][0] - rows[row_at(t0)][0], 24.0);
@@ -78,7 +106,11 @@ fn keyed_path_passes_through_keys() {
     let pos = &e.values[right][0];
     // Keys at 0 s, 0.7 s and 2 s are frames 0, 16.8 (not a frame) and 48 at 24 fps.
     for (frame, z) in [(0usize, 1.0), (48, 1.0)] {
-        assert!((pos[frame * 3 + 2] - z).abs() < 1e-12, "frame {frame}: {}", pos[frame * 3 + 2]);
+        assert!(
+            (pos[frame * 3 + 2] - z).abs() < 1e-12,
+            "frame {frame}: {}",
+            pos[frame * 3 + 2]
+        );
     }
     // Past the last key the path runs straight on: zero acceleration.
     assert_eq!(e.values[right][2][48 * 3 + 2], 0.0);
@@ -103,7 +135,12 @@ fn one_and_two_threads_write_identical_files() {
         let path = entry.expect("entry").path();
         if path.extension().is_some_and(|e| e == "csv") {
             let other = b.path().join(path.file_name().expect("name"));
-            assert_eq!(std::fs::read(&path).expect("read"), std::fs::read(&other).expect("read"), "{}", path.display());
+            assert_eq!(
+                std::fs::read(&path).expect("read"),
+                std::fs::read(&other).expect("read"),
+                "{}",
+                path.display()
+            );
             compared += 1;
         }
     }

@@ -28,7 +28,10 @@ fn a_plugin_of_another_abi_version_is_refused_naming_file_and_versions() {
     let text = err.to_string();
     assert!(text.contains("libheft_test_plugin_wrong_abi"), "{text}");
     assert!(text.contains("plugin ABI 99.3"), "{text}");
-    assert!(text.contains(&format!("this heft's ABI {ABI_MAJOR}.{ABI_MINOR}")), "{text}");
+    assert!(
+        text.contains(&format!("this heft's ABI {ABI_MAJOR}.{ABI_MINOR}")),
+        "{text}"
+    );
 }
 
 #[test]
@@ -37,7 +40,10 @@ fn a_library_without_the_entry_symbol_is_refused() {
     let err = Plugin::load(&path).expect_err("not a plugin");
     assert!(matches!(err, LoadError::MissingEntry { .. }), "{err:?}");
     let text = err.to_string();
-    assert!(text.contains("not a heft plugin") && text.contains("heft_plugin_entry_v1"), "{text}");
+    assert!(
+        text.contains("not a heft plugin") && text.contains("heft_plugin_entry_v1"),
+        "{text}"
+    );
 }
 
 #[test]
@@ -51,7 +57,11 @@ fn a_file_that_is_not_a_library_is_refused_and_discovery_goes_on() {
     // Discovery records the failure and still loads the real plugins next to it.
     let real = dir.path().join("real");
     std::fs::create_dir(&real).expect("mkdir");
-    std::fs::copy(library(plugin_dir(), "heft_trajectory"), library(&real, "heft_trajectory")).expect("copy");
+    std::fs::copy(
+        library(plugin_dir(), "heft_trajectory"),
+        library(&real, "heft_trajectory"),
+    )
+    .expect("copy");
     let reg = Registry::discover(&[dir.path().to_path_buf(), real]);
     assert_eq!(reg.failures().len(), 1);
     assert!(matches!(reg.lookup("trajectory.ballistic"), Ok(Some(_))));
@@ -81,7 +91,10 @@ fn a_panicking_node_is_an_error_naming_it_and_the_host_goes_on() {
             EvalError::Node { node, ty, message } => {
                 assert_eq!(node, "boom");
                 assert_eq!(ty, "probe.explode");
-                assert!(message.contains("panicked") && message.contains("index out of bounds"), "{message}");
+                assert!(
+                    message.contains("panicked") && message.contains("index out of bounds"),
+                    "{message}"
+                );
             }
             other => panic!("expected a node error, got {other:?}"),
         }
@@ -150,7 +163,11 @@ fn two_plugins_offering_one_node_type_is_an_error_naming_both_files() {
 #[test]
 fn the_same_file_reached_twice_is_loaded_once() {
     let dir = tempfile::tempdir().expect("temp dir");
-    std::fs::copy(library(plugin_dir(), "heft_trajectory"), library(dir.path(), "heft_trajectory")).expect("copy");
+    std::fs::copy(
+        library(plugin_dir(), "heft_trajectory"),
+        library(dir.path(), "heft_trajectory"),
+    )
+    .expect("copy");
     let d = dir.path().to_path_buf();
     let reg = Registry::discover(&[d.clone(), d.join("."), d]);
     assert_eq!(reg.plugins().len(), 1);

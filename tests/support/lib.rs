@@ -10,14 +10,20 @@ use heft_runtime::registry::Registry;
 
 /// The workspace root.
 pub fn workspace_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).parent().map(Path::to_path_buf).unwrap_or_default()
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .parent()
+        .map(Path::to_path_buf)
+        .unwrap_or_default()
 }
 
 /// The profile folder this test binary was built into (`target/debug`).
 fn profile_dir() -> PathBuf {
     let exe = std::env::current_exe().expect("test executable path");
     // target/<profile>/deps/<test binary>
-    exe.parent().and_then(Path::parent).map(Path::to_path_buf).expect("target/<profile> folder")
+    exe.parent()
+        .and_then(Path::parent)
+        .map(Path::to_path_buf)
+        .expect("target/<profile> folder")
 }
 
 fn cargo() -> String {
@@ -27,7 +33,11 @@ fn cargo() -> String {
 fn build(packages: &[&str], target_dir: &Path) {
     let release = profile_dir().file_name().is_some_and(|n| n == "release");
     let mut cmd = Command::new(cargo());
-    cmd.current_dir(workspace_root()).arg("build").arg("--quiet").arg("--target-dir").arg(target_dir);
+    cmd.current_dir(workspace_root())
+        .arg("build")
+        .arg("--quiet")
+        .arg("--target-dir")
+        .arg(target_dir);
     for p in packages {
         cmd.arg("-p").arg(p);
     }
@@ -58,14 +68,25 @@ pub fn fixture_dir() -> &'static Path {
     DIR.get_or_init(|| {
         let profile = profile_dir();
         let target = profile.parent().expect("target folder").join("fixture-plugins");
-        build(&["heft-test-plugin-wrong-abi", "heft-test-plugin-probe", "heft-test-plugin-no-entry"], &target);
+        build(
+            &[
+                "heft-test-plugin-wrong-abi",
+                "heft-test-plugin-probe",
+                "heft-test-plugin-no-entry",
+            ],
+            &target,
+        );
         target.join(profile.file_name().expect("profile name"))
     })
 }
 
 /// The path of a plugin library named `name` (crate name with underscores) in `dir`.
 pub fn library(dir: &Path, name: &str) -> PathBuf {
-    dir.join(format!("{}{name}{}", std::env::consts::DLL_PREFIX, std::env::consts::DLL_SUFFIX))
+    dir.join(format!(
+        "{}{name}{}",
+        std::env::consts::DLL_PREFIX,
+        std::env::consts::DLL_SUFFIX
+    ))
 }
 
 /// A registry of the workspace's real plugins, loaded file by file (so that whatever else
@@ -123,7 +144,11 @@ pub fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<f64>>) {
     let mut lines = text.lines();
     let header = lines.next().unwrap_or_default().split(',').map(str::to_owned).collect();
     let rows = lines
-        .map(|l| l.split(',').map(|v| v.parse().unwrap_or_else(|_| panic!("not a number: {v}"))).collect())
+        .map(|l| {
+            l.split(',')
+                .map(|v| v.parse().unwrap_or_else(|_| panic!("not a number: {v}")))
+                .collect()
+        })
         .collect();
     (header, rows)
 }

@@ -2,8 +2,8 @@
 
 use std::process::ExitCode;
 
-use heft_runtime::registry::{Registry, closest};
 use heft_runtime::node_docs::{describe_type, list};
+use heft_runtime::registry::{Registry, closest};
 
 pub fn nodes(registry: &Registry, node_type: Option<&str>) -> ExitCode {
     match node_type {

@@ -73,8 +73,14 @@ struct GraphArgs {
 
 fn parse_frames(s: &str) -> Result<(i64, i64), String> {
     let (a, b) = s.split_once("..").ok_or("expected A..B, e.g. 1..48")?;
-    let a: i64 = a.trim().parse().map_err(|_| format!("`{a}` is not a whole frame number"))?;
-    let b: i64 = b.trim().parse().map_err(|_| format!("`{b}` is not a whole frame number"))?;
+    let a: i64 = a
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{a}` is not a whole frame number"))?;
+    let b: i64 = b
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{b}` is not a whole frame number"))?;
     if b < a {
         return Err(format!("the range {a}..{b} ends before it starts"));
     }

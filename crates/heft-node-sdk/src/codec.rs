@@ -10,8 +10,8 @@ pub fn encode<T: Serialize>(value: &T) -> Result<Vec<u8>, String> {
 
 /// Decodes a value from the plugin boundary; trailing bytes are an error.
 pub fn decode<T: DeserializeOwned>(bytes: &[u8]) -> Result<T, String> {
-    let (value, used) = bincode::serde::decode_from_slice(bytes, bincode::config::standard())
-        .map_err(|e| e.to_string())?;
+    let (value, used) =
+        bincode::serde::decode_from_slice(bytes, bincode::config::standard()).map_err(|e| e.to_string())?;
     if used != bytes.len() {
         return Err(format!("{} trailing bytes after the encoded value", bytes.len() - used));
     }

@@ -3,6 +3,7 @@
 //! every raw pointer a host passes is turned into a slice here, once, after checking sizes.
 
 use std::panic::{AssertUnwindSafe, catch_unwind};
+use std::sync::Arc;
 
 use crate::abi::{ABI_MAJOR, ABI_MINOR, ByteSink, Call, PluginTable, SeriesView, SeriesViewMut, Status, Timeline};
 use crate::codec;
@@ -49,7 +50,7 @@ pub trait Node: 'static {
 /// checked against the spec's types and ranges, in SI units.
 #[derive(Debug, Clone)]
 pub struct Params {
-    names: Vec<String>,
+    names: Arc<[String]>,
     values: Vec<ParamValue>,
 }
 
@@ -57,17 +58,18 @@ impl Params {
     /// Pairs a spec's parameter names with values (in spec order). Used by the glue and by
     /// tests that call a node directly.
     pub fn new(spec: &NodeSpec, values: Vec<ParamValue>) -> Result<Params, NodeError> {
-        if values.len() != spec.params.len() {
+        Params::with_names(spec.params.iter().map(|p| p.name.clone()).collect(), values)
+    }
+
+    fn with_names(names: Arc<[String]>, values: Vec<ParamValue>) -> Result<Params, NodeError> {
+        if values.len() != names.len() {
             return Err(NodeError::new(format!(
                 "expected {} parameter values, got {}",
-                spec.params.len(),
+                names.len(),
                 values.len()
             )));
         }
-        Ok(Params {
-            names: spec.params.iter().map(|p| p.name.clone()).collect(),
-            values,
-        })
+        Ok(Params { names, values })
     }
 
     /// The defaults of a spec, for tests; fails if a parameter has no default.
@@ -303,6 +305,24 @@ impl NodeEntry {
     }
 }
 
+/// A node type's spec, computed once per process, and its parameter names.
+#[derive(Debug)]
+pub struct NodeCache {
+    /// The spec.
+    pub spec: NodeSpec,
+    /// Parameter names in spec order, shared by every call's [`Params`].
+    pub names: Arc<[String]>,
+}
+
+impl NodeCache {
+    /// Computes the cache of one node type.
+    pub fn of(entry: &NodeEntry) -> NodeCache {
+        let spec = (entry.spec)();
+        let names = spec.params.iter().map(|p| p.name.clone()).collect();
+        NodeCache { spec, names }
+    }
+}
+
 /// What [`crate::export_plugin!`] implements for a plugin.
 pub trait Exports: 'static {
     /// The plugin name (first half of `plugin.node`).
@@ -311,6 +331,8 @@ pub trait Exports: 'static {
     const VERSION: &'static str;
     /// The node types.
     fn nodes() -> &'static [NodeEntry];
+    /// The node types' specs, computed once (the macro keeps them in a static of the plugin's own).
+    fn cache() -> &'static [NodeCache];
 }
 
 /// The plugin's descriptor, built from its node entries.
@@ -376,7 +398,7 @@ unsafe extern "C" fn describe<E: Exports>(sink: ByteSink) -> i32 {
 /// The pieces of a call that do not depend on buffers, checked.
 struct Decoded {
     entry: NodeEntry,
-    spec: NodeSpec,
+    spec: &'static NodeSpec,
     params: Params,
 }
 
@@ -385,10 +407,11 @@ fn bad(msg: impl Into<String>) -> (Status, String) {
 }
 
 fn decode_call<E: Exports>(call: &Call) -> Result<Decoded, (Status, String)> {
-    let entry = *E::nodes()
-        .get(call.node_index as usize)
-        .ok_or_else(|| bad(format!("no node type with index {}", call.node_index)))?;
-    let spec = (entry.spec)();
+    let index = call.node_index as usize;
+    let (Some(&entry), Some(cache)) = (E::nodes().get(index), E::cache().get(index)) else {
+        return Err(bad(format!("no node type with index {index}")));
+    };
+    let spec = &cache.spec;
     let bytes: &[u8] = if call.params.len == 0 {
         &[]
     } else {
@@ -396,7 +419,7 @@ fn decode_call<E: Exports>(call: &Call) -> Result<Decoded, (Status, String)> {
         unsafe { std::slice::from_raw_parts(call.params.data, call.params.len) }
     };
     let values: Vec<ParamValue> = codec::decode(bytes).map_err(|e| bad(format!("parameters: {e}")))?;
-    let params = Params::new(&spec, values).map_err(|e| bad(e.0))?;
+    let params = Params::with_names(Arc::clone(&cache.names), values).map_err(|e| bad(e.0))?;
     Ok(Decoded { entry, spec, params })
 }
 
@@ -479,7 +502,7 @@ unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
             outputs.push(data);
             widths.push(view.width);
         }
-        let mut io = Io::new(call.timeline, &d.spec, inputs, outputs, widths);
+        let mut io = Io::new(call.timeline, d.spec, inputs, outputs, widths);
         let result = (d.entry.evaluate)(&d.params, &mut io);
         for w in io.warnings() {
             send(call.warning, w.as_bytes());
@@ -506,6 +529,11 @@ macro_rules! export_plugin {
             fn nodes() -> &'static [$crate::guest::NodeEntry] {
                 static NODES: &[$crate::guest::NodeEntry] = &[$($crate::guest::NodeEntry::of::<$node>()),+];
                 NODES
+            }
+            fn cache() -> &'static [$crate::guest::NodeCache] {
+                static CACHE: ::std::sync::OnceLock<::std::vec::Vec<$crate::guest::NodeCache>> =
+                    ::std::sync::OnceLock::new();
+                CACHE.get_or_init(|| Self::nodes().iter().map($crate::guest::NodeCache::of).collect())
             }
         }
 

@@ -213,8 +213,10 @@ impl Plugin {
                 reason: String::from_utf8_lossy(&bytes).into_owned(),
             });
         }
-        let descriptor: PluginDescriptor =
-            codec::decode(&bytes).map_err(|reason| LoadError::Describe { path: path.clone(), reason })?;
+        let descriptor: PluginDescriptor = codec::decode(&bytes).map_err(|reason| LoadError::Describe {
+            path: path.clone(),
+            reason,
+        })?;
         Ok(Plugin {
             origin: path,
             table,

@@ -69,7 +69,11 @@ pub struct Plan {
 
 fn si_text(v: f64, d: Dimension) -> String {
     let s = d.si_symbol();
-    if s.is_empty() { format!("{v}") } else { format!("{v} {s}") }
+    if s.is_empty() {
+        format!("{v}")
+    } else {
+        format!("{v} {s}")
+    }
 }
 
 fn range_text(min: f64, max: f64, d: Dimension) -> String {
@@ -77,23 +81,37 @@ fn range_text(min: f64, max: f64, d: Dimension) -> String {
 }
 
 /// Applies a written unit for a parameter of dimension `dim`; returns the factor to SI.
-fn unit_factor(source: &Arc<Source>, unit: &UnitText, dim: Dimension, param: &str, value_span: Span) -> Result<f64, Problem> {
+/// `what` names the value in messages: "`launch_time`", "the time of a `key`".
+fn unit_factor(
+    source: &Arc<Source>,
+    unit: &UnitText,
+    dim: Dimension,
+    what: &str,
+    value_span: Span,
+) -> Result<f64, Problem> {
     match unit {
         None if dim == Dimension::Dimensionless => Ok(1.0),
-        None => Err(Problem::new(source, value_span, format!("`{param}` is {} and needs a unit", dim.describe()))
-            .label("no unit")
-            .help(format!("write it with one of: {}", units::symbols_for(dim).join(", ")))),
+        None => Err(Problem::new(
+            source,
+            value_span,
+            format!("{what} is {} and needs a unit", dim.describe()),
+        )
+        .label("no unit")
+        .help(format!("write it with one of: {}", units::symbols_for(dim).join(", ")))),
         Some(u) => match units::lookup(&u.value) {
             None => Err(Problem::new(source, u.span, format!("unknown unit `{}`", u.value))
                 .label("unknown unit")
-                .help(format!("`{param}` is {}: use one of {}", dim.describe(), units::symbols_for(dim).join(", ")))),
+                .help(format!(
+                    "{what} is {}: use one of {}",
+                    dim.describe(),
+                    units::symbols_for(dim).join(", ")
+                ))),
             Some((d, f)) if d == dim => Ok(f),
-            Some((d, _)) => Err(Problem::new(source, u.span, format!(
-                "`{}` is {}, but `{param}` is {}",
-                u.value,
-                d.describe(),
-                dim.describe()
-            ))
+            Some((d, _)) => Err(Problem::new(
+                source,
+                u.span,
+                format!("`{}` is {}, but {what} is {}", u.value, d.describe(), dim.describe()),
+            )
             .label("wrong dimension")
             .help(format!("use one of: {}", units::symbols_for(dim).join(", ")))),
         },
@@ -111,12 +129,13 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
     };
     match (&spec.ty, &value.value) {
         (ParamType::Number { dimension, min, max }, Value::Number { value: v, unit, .. }) => {
-            let si = v * unit_factor(source, unit, *dimension, name, span)?;
+            let si = v * unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
             if !(si >= *min && si <= *max) {
-                return Err(Problem::new(source, span, format!(
-                    "`{name}` = {} is out of range",
-                    si_text(si, *dimension)
-                ))
+                return Err(Problem::new(
+                    source,
+                    span,
+                    format!("`{name}` = {} is out of range", si_text(si, *dimension)),
+                )
                 .label("out of range")
                 .help(format!("valid range: {}", range_text(*min, *max, *dimension))));
             }
@@ -125,7 +144,10 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
         (ParamType::Number { dimension, .. }, _) => Err(mismatch(&format!("a number ({})", dimension.describe()))),
         (ParamType::Integer { min, max }, Value::Number { value: v, whole, unit }) => {
             if let Some(u) = unit {
-                return Err(Problem::new(source, u.span, format!("`{name}` is a count and takes no unit")).label("unexpected unit"));
+                return Err(
+                    Problem::new(source, u.span, format!("`{name}` is a count and takes no unit"))
+                        .label("unexpected unit"),
+                );
             }
             if !whole || v.abs() > 9.0e15 {
                 return Err(mismatch("a whole number"));
@@ -160,22 +182,42 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
         }
         (ParamType::Choice { options }, _) => Err(mismatch(&format!("one of {}", options.join(", ")))),
         (ParamType::Vec3 { dimension, min, max }, Value::Vector { values, unit }) => {
-            let f = unit_factor(source, unit, *dimension, name, span)?;
+            let f = unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
             let si = values.map(|v| v * f);
             if let Some(bad) = si.iter().find(|v| !(**v >= *min && **v <= *max)) {
-                return Err(Problem::new(source, span, format!(
-                    "`{name}` has a component {} out of range",
-                    si_text(*bad, *dimension)
-                ))
+                return Err(Problem::new(
+                    source,
+                    span,
+                    format!("`{name}` has a component {} out of range", si_text(*bad, *dimension)),
+                )
                 .label("out of range")
-                .help(format!("valid range of each component: {}", range_text(*min, *max, *dimension))));
+                .help(format!(
+                    "valid range of each component: {}",
+                    range_text(*min, *max, *dimension)
+                )));
             }
             Ok(ParamValue::Vec3(si))
         }
-        (ParamType::Vec3 { dimension, .. }, _) => Err(mismatch(&format!("a vector `(x, y, z)` ({})", dimension.describe()))),
-        (ParamType::Keys { dimension, .. }, Value::Key { time, time_unit, values, unit }) => {
-            let tf = unit_factor(source, time_unit, Dimension::Time, "the key time", span)?;
-            let f = unit_factor(source, unit, *dimension, name, span)?;
+        (ParamType::Vec3 { dimension, .. }, _) => {
+            Err(mismatch(&format!("a vector `(x, y, z)` ({})", dimension.describe())))
+        }
+        (
+            ParamType::Keys { dimension, .. },
+            Value::Key {
+                time,
+                time_unit,
+                values,
+                unit,
+            },
+        ) => {
+            let tf = unit_factor(
+                source,
+                time_unit,
+                Dimension::Time,
+                &format!("the time of a `{name}`"),
+                span,
+            )?;
+            let f = unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
             Ok(ParamValue::Keys(vec![(time * tf, values.map(|v| v * f))]))
         }
         (ParamType::Keys { dimension, .. }, _) => Err(mismatch(&format!(
@@ -196,7 +238,8 @@ fn parse_overrides(set: &[String], problems: &mut Vec<Problem>) -> Vec<(Arc<Sour
     for (i, text) in set.iter().enumerate() {
         let source = Source::new(format!("--set {}", i + 1), text.clone());
         let Some(eq) = text.find('=') else {
-            problems.push(Problem::new(&source, Span::new(0, text.len()), "expected `node.param=VALUE`").label("no `=`"));
+            problems
+                .push(Problem::new(&source, Span::new(0, text.len()), "expected `node.param=VALUE`").label("no `=`"));
             continue;
         };
         let target = &text[..eq];
@@ -234,7 +277,12 @@ struct NodeState {
 }
 
 /// Checks a parsed graph (with the problems its parse found) and builds a plan.
-pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registry, overrides: &Overrides) -> Result<Plan, Vec<Problem>> {
+pub fn check(
+    graph: &GraphFile,
+    parse_problems: Vec<Problem>,
+    registry: &Registry,
+    overrides: &Overrides,
+) -> Result<Plan, Vec<Problem>> {
     let src = &graph.source;
     let mut problems = parse_problems;
     let place = |span: Span| Place {
@@ -244,7 +292,10 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
 
     // Timeline.
     let (rate_num, rate_den) = graph.rate.as_ref().map_or((24, 1), |r| r.value);
-    let (first, last) = overrides.frames.or(graph.frames.as_ref().map(|f| f.value)).unwrap_or((1, 1));
+    let (first, last) = overrides
+        .frames
+        .or(graph.frames.as_ref().map(|f| f.value))
+        .unwrap_or((1, 1));
     let timeline = Timeline {
         start_frame: first,
         frame_count: (last - first + 1).max(0) as u64,
@@ -263,9 +314,13 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         };
         if let Some(&first) = by_name.get(decl.name.value.as_str()) {
             problems.push(
-                Problem::new(src, decl.name.span, format!("a node named `{}` is declared twice", decl.name.value))
-                    .label("second declaration")
-                    .also(place(graph.nodes[first].name.span), "first declared here"),
+                Problem::new(
+                    src,
+                    decl.name.span,
+                    format!("a node named `{}` is declared twice", decl.name.value),
+                )
+                .label("second declaration")
+                .also(place(graph.nodes[first].name.span), "first declared here"),
             );
             state.ok = false;
         } else {
@@ -274,7 +329,8 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         match registry.lookup(&decl.ty.value) {
             Ok(Some(t)) => state.ty = Some(t.clone()),
             Ok(None) => {
-                let mut p = Problem::new(src, decl.ty.span, format!("unknown node type `{}`", decl.ty.value)).label("unknown node type");
+                let mut p = Problem::new(src, decl.ty.span, format!("unknown node type `{}`", decl.ty.value))
+                    .label("unknown node type");
                 if let Some(c) = registry.closest(&decl.ty.value) {
                     p = p.help(format!("did you mean `{c}`?"));
                 } else if registry.failures().is_empty() {
@@ -289,11 +345,21 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                 state.ok = false;
             }
             Err(many) => {
-                let files: Vec<String> = many.iter().map(|t| t.plugin.plugin.origin().display().to_string()).collect();
+                let files: Vec<String> = many
+                    .iter()
+                    .map(|t| t.plugin.plugin.origin().display().to_string())
+                    .collect();
                 problems.push(
-                    Problem::new(src, decl.ty.span, format!("node type `{}` is offered by more than one plugin", decl.ty.value))
-                        .label("ambiguous")
-                        .help(format!("offered by: {}; remove one from the plugin path", files.join(" and "))),
+                    Problem::new(
+                        src,
+                        decl.ty.span,
+                        format!("node type `{}` is offered by more than one plugin", decl.ty.value),
+                    )
+                    .label("ambiguous")
+                    .help(format!(
+                        "offered by: {}; remove one from the plugin path",
+                        files.join(" and ")
+                    )),
                 );
                 state.ok = false;
             }
@@ -323,7 +389,12 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                 line,
             }),
             None => {
-                let mut p = Problem::new(source, node.span, format!("no node named `{}` in the graph", node.value)).label("unknown node");
+                let mut p = Problem::new(
+                    source,
+                    node.span,
+                    format!("no node named `{}` in the graph", node.value),
+                )
+                .label("unknown node");
                 if let Some(c) = closest(&node.value, by_name.keys().copied()) {
                     p = p.help(format!("did you mean `{c}`?"));
                 }
@@ -339,8 +410,12 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         for w in &written[i] {
             let name = &w.line.name;
             let Some(k) = spec.params.iter().position(|p| p.name == name.value) else {
-                let mut p = Problem::new(&w.source, name.span, format!("`{}` has no parameter `{}`", decl.ty.value, name.value))
-                    .label("unknown parameter");
+                let mut p = Problem::new(
+                    &w.source,
+                    name.span,
+                    format!("`{}` has no parameter `{}`", decl.ty.value, name.value),
+                )
+                .label("unknown parameter");
                 if let Some(c) = closest(&name.value, spec.params.iter().map(|p| p.name.as_str())) {
                     p = p.help(format!("did you mean `{c}`?"));
                 } else {
@@ -361,8 +436,12 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                             && next.0 <= prev.0
                         {
                             problems.push(
-                                Problem::new(&w.source, w.line.value.span, "key times must increase from line to line")
-                                    .label(format!("{} s is not after {} s", next.0, prev.0)),
+                                Problem::new(
+                                    &w.source,
+                                    w.line.value.span,
+                                    "key times must increase from line to line",
+                                )
+                                .label(format!("{} s is not after {} s", next.0, prev.0)),
                             );
                             states[i].ok = false;
                         }
@@ -399,8 +478,17 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                         && keys.len() < *min_keys
                     {
                         problems.push(
-                            Problem::new(src, decl.name.span, format!("`{}` needs at least {min_keys} `{}` lines, has {}", decl.name.value, p.name, keys.len()))
-                                .label("too few keys"),
+                            Problem::new(
+                                src,
+                                decl.name.span,
+                                format!(
+                                    "`{}` needs at least {min_keys} `{}` lines, has {}",
+                                    decl.name.value,
+                                    p.name,
+                                    keys.len()
+                                ),
+                            )
+                            .label("too few keys"),
                         );
                         states[i].ok = false;
                     }
@@ -408,9 +496,16 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                 }
                 None => {
                     problems.push(
-                        Problem::new(src, decl.name.span, format!("`{}` needs a value for `{}`", decl.name.value, p.name))
-                            .label("missing parameter")
-                            .help(format!("add an indented line `{} = ...` under the node: {}", p.name, p.doc)),
+                        Problem::new(
+                            src,
+                            decl.name.span,
+                            format!("`{}` needs a value for `{}`", decl.name.value, p.name),
+                        )
+                        .label("missing parameter")
+                        .help(format!(
+                            "add an indented line `{} = ...` under the node: {}",
+                            p.name, p.doc
+                        )),
                     );
                     states[i].ok = false;
                 }
@@ -423,15 +518,21 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
     let n = graph.nodes.len();
     let mut inputs: Vec<Vec<Option<(usize, usize)>>> = states
         .iter()
-        .map(|s| s.ty.as_ref().map_or_else(Vec::new, |t| vec![None; t.spec().inputs.len()]))
+        .map(|s| {
+            s.ty.as_ref()
+                .map_or_else(Vec::new, |t| vec![None; t.spec().inputs.len()])
+        })
         .collect();
     let mut driver_wire: BTreeMap<(usize, usize), usize> = BTreeMap::new();
+    // Inputs with a wire that was refused: not reported again as unconnected.
+    let mut attempted: BTreeSet<(usize, usize)> = BTreeSet::new();
     let mut edges: Vec<(usize, usize, usize)> = Vec::new(); // (from node, to node, wire index)
     let resolve_node = |r: &PortRef, problems: &mut Vec<Problem>| -> Option<usize> {
         match by_name.get(r.node.value.as_str()) {
             Some(&i) => Some(i),
             None => {
-                let mut p = Problem::new(src, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
+                let mut p =
+                    Problem::new(src, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
                 if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
                     p = p.help(format!("did you mean `{c}`?"));
                 }
@@ -442,13 +543,27 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
     };
     let port_problem = |r: &PortRef, ty: &NodeType, output: bool| {
         let spec = ty.spec();
-        let (want, other) = if output { (&spec.outputs, &spec.inputs) } else { (&spec.inputs, &spec.outputs) };
+        let (want, other) = if output {
+            (&spec.outputs, &spec.inputs)
+        } else {
+            (&spec.inputs, &spec.outputs)
+        };
         let side = if output { "output" } else { "input" };
-        let mut p = Problem::new(src, r.port.span, format!("`{}` ({}) has no {side} port `{}`", r.node.value, ty.full_name, r.port.value))
-            .label(format!("unknown {side}"));
+        let mut p = Problem::new(
+            src,
+            r.port.span,
+            format!(
+                "`{}` ({}) has no {side} port `{}`",
+                r.node.value, ty.full_name, r.port.value
+            ),
+        )
+        .label(format!("unknown {side}"));
         if other.iter().any(|o| o.name == r.port.value) {
             let other_side = if output { "an input" } else { "an output" };
-            p = p.help(format!("`{}` is {other_side}; wires run from an output to an input", r.port.value));
+            p = p.help(format!(
+                "`{}` is {other_side}; wires run from an output to an input",
+                r.port.value
+            ));
         } else if let Some(c) = closest(&r.port.value, want.iter().map(|o| o.name.as_str())) {
             p = p.help(format!("did you mean `{c}`?"));
         } else {
@@ -461,7 +576,9 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         let a = resolve_node(&wire.from, &mut problems);
         let b = resolve_node(&wire.to, &mut problems);
         let (Some(a), Some(b)) = (a, b) else { continue };
-        let (Some(ta), Some(tb)) = (states[a].ty.clone(), states[b].ty.clone()) else { continue };
+        let (Some(ta), Some(tb)) = (states[a].ty.clone(), states[b].ty.clone()) else {
+            continue;
+        };
         let out_k = ta.spec().outputs.iter().position(|p| p.name == wire.from.port.value);
         let in_k = tb.spec().inputs.iter().position(|p| p.name == wire.to.port.value);
         if out_k.is_none() {
@@ -474,23 +591,54 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         let (op, ip) = (&ta.spec().outputs[ok], &tb.spec().inputs[ik]);
         if op.kind != ip.kind {
             problems.push(
-                Problem::new(src, wire.from.span().to(wire.to.span()), format!(
-                    "`{}` is {} but `{}` takes {}",
-                    wire.from.text(),
-                    op.kind.name(),
-                    wire.to.text(),
-                    ip.kind.name()
-                ))
+                Problem::new(
+                    src,
+                    wire.from.span().to(wire.to.span()),
+                    format!(
+                        "`{}` is {} but `{}` takes {}",
+                        wire.from.text(),
+                        op.kind.name(),
+                        wire.to.text(),
+                        ip.kind.name()
+                    ),
+                )
                 .label("kind mismatch"),
             );
+            attempted.insert((b, ik));
+            states[b].ok = false;
+            continue;
+        }
+        if op.dimension != ip.dimension && ip.dimension != Dimension::Dimensionless {
+            problems.push(
+                Problem::new(
+                    src,
+                    wire.from.span().to(wire.to.span()),
+                    format!(
+                        "`{}` carries {} ({}) but `{}` takes {} ({})",
+                        wire.from.text(),
+                        op.dimension.describe(),
+                        op.dimension.si_symbol(),
+                        wire.to.text(),
+                        ip.dimension.describe(),
+                        ip.dimension.si_symbol()
+                    ),
+                )
+                .label("dimension mismatch"),
+            );
+            attempted.insert((b, ik));
+            states[b].ok = false;
             continue;
         }
         if let Some(&first) = driver_wire.get(&(b, ik)) {
             problems.push(
-                Problem::new(src, wire.to.span(), format!("input `{}` is driven twice", wire.to.text()))
-                    .label("second driver")
-                    .also(place(graph.wires[first].to.span()), "first driven here")
-                    .help("an input takes exactly one wire"),
+                Problem::new(
+                    src,
+                    wire.to.span(),
+                    format!("input `{}` is driven twice", wire.to.text()),
+                )
+                .label("second driver")
+                .also(place(graph.wires[first].to.span()), "first driven here")
+                .help("an input takes exactly one wire"),
             );
             continue;
         }
@@ -501,11 +649,21 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
     for (i, decl) in graph.nodes.iter().enumerate() {
         let Some(ty) = states[i].ty.clone() else { continue };
         for (k, port) in ty.spec().inputs.iter().enumerate() {
-            if !port.optional && inputs[i][k].is_none() {
+            if !port.optional && inputs[i][k].is_none() && !attempted.contains(&(i, k)) {
                 problems.push(
-                    Problem::new(src, decl.name.span, format!("input `{}.{}` is not connected", decl.name.value, port.name))
-                        .label("unconnected input")
-                        .help(format!("add a wire `some_node.output -> {}.{}` ({}: {})", decl.name.value, port.name, port.kind.name(), port.doc)),
+                    Problem::new(
+                        src,
+                        decl.name.span,
+                        format!("input `{}.{}` is not connected", decl.name.value, port.name),
+                    )
+                    .label("unconnected input")
+                    .help(format!(
+                        "add a wire `some_node.output -> {}.{}` ({}: {})",
+                        decl.name.value,
+                        port.name,
+                        port.kind.name(),
+                        port.doc
+                    )),
                 );
                 states[i].ok = false;
             }
@@ -536,38 +694,32 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         levels.push(current);
         current = next.into_iter().collect();
     }
-    if let Some(start) = (0..n).find(|&i| level_of[i] == usize::MAX && edges.iter().any(|e| e.1 == i)) {
-        // Walk back along unplaced drivers until a node repeats: that is a cycle.
-        let mut path = vec![start];
-        let mut wires_on_path = Vec::new();
-        let mut at = start;
-        loop {
-            let Some(&(a, _, w)) = edges.iter().find(|e| e.1 == at && level_of[e.0] == usize::MAX) else { break };
-            wires_on_path.push(w);
-            if let Some(pos) = path.iter().position(|&p| p == a) {
-                path.drain(..pos);
-                let keep = path.len();
-                wires_on_path.drain(..wires_on_path.len() - keep);
-                break;
-            }
-            path.push(a);
-            at = a;
+    // Every distinct cycle among the nodes left over, each reported once.
+    let mut reported: BTreeSet<Vec<usize>> = BTreeSet::new();
+    for start in (0..n).filter(|&i| level_of[i] == usize::MAX) {
+        let wires_on_cycle = cycle_through_drivers(start, &edges, &level_of);
+        let mut members: Vec<usize> = wires_on_cycle
+            .iter()
+            .map(|&w| edges.iter().find(|e| e.2 == w).map_or(0, |e| e.1))
+            .collect();
+        members.sort_unstable();
+        if wires_on_cycle.is_empty() || !reported.insert(members) {
+            continue;
         }
-        wires_on_path.reverse();
-        let mut text: Vec<String> = wires_on_path
+        let text: Vec<String> = wires_on_cycle
             .iter()
             .map(|&w| format!("{} -> {}", graph.wires[w].from.text(), graph.wires[w].to.text()))
             .collect();
-        text.dedup();
-        let first = wires_on_path.first().copied().unwrap_or(0);
-        let mut p = Problem::new(src, graph.wires[first].from.span().to(graph.wires[first].to.span()), format!(
-            "the graph has a cycle: {}",
-            text.join(", then ")
-        ))
+        let span_of = |w: usize| graph.wires[w].from.span().to(graph.wires[w].to.span());
+        let mut p = Problem::new(
+            src,
+            span_of(wires_on_cycle[0]),
+            format!("the graph has a cycle: {}", text.join(", then ")),
+        )
         .label("this wire closes a loop")
         .help("a node cannot depend on its own outputs; remove one of these wires");
-        for &w in wires_on_path.iter().skip(1) {
-            p = p.also(place(graph.wires[w].from.span().to(graph.wires[w].to.span())), "on the cycle");
+        for &w in wires_on_cycle.iter().skip(1) {
+            p = p.also(place(span_of(w)), "on the cycle");
         }
         problems.push(p);
     }
@@ -577,7 +729,9 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
     let mut params_bytes: Vec<Vec<u8>> = vec![Vec::new(); n];
     for level in &levels {
         for &i in level {
-            let (Some(ty), true) = (&states[i].ty, states[i].ok) else { continue };
+            let (Some(ty), true) = (&states[i].ty, states[i].ok) else {
+                continue;
+            };
             let spec = ty.spec();
             let mut widths = Vec::with_capacity(spec.inputs.len());
             let mut inputs_ok = true;
@@ -592,12 +746,16 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                             {
                                 let w = driver_wire[&(i, k)];
                                 problems.push(
-                                    Problem::new(src, graph.wires[w].from.span().to(graph.wires[w].to.span()), format!(
-                                        "`{}` carries {} but `{}` takes points[{need}]",
-                                        graph.wires[w].from.text(),
-                                        shape,
-                                        graph.wires[w].to.text()
-                                    ))
+                                    Problem::new(
+                                        src,
+                                        graph.wires[w].from.span().to(graph.wires[w].to.span()),
+                                        format!(
+                                            "`{}` carries {} but `{}` takes points[{need}]",
+                                            graph.wires[w].from.text(),
+                                            shape,
+                                            graph.wires[w].to.text()
+                                        ),
+                                    )
                                     .label("shape mismatch"),
                                 );
                                 inputs_ok = false;
@@ -614,11 +772,19 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
             let bytes = match Plugin::encode_params(&states[i].params) {
                 Ok(b) => b,
                 Err(e) => {
-                    problems.push(Problem::new(src, graph.nodes[i].name.span, format!("cannot encode the parameters: {e}")));
+                    problems.push(Problem::new(
+                        src,
+                        graph.nodes[i].name.span,
+                        format!("cannot encode the parameters: {e}"),
+                    ));
                     continue;
                 }
             };
-            match ty.plugin.plugin.output_points(ty.index, &bytes, timeline, &widths, spec.outputs.len()) {
+            match ty
+                .plugin
+                .plugin
+                .output_points(ty.index, &bytes, timeline, &widths, spec.outputs.len())
+            {
                 Ok(points) => {
                     shapes[i] = Some(
                         spec.outputs
@@ -633,8 +799,12 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
                     params_bytes[i] = bytes;
                 }
                 Err(e) => problems.push(
-                    Problem::new(src, graph.nodes[i].name.span, format!("node `{}` cannot size its outputs: {e}", graph.nodes[i].name.value))
-                        .label("this node"),
+                    Problem::new(
+                        src,
+                        graph.nodes[i].name.span,
+                        format!("node `{}` cannot size its outputs: {e}", graph.nodes[i].name.value),
+                    )
+                    .label("this node"),
                 ),
             }
         }
@@ -644,7 +814,9 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
     let mut writes = Vec::new();
     let mut stems: BTreeMap<String, Span> = BTreeMap::new();
     for wd in &graph.writes {
-        let Some(i) = resolve_node(&wd.port, &mut problems) else { continue };
+        let Some(i) = resolve_node(&wd.port, &mut problems) else {
+            continue;
+        };
         let Some(ty) = &states[i].ty else { continue };
         let Some(k) = ty.spec().outputs.iter().position(|p| p.name == wd.port.port.value) else {
             problems.push(port_problem(&wd.port, ty, true));
@@ -662,7 +834,11 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
             continue;
         }
         stems.insert(stem.clone(), stem_span);
-        writes.push(PlannedWrite { node: i, output: k, stem });
+        writes.push(PlannedWrite {
+            node: i,
+            output: k,
+            stem,
+        });
     }
 
     if !problems.is_empty() {
@@ -688,4 +864,24 @@ pub fn check(graph: &GraphFile, parse_problems: Vec<Problem>, registry: &Registr
         levels,
         writes,
     })
+}
+
+/// Walks back from `start` along drivers that could not be ordered until a node repeats, and
+/// returns the wires of that cycle in the direction data flows. Empty if there is none.
+fn cycle_through_drivers(start: usize, edges: &[(usize, usize, usize)], level_of: &[usize]) -> Vec<usize> {
+    let mut path = vec![start];
+    let mut wires = Vec::new();
+    let mut at = start;
+    while let Some(&(a, _, w)) = edges.iter().find(|e| e.1 == at && level_of[e.0] == usize::MAX) {
+        wires.push(w);
+        if let Some(pos) = path.iter().position(|&p| p == a) {
+            // path[pos..] and wires[pos..] form the cycle (wire j feeds path[j]).
+            let mut cycle = wires.split_off(pos);
+            cycle.reverse();
+            return cycle;
+        }
+        path.push(a);
+        at = a;
+    }
+    Vec::new()
 }

@@ -180,8 +180,17 @@ fn named(place: &Place) -> NamedSource<String> {
     NamedSource::new(place.source.name.clone(), place.source.text.clone())
 }
 
+/// Keeps a span inside its text, so a caret at the very end of a file still shows.
+fn inside(span: Span, text: &str) -> Span {
+    let start = span.start.min(text.len().saturating_sub(1));
+    Span::new(
+        start,
+        span.end().min(text.len()).max(start + 1).min(text.len().max(start)),
+    )
+}
+
 fn rendered(p: &Problem) -> Rendered {
-    let mut labels = vec![(p.place.span, p.label.clone())];
+    let mut labels = vec![(inside(p.place.span, &p.place.source.text), p.label.clone())];
     let mut related = Vec::new();
     for (place, label) in &p.related {
         if Arc::ptr_eq(&place.source, &p.place.source) {

@@ -127,7 +127,11 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             });
         }
     }
-    Ok(NodeResult { outputs, time, warnings })
+    Ok(NodeResult {
+        outputs,
+        time,
+        warnings,
+    })
 }
 
 /// Evaluates a plan on `threads` worker threads (`None`: one per core).

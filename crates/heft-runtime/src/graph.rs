@@ -297,34 +297,44 @@ fn valid_unit(source: &Arc<Source>, unit: &UnitText) -> Result<(), Problem> {
 fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<[f64; 3], Problem> {
     let open = line.at();
     if !line.eat("(") {
-        return Err(problem(source, Span::new(open, open + 1), "expected `(` to start a vector"));
+        return Err(problem(
+            source,
+            Span::new(open, open + 1),
+            "expected `(` to start a vector",
+        ));
     }
     let mut values = [0.0; 3];
     for (k, v) in values.iter_mut().enumerate() {
         if k > 0 && !line.eat(",") {
             line.skip_ws();
             let at = line.at();
-            return Err(problem(source, Span::new(at, at + 1), "expected `,` between vector components")
-                .label("expected `,`")
-                .help("a vector has three components: `(x, y, z) unit`"));
+            return Err(
+                problem(source, Span::new(at, at + 1), "expected `,` between vector components")
+                    .label("expected `,`")
+                    .help("a vector has three components: `(x, y, z) unit`"),
+            );
         }
         match line.number() {
             Some(n) => *v = n.value.0,
             None => {
                 line.skip_ws();
                 let at = line.at();
-                return Err(problem(source, Span::new(at, at + 1), "expected a number in the vector")
-                    .label("expected a number")
-                    .help("a vector has three components: `(x, y, z) unit`"));
+                return Err(
+                    problem(source, Span::new(at, at + 1), "expected a number in the vector")
+                        .label("expected a number")
+                        .help("a vector has three components: `(x, y, z) unit`"),
+                );
             }
         }
     }
     if !line.eat(")") {
         line.skip_ws();
         let at = line.at();
-        return Err(problem(source, Span::new(at, at + 1), "expected `)` after three components")
-            .label("expected `)`")
-            .help("a vector has three components: `(x, y, z) unit`"));
+        return Err(
+            problem(source, Span::new(at, at + 1), "expected `)` after three components")
+                .label("expected `)`")
+                .help("a vector has three components: `(x, y, z) unit`"),
+        );
     }
     Ok(values)
 }
@@ -336,7 +346,13 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
     line.skip_ws();
     let start = line.at();
     let value = match line.peek() {
-        None => return Err(problem(source, Span::new(start, start + 1), "expected a value after `=`")),
+        None => {
+            return Err(problem(
+                source,
+                Span::new(start, start + 1),
+                "expected a value after `=`",
+            ));
+        }
         Some('(') => {
             let values = vector(&mut line, source)?;
             let unit = line.unit_until(None);
@@ -370,11 +386,19 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
         }
         Some(_) => {
             let w = line.ident().ok_or_else(|| {
-                problem(source, Span::new(start, start + 1), "expected a number, a vector `(x, y, z)` or a word")
+                problem(
+                    source,
+                    Span::new(start, start + 1),
+                    "expected a number, a vector `(x, y, z)` or a word",
+                )
             })?;
             if !line.done() {
                 let at = line.at();
-                return Err(problem(source, Span::new(at, base + text.len()), "unexpected text after the value"));
+                return Err(problem(
+                    source,
+                    Span::new(at, base + text.len()),
+                    "unexpected text after the value",
+                ));
             }
             Value::Word(w.value)
         }
@@ -397,8 +421,12 @@ fn port_ref(line: &mut Line<'_>, source: &Arc<Source>, what: &str) -> Result<Por
     let port = if dot { line.ident() } else { None };
     match (node, port) {
         (Some(node), Some(port)) => Ok(PortRef { node, port }),
-        _ => Err(problem(source, Span::new(at, at.max(line.at()) + 1), format!("expected {what} as `node.port`"))
-            .label("expected `node.port`")),
+        _ => Err(problem(
+            source,
+            Span::new(at, at.max(line.at()) + 1),
+            format!("expected {what} as `node.port`"),
+        )
+        .label("expected `node.port`")),
     }
 }
 
@@ -419,14 +447,22 @@ fn statement(
             Ok(())
         } else {
             let at = line.at();
-            Err(problem(source, Span::new(at, line.base + line.text.len()), "unexpected text at the end of the line")
-                .label("unexpected"))
+            Err(problem(
+                source,
+                Span::new(at, line.base + line.text.len()),
+                "unexpected text at the end of the line",
+            )
+            .label("unexpected"))
         }
     };
     match word.value.as_str() {
         "format" => {
             let n = line.number().filter(|n| n.value.1 && n.value.0 >= 0.0).ok_or_else(|| {
-                problem(source, line.span_from(start), "expected a format version number: `format 1`")
+                problem(
+                    source,
+                    line.span_from(start),
+                    "expected a format version number: `format 1`",
+                )
             })?;
             end_check(line)?;
             if graph.format.is_some() {
@@ -440,19 +476,31 @@ fn statement(
         "rate" => {
             let num = line.number();
             let mut den = None;
-            if line.eat("/") {
+            let slash = line.eat("/");
+            if slash {
                 den = line.number();
             }
             let unit = line.unit_until(None);
             let ok_int = |n: &Spanned<(f64, bool)>| n.value.1 && n.value.0 >= 1.0 && n.value.0 <= f64::from(u32::MAX);
             let span = line.span_from(start);
-            let (Some(num), true) = (num, unit.as_ref().is_some_and(|u| u.value == "fps")) else {
-                return Err(problem(source, span, "expected a frame rate such as `rate 24 fps` or `rate 24000/1001 fps`")
-                    .label("not a frame rate"));
+            let (Some(num), true) = (
+                num,
+                unit.as_ref().is_some_and(|u| u.value == "fps") && slash == den.is_some(),
+            ) else {
+                return Err(problem(
+                    source,
+                    span,
+                    "expected a frame rate such as `rate 24 fps` or `rate 24000/1001 fps`",
+                )
+                .label("not a frame rate"));
             };
             if !ok_int(&num) || den.as_ref().is_some_and(|d| !ok_int(d)) {
-                return Err(problem(source, span, "a frame rate is a whole number of frames per second or a ratio of whole numbers")
-                    .help("for 23.976 fps write `rate 24000/1001 fps`"));
+                return Err(problem(
+                    source,
+                    span,
+                    "a frame rate is a whole number of frames per second or a ratio of whole numbers",
+                )
+                .help("for 23.976 fps write `rate 24000/1001 fps`"));
             }
             if graph.rate.is_some() {
                 return Err(problem(source, word.span, "the frame rate is given twice"));
@@ -493,12 +541,17 @@ fn statement(
                 let at = line.at();
                 match line.ident() {
                     Some(w) if w.value == "as" => {
-                        name = Some(line.ident().ok_or_else(|| {
-                            problem(source, line.span_from(at), "expected a file name after `as`")
-                        })?);
+                        name =
+                            Some(line.ident().ok_or_else(|| {
+                                problem(source, line.span_from(at), "expected a file name after `as`")
+                            })?);
                     }
                     _ => {
-                        return Err(problem(source, Span::new(at, line.base + line.text.len()), "expected `as NAME` or the end of the line"));
+                        return Err(problem(
+                            source,
+                            Span::new(at, line.base + line.text.len()),
+                            "expected `as NAME` or the end of the line",
+                        ));
                     }
                 }
             }
@@ -516,8 +569,10 @@ fn statement(
                 let from = port_ref(line, source, "an output port")?;
                 if !line.eat("->") {
                     let at = line.at();
-                    return Err(problem(source, Span::new(at, at + 1), "expected `->` after the output port")
-                        .help("a wire reads `from_node.output -> to_node.input`"));
+                    return Err(
+                        problem(source, Span::new(at, at + 1), "expected `->` after the output port")
+                            .help("a wire reads `from_node.output -> to_node.input`"),
+                    );
                 }
                 let to = port_ref(line, source, "an input port")?;
                 end_check(line)?;
@@ -534,8 +589,12 @@ fn statement(
                 }
                 let node = if dot { line.ident() } else { None };
                 let (Some(_), Some(_)) = (plugin, node) else {
-                    return Err(problem(source, line.span_from(ty_start).to(Span::new(ty_start, ty_start + 1)), "expected a node type as `plugin.node`")
-                        .label("expected `plugin.node`"));
+                    return Err(problem(
+                        source,
+                        line.span_from(ty_start).to(Span::new(ty_start, ty_start + 1)),
+                        "expected a node type as `plugin.node`",
+                    )
+                    .label("expected `plugin.node`"));
                 };
                 let ty = Spanned {
                     value: line.text[ty_start - line.base..line.pos].to_owned(),
@@ -543,7 +602,11 @@ fn statement(
                 };
                 end_check(line)?;
                 if KEYWORDS.contains(&word.value.as_str()) {
-                    return Err(problem(source, word.span, format!("`{}` is a keyword and cannot name a node", word.value)));
+                    return Err(problem(
+                        source,
+                        word.span,
+                        format!("`{}` is a keyword and cannot name a node", word.value),
+                    ));
                 }
                 *current = Some(NodeDecl {
                     name: word,
@@ -573,6 +636,8 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
     };
     let mut problems = Vec::new();
     let mut current: Option<NodeDecl> = None;
+    // Header statements written at all, even if malformed (those are reported where they are).
+    let mut headers_seen = std::collections::BTreeSet::new();
     let mut offset = 0;
     for raw in source.text.split_inclusive('\n') {
         let base = offset;
@@ -599,14 +664,21 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
             let Some(name) = line.ident() else {
                 line.skip_ws();
                 let at = line.at();
-                problems.push(problem(source, Span::new(at, at + 1), "expected a parameter name").label("expected `name = value`"));
+                problems.push(
+                    problem(source, Span::new(at, at + 1), "expected a parameter name")
+                        .label("expected `name = value`"),
+                );
                 continue;
             };
             if !line.eat("=") {
                 let at = line.at();
                 problems.push(
-                    problem(source, Span::new(at, at + 1), format!("expected `=` after the parameter name `{}`", name.value))
-                        .label("expected `=`"),
+                    problem(
+                        source,
+                        Span::new(at, at + 1),
+                        format!("expected `=` after the parameter name `{}`", name.value),
+                    )
+                    .label("expected `=`"),
                 );
                 continue;
             }
@@ -621,6 +693,9 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
             graph.nodes.push(done);
         }
         let mut line = Line::new(text, base);
+        if let Some(word) = text.split_whitespace().next() {
+            headers_seen.insert(word.to_owned());
+        }
         if let Err(p) = statement(source, &mut line, &mut graph, &mut current) {
             problems.push(p);
         }
@@ -629,23 +704,30 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
         graph.nodes.push(done);
     }
     let end = Span::new(0, 0);
-    if graph.format.is_none() {
+    if graph.format.is_none() && !headers_seen.contains("format") {
         problems.push(
-            problem(source, end, format!("the graph does not say its format version"))
+            problem(source, end, "the graph does not say its format version")
                 .help(format!("start the file with `format {FORMAT_VERSION}`")),
         );
     } else if let Some(f) = &graph.format
         && f.value != FORMAT_VERSION
     {
         problems.push(
-            problem(source, f.span, format!("format {} is not known to this heft (it reads format {FORMAT_VERSION})", f.value))
-                .label("unknown format"),
+            problem(
+                source,
+                f.span,
+                format!(
+                    "format {} is not known to this heft (it reads format {FORMAT_VERSION})",
+                    f.value
+                ),
+            )
+            .label("unknown format"),
         );
     }
-    if graph.rate.is_none() {
+    if graph.rate.is_none() && !headers_seen.contains("rate") {
         problems.push(problem(source, end, "the graph has no frame rate").help("add a line such as `rate 24 fps`"));
     }
-    if graph.frames.is_none() {
+    if graph.frames.is_none() && !headers_seen.contains("frames") {
         problems.push(problem(source, end, "the graph has no frame range").help("add a line such as `frames 1..96`"));
     }
     (graph, problems)
@@ -673,7 +755,9 @@ mod tests {
         let n = &g.nodes[0];
         assert_eq!(n.ty.value, "trajectory.ballistic");
         assert_eq!(n.params.len(), 4);
-        assert!(matches!(&n.params[1].value.value, Value::Vector { values, unit: Some(u) } if values == &[1.0, -0.25, 3.0] && u.value == "m/s"));
+        assert!(
+            matches!(&n.params[1].value.value, Value::Vector { values, unit: Some(u) } if values == &[1.0, -0.25, 3.0] && u.value == "m/s")
+        );
         assert!(matches!(&n.params[2].value.value, Value::Key { time, .. } if *time == 0.1));
         assert!(matches!(&n.params[3].value.value, Value::Word(w) if w == "ring"));
         assert_eq!(g.wires.len(), 1);
@@ -682,7 +766,10 @@ mod tests {
 
     #[test]
     fn reports_every_bad_line_with_its_column() {
-        let src = Source::new("t.graph", "format 1\nrate 24 fps\nframes 1..10\nbogus line\na = x.y\n  v = (1, 2 m\nb.c -> \n");
+        let src = Source::new(
+            "t.graph",
+            "format 1\nrate 24 fps\nframes 1..10\nbogus line\na = x.y\n  v = (1, 2 m\nb.c -> \n",
+        );
         let (_, p) = parse(&src);
         let at: Vec<String> = p.iter().map(|p| p.location()).collect();
         assert_eq!(at, vec!["t.graph:4:1", "t.graph:6:13", "t.graph:7:8"], "{p:?}");

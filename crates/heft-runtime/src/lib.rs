@@ -6,13 +6,13 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
-pub mod diag;
-pub mod graph;
-pub mod units;
 pub mod check;
+pub mod diag;
 pub mod eval;
+pub mod graph;
 pub mod output;
 pub mod registry;
+pub mod units;
 
 use std::path::Path;
 use std::sync::Arc;

@@ -33,7 +33,11 @@ fn value_text(v: &ParamValue, ty: &ParamType) -> String {
 fn type_text(ty: &ParamType) -> String {
     match ty {
         ParamType::Number { dimension, min, max } => {
-            format!("number, {}; range {min} to {max}{}", dimension.describe(), unit_of(*dimension))
+            format!(
+                "number, {}; range {min} to {max}{}",
+                dimension.describe(),
+                unit_of(*dimension)
+            )
         }
         ParamType::Integer { min, max } => format!("whole number; range {min} to {max}"),
         ParamType::Bool => "true or false".to_owned(),
@@ -93,7 +97,14 @@ pub fn describe_type(t: &NodeType) -> String {
     let spec = t.spec();
     let d = t.plugin.plugin.descriptor();
     let mut out = String::new();
-    let _ = writeln!(out, "{}  (plugin {} {}, {})", t.full_name, d.name, d.version, t.plugin.plugin.origin().display());
+    let _ = writeln!(
+        out,
+        "{}  (plugin {} {}, {})",
+        t.full_name,
+        d.name,
+        d.version,
+        t.plugin.plugin.origin().display()
+    );
     let _ = writeln!(out, "{}", spec.doc);
     if !spec.notes.is_empty() {
         let _ = writeln!(out, "\n{}", spec.notes);
@@ -114,10 +125,10 @@ pub fn describe_type(t: &NodeType) -> String {
         let _ = writeln!(out, "  (none)");
     }
     for p in &spec.params {
-        let default = p
-            .default
-            .as_ref()
-            .map_or_else(|| "required".to_owned(), |v| format!("default {}", value_text(v, &p.ty)));
+        let default = p.default.as_ref().map_or_else(
+            || "required".to_owned(),
+            |v| format!("default {}", value_text(v, &p.ty)),
+        );
         let _ = writeln!(out, "  {}: {}", p.name, p.doc);
         let _ = writeln!(out, "      {}; {default}", type_text(&p.ty));
     }

@@ -30,7 +30,9 @@ pub fn columns(port: &str, shape: Shape, dimension: Dimension) -> Vec<String> {
         PortKind::Points => (0..shape.points)
             .flat_map(|p| {
                 let unit = unit.clone();
-                ["x", "y", "z"].into_iter().map(move |a| format!("{port}.p{p}.{a}{unit}"))
+                ["x", "y", "z"]
+                    .into_iter()
+                    .map(move |a| format!("{port}.p{p}.{a}{unit}"))
             })
             .collect(),
     }
@@ -134,7 +136,13 @@ pub const SUMMARY_FILE: &str = "run.json";
 
 /// Writes every planned output and the run summary into `dir` (created if missing).
 /// Either every file is replaced or none is. Returns the paths written.
-pub fn write_all(plan: &Plan, eval: &Evaluation, graph_path: &Path, dir: &Path, wall: Duration) -> Result<Vec<PathBuf>, WriteError> {
+pub fn write_all(
+    plan: &Plan,
+    eval: &Evaluation,
+    graph_path: &Path,
+    dir: &Path,
+    wall: Duration,
+) -> Result<Vec<PathBuf>, WriteError> {
     std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the output folder: {e}")))?;
     let mut staged: Vec<(tempfile::NamedTempFile, PathBuf)> = Vec::new();
     let mut stage = |bytes: &[u8], path: PathBuf| -> Result<(), WriteError> {

@@ -59,7 +59,10 @@ pub fn search_path(explicit: &[PathBuf]) -> Vec<PathBuf> {
     if let Some(list) = std::env::var_os(PLUGIN_PATH_VAR) {
         dirs.extend(std::env::split_paths(&list).filter(|p| !p.as_os_str().is_empty()));
     }
-    if let Some(dir) = std::env::current_exe().ok().and_then(|e| e.parent().map(Path::to_path_buf)) {
+    if let Some(dir) = std::env::current_exe()
+        .ok()
+        .and_then(|e| e.parent().map(Path::to_path_buf))
+    {
         dirs.push(dir);
     }
     dirs
@@ -89,7 +92,10 @@ impl Registry {
         let mut seen = std::collections::BTreeSet::new();
         for dir in dirs {
             let Ok(entries) = std::fs::read_dir(dir) else { continue };
-            let mut files: Vec<PathBuf> = entries.filter_map(|e| e.ok().map(|e| e.path())).filter(|p| is_library(p)).collect();
+            let mut files: Vec<PathBuf> = entries
+                .filter_map(|e| e.ok().map(|e| e.path()))
+                .filter(|p| is_library(p))
+                .collect();
             files.sort();
             for file in files {
                 let key = std::fs::canonicalize(&file).unwrap_or_else(|_| file.clone());

@@ -65,7 +65,11 @@ pub fn lookup(symbol: &str) -> Option<(Dimension, f64)> {
 
 /// The symbols accepted for a dimension (for messages).
 pub fn symbols_for(dimension: Dimension) -> Vec<&'static str> {
-    UNITS.iter().filter(|(_, d, _)| *d == dimension).map(|(u, _, _)| *u).collect()
+    UNITS
+        .iter()
+        .filter(|(_, d, _)| *d == dimension)
+        .map(|(u, _, _)| *u)
+        .collect()
 }
 
 #[cfg(test)]
@@ -75,6 +79,7 @@ mod tests {
     // Conversion factors: BIPM, The International System of Units (SI Brochure, 9th ed.,
     // 2019), and NIST SP 811 (2008) appendix B for inch, foot and pound (exact by definition).
     #[test]
+    #[allow(clippy::approx_constant)] // 30 deg in rad written out, to check the factor
     fn factors_to_si() {
         assert_eq!(lookup("cm"), Some((Dimension::Length, 0.01)));
         assert_eq!(lookup("in"), Some((Dimension::Length, 0.0254)));

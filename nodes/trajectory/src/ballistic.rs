@@ -16,8 +16,18 @@ impl Node for Ballistic {
                 .into(),
             inputs: vec![],
             outputs: vec![
-                PortSpec::new("position", PortKind::Vec3, Dimension::Length, "Centre-of-mass position."),
-                PortSpec::new("velocity", PortKind::Vec3, Dimension::Velocity, "Centre-of-mass velocity."),
+                PortSpec::new(
+                    "position",
+                    PortKind::Vec3,
+                    Dimension::Length,
+                    "Centre-of-mass position.",
+                ),
+                PortSpec::new(
+                    "velocity",
+                    PortKind::Vec3,
+                    Dimension::Velocity,
+                    "Centre-of-mass velocity.",
+                ),
                 PortSpec::new(
                     "acceleration",
                     PortKind::Vec3,

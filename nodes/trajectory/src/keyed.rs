@@ -20,7 +20,12 @@ impl Node for Keyed {
             outputs: vec![
                 PortSpec::new("position", PortKind::Vec3, Dimension::Length, "Position on the spline."),
                 PortSpec::new("velocity", PortKind::Vec3, Dimension::Velocity, "First derivative."),
-                PortSpec::new("acceleration", PortKind::Vec3, Dimension::Acceleration, "Second derivative."),
+                PortSpec::new(
+                    "acceleration",
+                    PortKind::Vec3,
+                    Dimension::Acceleration,
+                    "Second derivative.",
+                ),
             ],
             params: vec![ParamSpec::keys(
                 "key",

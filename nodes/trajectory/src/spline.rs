@@ -18,7 +18,12 @@ impl NaturalSpline {
             return Err(format!("a spline needs at least 2 keys with values, got {n}"));
         }
         if let Some(i) = (1..n).find(|&i| t[i] <= t[i - 1] || !t[i].is_finite()) {
-            return Err(format!("key times must increase: key {} at {} s follows {} s", i + 1, t[i], t[i - 1]));
+            return Err(format!(
+                "key times must increase: key {} at {} s follows {} s",
+                i + 1,
+                t[i],
+                t[i - 1]
+            ));
         }
         // Tridiagonal system for interior second derivatives (Thomas algorithm):
         // h[i-1] m[i-1] + 2 (h[i-1] + h[i]) m[i] + h[i] m[i+1] = 6 (d[i] - d[i-1]).
@@ -111,6 +116,7 @@ mod tests {
     /// (a, b, c, d) = (1, 1.46600, 0, 0.25228), (2.71828, 2.22285, 0.75685, 1.69107),
     /// (7.38906, 8.80977, 5.83007, -1.94336), given there to 5 decimals.
     #[test]
+    #[allow(clippy::approx_constant)] // the book's printed 5-decimal values, e.g. 2.71828
     fn matches_burden_faires_natural_spline_example() {
         let t = [0.0, 1.0, 2.0, 3.0];
         let y: Vec<f64> = t.iter().map(|x: &f64| x.exp()).collect();
@@ -123,7 +129,12 @@ mod tests {
         for (i, row) in book.iter().enumerate() {
             let got = s.segment(i);
             for k in 0..4 {
-                assert!((got[k] - row[k]).abs() < 6e-6, "segment {i} coefficient {k}: {} vs {}", got[k], row[k]);
+                assert!(
+                    (got[k] - row[k]).abs() < 6e-6,
+                    "segment {i} coefficient {k}: {} vs {}",
+                    got[k],
+                    row[k]
+                );
             }
         }
     }
@@ -156,7 +167,10 @@ mod tests {
             let r = s.eval(k + eps);
             assert!((l[0] - r[0]).abs() < 1e-5);
             assert!((l[1] - r[1]).abs() < 1e-4);
-            assert!((l[2] - r[2]).abs() < 1e-3, "second derivative jumps at {k}: {l:?} {r:?}");
+            assert!(
+                (l[2] - r[2]).abs() < 1e-3,
+                "second derivative jumps at {k}: {l:?} {r:?}"
+            );
         }
         for (i, &k) in t.iter().enumerate() {
             assert!((s.eval(k)[0] - y[i]).abs() < 1e-12, "interpolates key {i}");
