@@ -176,3 +176,45 @@ pub struct PluginTable {
     /// Evaluates the call, writing every output buffer.
     pub evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
 }
+
+#[cfg(test)]
+mod tests {
+    use std::mem::{offset_of, size_of};
+
+    use super::*;
+
+    /// The table's header is frozen: a host reads these three fields from any plugin of any
+    /// version before it trusts anything else, so their offsets must never move.
+    #[test]
+    fn the_table_header_layout_is_frozen() {
+        assert_eq!(offset_of!(PluginTable, abi_major), 0);
+        assert_eq!(offset_of!(PluginTable, abi_minor), 4);
+        assert_eq!(offset_of!(PluginTable, table_size), 8);
+        assert_eq!(offset_of!(PluginTable, describe), 8 + size_of::<usize>());
+        assert_eq!(size_of::<PluginTable>(), 8 + 4 * size_of::<usize>());
+    }
+
+    /// Status codes are part of the ABI.
+    #[test]
+    fn status_codes_are_stable() {
+        assert_eq!(Status::Ok as i32, 0);
+        assert_eq!(Status::NodeError as i32, 1);
+        assert_eq!(Status::Panic as i32, 2);
+        assert_eq!(Status::BadCall as i32, 3);
+        assert_eq!(Status::from_code(17), Status::BadCall);
+    }
+
+    #[test]
+    fn timeline_times_for_a_fractional_rate() {
+        // NTSC film rate 24000/1001 (SMPTE ST 12-1): frame 24000 is at exactly 1001 s.
+        let t = Timeline {
+            start_frame: 23_999,
+            frame_count: 2,
+            rate_num: 24_000,
+            rate_den: 1001,
+        };
+        assert_eq!(t.time(1), 1001.0);
+        assert_eq!(t.frame_number(1), 24_000);
+        assert!((t.fps() - 23.976_023_976_023_978).abs() < 1e-12);
+    }
+}

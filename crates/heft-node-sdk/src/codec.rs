@@ -17,3 +17,65 @@ pub fn decode<T: DeserializeOwned>(bytes: &[u8]) -> Result<T, String> {
     }
     Ok(value)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::descriptor::{NodeSpec, ParamSpec, ParamValue, PluginDescriptor, PortKind, PortSpec};
+    use crate::units::Dimension;
+
+    fn sample() -> PluginDescriptor {
+        PluginDescriptor {
+            name: "sample".into(),
+            version: "1.2.3".into(),
+            nodes: vec![NodeSpec {
+                name: "n".into(),
+                doc: "d".into(),
+                notes: String::new(),
+                inputs: vec![
+                    PortSpec::new("a", PortKind::Points, Dimension::Length, "pts")
+                        .with_points(4)
+                        .optional(),
+                ],
+                outputs: vec![PortSpec::new("b", PortKind::Transform, Dimension::Length, "t")],
+                params: vec![
+                    ParamSpec::number("m", Dimension::Mass, 58.0, (1.0, 500.0), "mass"),
+                    ParamSpec::choice("c", &["single", "ring"], "placement"),
+                    ParamSpec::keys("k", Dimension::Length, 2, "keys"),
+                ],
+            }],
+        }
+    }
+
+    #[test]
+    fn descriptors_and_values_round_trip() {
+        let d = sample();
+        assert_eq!(
+            decode::<PluginDescriptor>(&encode(&d).expect("encodes")).expect("decodes"),
+            d
+        );
+        let v = vec![
+            ParamValue::Number(-0.0),
+            ParamValue::Integer(i64::MIN),
+            ParamValue::Keys(vec![(0.5, [1.0, f64::MAX, -3.0])]),
+            ParamValue::Choice("ring".into()),
+        ];
+        let back: Vec<ParamValue> = decode(&encode(&v).expect("encodes")).expect("decodes");
+        assert_eq!(back, v);
+        assert!(matches!(back[0], ParamValue::Number(x) if x.to_bits() == (-0.0f64).to_bits()));
+    }
+
+    #[test]
+    fn trailing_or_truncated_bytes_are_errors_not_panics() {
+        let mut bytes = encode(&sample()).expect("encodes");
+        bytes.push(0);
+        assert!(
+            decode::<PluginDescriptor>(&bytes)
+                .expect_err("trailing")
+                .contains("trailing")
+        );
+        bytes.truncate(bytes.len() / 2);
+        assert!(decode::<PluginDescriptor>(&bytes).is_err());
+        assert!(decode::<Vec<ParamValue>>(&[0xff; 9]).is_err());
+    }
+}

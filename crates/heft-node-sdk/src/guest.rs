@@ -555,3 +555,93 @@ macro_rules! export_plugin {
         }
     };
 }
+
+#[cfg(all(test, feature = "host"))]
+mod tests {
+    use super::*;
+    use crate::descriptor::{ParamSpec, PortSpec};
+    use crate::host::Plugin;
+    use crate::units::Dimension;
+
+    /// Writes `scale` times the frame index; panics when `scale` is negative.
+    #[derive(Debug)]
+    struct Ramp;
+    impl Node for Ramp {
+        fn spec() -> NodeSpec {
+            NodeSpec {
+                name: "ramp".into(),
+                doc: "A ramp.".into(),
+                notes: String::new(),
+                inputs: vec![],
+                outputs: vec![PortSpec::new("value", PortKind::Scalar, Dimension::Length, "Ramp.")],
+                params: vec![ParamSpec::number(
+                    "scale",
+                    Dimension::Length,
+                    1.0,
+                    (-10.0, 10.0),
+                    "Slope.",
+                )],
+            }
+        }
+        fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
+            let s = params.number("scale")?;
+            assert!(s >= 0.0, "negative scale {s}");
+            if s == 0.0 {
+                return Err(NodeError::new("a flat ramp is not a ramp"));
+            }
+            io.warn("ramp warns once");
+            io.fill("value", |i, out| out[0] = s * i as f64)
+        }
+    }
+
+    crate::export_plugin!(name: "unit", nodes: [Ramp]);
+
+    fn tl(n: u64) -> Timeline {
+        Timeline {
+            start_frame: 0,
+            frame_count: n,
+            rate_num: 24,
+            rate_den: 1,
+        }
+    }
+
+    fn call(p: &Plugin, scale: f64, out_len: usize) -> Result<(Vec<f64>, Vec<String>), crate::host::CallError> {
+        let bytes = Plugin::encode_params(&[ParamValue::Number(scale)]).expect("encodes");
+        let mut out = vec![0.0; out_len];
+        let warnings = p.evaluate(0, &bytes, tl(4), &[], &mut [(&mut out, 1)])?;
+        Ok((out, warnings))
+    }
+
+    #[test]
+    fn the_glue_describes_evaluates_and_passes_warnings() {
+        let p = Plugin::from_static(plugin_table(), "unit").expect("loads");
+        assert_eq!(p.descriptor().name, "unit");
+        assert_eq!(p.descriptor().nodes[0], Ramp::spec());
+        let (out, warnings) = call(&p, 0.5, 4).expect("evaluates");
+        assert_eq!(out, [0.0, 0.5, 1.0, 1.5]);
+        assert_eq!(warnings, ["ramp warns once"]);
+    }
+
+    #[test]
+    fn errors_and_panics_come_back_as_statuses() {
+        let p = Plugin::from_static(plugin_table(), "unit").expect("loads");
+        let e = call(&p, 0.0, 4).expect_err("node error");
+        assert_eq!(
+            (e.status, e.message.as_str()),
+            (Status::NodeError, "a flat ramp is not a ramp")
+        );
+        let e = call(&p, -1.0, 4).expect_err("panic");
+        assert_eq!(e.status, Status::Panic);
+        assert!(e.message.contains("negative scale -1"), "{}", e.message);
+        let e = call(&p, 1.0, 3).expect_err("short buffer");
+        assert_eq!(e.status, Status::BadCall);
+        assert!(e.message.contains("output `value` has the wrong size"), "{}", e.message);
+        let e = p.evaluate(7, &[], tl(1), &[], &mut []).expect_err("no such node");
+        assert_eq!(e.status, Status::BadCall);
+        let e = p
+            .evaluate(0, &[1, 2, 3], tl(1), &[], &mut [])
+            .expect_err("garbage parameters");
+        assert_eq!(e.status, Status::BadCall);
+        assert!(e.message.starts_with("parameters:"), "{}", e.message);
+    }
+}
