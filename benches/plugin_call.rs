@@ -33,7 +33,7 @@ fn setup() -> (Timeline, Vec<ParamValue>) {
 fn through(plugin: &Plugin, index: u32, params: &[u8], timeline: Timeline, out: &mut [Vec<f64>]) {
     let mut views: Vec<(&mut [f64], usize)> = out.iter_mut().map(|v| (v.as_mut_slice(), 3)).collect();
     plugin
-        .evaluate(index, params, timeline, &[], &mut views)
+        .evaluate(index, params, timeline, &[], &mut views, &mut [])
         .expect("evaluates");
 }
 

@@ -156,6 +156,10 @@ pub struct Call {
     pub message: ByteSink,
     /// Receives warnings (UTF-8, one per write) while the call succeeds.
     pub warning: ByteSink,
+    /// Room for the node type's summary values, in descriptor order, set to NaN by the host.
+    pub summaries: *mut f64,
+    /// Number of summary values.
+    pub summary_count: usize,
 }
 
 /// The function table a plugin exports. Fields are only ever appended.

@@ -32,6 +32,7 @@ mod tests {
                 name: "n".into(),
                 doc: "d".into(),
                 notes: String::new(),
+                summaries: Vec::new(),
                 inputs: vec![
                     PortSpec::new("a", PortKind::Points, Dimension::Length, "pts")
                         .with_points(4)

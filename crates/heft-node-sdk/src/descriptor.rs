@@ -138,6 +138,8 @@ pub enum ParamValue {
     Vec3([f64; 3]),
     /// Keyframes: (time in seconds, value vector in SI), in increasing time.
     Keys(Vec<(f64, [f64; 3])>),
+    /// Text (for host-side nodes: a file path, a column name).
+    Text(String),
 }
 
 impl ParamValue {
@@ -150,6 +152,7 @@ impl ParamValue {
             ParamValue::Choice(_) => "choice",
             ParamValue::Vec3(_) => "vec3",
             ParamValue::Keys(_) => "keys",
+            ParamValue::Text(_) => "text",
         }
     }
 }
@@ -196,6 +199,8 @@ pub enum ParamType {
         /// Fewest keys accepted.
         min_keys: usize,
     },
+    /// A quoted text.
+    Text,
 }
 
 /// One parameter of a node type.
@@ -279,6 +284,15 @@ impl ParamSpec {
             doc: doc.to_owned(),
         }
     }
+    /// A text parameter, required unless `default` is given.
+    pub fn text(name: &str, default: Option<&str>, doc: &str) -> ParamSpec {
+        ParamSpec {
+            name: name.to_owned(),
+            ty: ParamType::Text,
+            default: default.map(|d| ParamValue::Text(d.to_owned())),
+            doc: doc.to_owned(),
+        }
+    }
     /// Makes the parameter required (no default).
     pub fn required(mut self) -> ParamSpec {
         self.default = None;
@@ -286,8 +300,31 @@ impl ParamSpec {
     }
 }
 
-/// One node type a plugin offers.
+/// A single value a node reports for the whole evaluation (a take-off speed, a jump
+/// height, a peak force), as opposed to a per-frame series.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SummarySpec {
+    /// Name, unique in the node type.
+    pub name: String,
+    /// The SI dimension of the value.
+    pub dimension: Dimension,
+    /// One line of documentation.
+    pub doc: String,
+}
+
+impl SummarySpec {
+    /// A summary value.
+    pub fn new(name: &str, dimension: Dimension, doc: &str) -> SummarySpec {
+        SummarySpec {
+            name: name.to_owned(),
+            dimension,
+            doc: doc.to_owned(),
+        }
+    }
+}
+
+/// One node type a plugin offers.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct NodeSpec {
     /// Node type name inside the plugin (the graph names it `plugin.node`).
     pub name: String,
@@ -301,6 +338,8 @@ pub struct NodeSpec {
     pub outputs: Vec<PortSpec>,
     /// Parameters, in order.
     pub params: Vec<ParamSpec>,
+    /// Values reported once per evaluation, in order; every one must be set by `evaluate`.
+    pub summaries: Vec<SummarySpec>,
 }
 
 /// Everything a plugin says about itself.

@@ -148,6 +148,13 @@ impl Params {
             other => Err(Self::wrong(name, "vec3", other)),
         }
     }
+    /// A text parameter.
+    pub fn text(&self, name: &str) -> Result<&str, NodeError> {
+        match self.get(name)? {
+            ParamValue::Text(v) => Ok(v),
+            other => Err(Self::wrong(name, "text", other)),
+        }
+    }
     /// A keyframe parameter: (time s, vector SI) in increasing time.
     pub fn keys(&self, name: &str) -> Result<&[(f64, [f64; 3])], NodeError> {
         match self.get(name)? {
@@ -205,6 +212,7 @@ pub struct Io<'a> {
     outputs: Vec<&'a mut [f64]>,
     widths: Vec<usize>,
     warnings: Vec<String>,
+    summaries: Vec<f64>,
 }
 
 impl<'a> Io<'a> {
@@ -225,6 +233,7 @@ impl<'a> Io<'a> {
             outputs,
             widths,
             warnings: Vec::new(),
+            summaries: vec![f64::NAN; spec.summaries.len()],
         }
     }
     /// The frames to compute.
@@ -280,6 +289,21 @@ impl<'a> Io<'a> {
     /// Warnings recorded so far.
     pub fn warnings(&self) -> &[String] {
         &self.warnings
+    }
+    /// Reports a summary value declared in the spec (SI units).
+    pub fn summary(&mut self, name: &str, value: f64) -> Result<(), NodeError> {
+        let i = self
+            .spec
+            .summaries
+            .iter()
+            .position(|s| s.name == name)
+            .ok_or_else(|| NodeError::new(format!("no summary value `{name}`")))?;
+        self.summaries[i] = value;
+        Ok(())
+    }
+    /// Summary values reported so far, in spec order (NaN where not reported).
+    pub fn summaries(&self) -> &[f64] {
+        &self.summaries
     }
 }
 
@@ -507,6 +531,16 @@ unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
         for w in io.warnings() {
             send(call.warning, w.as_bytes());
         }
+        let has_summaries =
+            call.struct_size >= std::mem::offset_of!(Call, summary_count) + std::mem::size_of::<usize>();
+        if has_summaries && call.summary_count > 0 {
+            if call.summary_count != io.summaries().len() {
+                return Err(bad("summary count does not match the node type"));
+            }
+            // SAFETY: the host passes room for `summary_count` values, alive and exclusive for the call.
+            let out = unsafe { std::slice::from_raw_parts_mut(call.summaries, call.summary_count) };
+            out.copy_from_slice(io.summaries());
+        }
         result.map_err(|e| (Status::NodeError, e.0))
     })
 }
@@ -559,7 +593,7 @@ macro_rules! export_plugin {
 #[cfg(all(test, feature = "host"))]
 mod tests {
     use super::*;
-    use crate::descriptor::{ParamSpec, PortSpec};
+    use crate::descriptor::{ParamSpec, PortSpec, SummarySpec};
     use crate::host::Plugin;
     use crate::units::Dimension;
 
@@ -572,6 +606,7 @@ mod tests {
                 name: "ramp".into(),
                 doc: "A ramp.".into(),
                 notes: String::new(),
+                summaries: vec![SummarySpec::new("top", Dimension::Length, "The last value.")],
                 inputs: vec![],
                 outputs: vec![PortSpec::new("value", PortKind::Scalar, Dimension::Length, "Ramp.")],
                 params: vec![ParamSpec::number(
@@ -590,6 +625,7 @@ mod tests {
                 return Err(NodeError::new("a flat ramp is not a ramp"));
             }
             io.warn("ramp warns once");
+            io.summary("top", s * (io.frames() - 1) as f64)?;
             io.fill("value", |i, out| out[0] = s * i as f64)
         }
     }
@@ -605,11 +641,14 @@ mod tests {
         }
     }
 
-    fn call(p: &Plugin, scale: f64, out_len: usize) -> Result<(Vec<f64>, Vec<String>), crate::host::CallError> {
+    type Called = (Vec<f64>, Vec<String>, Vec<f64>);
+
+    fn call(p: &Plugin, scale: f64, out_len: usize) -> Result<Called, crate::host::CallError> {
         let bytes = Plugin::encode_params(&[ParamValue::Number(scale)]).expect("encodes");
         let mut out = vec![0.0; out_len];
-        let warnings = p.evaluate(0, &bytes, tl(4), &[], &mut [(&mut out, 1)])?;
-        Ok((out, warnings))
+        let mut summaries = vec![f64::NAN];
+        let warnings = p.evaluate(0, &bytes, tl(4), &[], &mut [(&mut out, 1)], &mut summaries)?;
+        Ok((out, warnings, summaries))
     }
 
     #[test]
@@ -617,9 +656,10 @@ mod tests {
         let p = Plugin::from_static(plugin_table(), "unit").expect("loads");
         assert_eq!(p.descriptor().name, "unit");
         assert_eq!(p.descriptor().nodes[0], Ramp::spec());
-        let (out, warnings) = call(&p, 0.5, 4).expect("evaluates");
+        let (out, warnings, summaries) = call(&p, 0.5, 4).expect("evaluates");
         assert_eq!(out, [0.0, 0.5, 1.0, 1.5]);
         assert_eq!(warnings, ["ramp warns once"]);
+        assert_eq!(summaries, [1.5]);
     }
 
     #[test]
@@ -636,10 +676,12 @@ mod tests {
         let e = call(&p, 1.0, 3).expect_err("short buffer");
         assert_eq!(e.status, Status::BadCall);
         assert!(e.message.contains("output `value` has the wrong size"), "{}", e.message);
-        let e = p.evaluate(7, &[], tl(1), &[], &mut []).expect_err("no such node");
+        let e = p
+            .evaluate(7, &[], tl(1), &[], &mut [], &mut [])
+            .expect_err("no such node");
         assert_eq!(e.status, Status::BadCall);
         let e = p
-            .evaluate(0, &[1, 2, 3], tl(1), &[], &mut [])
+            .evaluate(0, &[1, 2, 3], tl(1), &[], &mut [], &mut [])
             .expect_err("garbage parameters");
         assert_eq!(e.status, Status::BadCall);
         assert!(e.message.starts_with("parameters:"), "{}", e.message);

@@ -260,6 +260,8 @@ impl Plugin {
                 ctx: std::ptr::null_mut(),
                 write: push_text,
             },
+            summaries: std::ptr::null_mut(),
+            summary_count: 0,
         }
     }
 
@@ -299,7 +301,8 @@ impl Plugin {
     }
 
     /// Evaluates a node over `timeline`. Inputs are (values, width); outputs are
-    /// host-allocated buffers of frames times width. Returns the node's warnings.
+    /// host-allocated buffers of frames times width; `summaries` has room for the node
+    /// type's summary values (left NaN where the node reports none). Returns the warnings.
     pub fn evaluate(
         &self,
         node_index: u32,
@@ -307,6 +310,7 @@ impl Plugin {
         timeline: Timeline,
         inputs: &[(&[f64], usize)],
         outputs: &mut [(&mut [f64], usize)],
+        summaries: &mut [f64],
     ) -> Result<Vec<String>, CallError> {
         let in_views: Vec<SeriesView> = inputs
             .iter()
@@ -333,8 +337,11 @@ impl Plugin {
         call.output_count = out_views.len();
         call.message = byte_sink(&mut message);
         call.warning = text_sink(&mut warnings);
+        call.summaries = summaries.as_mut_ptr();
+        call.summary_count = summaries.len();
         // SAFETY: every pointer in `call` refers to data borrowed for this function: inputs
-        // shared, outputs exclusively (`&mut`), distinct slices; the sinks' buffers live here.
+        // shared, outputs and summaries exclusively (`&mut`), distinct slices; the sinks'
+        // buffers live here.
         let code = unsafe { (self.table.evaluate)(&call) };
         match Status::from_code(code) {
             Status::Ok => Ok(warnings),

@@ -21,7 +21,9 @@ pub mod host;
 pub mod units;
 
 pub use abi::Timeline;
-pub use descriptor::{NodeSpec, ParamSpec, ParamType, ParamValue, PluginDescriptor, PortKind, PortSpec, Shape};
+pub use descriptor::{
+    NodeSpec, ParamSpec, ParamType, ParamValue, PluginDescriptor, PortKind, PortSpec, Shape, SummarySpec,
+};
 pub use guest::{Io, Node, NodeError, Params, Series};
 pub use units::Dimension;
 

@@ -220,6 +220,8 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
             let f = unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
             Ok(ParamValue::Keys(vec![(time * tf, values.map(|v| v * f))]))
         }
+        (ParamType::Text, Value::Text(t)) => Ok(ParamValue::Text(t.clone())),
+        (ParamType::Text, _) => Err(mismatch("a quoted text")),
         (ParamType::Keys { dimension, .. }, _) => Err(mismatch(&format!(
             "keys `time: (x, y, z) unit` ({})",
             dimension.describe()

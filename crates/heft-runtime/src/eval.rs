@@ -66,6 +66,8 @@ pub struct Evaluation {
     pub values: Vec<Vec<Vec<f64>>>,
     /// Time spent in each node.
     pub node_time: Vec<Duration>,
+    /// For each node, its summary values in spec order (SI).
+    pub summaries: Vec<Vec<f64>>,
     /// Warnings, as (node name, message), in node order.
     pub warnings: Vec<(String, String)>,
     /// Wall time of the whole evaluation.
@@ -74,6 +76,7 @@ pub struct Evaluation {
 
 struct NodeResult {
     outputs: Vec<Vec<f64>>,
+    summaries: Vec<f64>,
     time: Duration,
     warnings: Vec<String>,
 }
@@ -95,6 +98,7 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
         })
         .collect();
     let mut outputs: Vec<Vec<f64>> = node.outputs.iter().map(|s| vec![0.0; frames * s.width()]).collect();
+    let mut summaries = vec![f64::NAN; spec.summaries.len()];
     let started = Instant::now();
     let warnings = {
         let mut views: Vec<(&mut [f64], usize)> = outputs
@@ -105,7 +109,14 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
         node.ty
             .plugin
             .plugin
-            .evaluate(node.ty.index, &node.params_bytes, plan.timeline, &inputs, &mut views)
+            .evaluate(
+                node.ty.index,
+                &node.params_bytes,
+                plan.timeline,
+                &inputs,
+                &mut views,
+                &mut summaries,
+            )
             .map_err(|e| EvalError::Node {
                 node: node.name.clone(),
                 ty: node.ty.full_name.clone(),
@@ -127,8 +138,21 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             });
         }
     }
+    if let Some((k, v)) = summaries.iter().enumerate().find(|(_, v)| !v.is_finite()) {
+        let name = &spec.summaries[k].name;
+        return Err(EvalError::Node {
+            node: node.name.clone(),
+            ty: node.ty.full_name.clone(),
+            message: if v.is_nan() {
+                format!("it did not report its summary value `{name}`")
+            } else {
+                format!("its summary value `{name}` is {v}")
+            },
+        });
+    }
     Ok(NodeResult {
         outputs,
+        summaries,
         time,
         warnings,
     })
@@ -153,19 +177,23 @@ pub fn evaluate(plan: &Plan, threads: Option<usize>) -> Result<Evaluation, EvalE
     let wall = started.elapsed();
     let mut values = Vec::with_capacity(done.len());
     let mut node_time = Vec::with_capacity(done.len());
+    let mut summaries = Vec::with_capacity(done.len());
     let mut warnings = Vec::new();
     for (i, r) in done.into_iter().enumerate() {
         let r = r.unwrap_or(NodeResult {
             outputs: Vec::new(),
+            summaries: Vec::new(),
             time: Duration::ZERO,
             warnings: Vec::new(),
         });
         values.push(r.outputs);
+        summaries.push(r.summaries);
         node_time.push(r.time);
         warnings.extend(r.warnings.into_iter().map(|w| (plan.nodes[i].name.clone(), w)));
     }
     Ok(Evaluation {
         values,
+        summaries,
         node_time,
         warnings,
         wall,

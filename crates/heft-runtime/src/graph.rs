@@ -61,6 +61,8 @@ pub enum Value {
     },
     /// A bare word: `true`, `ring`.
     Word(String),
+    /// A quoted text: `"plates/trial 3.csv"` (no escapes; a text cannot hold `"`).
+    Text(String),
     /// A keyframe `0.4 s: (0, 0, 1.02) m`.
     Key {
         /// Time.
@@ -353,6 +355,28 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
                 "expected a value after `=`",
             ));
         }
+        Some('"') => {
+            let body = &line.rest()[1..];
+            let Some(close) = body.find('"') else {
+                return Err(problem(
+                    source,
+                    Span::new(start, base + text.trim_end().len()),
+                    "this text has no closing `\"`",
+                )
+                .label("unclosed text"));
+            };
+            let t = body[..close].to_owned();
+            line.pos += close + 2;
+            if !line.done() {
+                let at = line.at();
+                return Err(problem(
+                    source,
+                    Span::new(at, base + text.trim_end().len()),
+                    "unexpected text after the value",
+                ));
+            }
+            Value::Text(t)
+        }
         Some('(') => {
             let values = vector(&mut line, source)?;
             let unit = line.unit_until(None);
@@ -623,6 +647,19 @@ fn statement(
     Ok(())
 }
 
+/// The line without its comment: from the first `#` outside a quoted text.
+fn strip_comment(line: &str) -> &str {
+    let mut quoted = false;
+    for (i, c) in line.char_indices() {
+        match c {
+            '"' => quoted = !quoted,
+            '#' if !quoted => return &line[..i],
+            _ => {}
+        }
+    }
+    line
+}
+
 /// Parses a graph file. Returns what could be read and every problem found.
 pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
     let mut graph = GraphFile {
@@ -643,10 +680,7 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
         let base = offset;
         offset += raw.len();
         let text = raw.trim_end_matches(['\n', '\r']);
-        let text = match text.find('#') {
-            Some(i) => &text[..i],
-            None => text,
-        };
+        let text = strip_comment(text);
         if text.trim().is_empty() {
             continue;
         }

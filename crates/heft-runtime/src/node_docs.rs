@@ -27,6 +27,7 @@ fn value_text(v: &ParamValue, ty: &ParamType) -> String {
         ParamValue::Choice(c) => c.clone(),
         ParamValue::Vec3(a) => format!("({}, {}, {}){unit}", a[0], a[1], a[2]),
         ParamValue::Keys(k) => format!("{} keys", k.len()),
+        ParamValue::Text(t) => format!("\"{t}\""),
     }
 }
 
@@ -47,6 +48,7 @@ fn type_text(ty: &ParamType) -> String {
             dimension.describe(),
             unit_of(*dimension)
         ),
+        ParamType::Text => "quoted text".to_owned(),
         ParamType::Keys { dimension, min_keys } => format!(
             "keyframes `time: (x, y, z) unit`, one per line, {}; at least {min_keys}",
             dimension.describe()
@@ -119,6 +121,16 @@ pub fn describe_type(t: &NodeType) -> String {
     let _ = writeln!(out, "\noutputs:");
     for p in &spec.outputs {
         port_line(&mut out, p);
+    }
+    if !spec.summaries.is_empty() {
+        let _ = writeln!(out, "\nsummary values (in run.json):");
+        for s in &spec.summaries {
+            let unit = match s.dimension.si_symbol() {
+                "" => "-",
+                u => u,
+            };
+            let _ = writeln!(out, "  {:<18} {:<8} {}", s.name, unit, s.doc);
+        }
     }
     let _ = writeln!(out, "\nparameters:");
     if spec.params.is_empty() {

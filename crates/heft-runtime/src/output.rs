@@ -110,6 +110,14 @@ struct OutputEntry {
 }
 
 #[derive(Serialize)]
+struct SummaryEntry {
+    node: String,
+    name: String,
+    value: f64,
+    unit: &'static str,
+}
+
+#[derive(Serialize)]
 struct TimelineEntry {
     first_frame: i64,
     last_frame: i64,
@@ -126,6 +134,7 @@ struct Summary {
     plugins: Vec<PluginEntry>,
     nodes: Vec<NodeEntry>,
     outputs: Vec<OutputEntry>,
+    summaries: Vec<SummaryEntry>,
     warnings: Vec<String>,
     evaluation_seconds: f64,
     wall_seconds: f64,
@@ -207,6 +216,19 @@ pub fn write_all(
             })
             .collect(),
         outputs,
+        summaries: plan
+            .nodes
+            .iter()
+            .zip(&eval.summaries)
+            .flat_map(|(n, values)| {
+                n.ty.spec().summaries.iter().zip(values).map(|(s, v)| SummaryEntry {
+                    node: n.name.clone(),
+                    name: s.name.clone(),
+                    value: *v,
+                    unit: s.dimension.si_symbol(),
+                })
+            })
+            .collect(),
         warnings: eval.warnings.iter().map(|(n, w)| format!("{n}: {w}")).collect(),
         evaluation_seconds: eval.wall.as_secs_f64(),
         wall_seconds: wall.as_secs_f64(),

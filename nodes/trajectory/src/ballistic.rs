@@ -14,6 +14,7 @@ impl Node for Ballistic {
             notes: "p(t) = p0 + v0 (t - t0) - (0, 0, g) (t - t0)^2 / 2, evaluated in closed form at every frame \
                     (no integration error). Z is up. Frames before the launch time follow the same parabola."
                 .into(),
+            summaries: Vec::new(),
             inputs: vec![],
             outputs: vec![
                 PortSpec::new(

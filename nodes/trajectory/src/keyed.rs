@@ -16,6 +16,7 @@ impl Node for Keyed {
                     after the last the path continues along the end tangent (straight, zero acceleration), which \
                     keeps the acceleration continuous."
                 .into(),
+            summaries: Vec::new(),
             inputs: vec![],
             outputs: vec![
                 PortSpec::new("position", PortKind::Vec3, Dimension::Length, "Position on the spline."),
