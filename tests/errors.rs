@@ -8,7 +8,7 @@
 
 use std::sync::LazyLock;
 
-use heft_integration_tests::{fixture_dir, plugin_dir};
+use heft_integration_tests::{fixture_dir, library, registry_with_probe};
 use heft_node_sdk::ParamValue;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::{Problem, render};
@@ -17,8 +17,12 @@ use heft_runtime::registry::Registry;
 
 /// The real plugins and the test `probe` plugin (the wrong-ABI and no-entry libraries in
 /// the fixture folder land in `failures()`).
-static REGISTRY: LazyLock<Registry> =
-    LazyLock::new(|| Registry::discover(&[plugin_dir().to_path_buf(), fixture_dir().to_path_buf()]));
+static REGISTRY: LazyLock<Registry> = LazyLock::new(|| {
+    let mut reg = registry_with_probe();
+    reg.load_file(&library(fixture_dir(), "heft_test_plugin_wrong_abi"));
+    reg.load_file(&library(fixture_dir(), "heft_test_plugin_no_entry"));
+    reg
+});
 
 const NAME: &str = "t.graph";
 

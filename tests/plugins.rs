@@ -71,11 +71,12 @@ fn a_file_that_is_not_a_library_is_refused_and_discovery_goes_on() {
 fn the_real_plugin_describes_itself() {
     let reg = registry();
     let t = reg.lookup("trajectory.keyed").expect("unique").expect("present");
-    let d = t.plugin.plugin.descriptor();
+    let plugin = t.plugin().expect("a plugin node type");
+    let d = plugin.plugin.descriptor();
     assert_eq!(d.name, "trajectory");
     assert_eq!(d.version, env!("CARGO_PKG_VERSION"));
     assert_eq!(t.spec().outputs.len(), 3);
-    assert_eq!(t.plugin.sha256.len(), 64, "the file hash is recorded");
+    assert_eq!(plugin.sha256.len(), 64, "the file hash is recorded");
 }
 
 const PANIC_GRAPH: &str = "format 1\nrate 24 fps\nframes 1..10\nboom = probe.explode\nwrite boom.value\n";

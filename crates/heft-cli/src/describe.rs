@@ -28,7 +28,7 @@ pub fn nodes(registry: &Registry, node_type: Option<&str>) -> ExitCode {
             Err(many) => {
                 eprintln!("error: node type `{name}` is offered by more than one plugin:");
                 for t in many {
-                    eprintln!("  {}", t.plugin.plugin.origin().display());
+                    eprintln!("  {}", t.origin());
                 }
                 ExitCode::from(1)
             }

@@ -11,7 +11,8 @@ use heft_node_sdk::{Dimension, ParamSpec, ParamType, ParamValue, PortKind, Shape
 
 use crate::diag::{Place, Problem, Source, Span};
 use crate::graph::{GraphFile, ParamLine, PortRef, Spanned, UnitText, Value, parse_value};
-use crate::registry::{NodeType, Registry, closest};
+use crate::registry::{NodeType, Provider, Registry, closest};
+use crate::tracks;
 use crate::units;
 
 /// What the command line changes in a graph.
@@ -38,6 +39,8 @@ pub struct PlannedNode {
     pub inputs: Vec<Option<(usize, usize)>>,
     /// Shape of each output.
     pub outputs: Vec<Shape>,
+    /// For a host-side node, its outputs, read when the graph was checked.
+    pub host_data: Option<Vec<Vec<f64>>>,
 }
 
 /// An output to write.
@@ -347,10 +350,7 @@ pub fn check(
                 state.ok = false;
             }
             Err(many) => {
-                let files: Vec<String> = many
-                    .iter()
-                    .map(|t| t.plugin.plugin.origin().display().to_string())
-                    .collect();
+                let files: Vec<String> = many.iter().map(NodeType::origin).collect();
                 problems.push(
                     Problem::new(
                         src,
@@ -729,6 +729,11 @@ pub fn check(
     // Output shapes, in order.
     let mut shapes: Vec<Option<Vec<Shape>>> = vec![None; n];
     let mut params_bytes: Vec<Vec<u8>> = vec![Vec::new(); n];
+    let mut host_data: Vec<Option<Vec<Vec<f64>>>> = vec![None; n];
+    let graph_dir = std::path::Path::new(&src.name)
+        .parent()
+        .map(std::path::Path::to_path_buf)
+        .unwrap_or_default();
     for level in &levels {
         for &i in level {
             let (Some(ty), true) = (&states[i].ty, states[i].ok) else {
@@ -782,33 +787,55 @@ pub fn check(
                     continue;
                 }
             };
-            match ty
-                .plugin
-                .plugin
-                .output_points(ty.index, &bytes, timeline, &widths, spec.outputs.len())
-            {
-                Ok(points) => {
-                    shapes[i] = Some(
-                        spec.outputs
-                            .iter()
-                            .zip(points)
-                            .map(|(o, p)| match o.kind {
-                                PortKind::Points => Shape::points(p),
-                                k => Shape::of(k),
-                            })
-                            .collect(),
-                    );
-                    params_bytes[i] = bytes;
+            match &ty.provider {
+                Provider::Host(h) => match tracks::load(*h, &states[i].params, &graph_dir, timeline) {
+                    Ok(data) => {
+                        shapes[i] = Some(spec.outputs.iter().map(|o| Shape::of(o.kind)).collect());
+                        host_data[i] = Some(data);
+                    }
+                    Err(e) => {
+                        // Point at the line that set the parameter, or at the node.
+                        let at = written[i].iter().rev().find(|w| w.line.name.value == e.param);
+                        let mut p = match at {
+                            Some(w) => Problem::new(&w.source, w.line.value.span, e.message),
+                            None => Problem::new(src, graph.nodes[i].name.span, e.message),
+                        }
+                        .label(format!("`{}` of this track", e.param));
+                        if let Some(h) = e.help {
+                            p = p.help(h);
+                        }
+                        problems.push(p);
+                    }
+                },
+                Provider::Plugin { plugin, index } => {
+                    match plugin
+                        .plugin
+                        .output_points(*index, &bytes, timeline, &widths, spec.outputs.len())
+                    {
+                        Ok(points) => {
+                            shapes[i] = Some(
+                                spec.outputs
+                                    .iter()
+                                    .zip(points)
+                                    .map(|(o, p)| match o.kind {
+                                        PortKind::Points => Shape::points(p),
+                                        k => Shape::of(k),
+                                    })
+                                    .collect(),
+                            );
+                        }
+                        Err(e) => problems.push(
+                            Problem::new(
+                                src,
+                                graph.nodes[i].name.span,
+                                format!("node `{}` cannot size its outputs: {e}", graph.nodes[i].name.value),
+                            )
+                            .label("this node"),
+                        ),
+                    }
                 }
-                Err(e) => problems.push(
-                    Problem::new(
-                        src,
-                        graph.nodes[i].name.span,
-                        format!("node `{}` cannot size its outputs: {e}", graph.nodes[i].name.value),
-                    )
-                    .label("this node"),
-                ),
             }
+            params_bytes[i] = bytes;
         }
     }
 
@@ -857,6 +884,7 @@ pub fn check(
             params_bytes: std::mem::take(&mut params_bytes[i]),
             inputs: std::mem::take(&mut inputs[i]),
             outputs: shapes[i].take().expect("checked: every node has shapes"),
+            host_data: host_data[i].take(),
         })
         .collect();
     Ok(Plan {

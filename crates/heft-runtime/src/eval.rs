@@ -8,6 +8,7 @@ use rayon::prelude::*;
 
 use crate::check::Plan;
 use crate::output::columns;
+use crate::registry::Provider;
 
 /// Why an evaluation stopped.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -97,6 +98,21 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             None => (empty, 0),
         })
         .collect();
+    if let Some(data) = &node.host_data {
+        return Ok(NodeResult {
+            outputs: data.clone(),
+            summaries: Vec::new(),
+            time: std::time::Duration::ZERO,
+            warnings: Vec::new(),
+        });
+    }
+    let Provider::Plugin { plugin, index } = &node.ty.provider else {
+        return Err(EvalError::Node {
+            node: node.name.clone(),
+            ty: node.ty.full_name.clone(),
+            message: "a host node without its data".to_owned(),
+        });
+    };
     let mut outputs: Vec<Vec<f64>> = node.outputs.iter().map(|s| vec![0.0; frames * s.width()]).collect();
     let mut summaries = vec![f64::NAN; spec.summaries.len()];
     let started = Instant::now();
@@ -106,11 +122,10 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             .zip(&node.outputs)
             .map(|(v, s)| (v.as_mut_slice(), s.width()))
             .collect();
-        node.ty
-            .plugin
+        plugin
             .plugin
             .evaluate(
-                node.ty.index,
+                *index,
                 &node.params_bytes,
                 plan.timeline,
                 &inputs,

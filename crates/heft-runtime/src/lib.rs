@@ -37,3 +37,4 @@ pub fn plan_text(
     check::check(&graph, problems, registry, overrides)
 }
 pub mod node_docs;
+pub mod tracks;

@@ -88,6 +88,10 @@ pub fn list(registry: &Registry) -> String {
             let _ = writeln!(out, "  {full:<28} {}{clash}", n.doc);
         }
     }
+    let _ = writeln!(out, "built into heft");
+    for h in crate::tracks::HostNode::ALL {
+        let _ = writeln!(out, "  {:<28} {}", h.full_name(), h.spec().doc);
+    }
     for f in registry.failures() {
         let _ = writeln!(out, "not loaded: {f}");
     }
@@ -97,16 +101,23 @@ pub fn list(registry: &Registry) -> String {
 /// Everything about one node type: ports, parameters with units, defaults, ranges, docs.
 pub fn describe_type(t: &NodeType) -> String {
     let spec = t.spec();
-    let d = t.plugin.plugin.descriptor();
     let mut out = String::new();
-    let _ = writeln!(
-        out,
-        "{}  (plugin {} {}, {})",
-        t.full_name,
-        d.name,
-        d.version,
-        t.plugin.plugin.origin().display()
-    );
+    match t.plugin() {
+        Some(p) => {
+            let d = p.plugin.descriptor();
+            let _ = writeln!(
+                out,
+                "{}  (plugin {} {}, {})",
+                t.full_name,
+                d.name,
+                d.version,
+                t.origin()
+            );
+        }
+        None => {
+            let _ = writeln!(out, "{}  ({})", t.full_name, t.origin());
+        }
+    }
     let _ = writeln!(out, "{}", spec.doc);
     if !spec.notes.is_empty() {
         let _ = writeln!(out, "\n{}", spec.notes);

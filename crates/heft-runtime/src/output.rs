@@ -182,7 +182,7 @@ pub fn write_all(
     }
     let mut plugins: Vec<PluginEntry> = Vec::new();
     for n in &plan.nodes {
-        let p = &n.ty.plugin;
+        let Some(p) = n.ty.plugin() else { continue };
         let file = p.plugin.origin().display().to_string();
         if !plugins.iter().any(|e| e.file == file) {
             plugins.push(PluginEntry {

@@ -13,6 +13,8 @@ use std::sync::Arc;
 use heft_node_sdk::NodeSpec;
 use heft_node_sdk::abi::PluginTable;
 use heft_node_sdk::host::{LoadError, Plugin};
+
+use crate::tracks::{HOST_PLUGIN, HostNode};
 use sha2::{Digest, Sha256};
 
 /// The environment variable holding extra plugin folders (`:`-separated on Unix).
@@ -27,21 +29,50 @@ pub struct LoadedPlugin {
     pub sha256: String,
 }
 
-/// A node type offered by a loaded plugin.
+/// Who evaluates a node type.
+#[derive(Debug, Clone)]
+pub enum Provider {
+    /// A loaded plugin, and the node type's index in its descriptor.
+    Plugin {
+        /// The plugin.
+        plugin: Arc<LoadedPlugin>,
+        /// Index in the plugin's descriptor.
+        index: u32,
+    },
+    /// The host itself (a source that reads a file).
+    Host(HostNode),
+}
+
+/// A node type: `plugin.node` and who provides it.
 #[derive(Debug, Clone)]
 pub struct NodeType {
     /// `plugin.node`.
     pub full_name: String,
-    /// The plugin offering it.
-    pub plugin: Arc<LoadedPlugin>,
-    /// Its index in the plugin's descriptor.
-    pub index: u32,
+    /// Who evaluates it.
+    pub provider: Provider,
 }
 
 impl NodeType {
     /// Its spec.
     pub fn spec(&self) -> &NodeSpec {
-        &self.plugin.plugin.descriptor().nodes[self.index as usize]
+        match &self.provider {
+            Provider::Plugin { plugin, index } => &plugin.plugin.descriptor().nodes[*index as usize],
+            Provider::Host(h) => h.spec(),
+        }
+    }
+    /// The plugin providing it, if it is not built into the host.
+    pub fn plugin(&self) -> Option<&Arc<LoadedPlugin>> {
+        match &self.provider {
+            Provider::Plugin { plugin, .. } => Some(plugin),
+            Provider::Host(_) => None,
+        }
+    }
+    /// Where it comes from: the plugin file, or "built into heft".
+    pub fn origin(&self) -> String {
+        match &self.provider {
+            Provider::Plugin { plugin, .. } => plugin.plugin.origin().display().to_string(),
+            Provider::Host(_) => "built into heft".to_owned(),
+        }
     }
 }
 
@@ -80,9 +111,17 @@ fn sha256_hex(path: &Path) -> String {
 }
 
 impl Registry {
-    /// An empty registry.
+    /// A registry holding only the node types built into the host.
     pub fn new() -> Registry {
-        Registry::default()
+        let mut reg = Registry::default();
+        for h in HostNode::ALL {
+            let full_name = h.full_name();
+            reg.types.entry(full_name.clone()).or_default().push(NodeType {
+                full_name,
+                provider: Provider::Host(h),
+            });
+        }
+        reg
     }
 
     /// Loads every plugin in the folders, in order. Missing folders are skipped; the same
@@ -131,12 +170,21 @@ impl Registry {
     fn add(&mut self, loaded: LoadedPlugin) {
         let loaded = Arc::new(loaded);
         let d = loaded.plugin.descriptor();
+        if d.name == HOST_PLUGIN {
+            self.failures.push(LoadError::Describe {
+                path: loaded.plugin.origin().to_path_buf(),
+                reason: format!("the plugin name `{HOST_PLUGIN}` is reserved for node types built into heft"),
+            });
+            return;
+        }
         for (i, n) in d.nodes.iter().enumerate() {
             let full_name = format!("{}.{}", d.name, n.name);
             self.types.entry(full_name.clone()).or_default().push(NodeType {
                 full_name,
-                plugin: Arc::clone(&loaded),
-                index: i as u32,
+                provider: Provider::Plugin {
+                    plugin: Arc::clone(&loaded),
+                    index: i as u32,
+                },
             });
         }
         self.plugins.push(loaded);
