@@ -111,3 +111,22 @@ fn a_missing_file_is_an_error_at_the_file_line() {
         "{msg}"
     );
 }
+
+#[test]
+fn the_file_can_be_set_from_the_command_line_without_quotes() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    std::fs::write(dir.path().join("other.csv"), "time,Fz\n0,7\n0.01,8\n0.02,9\n0.03,10\n").expect("write");
+    std::fs::write(dir.path().join("plate.csv"), "time,Fz\n0,1\n0.01,2\n0.02,3\n0.03,4\n").expect("write");
+    let graph = dir.path().join("g.graph");
+    std::fs::write(&graph, format!("format 1\nrate 100 fps\nframes 0..3\n{NODE}")).expect("write graph");
+    let (g, p) = read_graph(&graph).expect("readable");
+    let set = Overrides {
+        set: vec!["plate.file=other.csv".into()],
+        frames: None,
+    };
+    let plan = check(&g, p, &registry(), &set).expect("checks");
+    assert_eq!(
+        evaluate(&plan, None).expect("evaluates").values[0][0],
+        [7.0, 8.0, 9.0, 10.0]
+    );
+}

@@ -223,7 +223,7 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
             let f = unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
             Ok(ParamValue::Keys(vec![(time * tf, values.map(|v| v * f))]))
         }
-        (ParamType::Text, Value::Text(t)) => Ok(ParamValue::Text(t.clone())),
+        (ParamType::Text, Value::Text(t) | Value::Word(t)) => Ok(ParamValue::Text(t.clone())),
         (ParamType::Text, _) => Err(mismatch("a quoted text")),
         (ParamType::Keys { dimension, .. }, _) => Err(mismatch(&format!(
             "keys `time: (x, y, z) unit` ({})",
@@ -254,7 +254,23 @@ fn parse_overrides(set: &[String], problems: &mut Vec<Problem>) -> Vec<(Arc<Sour
         };
         let node = target[..dot].trim();
         let param = target[dot + 1..].trim();
-        match parse_value(&source, &text[eq + 1..], eq + 1) {
+        let raw = text[eq + 1..].trim();
+        // On the command line a text (a file path) may go without quotes: `plate.file=trial3.csv`.
+        let bare_text = !raw.is_empty()
+            && raw.starts_with(|c: char| c.is_alphabetic() || c == '/' || c == '.')
+            && !raw.contains(['"', '(', ' ']);
+        let parsed = parse_value(&source, &text[eq + 1..], eq + 1).or_else(|p| {
+            if bare_text {
+                let start = eq + 1 + (text[eq + 1..].len() - text[eq + 1..].trim_start().len());
+                Ok(Spanned {
+                    value: Value::Text(raw.to_owned()),
+                    span: Span::new(start, start + raw.len()),
+                })
+            } else {
+                Err(p)
+            }
+        });
+        match parsed {
             Ok(value) => out.push((
                 Arc::clone(&source),
                 Spanned {
@@ -873,20 +889,26 @@ pub fn check(
     if !problems.is_empty() {
         return Err(problems);
     }
-    let nodes = states
-        .into_iter()
-        .zip(&graph.nodes)
-        .enumerate()
-        .map(|(i, (s, d))| PlannedNode {
+    let mut nodes = Vec::with_capacity(n);
+    for (i, (s, d)) in states.into_iter().zip(&graph.nodes).enumerate() {
+        // Every node without a type or shapes has a problem reported above; this is a guard.
+        let (Some(ty), Some(outputs)) = (s.ty, shapes[i].take()) else {
+            return Err(vec![Problem::new(
+                src,
+                d.name.span,
+                format!("node `{}` could not be planned", d.name.value),
+            )]);
+        };
+        nodes.push(PlannedNode {
             name: d.name.value.clone(),
-            ty: s.ty.clone().expect("checked: every node has a type"),
+            ty,
             params: s.params,
             params_bytes: std::mem::take(&mut params_bytes[i]),
             inputs: std::mem::take(&mut inputs[i]),
-            outputs: shapes[i].take().expect("checked: every node has shapes"),
+            outputs,
             host_data: host_data[i].take(),
-        })
-        .collect();
+        });
+    }
     Ok(Plan {
         source: Arc::clone(src),
         timeline,
