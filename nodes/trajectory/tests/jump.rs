@@ -1,0 +1,752 @@
+//! Tests of `trajectory.jump`: the node called directly (no plugin boundary) and the plan's
+//! closed-form functions, checked against physics from outside the project.
+
+use std::collections::HashMap;
+
+use heft_node_sdk::{Io, Node, NodeError, ParamValue, Params, STANDARD_GRAVITY, Timeline};
+use heft_trajectory::Jump;
+use heft_trajectory::jump::{JumpSpec, Phase, Plan, State};
+use proptest::prelude::*;
+
+/// Standard gravity, exact by definition (3rd CGPM, 1901).
+const G: f64 = STANDARD_GRAVITY;
+const DEG: f64 = std::f64::consts::PI / 180.0;
+
+fn timeline(fps: u32, start: i64, frames: u64) -> Timeline {
+    Timeline {
+        start_frame: start,
+        frame_count: frames,
+        rate_num: fps,
+        rate_den: 1,
+    }
+}
+
+type Changes = Vec<(&'static str, ParamValue)>;
+
+fn params(changes: &[(&'static str, ParamValue)]) -> Params {
+    let mut p = Params::defaults(&Jump::spec()).expect("every parameter has a default");
+    for (name, value) in changes {
+        p = p.with(name, value.clone()).expect("a parameter of the node");
+    }
+    p
+}
+
+fn num(name: &'static str, v: f64) -> (&'static str, ParamValue) {
+    (name, ParamValue::Number(v))
+}
+
+fn speed_mode() -> (&'static str, ParamValue) {
+    ("drive", ParamValue::Choice("speed".into()))
+}
+
+fn no_swing() -> (&'static str, ParamValue) {
+    num("arm_swing_to", -40.0 * DEG)
+}
+
+/// The plan the node builds for these parameters at 24 fps (take-off frame 48 = 2 s).
+fn plan(changes: &[(&'static str, ParamValue)]) -> Result<Plan, NodeError> {
+    let spec = JumpSpec::from_params(&params(changes), timeline(24, 0, 1))?;
+    Plan::new(&spec)
+}
+
+/// One evaluation of the node: every output by name (values, width), summaries, warnings.
+struct Run {
+    tl: Timeline,
+    out: HashMap<String, (Vec<f64>, usize)>,
+    summary: HashMap<String, f64>,
+    warnings: Vec<String>,
+}
+
+impl Run {
+    fn frame(&self, name: &str, i: usize) -> &[f64] {
+        let (v, w) = &self.out[name];
+        &v[i * w..(i + 1) * w]
+    }
+    fn z(&self, name: &str, i: usize) -> f64 {
+        self.frame(name, i)[2]
+    }
+    fn s(&self, name: &str) -> f64 {
+        self.summary[name]
+    }
+    fn frames(&self) -> usize {
+        self.tl.frames()
+    }
+    fn contact(&self, i: usize) -> bool {
+        self.frame("contact", i)[0] == 1.0
+    }
+}
+
+fn run(p: &Params, tl: Timeline) -> Result<Run, NodeError> {
+    let spec = Jump::spec();
+    let n = tl.frames();
+    let widths: Vec<usize> = spec.outputs.iter().map(|o| o.kind.width(0)).collect();
+    let mut bufs: Vec<Vec<f64>> = widths.iter().map(|w| vec![f64::NAN; n * w]).collect();
+    let (summaries, warnings) = {
+        let outs: Vec<&mut [f64]> = bufs.iter_mut().map(Vec::as_mut_slice).collect();
+        let mut io = Io::new(tl, &spec, vec![], outs, widths.clone());
+        Jump::evaluate(p, &mut io)?;
+        (io.summaries().to_vec(), io.warnings().to_vec())
+    };
+    let out = spec
+        .outputs
+        .iter()
+        .zip(bufs)
+        .zip(&widths)
+        .map(|((o, b), w)| (o.name.clone(), (b, *w)))
+        .collect();
+    let summary = spec.summaries.iter().map(|s| s.name.clone()).zip(summaries).collect();
+    Ok(Run {
+        tl,
+        out,
+        summary,
+        warnings,
+    })
+}
+
+/// The node at `fps`, frames covering 0 s to 5 s, take-off at 2 s.
+fn run_at(fps: u32, changes: &[(&'static str, ParamValue)]) -> Result<Run, NodeError> {
+    let mut c = changes.to_vec();
+    c.push(("takeoff_frame", ParamValue::Integer(2 * i64::from(fps))));
+    run(&params(&c), timeline(fps, 0, 5 * u64::from(fps) + 1))
+}
+
+fn rel(a: f64, b: f64) -> f64 {
+    (a - b).abs() / b.abs().max(1e-300)
+}
+
+/// Composite Simpson's rule of `f` over [a, b] with `n` (even) intervals.
+fn simpson(f: impl Fn(f64) -> f64, a: f64, b: f64, n: usize) -> f64 {
+    let h = (b - a) / n as f64;
+    let mut s = f(a) + f(b);
+    for i in 1..n {
+        let w = if i % 2 == 1 { 4.0 } else { 2.0 };
+        s += w * f(a + h * i as f64);
+    }
+    s * h / 3.0
+}
+
+/// Golden-section maximum of a unimodal `f` on [a, b].
+fn golden_max(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> (f64, f64) {
+    let r = 0.5 * (5f64.sqrt() - 1.0);
+    for _ in 0..200 {
+        let (c, d) = (b - r * (b - a), a + r * (b - a));
+        if f(c) > f(d) {
+            b = d;
+        } else {
+            a = c;
+        }
+    }
+    let m = 0.5 * (a + b);
+    (m, f(m))
+}
+
+/// A parameter set inside bounded ranges that covers both drives, swings during the push,
+/// straddling take-off, in flight, and no swing.
+fn jump_changes() -> impl Strategy<Value = Changes> {
+    let body = (40.0..120.0f64, 1.4..2.0f64, 0.53..0.57f64, 0.10..0.30f64, 0.05..0.15f64);
+    let drive = (any::<bool>(), 0.25..0.60f64, 1.8..3.2f64);
+    let times = (0.4..0.9f64, 0.2..0.4f64, 0.15..0.30f64, 0.15..0.35f64, 0.4..1.0f64);
+    let arms = (any::<bool>(), -60.0..0.0f64, 100.0..180.0f64, -0.5..0.3f64, 0.2..0.5f64);
+    (body, drive, times, arms).prop_map(|(b, d, t, a)| {
+        let mut c = vec![
+            num("body_mass", b.0),
+            num("body_height", b.1),
+            num("standing_com_height", b.2 * b.1),
+            num("crouch_depth", b.3),
+            num("takeoff_extension", b.4),
+            if d.0 {
+                ("drive", ParamValue::Choice("rise".into()))
+            } else {
+                speed_mode()
+            },
+            num("rise", d.1),
+            num("takeoff_speed", d.2),
+            num("countermovement_duration", t.0),
+            num("push_duration", t.1),
+            num("landing_depth", t.2),
+            num("landing_duration", t.3),
+            num("recovery_duration", t.4),
+            num("arm_swing_from", a.1 * DEG),
+            num("arm_swing_to", if a.0 { a.2 * DEG } else { a.1 * DEG }),
+            num("arm_swing_start", a.3),
+            num("arm_swing_duration", a.4),
+        ];
+        c.push(("takeoff_frame", ParamValue::Integer(48)));
+        c
+    })
+}
+
+fn close3(a: [f64; 3], b: [f64; 3], tol: f64) -> bool {
+    a.iter().zip(b).all(|(x, y)| (x - y).abs() <= tol * (1.0 + y.abs()))
+}
+
+proptest! {
+    // No failure file: these tests live outside src/, where proptest's default file
+    // persistence cannot place one; a failure prints its minimal case instead.
+    #![proptest_config(ProptestConfig { cases: 64, failure_persistence: None, ..ProptestConfig::default() })]
+
+    /// Free fall: in flight the only external force is gravity, so the whole-body COM follows
+    /// z = z_to + v_to tau - g tau^2 / 2 with x and y constant (closed form of uniformly
+    /// accelerated motion; Halliday, Resnick & Walker, Fundamentals of Physics, ch. 2 and 4).
+    /// z_to and v_to are taken from the contact side (the propulsion closed form at take-off),
+    /// the path from the node's output at 240 fps; to 1e-9 relative.
+    #[test]
+    fn flight_is_ballistic(c in jump_changes()) {
+        let plan = plan(&c);
+        prop_assume!(plan.is_ok());
+        let r = run_at(240, &c).expect("same parameters as the plan");
+        let t_to = r.s("takeoff_time");
+        let before = plan.expect("checked").state_in(Phase::Propulsion, t_to).com;
+        let (z0, v0) = (before.position[2], before.velocity[2]);
+        let mut flight_frames = 0;
+        for i in 0..r.frames() {
+            if r.contact(i) {
+                continue;
+            }
+            flight_frames += 1;
+            let tau = r.tl.time(i) - t_to;
+            let want = z0 + v0 * tau - 0.5 * G * tau * tau;
+            let p = r.frame("com_position", i);
+            prop_assert!(rel(p[2], want) < 1e-9, "frame {i}: z {} vs {want}", p[2]);
+            prop_assert!(p[0].abs() < 1e-12 && p[1] == 0.0, "frame {i}: x {} y {}", p[0], p[1]);
+            prop_assert!(rel(r.frame("com_velocity", i)[2], v0 - G * tau) < 1e-9 || (v0 - G * tau).abs() < 1e-9);
+            prop_assert!(rel(r.z("com_acceleration", i), -G) < 1e-12);
+            prop_assert!(r.frame("foot_height", i)[0] >= 0.0);
+        }
+        // A flight of at least 2 v/g minus the arms' effect lasts many frames at 240 fps.
+        prop_assert!(flight_frames >= 10, "{flight_frames} flight frames");
+        prop_assert!(rel(r.s("flight_time"), r.s("touchdown_time") - t_to) < 1e-12);
+    }
+
+    /// Continuity (momentum cannot jump without an infinite force; the plan's quintic
+    /// segments fix position, velocity and acceleration at each end): the whole-body COM
+    /// velocity agrees across take-off and touch-down, and position, velocity and acceleration
+    /// agree at each quintic junction, each closed form evaluated at the junction from both
+    /// sides, and the dispatching state a nanosecond either side.
+    #[test]
+    fn motion_is_continuous_across_phases(c in jump_changes()) {
+        let plan = plan(&c);
+        prop_assume!(plan.is_ok());
+        let plan = plan.expect("checked");
+        let (t_to, t_td) = (plan.takeoff_time, plan.touchdown_time);
+        for (a, b, t) in [(Phase::Propulsion, Phase::Flight, t_to), (Phase::Flight, Phase::Landing, t_td)] {
+            let (l, r) = (plan.state_in(a, t).com, plan.state_in(b, t).com);
+            let dv = (0..3).map(|k| (l.velocity[k] - r.velocity[k]).abs()).fold(0.0, f64::max);
+            prop_assert!(dv < 1e-6, "{a:?}/{b:?} velocity jumps by {dv}");
+            // The ground force is zero on both sides: whole-body acceleration -g.
+            prop_assert!((l.acceleration[2] + G).abs() < 1e-9 && (r.acceleration[2] + G).abs() < 1e-9);
+            let (l, r) = (plan.state(t - 1e-9).com, plan.state(t + 1e-9).com);
+            let dv = (0..3).map(|k| (l.velocity[k] - r.velocity[k]).abs()).fold(0.0, f64::max);
+            prop_assert!(dv < 1e-6, "{a:?}/{b:?} velocity jumps by {dv} across {t}");
+        }
+        let junctions = [
+            (Phase::Standing, Phase::Countermovement, plan.countermovement.start()),
+            (Phase::Countermovement, Phase::Propulsion, plan.propulsion.start()),
+            (Phase::Landing, Phase::Recovery, plan.recovery.start()),
+            (Phase::Recovery, Phase::Settled, plan.recovery.end()),
+        ];
+        for (a, b, t) in junctions {
+            let (l, r): (State, State) = (plan.state_in(a, t), plan.state_in(b, t));
+            for (x, y) in [(l.com, r.com), (l.trunk, r.trunk)] {
+                prop_assert!(close3(x.position, y.position, 1e-12), "{a:?}/{b:?} position {x:?} {y:?}");
+                prop_assert!(close3(x.velocity, y.velocity, 1e-10), "{a:?}/{b:?} velocity {x:?} {y:?}");
+                prop_assert!(close3(x.acceleration, y.acceleration, 1e-8), "{a:?}/{b:?} acceleration {x:?} {y:?}");
+            }
+        }
+    }
+
+    /// Impulse-momentum theorem (Linthorne 2001, Am. J. Phys. 69(11):1198-1204): from rest,
+    /// the net vertical impulse over the contact before take-off, integral of F - m g = m a_z,
+    /// equals m v_z at take-off. Composite Simpson on the plan's acceleration, split at the
+    /// segment and swing boundaries; to 1e-6 relative.
+    #[test]
+    fn impulse_before_takeoff_is_takeoff_momentum(c in jump_changes()) {
+        let plan = plan(&c);
+        prop_assume!(plan.is_ok());
+        let plan = plan.expect("checked");
+        let m = plan.spec.body_mass;
+        let impulse = net_impulse(&plan, m);
+        let momentum = m * plan.takeoff_speed;
+        prop_assert!(rel(impulse, momentum) < 1e-6, "impulse {impulse} vs m v {momentum}");
+    }
+
+    /// drive = rise: the apex of the whole-body COM (found by golden-section search on the
+    /// evaluated path, not from the take-off formula) is the standing height plus `rise`, to
+    /// 1e-9 relative, whatever the arms do.
+    #[test]
+    fn rise_drive_reaches_the_requested_rise(c in jump_changes(), rise in 0.3..0.6f64) {
+        let mut c = c;
+        c.push(("drive", ParamValue::Choice("rise".into())));
+        c.push(num("rise", rise));
+        let plan = plan(&c);
+        prop_assume!(plan.is_ok());
+        let plan = plan.expect("checked");
+        let got = apex_by_search(&plan) - plan.spec.standing_com_height;
+        prop_assert!(rel(got, rise) < 1e-9, "rise {got} vs {rise}");
+    }
+}
+
+/// Integral of m a_z from the first motion to take-off (composite Simpson, 20 000 intervals
+/// per smooth piece).
+fn net_impulse(plan: &Plan, m: f64) -> f64 {
+    let t_to = plan.takeoff_time;
+    let mut cuts = vec![
+        plan.start(),
+        plan.countermovement.start(),
+        plan.propulsion.start(),
+        t_to,
+    ];
+    if plan.arms.moves() {
+        cuts.extend([plan.arms.start, plan.arms.end()]);
+    }
+    let mut cuts: Vec<f64> = cuts.into_iter().filter(|&t| t >= plan.start() && t <= t_to).collect();
+    cuts.sort_by(f64::total_cmp);
+    cuts.dedup();
+    cuts.windows(2)
+        .map(|w| {
+            simpson(
+                |t| m * plan.state_in(plan.phase(t.min(t_to)), t).com.acceleration[2],
+                w[0],
+                w[1],
+                20_000,
+            )
+        })
+        .sum()
+}
+
+fn apex_by_search(plan: &Plan) -> f64 {
+    golden_max(
+        |t| plan.state(t).com.position[2],
+        plan.takeoff_time,
+        plan.touchdown_time,
+    )
+    .1
+}
+
+/// Impulse-momentum theorem (Linthorne 2001) for the defaults and for no swing, with the
+/// measured figures printed.
+#[test]
+fn impulse_matches_momentum_for_the_defaults() {
+    for changes in [vec![], vec![no_swing()], vec![speed_mode()]] {
+        let p = plan(&changes).expect("valid");
+        let m = p.spec.body_mass;
+        let (i, mv) = (net_impulse(&p, m), m * p.takeoff_speed);
+        println!(
+            "{changes:?}: impulse {i:.9} N s, m v_to {mv:.9} N s, relative difference {:.1e}",
+            rel(i, mv)
+        );
+        assert!(rel(i, mv) < 1e-6, "{i} vs {mv}");
+    }
+}
+
+/// With no arm motion in flight the trunk keeps a fixed offset from the COM, so the feet are
+/// back at take-off height when the parabola is: flight time 2 v / g (closed form of free
+/// fall, Halliday, Resnick & Walker, ch. 4). The bisection is to 1e-12 s.
+#[test]
+fn touchdown_without_arm_motion_in_flight_is_two_v_over_g() {
+    for changes in [
+        vec![no_swing()],
+        vec![num("arm_swing_start", -0.5), num("arm_swing_duration", 0.3)],
+        vec![
+            speed_mode(),
+            no_swing(),
+            num("takeoff_speed", 3.1),
+            num("landing_depth", 0.25),
+        ],
+    ] {
+        let p = plan(&changes).expect("valid");
+        let flight = p.touchdown_time - p.takeoff_time;
+        let want = 2.0 * p.takeoff_speed / G;
+        println!("{changes:?}: flight {flight:.12} s, 2 v / g {want:.12} s");
+        assert!((flight - want).abs() < 2e-12, "{flight} vs {want}");
+    }
+}
+
+/// The whole-body COM is the mass-weighted sum of the segment COMs (definition), with the
+/// arms at 0.100 of body mass and their COM 0.530 x (0.186 + 0.146) H from the shoulder
+/// (Winter 2009, Table 4.1 and Fig. 4.1), the shoulder at 0.818 H in standing and riding on
+/// the trunk. Rebuilt here from the node's trunk and arm-angle outputs at every frame.
+#[test]
+fn com_is_the_mass_weighted_sum_of_trunk_and_arms() {
+    let h = 1.65;
+    let r = run_at(100, &[num("body_height", h), speed_mode()]).expect("valid");
+    let shoulder_above_trunk = 0.818 * h - r.z("trunk_position", 0);
+    let ra = 0.530 * (0.186 + 0.146) * h;
+    for i in 0..r.frames() {
+        let t = r.frame("trunk_position", i);
+        let th = r.frame("arm_angle", i)[0];
+        let arm = [t[0] + ra * th.sin(), 0.0, t[2] + shoulder_above_trunk - ra * th.cos()];
+        let com = r.frame("com_position", i);
+        for k in 0..3 {
+            let want = 0.9 * t[k] + 0.1 * arm[k];
+            assert!(
+                (com[k] - want).abs() < 1e-12,
+                "frame {i} axis {k}: {} vs {want}",
+                com[k]
+            );
+        }
+    }
+    // Standing, arms at -40 deg: the requested standing COM height.
+    assert!((r.z("com_position", 0) - 0.55 * 1.65).abs() < 1e-12);
+}
+
+/// Velocity and acceleration are the time derivatives of position (central differences,
+/// O(h^2)), for the whole body and the trunk in every phase: checks the analytic chain rule
+/// of the arm terms and the quintics.
+#[test]
+fn velocities_and_accelerations_are_derivatives() {
+    let p = plan(&[speed_mode()]).expect("valid");
+    let h = 1e-5;
+    let mut t = p.start() + 0.0123;
+    let mut checked = 0;
+    while t < p.end() {
+        let ph = p.phase(t);
+        if p.phase(t - h) == ph && p.phase(t + h) == ph {
+            let (a, b, c) = (p.state(t - h), p.state(t), p.state(t + h));
+            for (m, l, r) in [(b.com, a.com, c.com), (b.trunk, a.trunk, c.trunk)] {
+                for k in [0, 2] {
+                    let v = (r.position[k] - l.position[k]) / (2.0 * h);
+                    let acc = (r.velocity[k] - l.velocity[k]) / (2.0 * h);
+                    assert!(
+                        (v - m.velocity[k]).abs() < 1e-5,
+                        "{ph:?} at {t}: v {v} vs {}",
+                        m.velocity[k]
+                    );
+                    assert!(
+                        (acc - m.acceleration[k]).abs() < 1e-3,
+                        "{ph:?} at {t}: a {acc} vs {}",
+                        m.acceleration[k]
+                    );
+                }
+            }
+            checked += 1;
+        }
+        t += 0.0071;
+    }
+    assert!(checked > 300, "{checked}");
+}
+
+/// Arm swing during the push (Lees, Vanrenterghem & De Clercq 2004, J Biomech 37:1929-40:
+/// swinging the arms raised jump height by 0.086 m, 28 % of it from a higher COM at
+/// take-off). drive = speed, the same trunk take-off speed, swing against no swing: higher
+/// peak ground force in the push, higher COM and faster COM at take-off, higher apex, and a
+/// gain of 10 to 40 % of the no-swing rise. Forces from the node's output at 1000 fps,
+/// F = m (g + a_z) in contact (Newton's second law).
+#[test]
+fn arm_swing_in_the_push_raises_the_jump() {
+    let with = run_at(1000, &[speed_mode()]).expect("valid");
+    let without = run_at(1000, &[speed_mode(), no_swing()]).expect("valid");
+    let m = 58.0;
+    let peak_push = |r: &Run| {
+        (0..r.frames())
+            .filter(|&i| r.contact(i) && r.tl.time(i) <= r.s("takeoff_time"))
+            .map(|i| m * (G + r.z("com_acceleration", i)))
+            .fold(f64::MIN, f64::max)
+    };
+    let (fw, fo) = (peak_push(&with), peak_push(&without));
+    let (gain, height_gain) = (
+        with.s("rise") - without.s("rise"),
+        with.s("takeoff_height") - without.s("takeoff_height"),
+    );
+    println!(
+        "peak push force {fw:.1} N ({:.2} BW) vs {fo:.1} N ({:.2} BW); take-off height {:.4} vs {:.4} m; take-off \
+         speed {:.4} vs {:.4} m/s; rise {:.4} vs {:.4} m: gain {gain:.4} m = {:.1} % of the no-swing rise, {:.1} % \
+         of it from the higher take-off height",
+        fw / (m * G),
+        fo / (m * G),
+        with.s("takeoff_height"),
+        without.s("takeoff_height"),
+        with.s("takeoff_speed"),
+        without.s("takeoff_speed"),
+        with.s("rise"),
+        without.s("rise"),
+        100.0 * gain / without.s("rise"),
+        100.0 * height_gain / gain
+    );
+    assert!(fw > fo);
+    assert!(with.s("takeoff_height") > without.s("takeoff_height"));
+    assert!(with.s("takeoff_speed") > without.s("takeoff_speed"));
+    assert!(with.s("apex_height") > without.s("apex_height"));
+    // Without arm motion at take-off the speed is exactly the trunk's (drive = speed, 2.6 m/s).
+    assert!((without.s("takeoff_speed") - 2.6).abs() < 1e-12);
+    assert!(gain > 0.0);
+    let share = gain / without.s("rise");
+    assert!((0.10..=0.40).contains(&share), "gain {share}");
+    // Both the height and the speed contribute (Lees et al. 2004: 28 % / 72 %).
+    assert!(height_gain > 0.0 && height_gain < gain);
+}
+
+/// Conservation of momentum in flight (no external force but gravity): arms swung after
+/// take-off and done before touch-down leave the COM parabola unchanged, to 1e-9 relative at
+/// every flight frame before the earlier touch-down; the trunk goes down while the arms go
+/// up, by k r (cos theta_from - cos theta_to) with k = 0.100 and r = 0.530 x 0.332 H (COM
+/// definition, Winter 2009 Table 4.1), and the feet land earlier.
+#[test]
+fn arm_swing_in_flight_leaves_the_com_path_alone() {
+    let swing = [num("arm_swing_start", 0.05), num("arm_swing_duration", 0.2)];
+    let with = run_at(1000, &swing).expect("valid");
+    let without = run_at(1000, &[no_swing()]).expect("valid");
+    let t_to = with.s("takeoff_time");
+    assert_eq!(t_to, without.s("takeoff_time"));
+    let end = with.s("touchdown_time").min(without.s("touchdown_time"));
+    assert!(t_to + 0.25 < end, "the swing ends before touch-down");
+    let mut n = 0;
+    for i in 0..with.frames() {
+        let t = with.tl.time(i);
+        if t <= t_to || t >= end {
+            continue;
+        }
+        for k in 0..3 {
+            let (a, b) = (with.frame("com_position", i)[k], without.frame("com_position", i)[k]);
+            assert!(
+                (a - b).abs() <= 1e-9 * b.abs().max(1.0),
+                "frame {i} axis {k}: {a} vs {b}"
+            );
+        }
+        n += 1;
+    }
+    assert!(n > 300, "{n} flight frames compared");
+    let i = (0..with.frames())
+        .find(|&i| with.tl.time(i) >= t_to + 0.25)
+        .expect("frame at the end of the swing");
+    let drop = without.z("trunk_position", i) - with.z("trunk_position", i);
+    let h = 1.65;
+    let want = 0.100 * 0.530 * 0.332 * h * ((-40.0 * DEG).cos() - (160.0 * DEG).cos());
+    println!(
+        "trunk {drop:.6} m lower at the end of the swing (expected {want:.6} m); touch-down {:.4} s vs {:.4} s",
+        with.s("touchdown_time"),
+        without.s("touchdown_time")
+    );
+    assert!((drop - want).abs() < 1e-9, "{drop} vs {want}");
+    assert!(with.s("touchdown_time") < without.s("touchdown_time"));
+}
+
+/// Quiet standing is static equilibrium (Newton's first law): a_z = 0, so F = m g, and the
+/// COM is at the standing height. A short, shallow landing gives a peak ground force of a few
+/// body weights: between 2 and 6 BW (common practice, no source; from memory, drop-landing
+/// studies report peaks of roughly 2 to 6 BW for drops of a few tenths of a metre).
+#[test]
+fn standing_weighs_one_body_weight_and_a_stiff_landing_several() {
+    let r = run_at(1000, &[]).expect("valid");
+    // The countermovement starts push_duration + countermovement_duration = 0.8 s before
+    // take-off; the arms start later (0.30 s before).
+    let t_cm = r.s("takeoff_time") - 0.30 - 0.50;
+    let mut n = 0;
+    for i in (0..r.frames()).filter(|&i| r.tl.time(i) < t_cm) {
+        assert!(r.z("com_acceleration", i).abs() < 1e-12, "frame {i}");
+        assert!((r.z("com_position", i) - 0.55 * 1.65).abs() < 1e-12);
+        n += 1;
+    }
+    assert!(n > 1000, "{n} standing frames");
+    let stiff = run_at(
+        1000,
+        &[
+            num("landing_duration", 0.12),
+            num("landing_depth", 0.10),
+            num("rise", 0.35),
+        ],
+    )
+    .expect("valid");
+    let peak = stiff.s("peak_landing_force");
+    // The summary is the largest (g + a_z) / g over the landing; the frames agree with it.
+    let from_frames = (0..stiff.frames())
+        .filter(|&i| stiff.contact(i) && stiff.tl.time(i) > stiff.s("takeoff_time"))
+        .map(|i| (G + stiff.z("com_acceleration", i)) / G)
+        .fold(f64::MIN, f64::max);
+    println!(
+        "peak landing force {peak:.3} BW (frames: {from_frames:.3} BW); defaults {:.3} BW",
+        r.s("peak_landing_force")
+    );
+    assert!((2.0..=6.0).contains(&peak), "{peak}");
+    assert!(from_frames <= peak + 1e-9 && from_frames > peak - 1e-3);
+    assert!(r.s("peak_landing_force") < peak, "a softer landing peaks lower");
+}
+
+/// drive = rise with the defaults (arm swing during the push and into the flight) and with no
+/// swing: the apex found by search is the standing height plus `rise` (1e-9 relative), and the
+/// node's summaries report it.
+#[test]
+fn rise_drive_with_and_without_swing() {
+    for changes in [
+        vec![],
+        vec![no_swing()],
+        vec![num("rise", 0.5), num("arm_swing_start", 0.0)],
+    ] {
+        let p = plan(&changes).expect("valid");
+        let want = match p.spec.drive {
+            heft_trajectory::jump::Drive::Rise(r) => r,
+            heft_trajectory::jump::Drive::Speed(_) => unreachable!("drive = rise is the default"),
+        };
+        let got = apex_by_search(&p) - p.spec.standing_com_height;
+        println!("{changes:?}: rise {got:.12} m");
+        assert!(rel(got, want) < 1e-9, "{got} vs {want}");
+        let r = run_at(24, &changes).expect("valid");
+        assert!(rel(r.s("rise"), want) < 1e-12);
+        assert!(rel(r.s("apex_height"), p.spec.standing_com_height + want) < 1e-12);
+    }
+}
+
+/// Analytic evaluation: 24 fps and 1000 fps give the same values at the same times (t = k/8 s),
+/// and the landmarks ride on the trunk at their fixed offsets with an identity rotation.
+#[test]
+fn any_frame_rate_gives_the_same_path() {
+    let (a, b) = (run_at(24, &[]).expect("valid"), run_at(1000, &[]).expect("valid"));
+    for k in 0..40usize {
+        let (i, j) = (3 * k, 125 * k);
+        assert_eq!(a.tl.time(i), b.tl.time(j));
+        for name in ["com_position", "com_velocity", "trunk_position", "head"] {
+            assert_eq!(a.frame(name, i), b.frame(name, j), "{name} at {} s", a.tl.time(i));
+        }
+    }
+    for s in ["takeoff_speed", "touchdown_time", "peak_landing_force"] {
+        assert_eq!(a.s(s), b.s(s), "{s}");
+    }
+    let h = 1.65;
+    for i in 0..b.frames() {
+        let (head, hips, chest) = (b.frame("head", i), b.frame("hips", i), b.frame("chest", i));
+        // Winter (2009) Fig. 4.1: head centre 0.936 H (from memory), chest 0.720 H, hips 0.530 H.
+        assert!((head[2] - hips[2] - (0.936 - 0.530) * h).abs() < 1e-12);
+        assert!((chest[2] - hips[2] - (0.720 - 0.530) * h).abs() < 1e-12);
+        assert_eq!(&head[3..], &[0.0, 0.0, 0.0, 1.0]);
+        assert_eq!(head[0], b.frame("trunk_position", i)[0]);
+    }
+}
+
+/// The flags and the foot height: in contact the feet are on the ground; in flight they are
+/// above it; the take-off frame is the last contact frame.
+#[test]
+fn contact_flag_and_feet() {
+    let r = run_at(24, &[]).expect("valid");
+    let (t_to, t_td) = (r.s("takeoff_time"), r.s("touchdown_time"));
+    for i in 0..r.frames() {
+        let t = r.tl.time(i);
+        let flying = t > t_to && t < t_td;
+        assert_eq!(r.contact(i), !flying, "frame {i}");
+        let f = r.frame("foot_height", i)[0];
+        if flying {
+            assert!(f > 0.0, "frame {i}: {f}");
+        } else {
+            assert_eq!(f, 0.0);
+        }
+    }
+    assert!(r.contact(48) && !r.contact(49), "take-off at frame 48");
+    assert!(r.warnings.is_empty(), "{:?}", r.warnings);
+}
+
+/// Frames that do not cover the jump are allowed, with a warning naming the jump's span.
+#[test]
+fn frames_that_miss_part_of_the_jump_warn() {
+    let r = run(&params(&[]), timeline(24, 40, 10)).expect("allowed");
+    assert_eq!(r.warnings.len(), 1, "{:?}", r.warnings);
+    assert!(r.warnings[0].contains("frames 40..49") && r.warnings[0].contains("takeoff_frame"));
+}
+
+fn error(changes: &[(&'static str, ParamValue)]) -> String {
+    match run_at(24, changes) {
+        Ok(_) => panic!("{changes:?} should be refused"),
+        Err(e) => e.0,
+    }
+}
+
+/// Impossible jumps are refused with a message that names the parameter to change.
+#[test]
+fn impossible_jumps_are_refused_with_the_parameter_to_change() {
+    // Deeper than hips at knee height: 0.245 x 1.65 m = 0.404 m.
+    let e = error(&[num("crouch_depth", 0.45)]);
+    assert!(e.contains("`crouch_depth`") && e.contains("0.404"), "{e}");
+    // An apex below the take-off height.
+    let e = error(&[num("rise", 0.05)]);
+    assert!(e.contains("raise `rise` above"), "{e}");
+    // A countermovement faster than free fall: the ground would have to pull.
+    let e = error(&[num("countermovement_duration", 0.15)]);
+    assert!(
+        e.contains("countermovement") && e.contains("`countermovement_duration` longer"),
+        "{e}"
+    );
+    // A landing deeper than the body allows.
+    let e = error(&[num("landing_depth", 0.6)]);
+    assert!(e.contains("reduce `landing_depth`"), "{e}");
+    // A fast touch-down stopped in a shallow landing would need the ground to pull.
+    let e = error(&[speed_mode(), num("takeoff_speed", 3.5), num("landing_depth", 0.05)]);
+    assert!(e.contains("landing") && e.contains("`landing_depth` larger"), "{e}");
+    // A small hop whose arms fly up right after take-off: the feet come down before the apex.
+    let e = error(&[
+        speed_mode(),
+        num("takeoff_speed", 0.3),
+        num("arm_swing_from", 90.0 * DEG),
+        num("arm_swing_to", 180.0 * DEG),
+        num("arm_swing_start", 0.0),
+        num("arm_swing_duration", 0.06),
+    ]);
+    assert!(
+        e.contains("before the COM reaches its apex") && e.contains("`arm_swing_start`"),
+        "{e}"
+    );
+    // A standing COM that does not fit the body's proportions.
+    let e = error(&[num("standing_com_height", 1.3)]);
+    assert!(
+        e.contains("`standing_com_height`") && e.contains("`body_height`"),
+        "{e}"
+    );
+}
+
+/// Any parameter set inside the declared ranges.
+fn any_changes() -> impl Strategy<Value = Changes> {
+    // Standing COM height, crouch and landing depth drawn mostly where the body proportions
+    // allow them (0.44 to 0.66 H, up to 0.25 H), so that many draws get past the first checks.
+    let body = (20.0..300.0f64, 0.8..2.5f64, 0.44..0.66f64, 0.0..0.25f64, 0.0..0.3f64);
+    let drive = (any::<bool>(), 0.01..2.0f64, 0.1..8.0f64, -1_000_000..1_000_000i64);
+    let times = (0.05..5.0f64, 0.05..5.0f64, 0.0..0.25f64, 0.02..5.0f64, 0.05..10.0f64);
+    let arms = (-180.0..180.0f64, -180.0..180.0f64, -5.0..5.0f64, 0.05..5.0f64);
+    (body, drive, times, arms).prop_map(|(b, d, t, a)| {
+        vec![
+            num("body_mass", b.0),
+            num("body_height", b.1),
+            num("standing_com_height", (b.2 * b.1).clamp(0.3, 1.5)),
+            num("crouch_depth", b.3 * b.1),
+            num("takeoff_extension", b.4),
+            ("drive", ParamValue::Choice(if d.0 { "rise" } else { "speed" }.into())),
+            num("rise", d.1),
+            num("takeoff_speed", d.2),
+            ("takeoff_frame", ParamValue::Integer(d.3)),
+            num("countermovement_duration", t.0),
+            num("push_duration", t.1),
+            num("landing_depth", (t.2 * b.1).clamp(0.01, 1.0)),
+            num("landing_duration", t.3),
+            num("recovery_duration", t.4),
+            num("arm_swing_from", a.0 * DEG),
+            num("arm_swing_to", a.1 * DEG),
+            num("arm_swing_start", a.2),
+            num("arm_swing_duration", a.3),
+        ]
+    })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 512, failure_persistence: None, ..ProptestConfig::default() })]
+
+    /// Over the whole declared parameter ranges the node either refuses the jump with a
+    /// message that names a parameter or writes finite values everywhere (the host rejects
+    /// NaN and infinity), with the feet never below the ground.
+    #[test]
+    fn any_declared_parameters_give_an_error_or_finite_output(c in any_changes()) {
+        let tf = match c.iter().find(|(n, _)| *n == "takeoff_frame") {
+            Some((_, ParamValue::Integer(f))) => *f,
+            _ => 0,
+        };
+        match run(&params(&c), timeline(24, tf - 24 * 15, 24 * 40)) {
+            Err(e) => prop_assert!(e.0.contains('`'), "an error without a parameter name: {}", e.0),
+            Ok(r) => {
+                for (name, (v, _)) in &r.out {
+                    prop_assert!(v.iter().all(|x| x.is_finite()), "{name} is not finite");
+                }
+                for (name, v) in &r.summary {
+                    prop_assert!(v.is_finite(), "summary {name} is {v}");
+                }
+                for i in 0..r.frames() {
+                    prop_assert!(r.frame("foot_height", i)[0] >= 0.0);
+                }
+            }
+        }
+    }
+}
