@@ -39,6 +39,8 @@ pub enum Dimension {
     AngularStiffness,
     /// Per second (a rate such as relative damping).
     Rate,
+    /// Newton seconds (an impulse; equal to kg m/s of momentum).
+    Impulse,
 }
 
 impl Dimension {
@@ -60,6 +62,7 @@ impl Dimension {
             Dimension::BodyWeight => "BW",
             Dimension::AngularStiffness => "N m/rad",
             Dimension::Rate => "1/s",
+            Dimension::Impulse => "N s",
         }
     }
 
@@ -81,6 +84,7 @@ impl Dimension {
             Dimension::BodyWeight => "a force in body weights",
             Dimension::AngularStiffness => "a bending stiffness",
             Dimension::Rate => "a rate",
+            Dimension::Impulse => "an impulse",
         }
     }
 }

@@ -41,6 +41,8 @@ const UNITS: &[(&str, Dimension, f64)] = &[
     ("N m/rad", Dimension::AngularStiffness, 1.0),
     ("N m", Dimension::AngularStiffness, 1.0),
     ("1/s", Dimension::Rate, 1.0),
+    ("N s", Dimension::Impulse, 1.0),
+    ("kg m/s", Dimension::Impulse, 1.0),
     ("%", Dimension::Dimensionless, 0.01),
 ];
 
