@@ -55,7 +55,16 @@ pub fn plugin_dir() -> &'static Path {
     DIR.get_or_init(|| {
         let dir = profile_dir();
         let target = dir.parent().map(Path::to_path_buf).expect("target folder");
-        build(&["heft-cli", "heft-trajectory"], &target);
+        build(
+            &[
+                "heft-cli",
+                "heft-trajectory",
+                "heft-contact",
+                "heft-weight",
+                "heft-forceplate",
+            ],
+            &target,
+        );
         dir
     })
 }
@@ -101,7 +110,7 @@ pub fn registry() -> Registry {
 }
 
 /// The library names of the workspace's node plugins.
-pub const REAL_PLUGINS: &[&str] = &["heft_trajectory"];
+pub const REAL_PLUGINS: &[&str] = &["heft_trajectory", "heft_contact", "heft_weight", "heft_forceplate"];
 
 /// The real plugins plus the test plugin `probe`.
 pub fn registry_with_probe() -> Registry {

@@ -56,7 +56,7 @@ fn type_text(ty: &ParamType) -> String {
     }
 }
 
-fn port_line(out: &mut String, p: &PortSpec) {
+fn port_line(out: &mut String, p: &PortSpec, width: usize) {
     let shape = match (p.kind.name(), p.points) {
         ("points", Some(n)) => format!("points[{n}]"),
         ("points", None) => "points[N]".to_owned(),
@@ -67,7 +67,7 @@ fn port_line(out: &mut String, p: &PortSpec) {
         s => s.to_owned(),
     };
     let opt = if p.optional { " (optional)" } else { "" };
-    let _ = writeln!(out, "  {:<18} {:<10} {:<8} {}{opt}", p.name, shape, unit, p.doc);
+    let _ = writeln!(out, "  {:<width$} {:<10} {:<8} {}{opt}", p.name, shape, unit, p.doc);
 }
 
 /// The listing of every plugin and node type, and of files that failed to load.
@@ -101,6 +101,14 @@ pub fn list(registry: &Registry) -> String {
 /// Everything about one node type: ports, parameters with units, defaults, ranges, docs.
 pub fn describe_type(t: &NodeType) -> String {
     let spec = t.spec();
+    // One name column for ports and summaries, at least 18 wide.
+    let width = spec
+        .inputs
+        .iter()
+        .chain(&spec.outputs)
+        .map(|p| p.name.len())
+        .chain(spec.summaries.iter().map(|s| s.name.len()))
+        .fold(18, usize::max);
     let mut out = String::new();
     match t.plugin() {
         Some(p) => {
@@ -127,11 +135,11 @@ pub fn describe_type(t: &NodeType) -> String {
         let _ = writeln!(out, "  (none)");
     }
     for p in &spec.inputs {
-        port_line(&mut out, p);
+        port_line(&mut out, p, width);
     }
     let _ = writeln!(out, "\noutputs:");
     for p in &spec.outputs {
-        port_line(&mut out, p);
+        port_line(&mut out, p, width);
     }
     if !spec.summaries.is_empty() {
         let _ = writeln!(out, "\nsummary values (in run.json):");
@@ -140,7 +148,7 @@ pub fn describe_type(t: &NodeType) -> String {
                 "" => "-",
                 u => u,
             };
-            let _ = writeln!(out, "  {:<18} {:<8} {}", s.name, unit, s.doc);
+            let _ = writeln!(out, "  {:<width$} {:<8} {}", s.name, unit, s.doc);
         }
     }
     let _ = writeln!(out, "\nparameters:");

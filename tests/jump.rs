@@ -1,0 +1,207 @@
+//! The jump physics through the real plugins: the planner's trajectory, its apparent weight
+//! and the force-plate analysis of that weight curve, checked against each other and against
+//! closed-form results.
+
+use heft_integration_tests::{heft, read_csv, registry, workspace_root};
+use heft_runtime::check::{Overrides, Plan};
+use heft_runtime::eval::{Evaluation, evaluate};
+use heft_runtime::{check, plan_text, read_graph};
+
+const G: f64 = 9.80665; // standard gravity, exact by definition (3rd CGPM, 1901)
+
+fn summary(plan: &Plan, e: &Evaluation, node: &str, name: &str) -> f64 {
+    let i = plan.nodes.iter().position(|n| n.name == node).expect("node");
+    let k = plan.nodes[i]
+        .ty
+        .spec()
+        .summaries
+        .iter()
+        .position(|s| s.name == name)
+        .expect("summary");
+    e.summaries[i][k]
+}
+
+/// Odile's jump at 1000 Hz: planner -> apparent weight -> force-plate analysis.
+fn round_trip(threshold_newtons: f64, arms: bool) -> (Plan, Evaluation) {
+    let swing = if arms { "160 deg" } else { "-40 deg" };
+    let text = format!(
+        "format 1\nrate 1000 fps\nframes 0..3499\n\
+         odile = trajectory.jump\n    body_mass = 58 kg\n    drive = speed\n    takeoff_speed = 2.4 m/s\n\
+         \x20   landing_depth = 20 cm\n    takeoff_frame = 2000\n    arm_swing_to = {swing}\n\
+         weight = weight.apparent\n    mass = 58 kg\n\
+         plate = forceplate.analyse\n    flight_threshold = {threshold_newtons} N\n\
+         odile.com_acceleration -> weight.com_acceleration\nodile.contact -> weight.contact\n\
+         weight.force -> plate.force\n"
+    );
+    let plan = plan_text("round_trip.graph", &text, &registry(), &Overrides::default()).expect("checks");
+    let e = evaluate(&plan, Some(2)).expect("evaluates");
+    (plan, e)
+}
+
+/// The planner's trajectory, turned into a ground reaction force by F = m (g + a_z) and
+/// analysed as a force-plate record by the impulse-momentum method (Linthorne 2001, Am. J.
+/// Phys. 69(11):1198-1204), recovers the planned take-off velocity and jump height within
+/// 0.5 percent and the flight time within one sample. The plate threshold is 2 N: the record
+/// has no noise, and a threshold crossed before the true take-off overstates the take-off
+/// velocity by g times the time between crossing and take-off (see the next test).
+#[test]
+fn planner_weight_and_force_plate_analysis_agree() {
+    for arms in [true, false] {
+        let (plan, e) = round_trip(2.0, arms);
+        let v_plan = summary(&plan, &e, "odile", "takeoff_speed");
+        let h_plan = summary(&plan, &e, "odile", "apex_height") - summary(&plan, &e, "odile", "takeoff_height");
+        let t_plan = summary(&plan, &e, "odile", "flight_time");
+        let v = summary(&plan, &e, "plate", "takeoff_velocity");
+        let h_v = summary(&plan, &e, "plate", "height_from_velocity");
+        let h_t = summary(&plan, &e, "plate", "height_from_flight_time");
+        let t = summary(&plan, &e, "plate", "flight_time");
+        assert!(
+            ((v - v_plan) / v_plan).abs() < 0.005,
+            "arms {arms}: take-off velocity {v} vs planned {v_plan}"
+        );
+        assert!(
+            ((h_v - h_plan) / h_plan).abs() < 0.005,
+            "arms {arms}: height {h_v} vs planned {h_plan}"
+        );
+        assert!(
+            (t - t_plan).abs() <= 0.001,
+            "arms {arms}: flight time {t} vs planned {t_plan}"
+        );
+        // Flight-time method h = g t^2 / 8 on the planned flight (closed form for a
+        // ballistic flight that lands at take-off height).
+        assert!(((h_t - G * t_plan * t_plan / 8.0) / h_t).abs() < 0.01, "{h_t}");
+        assert!((summary(&plan, &e, "plate", "body_mass") - 58.0).abs() < 1e-9);
+    }
+}
+
+/// With the common 20 N threshold the detected take-off comes before the true one, while
+/// the body already falls freely; the analysed take-off velocity is then larger by
+/// g (t_true - t_detected) (free fall between the two instants).
+#[test]
+fn a_force_threshold_shifts_take_off_velocity_by_g_times_the_lead() {
+    let (plan, e) = round_trip(20.0, true);
+    let lead = summary(&plan, &e, "odile", "takeoff_time") - summary(&plan, &e, "plate", "takeoff_time");
+    assert!(lead > 0.0 && lead < 0.005, "detected {lead} s early");
+    let excess = summary(&plan, &e, "plate", "takeoff_velocity") - summary(&plan, &e, "odile", "takeoff_speed");
+    assert!(
+        ((excess - G * lead) / (G * lead)).abs() < 0.1,
+        "excess {excess} m/s for a lead of {lead} s"
+    );
+}
+
+/// The apparent weight over the whole jump: quiet standing weighs m g, the flight weighs
+/// nothing, and the landing peaks at a few body weights (drop-landing studies report roughly
+/// 2 to 6 BW for small heights: common practice, from memory).
+#[test]
+fn weight_curve_standing_flight_and_landing() {
+    let (plan, e) = round_trip(20.0, true);
+    let w = plan.nodes.iter().position(|n| n.name == "weight").expect("node");
+    let force = &e.values[w][0];
+    assert_eq!(force[100], 58.0 * G, "quiet standing weighs m g");
+    let to = (summary(&plan, &e, "odile", "takeoff_time") * 1000.0).round() as usize;
+    let td = (summary(&plan, &e, "odile", "touchdown_time") * 1000.0).floor() as usize;
+    assert!(
+        force[to + 1..td].iter().all(|&f| f == 0.0),
+        "weightless for the whole flight"
+    );
+    let peak = summary(&plan, &e, "weight", "peak_body_weights");
+    assert!((2.0..=6.0).contains(&peak), "landing peak {peak} BW");
+    // Impulse over the contact before take-off equals m v_takeoff (impulse-momentum theorem);
+    // the whole record, rest to rest, has no net impulse (within the trapezoid rule's error).
+    let impulse = summary(&plan, &e, "weight", "impulse_above_weight");
+    assert!(
+        impulse.abs() < 0.01 * 58.0 * summary(&plan, &e, "odile", "takeoff_speed"),
+        "{impulse} N s"
+    );
+}
+
+/// The demo graphs: arms swung with the push jump higher than arms swung after take-off,
+/// and the late swing leaves the centre-of-mass path an exact parabola in flight.
+#[test]
+fn arms_with_the_push_jump_higher_than_arms_swung_late() {
+    let mut rise = Vec::new();
+    for name in ["jump", "jump_late_arms"] {
+        let out = tempfile::tempdir().expect("temp dir");
+        let o = heft()
+            .args(["run", &format!("graphs/{name}.graph"), "--out"])
+            .arg(out.path())
+            .output()
+            .expect("runs");
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        assert!(
+            o.stderr.is_empty(),
+            "no warnings: {}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        let s: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(out.path().join("run.json")).expect("run.json")).expect("JSON");
+        let get = |n: &str| {
+            s["summaries"]
+                .as_array()
+                .expect("summaries")
+                .iter()
+                .find(|x| x["name"] == n)
+                .expect("summary")["value"]
+                .as_f64()
+                .expect("number")
+        };
+        rise.push(get("rise"));
+        let (t_to, t_td) = (get("takeoff_time"), get("touchdown_time"));
+        let (z0, v0) = (get("takeoff_height"), get("takeoff_speed"));
+        let (_, com) = read_csv(&out.path().join("com.csv"));
+        let mut flight_frames = 0;
+        for row in com.iter().filter(|r| r[1] > t_to && r[1] < t_td) {
+            let tau = row[1] - t_to;
+            let z = z0 + v0 * tau - 0.5 * G * tau * tau;
+            assert!(
+                ((row[4] - z) / z).abs() < 1e-9,
+                "{name} at {} s: {} vs {z}",
+                row[1],
+                row[4]
+            );
+            flight_frames += 1;
+        }
+        assert!(flight_frames >= 10, "{name}: {flight_frames} frames in flight");
+        let (_, contact) = read_csv(&out.path().join("odile.contact.csv"));
+        assert!(contact.iter().all(|r| (r[2] == 0.0) == (r[1] > t_to && r[1] < t_td)));
+    }
+    assert!(
+        rise[0] > rise[1] * 1.1,
+        "with the push {} m, late {} m",
+        rise[0],
+        rise[1]
+    );
+}
+
+/// The demo force-plate record is reproducible: graphs/plate_record.graph writes exactly
+/// data/odile_plate.csv, and graphs/plate_analysis.graph analyses it.
+#[test]
+fn demo_plate_record_is_reproducible_and_analysed() {
+    let out = tempfile::tempdir().expect("temp dir");
+    let o = heft()
+        .args(["run", "graphs/plate_record.graph", "--quiet", "--out"])
+        .arg(out.path())
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let fresh = std::fs::read(out.path().join("odile_plate.csv")).expect("written");
+    let shipped = std::fs::read(workspace_root().join("data/odile_plate.csv")).expect("shipped");
+    assert!(
+        fresh == shipped,
+        "data/odile_plate.csv differs from what graphs/plate_record.graph writes"
+    );
+
+    let (graph, problems) = read_graph(&workspace_root().join("graphs/plate_analysis.graph")).expect("readable");
+    let plan = check::check(&graph, problems, &registry(), &Overrides::default()).expect("checks");
+    let e = evaluate(&plan, None).expect("evaluates");
+    let mass = summary(&plan, &e, "analysis", "body_mass");
+    assert!((mass - 58.0).abs() < 1e-9, "{mass}");
+    let phase = &e.values[plan.nodes.iter().position(|n| n.name == "analysis").expect("node")][2];
+    let mut order: Vec<f64> = phase.to_vec();
+    order.dedup();
+    assert_eq!(
+        order,
+        [0.0, 1.0, 2.0, 3.0, 4.0, 5.0],
+        "weighing, unweighting, braking, propulsion, flight, landing"
+    );
+}
