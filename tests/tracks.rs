@@ -73,20 +73,22 @@ fn time_that_does_not_increase_is_an_error() {
     let dir = tempfile::tempdir().expect("temp dir");
     let (_, msg, _) = one_problem(dir.path(), "time,Fz\n0,1\n0.01,2\n0.01,3\n0.03,4\n", NODE);
     assert!(
-        msg.ends_with("line 4: the time 0.01 does not increase (the line before has 0.01)"),
+        msg.ends_with("line 4: the time 0.01 s does not increase (the line before has 0.01 s)"),
         "{msg}"
     );
 }
 
+/// A file sampled at 50 Hz read by a 100 fps graph: frames between samples are linear
+/// interpolations (exact here, since the samples lie on a straight line).
 #[test]
-fn a_sample_rate_other_than_the_graph_rate_is_an_error() {
+fn a_track_at_another_rate_is_resampled_linearly() {
     let dir = tempfile::tempdir().expect("temp dir");
-    let (_, msg, help) = one_problem(dir.path(), "time,Fz\n0,1\n0.02,2\n0.04,3\n0.06,4\n", NODE);
-    assert!(
-        msg.contains("samples 1 and 2 are 0.02 s apart, but the graph runs at 100 fps (0.01 s per frame)"),
-        "{msg}"
-    );
-    assert!(help.is_some_and(|h| h.contains("about 50 fps")));
+    let plan = plan_in(dir.path(), "time,Fz\n0,100\n0.02,300\n0.04,500\n0.06,700\n", NODE).expect("checks");
+    let e = evaluate(&plan, Some(1)).expect("evaluates");
+    let got = &e.values[0][0];
+    for (g, want) in got.iter().zip([100.0, 200.0, 300.0, 400.0]) {
+        assert!((g - want).abs() < 1e-9, "{got:?}");
+    }
 }
 
 #[test]
@@ -94,10 +96,53 @@ fn a_track_shorter_than_the_timeline_is_an_error() {
     let dir = tempfile::tempdir().expect("temp dir");
     let (_, msg, help) = one_problem(dir.path(), "time,Fz\n0,1\n0.01,2\n0.02,3\n", NODE);
     assert!(
-        msg.ends_with("covers frames 0..2 (0 s to 0.02 s), but the graph evaluates frames 0..3"),
+        msg.ends_with("covers 0 s to 0.02 s, but the graph evaluates frames 0..3 (0 s to 0.03 s)"),
         "{msg}"
     );
-    assert_eq!(help.as_deref(), Some("set `frames 0..2` or a range inside it"));
+    assert_eq!(help.as_deref(), Some("set a frame range inside frames 0..2"));
+}
+
+/// Positions in centimetres become metres; rotations given as quaternions are slerped between
+/// samples (Shoemake 1985): halfway between the identity and a quarter turn about Z is an
+/// eighth of a turn.
+#[test]
+fn a_transform_track_converts_units_and_slerps_rotations() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let h = std::f64::consts::FRAC_PI_4;
+    let csv = format!(
+        "time,px,py,pz,qx,qy,qz,qw\n0,0,0,100,0,0,0,1\n0.02,10,0,100,0,0,{},{}\n0.04,20,0,100,0,0,{},{}\n",
+        h.sin(),
+        h.cos(),
+        h.sin(),
+        h.cos()
+    );
+    let body = "hips = track.transform\n    file = \"plate.csv\"\n    x_column = \"px\"\n    y_column = \"py\"\n    z_column = \"pz\"\n    unit = cm\n    rotation = quaternion\n";
+    std::fs::write(dir.path().join("plate.csv"), csv).expect("write");
+    let graph = dir.path().join("g.graph");
+    std::fs::write(&graph, format!("format 1\nrate 100 fps\nframes 0..4\n{body}")).expect("write graph");
+    let (g, p) = read_graph(&graph).expect("readable");
+    let plan = check(&g, p, &registry(), &Overrides::default()).expect("checks");
+    let v = &evaluate(&plan, None).expect("evaluates").values[0][0];
+    // Frame 1 (0.01 s): x = 5 cm, z = 1 m, rotation an eighth turn about z.
+    let f1 = &v[7..14];
+    let e = std::f64::consts::PI / 8.0;
+    assert!((f1[0] - 0.05).abs() < 1e-12 && (f1[2] - 1.0).abs() < 1e-12, "{f1:?}");
+    assert!(
+        (f1[5] - e.sin()).abs() < 1e-12 && (f1[6] - e.cos()).abs() < 1e-12,
+        "{f1:?}"
+    );
+}
+
+#[test]
+fn a_zero_length_quaternion_names_the_line() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let body = "hips = track.transform\n    file = \"plate.csv\"\n    rotation = quaternion\n";
+    let csv = "time,x,y,z,qx,qy,qz,qw\n0,0,0,0,0,0,0,1\n0.01,0,0,0,0,0,0,0\n0.02,0,0,0,0,0,0,1\n0.03,0,0,0,0,0,0,1\n";
+    let (_, msg, _) = one_problem(dir.path(), csv, body);
+    assert!(
+        msg.ends_with("plate.csv: line 3: the rotation (0, 0, 0, 0) has zero length"),
+        "{msg}"
+    );
 }
 
 #[test]

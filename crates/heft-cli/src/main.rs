@@ -13,6 +13,7 @@ use heft_runtime::registry::{Registry, search_path};
 use heft_runtime::{check, eval, output, read_graph};
 
 mod describe;
+mod sweep;
 
 /// heft evaluates secondary-motion graphs: it loads node plugins, wires them as a graph
 /// file says, evaluates every frame headlessly and writes the results.
@@ -25,8 +26,12 @@ struct Cli {
     plugins: Vec<PathBuf>,
 
     /// Print only errors.
-    #[arg(long, short, global = true)]
+    #[arg(long, short, global = true, conflicts_with = "verbose")]
     quiet: bool,
+
+    /// Also print the plugin search, the evaluation order and the time spent in each node.
+    #[arg(long, short, global = true)]
+    verbose: bool,
 
     #[command(subcommand)]
     command: Command,
@@ -45,6 +50,28 @@ enum Command {
         #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
         threads: Option<u16>,
     },
+    /// Evaluate a graph at every point of a parameter grid, each point into its own folder,
+    /// with a CSV table of the summary values per point.
+    Sweep {
+        #[command(flatten)]
+        graph: GraphArgs,
+        /// A varied parameter: `node.param=A..B:N`, N values from A to B with units
+        /// (`odile.crouch_depth=20..30 cm:3`). Repeatable: the axes form a grid.
+        #[arg(long = "vary", value_name = "NODE.PARAM=A..B:N", required = true, value_parser = heft_runtime::sweep::parse_axis)]
+        vary: Vec<heft_runtime::sweep::Axis>,
+        /// Folder for the points' folders and the table (created if missing).
+        #[arg(long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        /// Only the points whose index modulo N is I (0 <= I < N), for a job array.
+        #[arg(long, value_name = "I/N", value_parser = heft_runtime::sweep::parse_shard)]
+        shard: Option<(usize, usize)>,
+        /// A summary value for the table, `node.name` (repeatable; default: all).
+        #[arg(long = "summary", value_name = "NODE.NAME")]
+        summary: Vec<String>,
+        /// Points evaluated at once (default: one per core).
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+        threads: Option<u16>,
+    },
     /// Check a graph against the plugins without evaluating it.
     Check {
         #[command(flatten)]
@@ -59,16 +86,16 @@ enum Command {
 }
 
 #[derive(Args, Debug)]
-struct GraphArgs {
+pub(crate) struct GraphArgs {
     /// The graph file.
     #[arg(value_name = "GRAPH")]
-    graph: PathBuf,
+    pub(crate) graph: PathBuf,
     /// Override a parameter: `node.param=VALUE`, with units (`jump.mass=58 kg`). Repeatable.
     #[arg(long = "set", value_name = "NODE.PARAM=VALUE")]
-    set: Vec<String>,
+    pub(crate) set: Vec<String>,
     /// Evaluate these frames instead of the graph's range: `A..B`, inclusive.
     #[arg(long, value_name = "A..B", value_parser = parse_frames)]
-    frames: Option<(i64, i64)>,
+    pub(crate) frames: Option<(i64, i64)>,
 }
 
 fn parse_frames(s: &str) -> Result<(i64, i64), String> {
@@ -93,7 +120,18 @@ const FAILED: u8 = 1;
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let color = std::io::stderr().is_terminal();
-    let registry = Registry::discover(&search_path(&cli.plugins));
+    let dirs = search_path(&cli.plugins);
+    let registry = Registry::discover(&dirs);
+    if cli.verbose {
+        eprintln!("plugin folders searched, in order:");
+        for d in &dirs {
+            eprintln!("  {}", d.display());
+        }
+        for p in registry.plugins() {
+            let d = p.plugin.descriptor();
+            eprintln!("loaded {} {} from {}", d.name, d.version, p.plugin.origin().display());
+        }
+    }
     match &cli.command {
         Command::Nodes { node_type } => describe::nodes(&registry, node_type.as_deref()),
         Command::Check { graph } => match plan(&registry, graph, color, cli.quiet) {
@@ -111,12 +149,24 @@ fn main() -> ExitCode {
             }
             None => ExitCode::from(FAILED),
         },
+        Command::Sweep {
+            graph,
+            vary,
+            out,
+            shard,
+            summary,
+            threads,
+        } => sweep::run(&registry, graph, vary, out, *shard, summary, threads.map(usize::from), cli.quiet, color),
         Command::Run { graph, out, threads } => {
             let started = Instant::now();
             let Some(plan) = plan(&registry, graph, color, cli.quiet) else {
                 return ExitCode::from(FAILED);
             };
-            run(&plan, &graph.graph, out, threads.map(usize::from), started, cli.quiet)
+            let say = Say {
+                quiet: cli.quiet,
+                verbose: cli.verbose,
+            };
+            run(&plan, &graph.graph, out, threads.map(usize::from), started, say)
         }
     }
 }
@@ -152,14 +202,53 @@ fn plan(registry: &Registry, args: &GraphArgs, color: bool, quiet: bool) -> Opti
     }
 }
 
-fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: Instant, quiet: bool) -> ExitCode {
-    let evaluation = match eval::evaluate(plan, threads) {
+/// How much to print.
+#[derive(Debug, Clone, Copy)]
+struct Say {
+    quiet: bool,
+    verbose: bool,
+}
+
+fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: Instant, say: Say) -> ExitCode {
+    let quiet = say.quiet;
+    if say.verbose {
+        for (k, level) in plan.levels.iter().enumerate() {
+            let names: Vec<&str> = level.iter().map(|&i| plan.nodes[i].name.as_str()).collect();
+            eprintln!("level {k}: {}", names.join(", "));
+        }
+    }
+    // A progress bar only on a terminal, and not when quiet.
+    let bar = (!quiet && std::io::stderr().is_terminal()).then(|| {
+        let bar = indicatif::ProgressBar::new(plan.nodes.len() as u64);
+        if let Ok(style) =
+            indicatif::ProgressStyle::with_template("{bar:30} {pos}/{len} nodes  {elapsed} (about {eta} left)  {msg}")
+        {
+            bar.set_style(style);
+        }
+        bar
+    });
+    let done = |i: usize| {
+        if let Some(b) = &bar {
+            b.set_message(plan.nodes[i].name.clone());
+            b.inc(1);
+        }
+    };
+    let evaluation = eval::evaluate_observed(plan, threads, &done);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let evaluation = match evaluation {
         Ok(e) => e,
         Err(e) => {
             eprintln!("error: {e}");
             return ExitCode::from(FAILED);
         }
     };
+    if say.verbose {
+        for (n, t) in plan.nodes.iter().zip(&evaluation.node_time) {
+            eprintln!("{:>10.3} ms  {} ({})", t.as_secs_f64() * 1e3, n.name, n.ty.full_name);
+        }
+    }
     if !quiet {
         for (node, w) in &evaluation.warnings {
             eprintln!("warning: node `{node}`: {w}");

@@ -15,6 +15,7 @@
 pub mod abi;
 pub mod codec;
 pub mod descriptor;
+pub mod field;
 pub mod guest;
 #[cfg(feature = "host")]
 pub mod host;

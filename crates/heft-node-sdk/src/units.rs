@@ -41,6 +41,10 @@ pub enum Dimension {
     Rate,
     /// Newton seconds (an impulse; equal to kg m/s of momentum).
     Impulse,
+    /// Joules.
+    Energy,
+    /// Newton square metres (bending stiffness E I of a strand).
+    BendingStiffness,
 }
 
 impl Dimension {
@@ -63,6 +67,8 @@ impl Dimension {
             Dimension::AngularStiffness => "N m/rad",
             Dimension::Rate => "1/s",
             Dimension::Impulse => "N s",
+            Dimension::Energy => "J",
+            Dimension::BendingStiffness => "N m^2",
         }
     }
 
@@ -85,6 +91,8 @@ impl Dimension {
             Dimension::AngularStiffness => "a bending stiffness",
             Dimension::Rate => "a rate",
             Dimension::Impulse => "an impulse",
+            Dimension::Energy => "an energy",
+            Dimension::BendingStiffness => "a bending stiffness (E I)",
         }
     }
 }

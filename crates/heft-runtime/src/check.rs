@@ -9,8 +9,11 @@ use std::sync::Arc;
 use heft_node_sdk::host::Plugin;
 use heft_node_sdk::{Dimension, ParamSpec, ParamType, ParamValue, PortKind, Shape, Timeline};
 
+use crate::blocks::{self, PlannedBake};
 use crate::diag::{Place, Problem, Source, Span};
+use crate::graph::BlockKind;
 use crate::graph::{GraphFile, ParamLine, PortRef, Spanned, UnitText, Value, parse_value};
+use crate::plots::{self, PlannedPlot};
 use crate::registry::{NodeType, Provider, Registry, closest};
 use crate::tracks;
 use crate::units;
@@ -68,6 +71,10 @@ pub struct Plan {
     pub levels: Vec<Vec<usize>>,
     /// Outputs to write.
     pub writes: Vec<PlannedWrite>,
+    /// glTF bakes to write.
+    pub bakes: Vec<PlannedBake>,
+    /// Plots to draw.
+    pub plots: Vec<PlannedPlot>,
 }
 
 fn si_text(v: f64, d: Dimension) -> String {
@@ -283,6 +290,7 @@ fn parse_overrides(set: &[String], problems: &mut Vec<Problem>) -> Vec<(Arc<Sour
                         span: Span::new(dot + 1, eq),
                     },
                     value,
+                    replaces: true,
                 },
             )),
             Err(p) => problems.push(p),
@@ -305,9 +313,10 @@ pub fn check(
     overrides: &Overrides,
 ) -> Result<Plan, Vec<Problem>> {
     let src = &graph.source;
+    let srcs = &graph.sources;
     let mut problems = parse_problems;
     let place = |span: Span| Place {
-        source: Arc::clone(src),
+        source: Arc::clone(srcs.get(usize::from(span.file)).unwrap_or(src)),
         span,
     };
 
@@ -335,8 +344,8 @@ pub fn check(
         };
         if let Some(&first) = by_name.get(decl.name.value.as_str()) {
             problems.push(
-                Problem::new(
-                    src,
+                Problem::at(
+                    srcs,
                     decl.name.span,
                     format!("a node named `{}` is declared twice", decl.name.value),
                 )
@@ -350,7 +359,7 @@ pub fn check(
         match registry.lookup(&decl.ty.value) {
             Ok(Some(t)) => state.ty = Some(t.clone()),
             Ok(None) => {
-                let mut p = Problem::new(src, decl.ty.span, format!("unknown node type `{}`", decl.ty.value))
+                let mut p = Problem::at(srcs, decl.ty.span, format!("unknown node type `{}`", decl.ty.value))
                     .label("unknown node type");
                 if let Some(c) = registry.closest(&decl.ty.value) {
                     p = p.help(format!("did you mean `{c}`?"));
@@ -368,8 +377,8 @@ pub fn check(
             Err(many) => {
                 let files: Vec<String> = many.iter().map(NodeType::origin).collect();
                 problems.push(
-                    Problem::new(
-                        src,
+                    Problem::at(
+                        srcs,
                         decl.ty.span,
                         format!("node type `{}` is offered by more than one plugin", decl.ty.value),
                     )
@@ -394,7 +403,7 @@ pub fn check(
             d.params
                 .iter()
                 .map(|line| Written {
-                    source: Arc::clone(src),
+                    source: Arc::clone(srcs.get(usize::from(line.name.span.file)).unwrap_or(src)),
                     line,
                 })
                 .collect()
@@ -425,6 +434,7 @@ pub fn check(
         let spec = ty.spec();
         let mut values: Vec<Option<ParamValue>> = vec![None; spec.params.len()];
         let mut from_graph: Vec<Option<Span>> = vec![None; spec.params.len()];
+        let mut replaced_keys: BTreeSet<usize> = BTreeSet::new();
         for w in &written[i] {
             let name = &w.line.name;
             let Some(k) = spec.params.iter().position(|p| p.name == name.value) else {
@@ -444,11 +454,14 @@ pub fn check(
                 states[i].ok = false;
                 continue;
             };
-            let is_override = !Arc::ptr_eq(&w.source, src);
+            let is_override = w.line.replaces;
             match convert(&w.source, &w.line.value, &spec.params[k]) {
                 Ok(ParamValue::Keys(mut new)) => {
-                    // Key lines append in the graph; an override replaces the list.
-                    if let (false, Some(ParamValue::Keys(old))) = (is_override, values[k].take()) {
+                    // Key lines append. The first overriding key line (a recipe's override, a
+                    // `--set`) starts a new list, and later overriding lines append to it.
+                    let fresh = is_override && replaced_keys.insert(k);
+                    let old = values[k].take();
+                    if let (false, Some(ParamValue::Keys(old))) = (fresh, old) {
                         let mut all = old;
                         if let (Some(prev), Some(next)) = (all.last(), new.first())
                             && next.0 <= prev.0
@@ -496,8 +509,8 @@ pub fn check(
                         && keys.len() < *min_keys
                     {
                         problems.push(
-                            Problem::new(
-                                src,
+                            Problem::at(
+                                srcs,
                                 decl.name.span,
                                 format!(
                                     "`{}` needs at least {min_keys} `{}` lines, has {}",
@@ -514,8 +527,8 @@ pub fn check(
                 }
                 None => {
                     problems.push(
-                        Problem::new(
-                            src,
+                        Problem::at(
+                            srcs,
                             decl.name.span,
                             format!("`{}` needs a value for `{}`", decl.name.value, p.name),
                         )
@@ -550,7 +563,7 @@ pub fn check(
             Some(&i) => Some(i),
             None => {
                 let mut p =
-                    Problem::new(src, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
+                    Problem::at(srcs, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
                 if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
                     p = p.help(format!("did you mean `{c}`?"));
                 }
@@ -567,8 +580,8 @@ pub fn check(
             (&spec.inputs, &spec.outputs)
         };
         let side = if output { "output" } else { "input" };
-        let mut p = Problem::new(
-            src,
+        let mut p = Problem::at(
+            srcs,
             r.port.span,
             format!(
                 "`{}` ({}) has no {side} port `{}`",
@@ -609,8 +622,8 @@ pub fn check(
         let (op, ip) = (&ta.spec().outputs[ok], &tb.spec().inputs[ik]);
         if op.kind != ip.kind {
             problems.push(
-                Problem::new(
-                    src,
+                Problem::at(
+                    srcs,
                     wire.from.span().to(wire.to.span()),
                     format!(
                         "`{}` is {} but `{}` takes {}",
@@ -628,8 +641,8 @@ pub fn check(
         }
         if op.dimension != ip.dimension && ip.dimension != Dimension::Dimensionless {
             problems.push(
-                Problem::new(
-                    src,
+                Problem::at(
+                    srcs,
                     wire.from.span().to(wire.to.span()),
                     format!(
                         "`{}` carries {} ({}) but `{}` takes {} ({})",
@@ -649,8 +662,8 @@ pub fn check(
         }
         if let Some(&first) = driver_wire.get(&(b, ik)) {
             problems.push(
-                Problem::new(
-                    src,
+                Problem::at(
+                    srcs,
                     wire.to.span(),
                     format!("input `{}` is driven twice", wire.to.text()),
                 )
@@ -669,8 +682,8 @@ pub fn check(
         for (k, port) in ty.spec().inputs.iter().enumerate() {
             if !port.optional && inputs[i][k].is_none() && !attempted.contains(&(i, k)) {
                 problems.push(
-                    Problem::new(
-                        src,
+                    Problem::at(
+                        srcs,
                         decl.name.span,
                         format!("input `{}.{}` is not connected", decl.name.value, port.name),
                     )
@@ -729,8 +742,8 @@ pub fn check(
             .map(|&w| format!("{} -> {}", graph.wires[w].from.text(), graph.wires[w].to.text()))
             .collect();
         let span_of = |w: usize| graph.wires[w].from.span().to(graph.wires[w].to.span());
-        let mut p = Problem::new(
-            src,
+        let mut p = Problem::at(
+            srcs,
             span_of(wires_on_cycle[0]),
             format!("the graph has a cycle: {}", text.join(", then ")),
         )
@@ -746,10 +759,11 @@ pub fn check(
     let mut shapes: Vec<Option<Vec<Shape>>> = vec![None; n];
     let mut params_bytes: Vec<Vec<u8>> = vec![Vec::new(); n];
     let mut host_data: Vec<Option<Vec<Vec<f64>>>> = vec![None; n];
-    let graph_dir = std::path::Path::new(&src.name)
-        .parent()
-        .map(std::path::Path::to_path_buf)
-        .unwrap_or_default();
+    // A track's file is relative to the file that declares the track (a graph or a recipe).
+    let dir_of = |span: Span| {
+        let name = &srcs.get(usize::from(span.file)).unwrap_or(src).name;
+        std::path::Path::new(name).parent().map(std::path::Path::to_path_buf).unwrap_or_default()
+    };
     for level in &levels {
         for &i in level {
             let (Some(ty), true) = (&states[i].ty, states[i].ok) else {
@@ -769,8 +783,8 @@ pub fn check(
                             {
                                 let w = driver_wire[&(i, k)];
                                 problems.push(
-                                    Problem::new(
-                                        src,
+                                    Problem::at(
+                                        srcs,
                                         graph.wires[w].from.span().to(graph.wires[w].to.span()),
                                         format!(
                                             "`{}` carries {} but `{}` takes points[{need}]",
@@ -795,8 +809,8 @@ pub fn check(
             let bytes = match Plugin::encode_params(&states[i].params) {
                 Ok(b) => b,
                 Err(e) => {
-                    problems.push(Problem::new(
-                        src,
+                    problems.push(Problem::at(
+                        srcs,
                         graph.nodes[i].name.span,
                         format!("cannot encode the parameters: {e}"),
                     ));
@@ -804,7 +818,7 @@ pub fn check(
                 }
             };
             match &ty.provider {
-                Provider::Host(h) => match tracks::load(*h, &states[i].params, &graph_dir, timeline) {
+                Provider::Host(h) => match tracks::load(*h, &states[i].params, &dir_of(graph.nodes[i].name.span), timeline) {
                     Ok(data) => {
                         shapes[i] = Some(spec.outputs.iter().map(|o| Shape::of(o.kind)).collect());
                         host_data[i] = Some(data);
@@ -814,7 +828,7 @@ pub fn check(
                         let at = written[i].iter().rev().find(|w| w.line.name.value == e.param);
                         let mut p = match at {
                             Some(w) => Problem::new(&w.source, w.line.value.span, e.message),
-                            None => Problem::new(src, graph.nodes[i].name.span, e.message),
+                            None => Problem::at(srcs, graph.nodes[i].name.span, e.message),
                         }
                         .label(format!("`{}` of this track", e.param));
                         if let Some(h) = e.help {
@@ -841,8 +855,8 @@ pub fn check(
                             );
                         }
                         Err(e) => problems.push(
-                            Problem::new(
-                                src,
+                            Problem::at(
+                                srcs,
                                 graph.nodes[i].name.span,
                                 format!("node `{}` cannot size its outputs: {e}", graph.nodes[i].name.value),
                             )
@@ -871,7 +885,7 @@ pub fn check(
         let stem_span = wd.name.as_ref().map_or(wd.port.span(), |s| s.span);
         if let Some(first) = stems.get(&stem) {
             problems.push(
-                Problem::new(src, stem_span, format!("two outputs would be written to `{stem}.csv`"))
+                Problem::at(srcs, stem_span, format!("two outputs would be written to `{stem}.csv`"))
                     .label("same file")
                     .also(place(*first), "first written here")
                     .help("give one of them another name with `as NAME`"),
@@ -886,6 +900,58 @@ pub fn check(
         });
     }
 
+    // Bakes and plots.
+    let resolve = |r: &PortRef| -> Result<(usize, usize, Shape, Dimension), Problem> {
+        let i = *by_name.get(r.node.value.as_str()).ok_or_else(|| {
+            let mut p =
+                Problem::at(srcs, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
+            if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
+                p = p.help(format!("did you mean `{c}`?"));
+            }
+            p
+        })?;
+        let ty = states[i]
+            .ty
+            .as_ref()
+            .ok_or_else(|| Problem::at(srcs, r.node.span, "this node has no known type"))?;
+        let k = ty
+            .spec()
+            .outputs
+            .iter()
+            .position(|p| p.name == r.port.value)
+            .ok_or_else(|| port_problem(r, ty, true))?;
+        // A node whose shapes are unknown already has a problem reported.
+        let shape = shapes[i]
+            .as_ref()
+            .map_or(Shape::of(ty.spec().outputs[k].kind), |s| s[k]);
+        Ok((i, k, shape, ty.spec().outputs[k].dimension))
+    };
+    let mut bakes = Vec::new();
+    let mut plots = Vec::new();
+    let block_src = |b: &crate::graph::OutputBlock| srcs.get(usize::from(b.file.span.file)).unwrap_or(src);
+    let mut files: BTreeMap<String, Span> = BTreeMap::new();
+    for block in &graph.blocks {
+        if let Some(first) = files.get(&block.file.value) {
+            problems.push(
+                Problem::at(srcs, block.file.span, format!("`{}` is written twice", block.file.value))
+                    .label("same file")
+                    .also(place(*first), "first written here"),
+            );
+            continue;
+        }
+        files.insert(block.file.value.clone(), block.file.span);
+        match block.kind {
+            BlockKind::Bake => match blocks::plan_bake(block_src(block), block, &resolve) {
+                Ok(b) => bakes.push(b),
+                Err(mut p) => problems.append(&mut p),
+            },
+            BlockKind::Plot => match plots::plan_plot(block_src(block), block, &resolve) {
+                Ok(p) => plots.push(p),
+                Err(mut p) => problems.append(&mut p),
+            },
+        }
+    }
+
     if !problems.is_empty() {
         return Err(problems);
     }
@@ -893,8 +959,8 @@ pub fn check(
     for (i, (s, d)) in states.into_iter().zip(&graph.nodes).enumerate() {
         // Every node without a type or shapes has a problem reported above; this is a guard.
         let (Some(ty), Some(outputs)) = (s.ty, shapes[i].take()) else {
-            return Err(vec![Problem::new(
-                src,
+            return Err(vec![Problem::at(
+                srcs,
                 d.name.span,
                 format!("node `{}` could not be planned", d.name.value),
             )]);
@@ -915,6 +981,8 @@ pub fn check(
         nodes,
         levels,
         writes,
+        bakes,
+        plots,
     })
 }
 

@@ -42,23 +42,30 @@ pub struct Span {
     pub start: usize,
     /// Length in bytes.
     pub len: usize,
+    /// Which source of a graph (0: the graph file, then its recipes in the order read).
+    pub file: u16,
 }
 
 impl Span {
-    /// A span from `start` to `end` (exclusive).
+    /// A span from `start` to `end` (exclusive) in source 0.
     pub fn new(start: usize, end: usize) -> Span {
         Span {
             start,
             len: end.saturating_sub(start),
+            file: 0,
         }
+    }
+    /// The same range in source `file`.
+    pub fn in_file(self, file: u16) -> Span {
+        Span { file, ..self }
     }
     /// The byte just past the end.
     pub fn end(&self) -> usize {
         self.start + self.len
     }
-    /// The smallest span holding both.
+    /// The smallest span holding both (in this span's source).
     pub fn to(&self, other: Span) -> Span {
-        Span::new(self.start.min(other.start), self.end().max(other.end()))
+        Span::new(self.start.min(other.start), self.end().max(other.end())).in_file(self.file)
     }
 }
 
@@ -107,6 +114,12 @@ impl Problem {
             help: None,
             related: Vec::new(),
         }
+    }
+    /// A problem at a span of one of a graph's sources.
+    pub fn at(sources: &[Arc<Source>], span: Span, message: impl Into<String>) -> Problem {
+        let source = sources.get(usize::from(span.file)).or(sources.first()).map(Arc::clone);
+        let source = source.unwrap_or_else(|| Source::new("<graph>", ""));
+        Problem::new(&source, span, message)
     }
     /// Sets the text under the caret.
     pub fn label(mut self, label: impl Into<String>) -> Problem {

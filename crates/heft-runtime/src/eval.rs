@@ -175,6 +175,16 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
 
 /// Evaluates a plan on `threads` worker threads (`None`: one per core).
 pub fn evaluate(plan: &Plan, threads: Option<usize>) -> Result<Evaluation, EvalError> {
+    evaluate_observed(plan, threads, &|_| {})
+}
+
+/// Like [`evaluate`], calling `node_done(i)` (from any worker thread) as node `i` finishes,
+/// for progress display.
+pub fn evaluate_observed(
+    plan: &Plan,
+    threads: Option<usize>,
+    node_done: &(dyn Fn(usize) + Sync),
+) -> Result<Evaluation, EvalError> {
     let mut builder = rayon::ThreadPoolBuilder::new();
     if let Some(n) = threads {
         builder = builder.num_threads(n.max(1));
@@ -183,8 +193,16 @@ pub fn evaluate(plan: &Plan, threads: Option<usize>) -> Result<Evaluation, EvalE
     let started = Instant::now();
     let mut done: Vec<Option<NodeResult>> = (0..plan.nodes.len()).map(|_| None).collect();
     for level in &plan.levels {
-        let results: Vec<Result<NodeResult, EvalError>> =
-            pool.install(|| level.par_iter().map(|&i| run_node(plan, i, &done)).collect());
+        let results: Vec<Result<NodeResult, EvalError>> = pool.install(|| {
+            level
+                .par_iter()
+                .map(|&i| {
+                    let r = run_node(plan, i, &done);
+                    node_done(i);
+                    r
+                })
+                .collect()
+        });
         for (&i, r) in level.iter().zip(results) {
             done[i] = Some(r?);
         }

@@ -26,7 +26,7 @@ use crate::diag::{Problem, Source, Span};
 pub const FORMAT_VERSION: u32 = 1;
 
 /// Words that start a statement and cannot name a node.
-pub const KEYWORDS: &[&str] = &["format", "rate", "frames", "write", "as"];
+pub const KEYWORDS: &[&str] = &["format", "rate", "frames", "write", "as", "bake", "plot", "include"];
 
 /// A value with its place in the source.
 #[derive(Debug, Clone, PartialEq)]
@@ -83,6 +83,19 @@ pub struct ParamLine {
     pub name: Spanned<String>,
     /// Its value.
     pub value: Spanned<Value>,
+    /// True for a value that replaces the node's own (a recipe's override, a `--set`).
+    pub replaces: bool,
+}
+
+/// `include "recipe.graph" as name` with indented `node.param = value` overrides.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IncludeDecl {
+    /// The recipe file as written (relative to the including file's folder).
+    pub file: Spanned<String>,
+    /// The instance name: the recipe's nodes are named `name_node`.
+    pub name: Spanned<String>,
+    /// Overrides: (recipe node, parameter line).
+    pub overrides: Vec<(Spanned<String>, ParamLine)>,
 }
 
 /// `name = plugin.node` and its parameter lines.
@@ -136,6 +149,44 @@ pub struct WriteDecl {
     pub span: Span,
 }
 
+/// What an output block makes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BlockKind {
+    /// `bake "file.glb"`: a glTF 2.0 file.
+    Bake,
+    /// `plot "file.svg"`: a picture.
+    Plot,
+}
+
+/// One series line in an output block: `node.port`, or `node.port chains N`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BlockItem {
+    /// The output port.
+    pub port: PortRef,
+    /// For points: how many consecutive points make one chain (a strand).
+    pub chains: Option<Spanned<usize>>,
+}
+
+/// `bake "file"` or `plot "file"` with its indented series lines and options.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutputBlock {
+    /// Bake or plot.
+    pub kind: BlockKind,
+    /// The file name as written (relative to the output folder).
+    pub file: Spanned<String>,
+    /// The series, in order.
+    pub items: Vec<BlockItem>,
+    /// `name = value` options.
+    pub options: Vec<ParamLine>,
+}
+
+/// The open indented block while parsing.
+enum Block {
+    Node(NodeDecl),
+    Output(OutputBlock),
+    Include(IncludeDecl),
+}
+
 /// A parsed graph file.
 #[derive(Debug, Clone)]
 pub struct GraphFile {
@@ -153,6 +204,12 @@ pub struct GraphFile {
     pub wires: Vec<Wire>,
     /// Outputs to write.
     pub writes: Vec<WriteDecl>,
+    /// Bakes and plots.
+    pub blocks: Vec<OutputBlock>,
+    /// Recipes to include (expanded by [`crate::recipes::expand`]).
+    pub includes: Vec<IncludeDecl>,
+    /// Every source a span may point into: the graph file first, then its recipes.
+    pub sources: Vec<Arc<Source>>,
 }
 
 /// A cursor over one line; offsets are bytes into the whole source.
@@ -458,7 +515,7 @@ fn statement(
     source: &Arc<Source>,
     line: &mut Line<'_>,
     graph: &mut GraphFile,
-    current: &mut Option<NodeDecl>,
+    current: &mut Option<Block>,
 ) -> Result<(), Problem> {
     let start = line.at();
     let Some(word) = line.ident() else {
@@ -558,6 +615,63 @@ fn statement(
                 span,
             });
         }
+        "include" => {
+            line.skip_ws();
+            let at = line.at();
+            let rest = line.rest();
+            let value_end = rest.rfind(" as ").unwrap_or(rest.len());
+            let value = parse_value(source, &rest[..value_end], at)?;
+            let Value::Text(file) = value.value else {
+                return Err(problem(source, value.span, "expected a quoted recipe file: `include \"braid.graph\" as name`")
+                    .label("not a quoted file name"));
+            };
+            line.pos += value_end;
+            let as_at = line.at();
+            if !matches!(line.ident(), Some(w) if w.value == "as") {
+                return Err(problem(source, Span::new(as_at, as_at + 1), "expected `as name` after the recipe file")
+                    .help("the recipe's nodes are named `name_node`, so one recipe can be included several times"));
+            }
+            let name = line
+                .ident()
+                .ok_or_else(|| problem(source, line.span_from(as_at), "expected a name after `as`"))?;
+            end_check(line)?;
+            *current = Some(Block::Include(IncludeDecl {
+                file: Spanned { value: file, span: value.span },
+                name,
+                overrides: Vec::new(),
+            }));
+        }
+        "bake" | "plot" => {
+            let kind = if word.value == "bake" {
+                BlockKind::Bake
+            } else {
+                BlockKind::Plot
+            };
+            line.skip_ws();
+            let at = line.at();
+            let value = parse_value(source, line.rest(), at)?;
+            let Value::Text(file) = value.value else {
+                return Err(problem(
+                    source,
+                    value.span,
+                    format!(
+                        "expected a quoted file name: `{} \"name.{}\"`",
+                        word.value,
+                        if kind == BlockKind::Bake { "glb" } else { "svg" }
+                    ),
+                )
+                .label("not a quoted file name"));
+            };
+            *current = Some(Block::Output(OutputBlock {
+                kind,
+                file: Spanned {
+                    value: file,
+                    span: value.span,
+                },
+                items: Vec::new(),
+                options: Vec::new(),
+            }));
+        }
         "write" => {
             let port = port_ref(line, source, "the output to write")?;
             let mut name = None;
@@ -632,11 +746,11 @@ fn statement(
                         format!("`{}` is a keyword and cannot name a node", word.value),
                     ));
                 }
-                *current = Some(NodeDecl {
+                *current = Some(Block::Node(NodeDecl {
                     name: word,
                     ty,
                     params: Vec::new(),
-                });
+                }));
             } else {
                 return Err(problem(source, word.span, format!("unknown statement `{}`", word.value))
                     .label("not a statement")
@@ -644,6 +758,110 @@ fn statement(
             }
         }
     }
+    Ok(())
+}
+
+fn close_block(graph: &mut GraphFile, block: Option<Block>) {
+    match block {
+        Some(Block::Node(n)) => graph.nodes.push(n),
+        Some(Block::Output(o)) => graph.blocks.push(o),
+        Some(Block::Include(i)) => graph.includes.push(i),
+        None => {}
+    }
+}
+
+/// An indented line under `include`: `node.param = value`.
+fn override_line(source: &Arc<Source>, line: &mut Line<'_>, inc: &mut IncludeDecl) -> Result<(), Problem> {
+    line.skip_ws();
+    let start = line.at();
+    let node = line.ident();
+    let dot = line.rest().starts_with('.');
+    if dot {
+        line.pos += 1;
+    }
+    let name = if dot { line.ident() } else { None };
+    let (Some(node), Some(name)) = (node, name) else {
+        return Err(problem(source, Span::new(start, line.at().max(start + 1)), "expected `node.param = value`")
+            .label("not an override")
+            .help("under `include`, each line sets a parameter of one of the recipe's nodes"));
+    };
+    if !line.eat("=") {
+        let at = line.at();
+        return Err(problem(source, Span::new(at, at + 1), "expected `=` after `node.param`"));
+    }
+    let at = line.at();
+    let value = parse_value(source, line.rest(), at)?;
+    inc.overrides.push((
+        node,
+        ParamLine {
+            name,
+            value,
+            replaces: true,
+        },
+    ));
+    Ok(())
+}
+
+/// An indented line under `bake` or `plot`: `name = value` or `node.port [chains N]`.
+fn block_line(source: &Arc<Source>, line: &mut Line<'_>, block: &mut OutputBlock) -> Result<(), Problem> {
+    line.skip_ws();
+    let rest = line.rest();
+    let is_option = rest.find('=').is_some_and(|eq| !rest[..eq].contains('.'));
+    if is_option {
+        let name = line
+            .ident()
+            .ok_or_else(|| problem(source, Span::new(line.at(), line.at() + 1), "expected an option name"))?;
+        if !line.eat("=") {
+            let at = line.at();
+            return Err(problem(
+                source,
+                Span::new(at, at + 1),
+                "expected `=` after the option name",
+            ));
+        }
+        let at = line.at();
+        let value = parse_value(source, line.rest(), at)?;
+        block.options.push(ParamLine {
+            name,
+            value,
+            replaces: false,
+        });
+        return Ok(());
+    }
+    let port = port_ref(line, source, "a series")?;
+    let mut chains = None;
+    if !line.done() {
+        let at = line.at();
+        match line.ident() {
+            Some(w) if w.value == "chains" => {
+                let n = line
+                    .number()
+                    .filter(|n| n.value.1 && n.value.0 >= 1.0)
+                    .ok_or_else(|| problem(source, line.span_from(at), "expected the points per chain: `chains 13`"))?;
+                chains = Some(Spanned {
+                    value: n.value.0 as usize,
+                    span: n.span,
+                });
+            }
+            _ => {
+                return Err(problem(
+                    source,
+                    Span::new(at, line.base + line.text.len()),
+                    "expected `chains N` or the end of the line",
+                )
+                .help("a series line reads `node.port`, or `node.port chains N` for points that form strands of N"));
+            }
+        }
+        if !line.done() {
+            let at = line.at();
+            return Err(problem(
+                source,
+                Span::new(at, line.base + line.text.len()),
+                "unexpected text at the end of the line",
+            ));
+        }
+    }
+    block.items.push(BlockItem { port, chains });
     Ok(())
 }
 
@@ -662,6 +880,16 @@ fn strip_comment(line: &str) -> &str {
 
 /// Parses a graph file. Returns what could be read and every problem found.
 pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
+    parse_as(source, false)
+}
+
+/// Parses a recipe: like a graph, but its frame rate and range may be left out (the graph
+/// that includes it gives the timeline; a recipe's own are ignored there).
+pub fn parse_recipe(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
+    parse_as(source, true)
+}
+
+fn parse_as(source: &Arc<Source>, recipe: bool) -> (GraphFile, Vec<Problem>) {
     let mut graph = GraphFile {
         source: Arc::clone(source),
         format: None,
@@ -670,9 +898,12 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
         nodes: Vec::new(),
         wires: Vec::new(),
         writes: Vec::new(),
+        blocks: Vec::new(),
+        includes: Vec::new(),
+        sources: vec![Arc::clone(source)],
     };
     let mut problems = Vec::new();
-    let mut current: Option<NodeDecl> = None;
+    let mut current: Option<Block> = None;
     // Header statements written at all, even if malformed (those are reported where they are).
     let mut headers_seen = std::collections::BTreeSet::new();
     let mut offset = 0;
@@ -687,7 +918,19 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
         let indented = text.starts_with([' ', '\t']);
         if indented {
             let mut line = Line::new(text, base);
-            let Some(node) = current.as_mut() else {
+            if let Some(Block::Output(block)) = current.as_mut() {
+                if let Err(p) = block_line(source, &mut line, block) {
+                    problems.push(p);
+                }
+                continue;
+            }
+            if let Some(Block::Include(inc)) = current.as_mut() {
+                if let Err(p) = override_line(source, &mut line, inc) {
+                    problems.push(p);
+                }
+                continue;
+            }
+            let Some(Block::Node(node)) = current.as_mut() else {
                 line.skip_ws();
                 problems.push(
                     problem(source, Span::new(line.at(), base + text.len()), "an indented parameter line outside a node")
@@ -718,14 +961,16 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
             }
             let value_base = line.at();
             match parse_value(source, line.rest(), value_base) {
-                Ok(value) => node.params.push(ParamLine { name, value }),
+                Ok(value) => node.params.push(ParamLine {
+                    name,
+                    value,
+                    replaces: false,
+                }),
                 Err(p) => problems.push(p),
             }
             continue;
         }
-        if let Some(done) = current.take() {
-            graph.nodes.push(done);
-        }
+        close_block(&mut graph, current.take());
         let mut line = Line::new(text, base);
         if let Some(word) = text.split_whitespace().next() {
             headers_seen.insert(word.to_owned());
@@ -734,9 +979,7 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
             problems.push(p);
         }
     }
-    if let Some(done) = current.take() {
-        graph.nodes.push(done);
-    }
+    close_block(&mut graph, current.take());
     let end = Span::new(0, 0);
     if graph.format.is_none() && !headers_seen.contains("format") {
         problems.push(
@@ -758,10 +1001,10 @@ pub fn parse(source: &Arc<Source>) -> (GraphFile, Vec<Problem>) {
             .label("unknown format"),
         );
     }
-    if graph.rate.is_none() && !headers_seen.contains("rate") {
+    if graph.rate.is_none() && !headers_seen.contains("rate") && !recipe {
         problems.push(problem(source, end, "the graph has no frame rate").help("add a line such as `rate 24 fps`"));
     }
-    if graph.frames.is_none() && !headers_seen.contains("frames") {
+    if graph.frames.is_none() && !headers_seen.contains("frames") && !recipe {
         problems.push(problem(source, end, "the graph has no frame range").help("add a line such as `frames 1..96`"));
     }
     (graph, problems)

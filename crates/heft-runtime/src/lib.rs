@@ -6,12 +6,17 @@
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
+pub mod blocks;
 pub mod check;
 pub mod diag;
 pub mod eval;
+pub mod gltf_out;
 pub mod graph;
 pub mod output;
+pub mod plots;
+pub mod recipes;
 pub mod registry;
+pub mod sweep;
 pub mod units;
 
 use std::path::Path;
@@ -22,7 +27,9 @@ use std::sync::Arc;
 pub fn read_graph(path: &Path) -> Result<(graph::GraphFile, Vec<diag::Problem>), std::io::Error> {
     let text = std::fs::read_to_string(path)?;
     let source: Arc<diag::Source> = diag::Source::new(path.display().to_string(), text);
-    Ok(graph::parse(&source))
+    let (mut graph, mut problems) = graph::parse(&source);
+    recipes::expand(&mut graph, &mut problems);
+    Ok((graph, problems))
 }
 
 /// Parses and checks graph text in one step (for tests and tools).
@@ -33,7 +40,8 @@ pub fn plan_text(
     overrides: &check::Overrides,
 ) -> Result<check::Plan, Vec<diag::Problem>> {
     let source = diag::Source::new(name, text);
-    let (graph, problems) = graph::parse(&source);
+    let (mut graph, mut problems) = graph::parse(&source);
+    recipes::expand(&mut graph, &mut problems);
     check::check(&graph, problems, registry, overrides)
 }
 pub mod node_docs;

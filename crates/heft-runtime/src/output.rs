@@ -140,6 +140,40 @@ struct Summary {
     wall_seconds: f64,
 }
 
+type Staged = Vec<(tempfile::NamedTempFile, PathBuf)>;
+
+/// Writes `bytes` to a temporary file in `dir`, to be renamed to `path` when all is written.
+fn stage(staged: &mut Staged, dir: &Path, bytes: &[u8], path: PathBuf) -> Result<(), WriteError> {
+    let mut tmp = tempfile::Builder::new()
+        .prefix(".heft-")
+        .suffix(".partial")
+        .tempfile_in(dir)
+        .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
+    tmp.write_all(bytes).map_err(|e| werr(&path, e))?;
+    tmp.as_file().sync_all().map_err(|e| werr(&path, e))?;
+    staged.push((tmp, path));
+    Ok(())
+}
+
+/// Writes one file atomically: a temporary file beside it, then a rename.
+pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
+    let dir = path.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the folder: {e}")))?;
+    let mut staged = Vec::new();
+    stage(&mut staged, dir, bytes, path.to_path_buf())?;
+    for (tmp, path) in staged {
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            tmp.as_file()
+                .set_permissions(std::fs::Permissions::from_mode(0o644))
+                .map_err(|e| werr(&path, e))?;
+        }
+        tmp.persist(&path).map_err(|e| werr(&path, e.error))?;
+    }
+    Ok(())
+}
+
 /// The file name of the run summary in the output folder.
 pub const SUMMARY_FILE: &str = "run.json";
 
@@ -153,23 +187,12 @@ pub fn write_all(
     wall: Duration,
 ) -> Result<Vec<PathBuf>, WriteError> {
     std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the output folder: {e}")))?;
-    let mut staged: Vec<(tempfile::NamedTempFile, PathBuf)> = Vec::new();
-    let mut stage = |bytes: &[u8], path: PathBuf| -> Result<(), WriteError> {
-        let mut tmp = tempfile::Builder::new()
-            .prefix(".heft-")
-            .suffix(".partial")
-            .tempfile_in(dir)
-            .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
-        tmp.write_all(bytes).map_err(|e| werr(&path, e))?;
-        tmp.as_file().sync_all().map_err(|e| werr(&path, e))?;
-        staged.push((tmp, path));
-        Ok(())
-    };
+    let mut staged: Staged = Vec::new();
     let mut outputs = Vec::new();
     for w in &plan.writes {
         let path = dir.join(format!("{}.csv", w.stem));
         let text = csv_text(plan, eval, w.node, w.output).map_err(|e| werr(&path, e))?;
-        stage(&text, path.clone())?;
+        stage(&mut staged, dir, &text, path.clone())?;
         let pn = &plan.nodes[w.node];
         let port = &pn.ty.spec().outputs[w.output];
         outputs.push(OutputEntry {
@@ -178,6 +201,45 @@ pub fn write_all(
             port: port.name.clone(),
             kind: pn.outputs[w.output].to_string(),
             columns: columns(&port.name, pn.outputs[w.output], port.dimension),
+        });
+    }
+    for bake in &plan.bakes {
+        let files = crate::gltf_out::bake_files(plan, eval, bake).map_err(|e| werr(&dir.join(&bake.file), e))?;
+        for (name, bytes) in files {
+            let path = dir.join(&name);
+            if let Some(parent) = path.parent() {
+                std::fs::create_dir_all(parent).map_err(|e| werr(parent, e))?;
+            }
+            stage(&mut staged, dir, &bytes, path)?;
+            outputs.push(OutputEntry {
+                file: name,
+                node: String::new(),
+                port: String::new(),
+                kind: "glTF 2.0".to_owned(),
+                columns: bake.items.iter().map(|i| i.name.clone()).collect(),
+            });
+        }
+    }
+    for plot in &plan.plots {
+        let path = dir.join(&plot.file);
+        if let Some(parent) = path.parent() {
+            std::fs::create_dir_all(parent).map_err(|e| werr(parent, e))?;
+        }
+        let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("svg").to_owned();
+        let tmp = tempfile::Builder::new()
+            .prefix(".heft-")
+            .suffix(&format!(".partial.{ext}"))
+            .tempfile_in(dir)
+            .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
+        crate::plots::draw(plan, eval, plot, tmp.path())
+            .map_err(|e| werr(&path, format!("cannot draw the plot: {e}")))?;
+        staged.push((tmp, path));
+        outputs.push(OutputEntry {
+            file: plot.file.clone(),
+            node: String::new(),
+            port: String::new(),
+            kind: "plot".to_owned(),
+            columns: plot.items.iter().map(|i| i.name.clone()).collect(),
         });
     }
     let mut plugins: Vec<PluginEntry> = Vec::new();
@@ -235,9 +297,17 @@ pub fn write_all(
     };
     let summary_path = dir.join(SUMMARY_FILE);
     let json = serde_json::to_vec_pretty(&summary).map_err(|e| werr(&summary_path, e))?;
-    stage(&json, summary_path)?;
+    stage(&mut staged, dir, &json, summary_path)?;
     let mut written = Vec::new();
     for (tmp, path) in staged {
+        // Temporary files are private (0600); outputs get the usual permissions.
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            tmp.as_file()
+                .set_permissions(std::fs::Permissions::from_mode(0o644))
+                .map_err(|e| werr(&path, e))?;
+        }
         tmp.persist(&path).map_err(|e| werr(&path, e.error))?;
         written.push(path);
     }

@@ -43,6 +43,10 @@ const UNITS: &[(&str, Dimension, f64)] = &[
     ("1/s", Dimension::Rate, 1.0),
     ("N s", Dimension::Impulse, 1.0),
     ("kg m/s", Dimension::Impulse, 1.0),
+    ("J", Dimension::Energy, 1.0),
+    ("mJ", Dimension::Energy, 0.001),
+    ("N m^2", Dimension::BendingStiffness, 1.0),
+    ("N mm^2", Dimension::BendingStiffness, 1e-6),
     ("%", Dimension::Dimensionless, 0.01),
 ];
 

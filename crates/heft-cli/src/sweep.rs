@@ -1,0 +1,212 @@
+//! `heft sweep`: a grid of runs.
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::time::Instant;
+
+use heft_runtime::check::{Overrides, Plan};
+use heft_runtime::diag::render;
+use heft_runtime::registry::Registry;
+use heft_runtime::sweep::{Axis, grid};
+use heft_runtime::{check, eval, output, read_graph};
+use heft_node_sdk::ParamValue;
+use rayon::prelude::*;
+
+use crate::GraphArgs;
+
+/// What one point gave: its SI axis values, its summaries (or an error).
+struct PointResult {
+    index: usize,
+    axis_values: Vec<String>,
+    summaries: Vec<(String, f64)>,
+    error: Option<String>,
+}
+
+fn si_value(plan: &Plan, target: &str) -> String {
+    let Some((node, param)) = target.split_once('.') else { return String::new() };
+    plan.nodes
+        .iter()
+        .find(|n| n.name == node)
+        .and_then(|n| n.ty.spec().params.iter().position(|p| p.name == param).map(|k| &n.params[k]))
+        .map(|v| match v {
+            ParamValue::Number(x) => format!("{x}"),
+            ParamValue::Integer(i) => i.to_string(),
+            other => format!("{other:?}"),
+        })
+        .unwrap_or_default()
+}
+
+fn run_point(
+    registry: &Registry,
+    graph: &GraphArgs,
+    axes: &[Axis],
+    index: usize,
+    values: &[String],
+    out: &Path,
+    wanted: &[String],
+) -> PointResult {
+    let mut result = PointResult {
+        index,
+        axis_values: values.to_vec(),
+        summaries: Vec::new(),
+        error: None,
+    };
+    let (parsed, problems) = match read_graph(&graph.graph) {
+        Ok(g) => g,
+        Err(e) => {
+            result.error = Some(format!("cannot read {}: {e}", graph.graph.display()));
+            return result;
+        }
+    };
+    let mut set = graph.set.clone();
+    set.extend(axes.iter().zip(values).map(|(a, v)| format!("{}={v}", a.target)));
+    let overrides = Overrides {
+        set,
+        frames: graph.frames,
+    };
+    let plan = match check::check(&parsed, problems, registry, &overrides) {
+        Ok(p) => p,
+        Err(p) => {
+            result.error = Some(render(&p, false));
+            return result;
+        }
+    };
+    result.axis_values = axes.iter().map(|a| si_value(&plan, &a.target)).collect();
+    let started = Instant::now();
+    let e = match eval::evaluate(&plan, Some(1)) {
+        Ok(e) => e,
+        Err(e) => {
+            result.error = Some(e.to_string());
+            return result;
+        }
+    };
+    for (n, values) in plan.nodes.iter().zip(&e.summaries) {
+        for (s, v) in n.ty.spec().summaries.iter().zip(values) {
+            let name = format!("{}.{}", n.name, s.name);
+            if wanted.is_empty() || wanted.contains(&name) {
+                let unit = match s.dimension.si_symbol() {
+                    "" => String::new(),
+                    u => format!(" [{u}]"),
+                };
+                result.summaries.push((format!("{name}{unit}"), *v));
+            }
+        }
+    }
+    let folder = out.join(format!("point-{index:04}"));
+    if let Err(err) = output::write_all(&plan, &e, &graph.graph, &folder, started.elapsed()) {
+        result.error = Some(err.to_string());
+    }
+    result
+}
+
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn run(
+    registry: &Registry,
+    graph: &GraphArgs,
+    axes: &[Axis],
+    out: &Path,
+    shard: Option<(usize, usize)>,
+    wanted: &[String],
+    threads: Option<usize>,
+    quiet: bool,
+    color: bool,
+) -> ExitCode {
+    // Check the graph once as it stands, so that a broken graph stops before any point runs.
+    match read_graph(&graph.graph) {
+        Ok((g, p)) => {
+            let overrides = Overrides {
+                set: graph.set.clone(),
+                frames: graph.frames,
+            };
+            if let Err(problems) = check::check(&g, p, registry, &overrides) {
+                eprint!("{}", render(&problems, color));
+                return ExitCode::from(1);
+            }
+        }
+        Err(e) => {
+            eprintln!("error: cannot read the graph file {}: {e}", graph.graph.display());
+            return ExitCode::from(1);
+        }
+    }
+    let points: Vec<(usize, Vec<String>)> = grid(axes)
+        .into_iter()
+        .filter(|(i, _)| shard.is_none_or(|(k, n)| i % n == k))
+        .collect();
+    let mut builder = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = threads {
+        builder = builder.num_threads(n);
+    }
+    let pool = match builder.build() {
+        Ok(p) => p,
+        Err(e) => {
+            eprintln!("error: cannot start the worker threads: {e}");
+            return ExitCode::from(1);
+        }
+    };
+    let results: Vec<PointResult> = pool.install(|| {
+        points
+            .par_iter()
+            .map(|(i, values)| run_point(registry, graph, axes, *i, values, out, wanted))
+            .collect()
+    });
+    // The table: one row per point, the union of summary columns in first-seen order.
+    let mut columns: Vec<String> = Vec::new();
+    for r in &results {
+        for (name, _) in &r.summaries {
+            if !columns.contains(name) {
+                columns.push(name.clone());
+            }
+        }
+    }
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut header = vec!["point".to_owned(), "folder".to_owned()];
+    header.extend(axes.iter().map(|a| format!("{} [SI]", a.target)));
+    header.extend(columns.iter().cloned());
+    header.push("error".to_owned());
+    let mut failed = 0;
+    let mut rows = vec![header];
+    for r in &results {
+        let mut row = vec![r.index.to_string(), format!("point-{:04}", r.index)];
+        row.extend(r.axis_values.iter().cloned());
+        for c in &columns {
+            row.push(r.summaries.iter().find(|(n, _)| n == c).map(|(_, v)| format!("{v}")).unwrap_or_default());
+        }
+        if let Some(e) = &r.error {
+            failed += 1;
+            eprintln!("point {}: {e}", r.index);
+        }
+        row.push(r.error.clone().unwrap_or_default().lines().next().unwrap_or_default().to_owned());
+        rows.push(row);
+    }
+    for row in &rows {
+        if let Err(e) = w.write_record(row) {
+            eprintln!("error: cannot write the table: {e}");
+            return ExitCode::from(1);
+        }
+    }
+    let table: PathBuf = match shard {
+        Some((i, n)) => out.join(format!("sweep-shard-{i}-of-{n}.csv")),
+        None => out.join("sweep.csv"),
+    };
+    let bytes = match w.into_inner() {
+        Ok(b) => b,
+        Err(e) => {
+            eprintln!("error: cannot write the table: {e}");
+            return ExitCode::from(1);
+        }
+    };
+    if let Err(e) = output::write_atomically(&table, &bytes) {
+        eprintln!("error: cannot write the table: {e}");
+        return ExitCode::from(1);
+    }
+    if !quiet {
+        println!(
+            "swept {} of {} points ({} failed); table {}",
+            results.len(),
+            grid(axes).len(),
+            failed,
+            table.display()
+        );
+    }
+    if failed > 0 { ExitCode::from(1) } else { ExitCode::SUCCESS }
+}

@@ -1,0 +1,362 @@
+//! How a velocity field on a grid crosses the plugin boundary as a points port.
+//!
+//! One frame of a field port holds, as points of (x, y, z):
+//!
+//! | point | contents |
+//! |---|---|
+//! | 0 | `(nx, ny, nz)`: samples per axis, as numbers |
+//! | 1 | `(spacing, 0, 0)`: distance between neighbouring samples, m |
+//! | 2 | the grid origin: world position of sample `(0, 0, 0)`, m |
+//! | 3.. | `nx * ny * nz` velocity samples, m/s, x fastest: sample `(i, j, k)` is point `3 + i + nx (j + ny k)` |
+//!
+//! The grid is axis-aligned in world space; sample `(i, j, k)` sits at
+//! `origin + spacing * (i, j, k)`. The origin may move from frame to frame (a grid that
+//! follows a character); the dimensions may not, since a points port has a fixed N. Every
+//! frame carries its own header, so a reader checks and reads it per frame. A writer calls
+//! [`points_for`] for N and [`write_frame`] per frame; a reader wraps each frame in a
+//! [`FieldView`] and calls [`FieldView::sample`].
+
+/// Points before the samples: dimensions, spacing, origin.
+pub const HEADER_POINTS: usize = 3;
+
+/// Points per frame of a field with `nx * ny * nz` samples (saturates instead of overflowing).
+pub fn points_for(nx: usize, ny: usize, nz: usize) -> usize {
+    nx.saturating_mul(ny).saturating_mul(nz).saturating_add(HEADER_POINTS)
+}
+
+/// Writes one frame: the header, then `sample(position)` at every grid position in
+/// x-fastest order.
+///
+/// # Panics
+///
+/// If `out.len()` is not `3 * points_for(dims)`: the caller sized the port with
+/// [`points_for`], so a mismatch is a bug in the caller.
+pub fn write_frame(
+    out: &mut [f64],
+    dims: [usize; 3],
+    spacing: f64,
+    origin: [f64; 3],
+    mut sample: impl FnMut([f64; 3]) -> [f64; 3],
+) {
+    let [nx, ny, nz] = dims;
+    assert_eq!(
+        out.len(),
+        3 * points_for(nx, ny, nz),
+        "field frame of {nx} x {ny} x {nz} samples needs {} values",
+        3 * points_for(nx, ny, nz)
+    );
+    let (header, samples) = out.split_at_mut(3 * HEADER_POINTS);
+    header.copy_from_slice(&[
+        nx as f64, ny as f64, nz as f64, spacing, 0.0, 0.0, origin[0], origin[1], origin[2],
+    ]);
+    let mut chunks = samples.chunks_exact_mut(3);
+    for k in 0..nz {
+        for j in 0..ny {
+            for i in 0..nx {
+                let p = [
+                    origin[0] + spacing * i as f64,
+                    origin[1] + spacing * j as f64,
+                    origin[2] + spacing * k as f64,
+                ];
+                if let Some(c) = chunks.next() {
+                    c.copy_from_slice(&sample(p));
+                }
+            }
+        }
+    }
+}
+
+/// Positions this close to a grid line (in cells) are read as on it, so that sampling at
+/// a sample's own position returns that sample exactly despite the round-off of
+/// `(p - origin) / spacing`, and positions on the far faces are inside.
+const SNAP_CELLS: f64 = 1e-9;
+
+/// A read-only view of one frame of a field port, with its header checked.
+#[derive(Debug, Clone, Copy)]
+pub struct FieldView<'a> {
+    dims: [usize; 3],
+    spacing: f64,
+    origin: [f64; 3],
+    samples: &'a [f64],
+}
+
+impl<'a> FieldView<'a> {
+    /// Checks one frame's header against its length: dimensions are positive whole numbers
+    /// whose product matches the number of samples, the spacing is positive, the origin is
+    /// finite. The error says what is wrong (the caller adds the port and frame).
+    pub fn from_frame(values: &'a [f64]) -> Result<FieldView<'a>, String> {
+        if !values.len().is_multiple_of(3) {
+            return Err(format!(
+                "a field frame holds whole points; {} values is not a multiple of 3",
+                values.len()
+            ));
+        }
+        let points = values.len() / 3;
+        if points < HEADER_POINTS + 1 {
+            return Err(format!(
+                "a field frame needs {HEADER_POINTS} header points and at least one sample; it has {points} points"
+            ));
+        }
+        let count = points - HEADER_POINTS;
+        let mut dims = [0usize; 3];
+        for (a, d) in dims.iter_mut().enumerate() {
+            let v = values[a];
+            if !(v.is_finite() && v >= 1.0 && v.fract() == 0.0 && v <= count as f64) {
+                return Err(format!(
+                    "field header: samples along {} = {v} is not a whole number from 1 to {count}",
+                    ["x", "y", "z"][a]
+                ));
+            }
+            *d = v as usize;
+        }
+        let product = dims[0].checked_mul(dims[1]).and_then(|p| p.checked_mul(dims[2]));
+        if product != Some(count) {
+            return Err(format!(
+                "field header: {} x {} x {} samples, but the frame holds {count}",
+                dims[0], dims[1], dims[2]
+            ));
+        }
+        let spacing = values[3];
+        if !(spacing.is_finite() && spacing > 0.0) {
+            return Err(format!("field header: spacing {spacing} m is not positive"));
+        }
+        if values[4] != 0.0 || values[5] != 0.0 {
+            return Err(format!(
+                "field header: point 1 must be (spacing, 0, 0), found ({spacing}, {}, {})",
+                values[4], values[5]
+            ));
+        }
+        let origin = [values[6], values[7], values[8]];
+        if origin.iter().any(|o| !o.is_finite()) {
+            return Err(format!(
+                "field header: origin ({}, {}, {}) is not finite",
+                origin[0], origin[1], origin[2]
+            ));
+        }
+        Ok(FieldView {
+            dims,
+            spacing,
+            origin,
+            samples: &values[3 * HEADER_POINTS..],
+        })
+    }
+
+    /// Samples per axis.
+    pub fn dims(&self) -> [usize; 3] {
+        self.dims
+    }
+
+    /// Distance between neighbouring samples, m.
+    pub fn spacing(&self) -> f64 {
+        self.spacing
+    }
+
+    /// World position of sample (0, 0, 0), m.
+    pub fn origin(&self) -> [f64; 3] {
+        self.origin
+    }
+
+    /// The stored sample `(i, j, k)`, m/s; zero for indices outside the grid.
+    pub fn at(&self, i: usize, j: usize, k: usize) -> [f64; 3] {
+        let [nx, ny, nz] = self.dims;
+        if i >= nx || j >= ny || k >= nz {
+            return [0.0; 3];
+        }
+        let s = 3 * (i + nx * (j + ny * k));
+        [self.samples[s], self.samples[s + 1], self.samples[s + 2]]
+    }
+
+    /// The velocity at world position `p` by trilinear interpolation of the eight
+    /// surrounding samples; zero outside the grid's box (and for a non-finite `p`). At a
+    /// sample's position it returns that sample exactly. Along an axis with one sample
+    /// the box is flat: only points on that plane are inside.
+    pub fn sample(&self, p: [f64; 3]) -> [f64; 3] {
+        let mut lower = [0usize; 3];
+        let mut upper = [0usize; 3];
+        let mut frac = [0.0f64; 3];
+        for a in 0..3 {
+            let n = self.dims[a];
+            let top = (n - 1) as f64;
+            let mut u = (p[a] - self.origin[a]) / self.spacing;
+            if !(u >= -SNAP_CELLS && u <= top + SNAP_CELLS) {
+                return [0.0; 3];
+            }
+            let nearest = u.round();
+            if (u - nearest).abs() <= SNAP_CELLS {
+                u = nearest;
+            }
+            let u = u.clamp(0.0, top);
+            let i = (u.floor() as usize).min(n.saturating_sub(2));
+            lower[a] = i;
+            upper[a] = (i + 1).min(n - 1);
+            frac[a] = u - i as f64;
+        }
+        let mut v = [0.0; 3];
+        for corner in 0..8 {
+            let mut w = 1.0;
+            let mut idx = [0usize; 3];
+            for a in 0..3 {
+                if corner >> a & 1 == 1 {
+                    w *= frac[a];
+                    idx[a] = upper[a];
+                } else {
+                    w *= 1.0 - frac[a];
+                    idx[a] = lower[a];
+                }
+            }
+            if w == 0.0 {
+                continue;
+            }
+            let s = self.at(idx[0], idx[1], idx[2]);
+            for c in 0..3 {
+                v[c] += w * s[c];
+            }
+        }
+        v
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn frame(dims: [usize; 3], spacing: f64, origin: [f64; 3], f: impl FnMut([f64; 3]) -> [f64; 3]) -> Vec<f64> {
+        let mut out = vec![0.0; 3 * points_for(dims[0], dims[1], dims[2])];
+        write_frame(&mut out, dims, spacing, origin, f);
+        out
+    }
+
+    /// An affine field v = a + B p.
+    fn affine(p: [f64; 3]) -> [f64; 3] {
+        [
+            0.5 + 1.5 * p[0] - 0.25 * p[1] + 2.0 * p[2],
+            -1.0 + 0.75 * p[0] + 3.0 * p[1] - 0.5 * p[2],
+            0.125 - 2.5 * p[0] + 0.5 * p[1] + 1.25 * p[2],
+        ]
+    }
+
+    #[test]
+    fn the_layout_is_header_then_x_fastest_samples() {
+        let out = frame([2, 3, 2], 0.5, [1.0, -2.0, 0.25], |p| p);
+        assert_eq!(out.len(), 3 * (3 + 12));
+        assert_eq!(&out[..9], &[2.0, 3.0, 2.0, 0.5, 0.0, 0.0, 1.0, -2.0, 0.25]);
+        // Sample (i, j, k) = (1, 2, 1) is point 3 + 1 + 2 (2 + 3 * 1) = 14 and sits at
+        // origin + 0.5 (1, 2, 1).
+        assert_eq!(&out[42..45], &[1.5, -1.0, 0.75]);
+        assert_eq!(&out[9..12], &[1.0, -2.0, 0.25]);
+    }
+
+    #[test]
+    fn writing_then_sampling_at_the_sample_points_gives_the_samples() {
+        let origin = [0.3, -0.7, 1.1];
+        let h = 0.1;
+        let out = frame([4, 3, 5], h, origin, |p| [p[0].sin(), p[1] * p[2], (p[0] + p[2]).cos()]);
+        let view = FieldView::from_frame(&out).expect("valid");
+        assert_eq!(view.dims(), [4, 3, 5]);
+        for k in 0..5 {
+            for j in 0..3 {
+                for i in 0..4 {
+                    let p = [
+                        origin[0] + h * i as f64,
+                        origin[1] + h * j as f64,
+                        origin[2] + h * k as f64,
+                    ];
+                    assert_eq!(view.sample(p), view.at(i, j, k), "sample ({i}, {j}, {k})");
+                    assert_eq!(view.at(i, j, k), [p[0].sin(), p[1] * p[2], (p[0] + p[2]).cos()]);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn trilinear_interpolation_reproduces_an_affine_field() {
+        // Trilinear interpolation is three nested linear interpolations, each exact for a
+        // function linear along its axis, so it reproduces any affine field (elementary;
+        // the multilinear case is in Press, Teukolsky, Vetterling & Flannery 2007,
+        // Numerical Recipes 3rd ed., sec. 3.6 -- section from memory). Tolerance: the
+        // round-off of a few dozen operations on values of order 10.
+        let origin = [-0.4, 0.2, -1.0];
+        let out = frame([5, 4, 6], 0.25, origin, affine);
+        let view = FieldView::from_frame(&out).expect("valid");
+        for s in 0..200 {
+            let f = s as f64;
+            let p = [
+                origin[0] + (f * 0.618_034).fract() * 1.0,
+                origin[1] + (f * 0.414_214).fract() * 0.75,
+                origin[2] + (f * 0.732_051).fract() * 1.25,
+            ];
+            let got = view.sample(p);
+            let want = affine(p);
+            for c in 0..3 {
+                assert!((got[c] - want[c]).abs() < 1e-12, "{p:?}: {got:?} vs {want:?}");
+            }
+        }
+    }
+
+    #[test]
+    fn outside_the_grid_is_zero_and_the_faces_are_inside() {
+        let origin = [0.0, 0.0, 0.0];
+        let out = frame([3, 3, 3], 0.5, origin, |_| [1.0, 2.0, 3.0]);
+        let view = FieldView::from_frame(&out).expect("valid");
+        assert_eq!(view.sample([1.0, 1.0, 1.0]), [1.0, 2.0, 3.0]);
+        assert_eq!(view.sample([0.0, 0.5, 1.0]), [1.0, 2.0, 3.0]);
+        for p in [
+            [-0.01, 0.5, 0.5],
+            [1.01, 0.5, 0.5],
+            [0.5, -0.01, 0.5],
+            [0.5, 1.01, 0.5],
+            [0.5, 0.5, -0.01],
+            [0.5, 0.5, 1.01],
+            [f64::NAN, 0.5, 0.5],
+        ] {
+            assert_eq!(view.sample(p), [0.0; 3], "{p:?}");
+        }
+        assert_eq!(view.at(3, 0, 0), [0.0; 3]);
+    }
+
+    #[test]
+    fn a_moved_origin_moves_the_grid() {
+        let out = frame([2, 2, 2], 1.0, [10.0, 20.0, 30.0], |p| [p[0], 0.0, 0.0]);
+        let view = FieldView::from_frame(&out).expect("valid");
+        assert_eq!(view.origin(), [10.0, 20.0, 30.0]);
+        assert_eq!(view.sample([10.25, 20.5, 30.5]), [10.25, 0.0, 0.0]);
+        assert_eq!(view.sample([0.5, 0.5, 0.5]), [0.0; 3]);
+    }
+
+    #[test]
+    fn bad_headers_are_errors() {
+        let good = frame([2, 2, 2], 0.5, [0.0; 3], |_| [0.0; 3]);
+        assert!(FieldView::from_frame(&good).is_ok());
+        let broken = |i: usize, v: f64| {
+            let mut f = good.clone();
+            f[i] = v;
+            FieldView::from_frame(&f).expect_err("bad header")
+        };
+        assert!(broken(0, 0.0).contains("along x"));
+        assert!(broken(1, 2.5).contains("along y"));
+        assert!(broken(2, f64::NAN).contains("along z"));
+        assert!(broken(0, 4.0).contains("4 x 2 x 2 samples, but the frame holds 8"));
+        assert!(broken(3, 0.0).contains("spacing"));
+        assert!(broken(3, -0.5).contains("spacing"));
+        assert!(broken(4, 1.0).contains("(spacing, 0, 0)"));
+        assert!(broken(7, f64::INFINITY).contains("origin"));
+        assert!(
+            FieldView::from_frame(&good[..good.len() - 1])
+                .expect_err("ragged")
+                .contains("multiple of 3")
+        );
+        assert!(
+            FieldView::from_frame(&good[..9])
+                .expect_err("no samples")
+                .contains("at least one sample")
+        );
+        assert!(FieldView::from_frame(&good[..good.len() - 3]).is_err());
+    }
+
+    #[test]
+    fn points_for_counts_the_header() {
+        assert_eq!(points_for(8, 8, 8), 515);
+        assert_eq!(points_for(1, 1, 1), 4);
+        assert_eq!(points_for(usize::MAX, 2, 1), usize::MAX);
+    }
+}

@@ -1,0 +1,210 @@
+//! Checking `bake` and `plot` blocks into plans the writers follow.
+
+use std::sync::Arc;
+
+use heft_node_sdk::{Dimension, PortKind, Shape};
+
+use crate::diag::{Problem, Source};
+use crate::graph::{BlockKind, OutputBlock, ParamLine, PortRef, Value};
+
+/// How a glTF bake is stored.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BakeFormat {
+    /// One binary `.glb` file.
+    Glb,
+    /// `.gltf` JSON with its buffer embedded as a base64 data URI.
+    GltfEmbedded,
+    /// `.gltf` JSON with its buffer in a `.bin` file beside it.
+    GltfSeparate,
+}
+
+/// One baked series.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BakeItem {
+    /// Node index.
+    pub node: usize,
+    /// Output index.
+    pub output: usize,
+    /// Its shape.
+    pub shape: Shape,
+    /// Points per chain, for points baked as strands.
+    pub chain: Option<usize>,
+    /// `node.port`, used to name the glTF nodes.
+    pub name: String,
+}
+
+/// A checked `bake` block.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlannedBake {
+    /// File name in the output folder.
+    pub file: String,
+    /// Storage.
+    pub format: BakeFormat,
+    /// True when the data is already Y-up (written as is); false (the default) for heft's
+    /// Z-up world, converted to glTF's Y-up.
+    pub y_up_source: bool,
+    /// The series.
+    pub items: Vec<BakeItem>,
+}
+
+/// A port reference resolved to (node, output, shape, dimension), or a problem.
+pub type Resolve<'a> = dyn Fn(&PortRef) -> Result<(usize, usize, Shape, Dimension), Problem> + 'a;
+
+fn word_option(src: &Arc<Source>, line: &ParamLine, options: &[&str]) -> Result<String, Problem> {
+    match &line.value.value {
+        Value::Word(w) | Value::Text(w) if options.contains(&w.as_str()) => Ok(w.clone()),
+        _ => Err(Problem::new(
+            src,
+            line.value.span,
+            format!("`{}` takes one of: {}", line.name.value, options.join(", ")),
+        )
+        .label("not an option")),
+    }
+}
+
+/// A file name for the output folder: relative, no `..`, no folder outside it.
+pub fn check_file_name(src: &Arc<Source>, block: &OutputBlock, extensions: &[&str]) -> Result<(), Problem> {
+    let f = &block.file.value;
+    let path = std::path::Path::new(f);
+    let bad_place =
+        f.is_empty() || path.is_absolute() || path.components().any(|c| matches!(c, std::path::Component::ParentDir));
+    if bad_place {
+        return Err(Problem::new(
+            src,
+            block.file.span,
+            format!("`{f}` is not a file name inside the output folder"),
+        )
+        .label("not a relative file name")
+        .help("outputs are written into the `--out` folder; give a name such as \"odile.glb\""));
+    }
+    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
+    if !extensions.contains(&ext) {
+        return Err(Problem::new(
+            src,
+            block.file.span,
+            format!(
+                "`{f}` should end in {}",
+                extensions
+                    .iter()
+                    .map(|e| format!(".{e}"))
+                    .collect::<Vec<_>>()
+                    .join(" or ")
+            ),
+        )
+        .label("unknown file type"));
+    }
+    Ok(())
+}
+
+/// Checks a `bake` block.
+pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) -> Result<PlannedBake, Vec<Problem>> {
+    debug_assert_eq!(block.kind, BlockKind::Bake);
+    let mut problems = Vec::new();
+    if let Err(p) = check_file_name(src, block, &["glb", "gltf"]) {
+        problems.push(p);
+    }
+    let glb = block.file.value.ends_with(".glb");
+    let mut format = if glb { BakeFormat::Glb } else { BakeFormat::GltfSeparate };
+    let mut y_up_source = false;
+    for opt in &block.options {
+        match opt.name.value.as_str() {
+            "axes" => match word_option(src, opt, &["z_up", "y_up"]) {
+                Ok(w) => y_up_source = w == "y_up",
+                Err(p) => problems.push(p),
+            },
+            "buffer" if !glb => match word_option(src, opt, &["separate", "embedded"]) {
+                Ok(w) => {
+                    format = if w == "embedded" { BakeFormat::GltfEmbedded } else { BakeFormat::GltfSeparate }
+                }
+                Err(p) => problems.push(p),
+            },
+            "buffer" => problems.push(
+                Problem::new(src, opt.name.span, "a .glb file always holds its buffer")
+                    .label("not for .glb")
+                    .help("`buffer = embedded` or `separate` is for .gltf files"),
+            ),
+            other => problems.push(
+                Problem::new(src, opt.name.span, format!("`bake` has no option `{other}`"))
+                    .label("unknown option")
+                    .help("options: axes = z_up | y_up (the data's up axis; heft's world is z_up), buffer = separate | embedded (.gltf only)"),
+            ),
+        }
+    }
+    if block.items.is_empty() {
+        problems.push(
+            Problem::new(src, block.file.span, "this bake lists no series")
+                .help("list indented lines such as `odile.head` or `braid.positions chains 13`"),
+        );
+    }
+    let mut items = Vec::new();
+    for item in &block.items {
+        let (node, output, shape, _) = match resolve(&item.port) {
+            Ok(r) => r,
+            Err(p) => {
+                problems.push(p);
+                continue;
+            }
+        };
+        let span = item.port.span();
+        match (shape.kind, &item.chains) {
+            (PortKind::Scalar | PortKind::Flag, _) => {
+                problems.push(
+                    Problem::new(
+                        src,
+                        span,
+                        format!(
+                            "`{}` is {}: glTF animates positions and rotations",
+                            item.port.text(),
+                            shape.kind.name()
+                        ),
+                    )
+                    .label("cannot be baked")
+                    .help("bake vec3, transform or points outputs; write scalars as CSV with `write`"),
+                );
+                continue;
+            }
+            (PortKind::Points, Some(c)) if shape.points % c.value != 0 => {
+                problems.push(
+                    Problem::new(
+                        src,
+                        c.span,
+                        format!(
+                            "`{}` has {} points, not a whole number of chains of {}",
+                            item.port.text(),
+                            shape.points,
+                            c.value
+                        ),
+                    )
+                    .label("does not divide"),
+                );
+                continue;
+            }
+            (PortKind::Points, Some(c)) if c.value < 2 => {
+                problems.push(Problem::new(src, c.span, "a chain needs at least 2 points").label("too short"));
+                continue;
+            }
+            (PortKind::Vec3 | PortKind::Transform, Some(c)) => {
+                problems.push(Problem::new(src, c.span, "`chains` is for points outputs").label("not points"));
+                continue;
+            }
+            _ => {}
+        }
+        items.push(BakeItem {
+            node,
+            output,
+            shape,
+            chain: item.chains.as_ref().map(|c| c.value),
+            name: item.port.text(),
+        });
+    }
+    if problems.is_empty() {
+        Ok(PlannedBake {
+            file: block.file.value.clone(),
+            format,
+            y_up_source,
+            items,
+        })
+    } else {
+        Err(problems)
+    }
+}

@@ -1,0 +1,496 @@
+//! `plot` blocks: pictures of outputs, drawn with plotters as SVG or PNG.
+//!
+//! ```text
+//! plot "weight.svg"              # .svg or .png, in the output folder
+//!     weight.force               # the series to draw
+//!     odile.contact              # (weight style) shades the contact phases
+//!     style = weight             # lines (default) | weight | path
+//!     mass = 58 kg               # (weight style) the quiet-standing weight line and the BW axis
+//!     title = "Odile's jump"
+//! ```
+//!
+//! - `lines`: every scalar and vec3 series against time; all series share one dimension.
+//! - `weight`: one force series in newtons with a second axis in body weights, contact
+//!   phases shaded, take-off and touch-down marked, body weight as a reference line.
+//! - `path`: points (with `chains N`, the tip of each chain) or vec3 series projected on
+//!   `plane = xz` (default), `xy` or `yz`.
+
+use std::path::Path;
+use std::sync::Arc;
+
+use heft_node_sdk::{Dimension, PortKind, STANDARD_GRAVITY, Shape};
+use plotters::coord::Shift;
+use plotters::prelude::*;
+
+use crate::blocks::{Resolve, check_file_name};
+use crate::check::Plan;
+use crate::diag::{Problem, Source};
+use crate::eval::Evaluation;
+use crate::graph::{OutputBlock, Value};
+use crate::units;
+
+/// What a plot shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Style {
+    /// Series against time.
+    Lines,
+    /// A ground reaction force curve.
+    Weight,
+    /// Paths projected on a plane.
+    Path,
+}
+
+/// One plotted series.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlotItem {
+    /// Node index.
+    pub node: usize,
+    /// Output index.
+    pub output: usize,
+    /// Its shape.
+    pub shape: Shape,
+    /// Its dimension.
+    pub dimension: Dimension,
+    /// Points per chain (path style: only chain tips are drawn).
+    pub chain: Option<usize>,
+    /// `node.port`.
+    pub name: String,
+}
+
+/// A checked `plot` block.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlannedPlot {
+    /// File name in the output folder.
+    pub file: String,
+    /// What it shows.
+    pub style: Style,
+    /// The series.
+    pub items: Vec<PlotItem>,
+    /// Body mass for the weight style (kg).
+    pub mass: Option<f64>,
+    /// The two axes of the path style (0 = x, 1 = y, 2 = z).
+    pub plane: [usize; 2],
+    /// Title.
+    pub title: String,
+}
+
+/// Checks a `plot` block.
+pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) -> Result<PlannedPlot, Vec<Problem>> {
+    let mut problems = Vec::new();
+    if let Err(p) = check_file_name(src, block, &["svg", "png"]) {
+        problems.push(p);
+    }
+    let mut style = Style::Lines;
+    let mut mass = None;
+    let mut plane = [0, 2];
+    let mut title = block.file.value.clone();
+    for opt in &block.options {
+        let v = &opt.value;
+        let bad =
+            |what: &str| Problem::new(src, v.span, format!("`{}` takes {what}", opt.name.value)).label("not accepted");
+        match (opt.name.value.as_str(), &v.value) {
+            ("style", Value::Word(w)) => match w.as_str() {
+                "lines" => style = Style::Lines,
+                "weight" => style = Style::Weight,
+                "path" => style = Style::Path,
+                _ => problems.push(bad("lines, weight or path")),
+            },
+            ("mass", Value::Number { value, unit, .. }) => match unit.as_ref().and_then(|u| units::lookup(&u.value)) {
+                Some((Dimension::Mass, f)) if value * f > 0.0 => mass = Some(value * f),
+                _ => problems.push(bad("a positive mass with its unit, such as `58 kg`")),
+            },
+            ("plane", Value::Word(w)) => match w.as_str() {
+                "xz" => plane = [0, 2],
+                "xy" => plane = [0, 1],
+                "yz" => plane = [1, 2],
+                _ => problems.push(bad("xz, xy or yz")),
+            },
+            ("title", Value::Text(t)) => title = t.clone(),
+            ("style", _) => problems.push(bad("lines, weight or path")),
+            ("mass", _) => problems.push(bad("a positive mass with its unit, such as `58 kg`")),
+            ("plane", _) => problems.push(bad("xz, xy or yz")),
+            ("title", _) => problems.push(bad("a quoted text")),
+            (other, _) => problems.push(
+                Problem::new(src, opt.name.span, format!("`plot` has no option `{other}`"))
+                    .label("unknown option")
+                    .help("options: style = lines | weight | path, mass = .. kg, plane = xz | xy | yz, title = \"..\""),
+            ),
+        }
+    }
+    let mut items = Vec::new();
+    for item in &block.items {
+        match resolve(&item.port) {
+            Ok((node, output, shape, dimension)) => items.push((item, node, output, shape, dimension)),
+            Err(p) => problems.push(p),
+        }
+    }
+    if block.items.is_empty() {
+        problems.push(
+            Problem::new(src, block.file.span, "this plot lists no series")
+                .help("list indented lines such as `weight.force`"),
+        );
+    }
+    let mut planned = Vec::new();
+    for (item, node, output, shape, dimension) in items {
+        let span = item.port.span();
+        let ok = match style {
+            Style::Lines => matches!(shape.kind, PortKind::Scalar | PortKind::Vec3 | PortKind::Flag),
+            Style::Weight => matches!(shape.kind, PortKind::Scalar | PortKind::Flag),
+            Style::Path => matches!(shape.kind, PortKind::Points | PortKind::Vec3 | PortKind::Transform),
+        };
+        if !ok {
+            problems.push(Problem::new(src, span, format!("`{}` ({}) cannot be drawn in this plot style", item.port.text(), shape.kind.name())).label("wrong kind").help(
+                "lines: scalar, flag or vec3 series; weight: a force scalar and a contact flag; path: points, vec3 or transform",
+            ));
+            continue;
+        }
+        planned.push(PlotItem {
+            node,
+            output,
+            shape,
+            dimension,
+            chain: item.chains.as_ref().map(|c| c.value),
+            name: item.port.text(),
+        });
+    }
+    match style {
+        Style::Weight => {
+            let forces = planned.iter().filter(|i| i.shape.kind == PortKind::Scalar).count();
+            let flags = planned.iter().filter(|i| i.shape.kind == PortKind::Flag).count();
+            if forces != 1
+                || flags > 1
+                || planned
+                    .iter()
+                    .any(|i| i.shape.kind == PortKind::Scalar && i.dimension != Dimension::Force)
+            {
+                problems.push(
+                    Problem::new(
+                        src,
+                        block.file.span,
+                        "a weight plot takes one force series (N) and at most one contact flag",
+                    )
+                    .label("weight plot"),
+                );
+            }
+            if mass.is_none() {
+                problems.push(
+                    Problem::new(src, block.file.span, "a weight plot needs the body mass")
+                        .label("weight plot")
+                        .help("add `mass = 58 kg` under the plot"),
+                );
+            }
+        }
+        Style::Lines => {
+            let dims: Vec<Dimension> = planned
+                .iter()
+                .filter(|i| i.shape.kind != PortKind::Flag)
+                .map(|i| i.dimension)
+                .collect();
+            if dims.windows(2).any(|w| w[0] != w[1]) {
+                problems.push(
+                    Problem::new(src, block.file.span, "the series of one plot must share a unit")
+                        .label("mixed units")
+                        .help("make one plot per unit"),
+                );
+            }
+        }
+        Style::Path => {}
+    }
+    if problems.is_empty() {
+        Ok(PlannedPlot {
+            file: block.file.value.clone(),
+            style,
+            items: planned,
+            mass,
+            plane,
+            title,
+        })
+    } else {
+        Err(problems)
+    }
+}
+
+/// Draws a planned plot into `path` (.svg or .png).
+pub fn draw(plan: &Plan, eval: &Evaluation, plot: &PlannedPlot, path: &Path) -> Result<(), String> {
+    let size = (1100, 620);
+    if path.extension().is_some_and(|e| e == "png") {
+        let root = BitMapBackend::new(path, size).into_drawing_area();
+        draw_on(&root, plan, eval, plot)?;
+        root.present().map_err(|e| e.to_string())
+    } else {
+        let root = SVGBackend::new(path, size).into_drawing_area();
+        draw_on(&root, plan, eval, plot)?;
+        root.present().map_err(|e| e.to_string())
+    }
+}
+
+fn unit_label(d: Dimension) -> String {
+    match d.si_symbol() {
+        "" => String::new(),
+        s => format!(" [{s}]"),
+    }
+}
+
+const PALETTE: [RGBColor; 6] = [
+    RGBColor(31, 94, 168),
+    RGBColor(214, 96, 38),
+    RGBColor(46, 140, 70),
+    RGBColor(150, 60, 150),
+    RGBColor(120, 120, 30),
+    RGBColor(40, 150, 160),
+];
+
+fn draw_on<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    plan: &Plan,
+    eval: &Evaluation,
+    plot: &PlannedPlot,
+) -> Result<(), String>
+where
+    DB::ErrorType: 'static,
+{
+    let err = |e: DrawingAreaErrorKind<DB::ErrorType>| e.to_string();
+    root.fill(&WHITE).map_err(err)?;
+    let tl = plan.timeline;
+    let times: Vec<f64> = (0..tl.frames()).map(|i| tl.time(i)).collect();
+    let (t0, t1) = (
+        times.first().copied().unwrap_or(0.0),
+        times
+            .last()
+            .copied()
+            .unwrap_or(1.0)
+            .max(times.first().copied().unwrap_or(0.0) + 1e-9),
+    );
+    let series = |item: &PlotItem| -> &[f64] { &eval.values[item.node][item.output] };
+    let font = ("sans-serif", 18).into_font();
+    match plot.style {
+        Style::Lines => {
+            let mut lines: Vec<(String, Vec<(f64, f64)>)> = Vec::new();
+            for item in &plot.items {
+                let w = item.shape.width();
+                let values = series(item);
+                let axes: &[&str] = if item.shape.kind == PortKind::Vec3 {
+                    &["x", "y", "z"]
+                } else {
+                    &[""]
+                };
+                for (k, a) in axes.iter().enumerate() {
+                    let pts = (0..times.len()).map(|i| (times[i], values[i * w + k])).collect();
+                    let name = if a.is_empty() {
+                        item.name.clone()
+                    } else {
+                        format!("{}.{a}", item.name)
+                    };
+                    lines.push((name, pts));
+                }
+            }
+            let (lo, hi) = bounds(lines.iter().flat_map(|l| l.1.iter().map(|p| p.1)));
+            let dim = plot
+                .items
+                .iter()
+                .find(|i| i.shape.kind != PortKind::Flag)
+                .map_or(Dimension::Dimensionless, |i| i.dimension);
+            let mut chart = ChartBuilder::on(root)
+                .caption(&plot.title, font.clone())
+                .margin(16)
+                .x_label_area_size(48)
+                .y_label_area_size(72)
+                .build_cartesian_2d(t0..t1, lo..hi)
+                .map_err(err)?;
+            chart
+                .configure_mesh()
+                .x_desc("time [s]")
+                .y_desc(format!("value{}", unit_label(dim)))
+                .draw()
+                .map_err(err)?;
+            for (k, (name, pts)) in lines.into_iter().enumerate() {
+                let c = PALETTE[k % PALETTE.len()];
+                chart
+                    .draw_series(LineSeries::new(pts, c.stroke_width(2)))
+                    .map_err(err)?
+                    .label(name)
+                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2)));
+            }
+            chart
+                .configure_series_labels()
+                .background_style(WHITE.mix(0.85))
+                .border_style(BLACK)
+                .draw()
+                .map_err(err)?;
+        }
+        Style::Weight => {
+            let mass = plot.mass.unwrap_or(1.0);
+            let bw = mass * STANDARD_GRAVITY;
+            let force_item = plot
+                .items
+                .iter()
+                .find(|i| i.shape.kind == PortKind::Scalar)
+                .ok_or("no force series")?;
+            let force = series(force_item);
+            let contact = plot
+                .items
+                .iter()
+                .find(|i| i.shape.kind == PortKind::Flag)
+                .map(|i| series(i));
+            let (_, hi) = bounds(force.iter().copied().chain([bw]));
+            let hi = hi.max(bw * 1.2);
+            let mut chart = ChartBuilder::on(root)
+                .caption(&plot.title, font.clone())
+                .margin(16)
+                .x_label_area_size(48)
+                .y_label_area_size(80)
+                .right_y_label_area_size(72)
+                .build_cartesian_2d(t0..t1, 0.0..hi)
+                .map_err(err)?
+                .set_secondary_coord(t0..t1, 0.0..hi / bw);
+            chart
+                .configure_mesh()
+                .x_desc("time [s]")
+                .y_desc("ground reaction force [N]")
+                .draw()
+                .map_err(err)?;
+            chart
+                .configure_secondary_axes()
+                .y_desc("body weights [BW]")
+                .draw()
+                .map_err(err)?;
+            // Contact phases shaded; take-off and touch-down marked.
+            if let Some(flags) = contact {
+                let mut start = None;
+                let shade = RGBColor(120, 170, 230).mix(0.18);
+                for i in 0..=flags.len() {
+                    let on = i < flags.len() && flags[i] >= 0.5;
+                    match (on, start) {
+                        (true, None) => start = Some(i),
+                        (false, Some(s)) => {
+                            let (a, b) = (times[s], times[(i - 1).max(s)]);
+                            chart
+                                .draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, hi)], shade.filled())))
+                                .map_err(err)?;
+                            start = None;
+                        }
+                        _ => {}
+                    }
+                }
+                for i in 1..flags.len() {
+                    let (was, is) = (flags[i - 1] >= 0.5, flags[i] >= 0.5);
+                    if was != is {
+                        let t = 0.5 * (times[i - 1] + times[i]);
+                        let (label, color) = if was {
+                            ("take-off", RGBColor(200, 40, 40))
+                        } else {
+                            ("touch-down", RGBColor(40, 120, 40))
+                        };
+                        chart
+                            .draw_series(std::iter::once(PathElement::new(
+                                vec![(t, 0.0), (t, hi)],
+                                color.stroke_width(2),
+                            )))
+                            .map_err(err)?;
+                        chart
+                            .draw_series(std::iter::once(Text::new(
+                                label.to_owned(),
+                                (t, hi * 0.97),
+                                ("sans-serif", 15).into_font().color(&color),
+                            )))
+                            .map_err(err)?;
+                    }
+                }
+            }
+            chart
+                .draw_series(LineSeries::new(
+                    vec![(t0, bw), (t1, bw)],
+                    BLACK.mix(0.6).stroke_width(1),
+                ))
+                .map_err(err)?
+                .label(format!("body weight {bw:.0} N (quiet standing)"))
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BLACK.mix(0.6)));
+            let pts: Vec<(f64, f64)> = (0..times.len()).map(|i| (times[i], force[i])).collect();
+            chart
+                .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(2)))
+                .map_err(err)?
+                .label(force_item.name.clone())
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[0].stroke_width(2)));
+            chart
+                .configure_series_labels()
+                .background_style(WHITE.mix(0.85))
+                .border_style(BLACK)
+                .draw()
+                .map_err(err)?;
+        }
+        Style::Path => {
+            let [a, b] = plot.plane;
+            let names = ["x", "y", "z"];
+            let mut paths: Vec<(String, Vec<(f64, f64)>)> = Vec::new();
+            for item in &plot.items {
+                let w = item.shape.width();
+                let values = series(item);
+                let picks: Vec<usize> = match (item.shape.kind, item.chain) {
+                    (PortKind::Points, Some(c)) => (0..item.shape.points / c).map(|s| s * c + c - 1).collect(),
+                    (PortKind::Points, None) => (0..item.shape.points).collect(),
+                    _ => vec![0],
+                };
+                for p in picks {
+                    let pts = (0..times.len())
+                        .map(|i| (values[i * w + 3 * p + a], values[i * w + 3 * p + b]))
+                        .collect();
+                    let name = if item.shape.kind == PortKind::Points {
+                        format!("{} point {p}", item.name)
+                    } else {
+                        item.name.clone()
+                    };
+                    paths.push((name, pts));
+                }
+            }
+            let (xl, xh) = bounds(paths.iter().flat_map(|p| p.1.iter().map(|q| q.0)));
+            let (yl, yh) = bounds(paths.iter().flat_map(|p| p.1.iter().map(|q| q.1)));
+            let mut chart = ChartBuilder::on(root)
+                .caption(&plot.title, font.clone())
+                .margin(16)
+                .x_label_area_size(48)
+                .y_label_area_size(72)
+                .build_cartesian_2d(xl..xh, yl..yh)
+                .map_err(err)?;
+            chart
+                .configure_mesh()
+                .x_desc(format!("{} [m]", names[a]))
+                .y_desc(format!("{} [m]", names[b]))
+                .draw()
+                .map_err(err)?;
+            let many = paths.len() > PALETTE.len();
+            for (k, (name, pts)) in paths.into_iter().enumerate() {
+                let c = PALETTE[k % PALETTE.len()];
+                let s = chart
+                    .draw_series(LineSeries::new(pts, c.stroke_width(2)))
+                    .map_err(err)?;
+                if !many {
+                    s.label(name)
+                        .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2)));
+                }
+            }
+            if !many {
+                chart
+                    .configure_series_labels()
+                    .background_style(WHITE.mix(0.85))
+                    .border_style(BLACK)
+                    .draw()
+                    .map_err(err)?;
+            }
+        }
+    }
+    Ok(())
+}
+
+/// A padded range holding every value (never empty).
+fn bounds(values: impl Iterator<Item = f64>) -> (f64, f64) {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for v in values {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return (0.0, 1.0);
+    }
+    let pad = ((hi - lo) * 0.05).max(1e-6);
+    (lo - pad, hi + pad)
+}
