@@ -28,7 +28,15 @@ fn plan(dir: &Path, files: &[(&str, &str)], main: &str) -> Result<Plan, Vec<Prob
 
 fn located(p: &[Problem], dir: &Path) -> Vec<String> {
     let prefix = format!("{}/", dir.display());
-    p.iter().map(|p| format!("{}: {}", p.location().replace(&prefix, ""), p.message.replace(&prefix, ""))).collect()
+    p.iter()
+        .map(|p| {
+            format!(
+                "{}: {}",
+                p.location().replace(&prefix, ""),
+                p.message.replace(&prefix, "")
+            )
+        })
+        .collect()
 }
 
 #[test]
@@ -39,7 +47,18 @@ include \"recipes/weigh.graph\" as odile\n    weigh.mass = 58 kg\n\
 include \"recipes/weigh.graph\" as pim\n    weigh.mass = 81 kg\n    path.key = 0 s: (0, 0, 0.9) m\n    path.key = 2 s: (0, 0, 1.1) m\n";
     let plan = plan(dir.path(), &[("recipes/weigh.graph", RECIPE)], main).expect("checks");
     let names: Vec<&str> = plan.nodes.iter().map(|n| n.name.as_str()).collect();
-    assert_eq!(names, ["contact", "odile_path", "odile_weigh", "odile_jump", "pim_path", "pim_weigh", "pim_jump"]);
+    assert_eq!(
+        names,
+        [
+            "contact",
+            "odile_path",
+            "odile_weigh",
+            "odile_jump",
+            "pim_path",
+            "pim_weigh",
+            "pim_jump"
+        ]
+    );
     let mass = |node: &str| {
         let n = plan.nodes.iter().find(|n| n.name == node).expect("node");
         n.params[n.ty.spec().params.iter().position(|p| p.name == "mass").expect("mass")].clone()
@@ -48,7 +67,10 @@ include \"recipes/weigh.graph\" as pim\n    weigh.mass = 81 kg\n    path.key = 0
     assert_eq!(mass("pim_weigh"), ParamValue::Number(81.0));
     // Overriding key lines replace the recipe's list.
     let pim_path = plan.nodes.iter().find(|n| n.name == "pim_path").expect("node");
-    assert_eq!(pim_path.params[0], ParamValue::Keys(vec![(0.0, [0.0, 0.0, 0.9]), (2.0, [0.0, 0.0, 1.1])]));
+    assert_eq!(
+        pim_path.params[0],
+        ParamValue::Keys(vec![(0.0, [0.0, 0.0, 0.9]), (2.0, [0.0, 0.0, 1.1])])
+    );
     // Outputs are renamed per instance.
     let stems: Vec<&str> = plan.writes.iter().map(|w| w.stem.as_str()).collect();
     assert_eq!(stems, ["odile_weigh.force", "pim_weigh.force"]);
@@ -63,8 +85,14 @@ fn a_missing_recipe_and_an_unknown_override_are_reported_in_place() {
     let main = "include \"recipes/nowhere.graph\" as a\ninclude \"recipes/weigh.graph\" as b\n    wiegh.mass = 58 kg\n";
     let p = plan(dir.path(), &[("recipes/weigh.graph", RECIPE)], main).expect_err("problems");
     let got = located(&p, dir.path());
-    assert!(got[0].starts_with("main.graph:4:9: cannot read the recipe recipes/nowhere.graph"), "{got:?}");
-    assert!(got[1].starts_with("main.graph:6:5: the recipe recipes/weigh.graph has no node `wiegh`"), "{got:?}");
+    assert!(
+        got[0].starts_with("main.graph:4:9: cannot read the recipe recipes/nowhere.graph"),
+        "{got:?}"
+    );
+    assert!(
+        got[1].starts_with("main.graph:6:5: the recipe recipes/weigh.graph has no node `wiegh`"),
+        "{got:?}"
+    );
     assert_eq!(p.len(), 2, "{got:?}");
 }
 
@@ -73,10 +101,28 @@ fn an_include_cycle_names_both_ends() {
     let dir = tempfile::tempdir().expect("temp dir");
     let a = "format 1\ninclude \"b.graph\" as inner\n";
     let b = "format 1\n\ninclude \"a.graph\" as back\n";
-    let p = plan(dir.path(), &[("r/a.graph", a), ("r/b.graph", b)], "include \"r/a.graph\" as outer\n").expect_err("cycle");
+    let p = plan(
+        dir.path(),
+        &[("r/a.graph", a), ("r/b.graph", b)],
+        "include \"r/a.graph\" as outer\n",
+    )
+    .expect_err("cycle");
     let got = located(&p, dir.path());
-    assert_eq!(got, ["r/b.graph:3:9: including r/a.graph here makes a cycle of includes"], "{got:?}");
-    let related: Vec<String> = p[0].related.iter().map(|(pl, l)| format!("{} {l}", pl.location().replace(&format!("{}/", dir.path().display()), ""))).collect();
+    assert_eq!(
+        got,
+        ["r/b.graph:3:9: including r/a.graph here makes a cycle of includes"],
+        "{got:?}"
+    );
+    let related: Vec<String> = p[0]
+        .related
+        .iter()
+        .map(|(pl, l)| {
+            format!(
+                "{} {l}",
+                pl.location().replace(&format!("{}/", dir.path().display()), "")
+            )
+        })
+        .collect();
     assert_eq!(related, ["main.graph:4:9 it is first included here"]);
 }
 
@@ -87,8 +133,17 @@ fn a_name_clash_and_a_recipe_problem_point_into_both_files() {
     let main = "odile_path = trajectory.ballistic\ninclude \"recipes/weigh.graph\" as odile\n";
     let p = plan(dir.path(), &[("recipes/weigh.graph", &bad)], main).expect_err("problems");
     let got = located(&p, dir.path());
-    assert!(got.contains(&"recipes/weigh.graph:3:1: a node named `odile_path` is declared twice".to_owned()), "{got:?}");
-    assert!(got.contains(&"recipes/weigh.graph:7:15: `m` is a length, but `mass` is a mass".to_owned()), "{got:?}");
+    assert!(
+        got.contains(&"recipes/weigh.graph:3:1: a node named `odile_path` is declared twice".to_owned()),
+        "{got:?}"
+    );
+    assert!(
+        got.contains(&"recipes/weigh.graph:7:15: `m` is a length, but `mass` is a mass".to_owned()),
+        "{got:?}"
+    );
     let clash = p.iter().find(|p| p.message.contains("declared twice")).expect("clash");
-    assert_eq!(clash.related[0].0.location(), format!("{}:4:1", dir.path().join("main.graph").display()));
+    assert_eq!(
+        clash.related[0].0.location(),
+        format!("{}:4:1", dir.path().join("main.graph").display())
+    );
 }

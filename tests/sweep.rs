@@ -6,14 +6,36 @@ use heft_integration_tests::{heft, read_csv};
 fn a_sweep_runs_every_grid_point_and_tables_the_summaries() {
     let out = tempfile::tempdir().expect("temp dir");
     let o = heft()
-        .args(["sweep", "graphs/jump.graph", "--quiet", "--vary", "odile.takeoff_speed=2.2..2.6 m/s:3"])
-        .args(["--vary", "odile.crouch_depth=25..30 cm:2", "--summary", "odile.rise", "--out"])
+        .args([
+            "sweep",
+            "graphs/jump.graph",
+            "--quiet",
+            "--vary",
+            "odile.takeoff_speed=2.2..2.6 m/s:3",
+        ])
+        .args([
+            "--vary",
+            "odile.crouch_depth=25..30 cm:2",
+            "--summary",
+            "odile.rise",
+            "--out",
+        ])
         .arg(out.path())
         .output()
         .expect("runs");
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let (header, rows) = read_csv_text(&out.path().join("sweep.csv"));
-    assert_eq!(header, ["point", "folder", "odile.takeoff_speed [SI]", "odile.crouch_depth [SI]", "odile.rise [m]", "error"]);
+    assert_eq!(
+        header,
+        [
+            "point",
+            "folder",
+            "odile.takeoff_speed [SI]",
+            "odile.crouch_depth [SI]",
+            "odile.rise [m]",
+            "error"
+        ]
+    );
     assert_eq!(rows.len(), 6);
     // Row-major: the last axis varies fastest. 25 cm is 0.25 m in SI.
     assert_eq!(rows[1][2..4], ["2.2".to_owned(), "0.3".to_owned()]);
@@ -33,7 +55,16 @@ fn shards_split_the_grid_without_overlap() {
     let out = tempfile::tempdir().expect("temp dir");
     for shard in ["0/3", "1/3", "2/3"] {
         let o = heft()
-            .args(["sweep", "graphs/toss.graph", "-q", "--vary", "parcel.launch_time=0..0.5 s:7", "--shard", shard, "--out"])
+            .args([
+                "sweep",
+                "graphs/toss.graph",
+                "-q",
+                "--vary",
+                "parcel.launch_time=0..0.5 s:7",
+                "--shard",
+                shard,
+                "--out",
+            ])
             .arg(out.path())
             .output()
             .expect("runs");
@@ -54,7 +85,14 @@ fn a_failing_point_is_recorded_and_the_sweep_goes_on() {
     let out = tempfile::tempdir().expect("temp dir");
     // Gravity above 100 m/s^2 is out of range for the parcel: the last point fails.
     let o = heft()
-        .args(["sweep", "graphs/toss.graph", "-q", "--vary", "parcel.gravity=9..109 m/s^2:3", "--out"])
+        .args([
+            "sweep",
+            "graphs/toss.graph",
+            "-q",
+            "--vary",
+            "parcel.gravity=9..109 m/s^2:3",
+            "--out",
+        ])
         .arg(out.path())
         .output()
         .expect("runs");
@@ -69,16 +107,32 @@ fn a_failing_point_is_recorded_and_the_sweep_goes_on() {
 #[test]
 fn bad_sweep_arguments_are_usage_errors() {
     for vary in ["odile.rise=1..2", "rise=1..2:3", "odile.rise=1 m..2 s:3"] {
-        let o = heft().args(["sweep", "graphs/jump.graph", "--vary", vary]).output().expect("runs");
+        let o = heft()
+            .args(["sweep", "graphs/jump.graph", "--vary", vary])
+            .output()
+            .expect("runs");
         assert_eq!(o.status.code(), Some(2), "{vary}");
     }
-    let o = heft().args(["sweep", "graphs/jump.graph", "--vary", "odile.rise=1..2 m:2", "--shard", "3/3"]).output().expect("runs");
+    let o = heft()
+        .args([
+            "sweep",
+            "graphs/jump.graph",
+            "--vary",
+            "odile.rise=1..2 m:2",
+            "--shard",
+            "3/3",
+        ])
+        .output()
+        .expect("runs");
     assert_eq!(o.status.code(), Some(2));
 }
 
 fn read_csv_text(path: &std::path::Path) -> (Vec<String>, Vec<Vec<String>>) {
     let mut r = csv::Reader::from_path(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
     let header = r.headers().expect("header").iter().map(str::to_owned).collect();
-    let rows = r.records().map(|x| x.expect("row").iter().map(str::to_owned).collect()).collect();
+    let rows = r
+        .records()
+        .map(|x| x.expect("row").iter().map(str::to_owned).collect())
+        .collect();
     (header, rows)
 }

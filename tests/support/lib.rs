@@ -110,7 +110,13 @@ pub fn registry() -> Registry {
 }
 
 /// The library names of the workspace's node plugins.
-pub const REAL_PLUGINS: &[&str] = &["heft_trajectory", "heft_contact", "heft_weight", "heft_forceplate", "heft_noise"];
+pub const REAL_PLUGINS: &[&str] = &[
+    "heft_trajectory",
+    "heft_contact",
+    "heft_weight",
+    "heft_forceplate",
+    "heft_noise",
+];
 
 /// The real plugins plus the test plugin `probe`.
 pub fn registry_with_probe() -> Registry {

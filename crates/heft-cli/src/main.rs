@@ -156,7 +156,17 @@ fn main() -> ExitCode {
             shard,
             summary,
             threads,
-        } => sweep::run(&registry, graph, vary, out, *shard, summary, threads.map(usize::from), cli.quiet, color),
+        } => sweep::run(
+            &registry,
+            graph,
+            vary,
+            out,
+            *shard,
+            summary,
+            threads.map(usize::from),
+            cli.quiet,
+            color,
+        ),
         Command::Run { graph, out, threads } => {
             let started = Instant::now();
             let Some(plan) = plan(&registry, graph, color, cli.quiet) else {

@@ -4,12 +4,12 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::time::Instant;
 
+use heft_node_sdk::ParamValue;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::render;
 use heft_runtime::registry::Registry;
 use heft_runtime::sweep::{Axis, grid};
 use heft_runtime::{check, eval, output, read_graph};
-use heft_node_sdk::ParamValue;
 use rayon::prelude::*;
 
 use crate::GraphArgs;
@@ -23,11 +23,19 @@ struct PointResult {
 }
 
 fn si_value(plan: &Plan, target: &str) -> String {
-    let Some((node, param)) = target.split_once('.') else { return String::new() };
+    let Some((node, param)) = target.split_once('.') else {
+        return String::new();
+    };
     plan.nodes
         .iter()
         .find(|n| n.name == node)
-        .and_then(|n| n.ty.spec().params.iter().position(|p| p.name == param).map(|k| &n.params[k]))
+        .and_then(|n| {
+            n.ty.spec()
+                .params
+                .iter()
+                .position(|p| p.name == param)
+                .map(|k| &n.params[k])
+        })
         .map(|v| match v {
             ParamValue::Number(x) => format!("{x}"),
             ParamValue::Integer(i) => i.to_string(),
@@ -169,13 +177,27 @@ pub(crate) fn run(
         let mut row = vec![r.index.to_string(), format!("point-{:04}", r.index)];
         row.extend(r.axis_values.iter().cloned());
         for c in &columns {
-            row.push(r.summaries.iter().find(|(n, _)| n == c).map(|(_, v)| format!("{v}")).unwrap_or_default());
+            row.push(
+                r.summaries
+                    .iter()
+                    .find(|(n, _)| n == c)
+                    .map(|(_, v)| format!("{v}"))
+                    .unwrap_or_default(),
+            );
         }
         if let Some(e) = &r.error {
             failed += 1;
             eprintln!("point {}: {e}", r.index);
         }
-        row.push(r.error.clone().unwrap_or_default().lines().next().unwrap_or_default().to_owned());
+        row.push(
+            r.error
+                .clone()
+                .unwrap_or_default()
+                .lines()
+                .next()
+                .unwrap_or_default()
+                .to_owned(),
+        );
         rows.push(row);
     }
     for row in &rows {
@@ -208,5 +230,9 @@ pub(crate) fn run(
             table.display()
         );
     }
-    if failed > 0 { ExitCode::from(1) } else { ExitCode::SUCCESS }
+    if failed > 0 {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    }
 }

@@ -762,7 +762,10 @@ pub fn check(
     // A track's file is relative to the file that declares the track (a graph or a recipe).
     let dir_of = |span: Span| {
         let name = &srcs.get(usize::from(span.file)).unwrap_or(src).name;
-        std::path::Path::new(name).parent().map(std::path::Path::to_path_buf).unwrap_or_default()
+        std::path::Path::new(name)
+            .parent()
+            .map(std::path::Path::to_path_buf)
+            .unwrap_or_default()
     };
     for level in &levels {
         for &i in level {
@@ -818,25 +821,27 @@ pub fn check(
                 }
             };
             match &ty.provider {
-                Provider::Host(h) => match tracks::load(*h, &states[i].params, &dir_of(graph.nodes[i].name.span), timeline) {
-                    Ok(data) => {
-                        shapes[i] = Some(spec.outputs.iter().map(|o| Shape::of(o.kind)).collect());
-                        host_data[i] = Some(data);
-                    }
-                    Err(e) => {
-                        // Point at the line that set the parameter, or at the node.
-                        let at = written[i].iter().rev().find(|w| w.line.name.value == e.param);
-                        let mut p = match at {
-                            Some(w) => Problem::new(&w.source, w.line.value.span, e.message),
-                            None => Problem::at(srcs, graph.nodes[i].name.span, e.message),
+                Provider::Host(h) => {
+                    match tracks::load(*h, &states[i].params, &dir_of(graph.nodes[i].name.span), timeline) {
+                        Ok(data) => {
+                            shapes[i] = Some(spec.outputs.iter().map(|o| Shape::of(o.kind)).collect());
+                            host_data[i] = Some(data);
                         }
-                        .label(format!("`{}` of this track", e.param));
-                        if let Some(h) = e.help {
-                            p = p.help(h);
+                        Err(e) => {
+                            // Point at the line that set the parameter, or at the node.
+                            let at = written[i].iter().rev().find(|w| w.line.name.value == e.param);
+                            let mut p = match at {
+                                Some(w) => Problem::new(&w.source, w.line.value.span, e.message),
+                                None => Problem::at(srcs, graph.nodes[i].name.span, e.message),
+                            }
+                            .label(format!("`{}` of this track", e.param));
+                            if let Some(h) = e.help {
+                                p = p.help(h);
+                            }
+                            problems.push(p);
                         }
-                        problems.push(p);
                     }
-                },
+                }
                 Provider::Plugin { plugin, index } => {
                     match plugin
                         .plugin
@@ -933,9 +938,13 @@ pub fn check(
     for block in &graph.blocks {
         if let Some(first) = files.get(&block.file.value) {
             problems.push(
-                Problem::at(srcs, block.file.span, format!("`{}` is written twice", block.file.value))
-                    .label("same file")
-                    .also(place(*first), "first written here"),
+                Problem::at(
+                    srcs,
+                    block.file.span,
+                    format!("`{}` is written twice", block.file.value),
+                )
+                .label("same file")
+                .also(place(*first), "first written here"),
             );
             continue;
         }

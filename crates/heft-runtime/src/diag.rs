@@ -96,7 +96,7 @@ pub struct Problem {
     /// Short text under the caret.
     pub label: String,
     /// How to fix it, when there is something to say.
-    pub help: Option<String>,
+    pub help: Option<Box<str>>,
     /// Other places involved (the first driver of a port, the other end of a cycle).
     pub related: Vec<(Place, String)>,
 }
@@ -128,7 +128,7 @@ impl Problem {
     }
     /// Adds advice.
     pub fn help(mut self, help: impl Into<String>) -> Problem {
-        self.help = Some(help.into());
+        self.help = Some(help.into().into_boxed_str());
         self
     }
     /// Adds another place involved.
@@ -222,7 +222,7 @@ fn rendered(p: &Problem) -> Rendered {
         message: format!("{}: {}", p.location(), p.message),
         source: named(&p.place),
         labels,
-        help: p.help.clone(),
+        help: p.help.as_deref().map(str::to_owned),
         related,
     }
 }

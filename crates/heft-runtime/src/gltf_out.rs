@@ -83,7 +83,7 @@ struct Builder {
 
 impl Builder {
     fn floats(&mut self, data: &[f32], ty: &str, count: usize, min_max: Option<(Vec<f32>, Vec<f32>)>) -> usize {
-        while self.bin.len() % 4 != 0 {
+        while !self.bin.len().is_multiple_of(4) {
             self.bin.push(0);
         }
         let offset = self.bin.len();
@@ -239,11 +239,11 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
     match bake.format {
         BakeFormat::Glb => {
             let mut json_bytes = serde_json::to_vec(&doc).map_err(|e| e.to_string())?;
-            while json_bytes.len() % 4 != 0 {
+            while !json_bytes.len().is_multiple_of(4) {
                 json_bytes.push(b' ');
             }
             let mut bin = b.bin;
-            while bin.len() % 4 != 0 {
+            while !bin.len().is_multiple_of(4) {
                 bin.push(0);
             }
             let total = 12 + 8 + json_bytes.len() + 8 + bin.len();
@@ -320,15 +320,15 @@ fn chain(
         let n = b.node(format!("{}.s{s}.j{j}", item.name), parent);
         let mut t = Vec::with_capacity(frames);
         let mut r = Vec::with_capacity(frames);
-        for i in 0..frames {
+        for (i, &own) in world[j].iter().enumerate() {
             if j == 0 {
                 t.push(point(i, 0));
-                r.push(world[0][i]);
+                r.push(own);
             } else {
                 let inv = q_conj(world[j - 1][i]);
                 let (a, z) = (point(i, j - 1), point(i, j));
                 t.push(q_rotate(inv, [z[0] - a[0], z[1] - a[1], z[2] - a[2]]));
-                r.push(q_mul(inv, world[j][i]));
+                r.push(q_mul(inv, own));
             }
         }
         continuous(&mut r);

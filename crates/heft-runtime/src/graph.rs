@@ -622,21 +622,32 @@ fn statement(
             let value_end = rest.rfind(" as ").unwrap_or(rest.len());
             let value = parse_value(source, &rest[..value_end], at)?;
             let Value::Text(file) = value.value else {
-                return Err(problem(source, value.span, "expected a quoted recipe file: `include \"braid.graph\" as name`")
-                    .label("not a quoted file name"));
+                return Err(problem(
+                    source,
+                    value.span,
+                    "expected a quoted recipe file: `include \"braid.graph\" as name`",
+                )
+                .label("not a quoted file name"));
             };
             line.pos += value_end;
             let as_at = line.at();
             if !matches!(line.ident(), Some(w) if w.value == "as") {
-                return Err(problem(source, Span::new(as_at, as_at + 1), "expected `as name` after the recipe file")
-                    .help("the recipe's nodes are named `name_node`, so one recipe can be included several times"));
+                return Err(problem(
+                    source,
+                    Span::new(as_at, as_at + 1),
+                    "expected `as name` after the recipe file",
+                )
+                .help("the recipe's nodes are named `name_node`, so one recipe can be included several times"));
             }
             let name = line
                 .ident()
                 .ok_or_else(|| problem(source, line.span_from(as_at), "expected a name after `as`"))?;
             end_check(line)?;
             *current = Some(Block::Include(IncludeDecl {
-                file: Spanned { value: file, span: value.span },
+                file: Spanned {
+                    value: file,
+                    span: value.span,
+                },
                 name,
                 overrides: Vec::new(),
             }));
@@ -781,13 +792,21 @@ fn override_line(source: &Arc<Source>, line: &mut Line<'_>, inc: &mut IncludeDec
     }
     let name = if dot { line.ident() } else { None };
     let (Some(node), Some(name)) = (node, name) else {
-        return Err(problem(source, Span::new(start, line.at().max(start + 1)), "expected `node.param = value`")
-            .label("not an override")
-            .help("under `include`, each line sets a parameter of one of the recipe's nodes"));
+        return Err(problem(
+            source,
+            Span::new(start, line.at().max(start + 1)),
+            "expected `node.param = value`",
+        )
+        .label("not an override")
+        .help("under `include`, each line sets a parameter of one of the recipe's nodes"));
     };
     if !line.eat("=") {
         let at = line.at();
-        return Err(problem(source, Span::new(at, at + 1), "expected `=` after `node.param`"));
+        return Err(problem(
+            source,
+            Span::new(at, at + 1),
+            "expected `=` after `node.param`",
+        ));
     }
     let at = line.at();
     let value = parse_value(source, line.rest(), at)?;

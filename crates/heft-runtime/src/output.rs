@@ -157,7 +157,10 @@ fn stage(staged: &mut Staged, dir: &Path, bytes: &[u8], path: PathBuf) -> Result
 
 /// Writes one file atomically: a temporary file beside it, then a rename.
 pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
-    let dir = path.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    let dir = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
     std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the folder: {e}")))?;
     let mut staged = Vec::new();
     stage(&mut staged, dir, bytes, path.to_path_buf())?;

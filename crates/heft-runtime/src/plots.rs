@@ -331,7 +331,7 @@ where
                 .items
                 .iter()
                 .find(|i| i.shape.kind == PortKind::Flag)
-                .map(|i| series(i));
+                .map(&series);
             let (_, hi) = bounds(force.iter().copied().chain([bw]));
             let hi = hi.max(bw * 1.2);
             let mut chart = ChartBuilder::on(root)

@@ -108,8 +108,14 @@ fn rename(g: &mut GraphFile, prefix: &str) {
     }
     for b in &mut g.blocks {
         let path = Path::new(&b.file.value);
-        let name = path.file_name().map(|f| f.to_string_lossy().into_owned()).unwrap_or_default();
-        b.file.value = path.with_file_name(format!("{prefix}{name}")).to_string_lossy().into_owned();
+        let name = path
+            .file_name()
+            .map(|f| f.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        b.file.value = path
+            .with_file_name(format!("{prefix}{name}"))
+            .to_string_lossy()
+            .into_owned();
         b.items.iter_mut().for_each(|i| p(&mut i.port.node.value));
     }
 }
@@ -117,7 +123,10 @@ fn rename(g: &mut GraphFile, prefix: &str) {
 /// Expands every `include` of a parsed graph into it, recursively. Problems (a missing file, a
 /// cycle, an override of a node the recipe lacks, the recipe's own problems) are added.
 pub fn expand(graph: &mut GraphFile, problems: &mut Vec<Problem>) {
-    let root_dir = Path::new(&graph.source.name).parent().map(Path::to_path_buf).unwrap_or_default();
+    let root_dir = Path::new(&graph.source.name)
+        .parent()
+        .map(Path::to_path_buf)
+        .unwrap_or_default();
     let root = std::fs::canonicalize(&graph.source.name).unwrap_or_else(|_| PathBuf::from(&graph.source.name));
     let includes = std::mem::take(&mut graph.includes);
     let mut stack = vec![(root, None)];
@@ -144,16 +153,24 @@ fn include(
         Ok(c) => c,
         Err(e) => {
             problems.push(
-                Problem::at(&srcs, inc.file.span, format!("cannot read the recipe {}: {e}", path.display()))
-                    .label("missing recipe")
-                    .help("a recipe's path is relative to the folder of the file that includes it"),
+                Problem::at(
+                    &srcs,
+                    inc.file.span,
+                    format!("cannot read the recipe {}: {e}", path.display()),
+                )
+                .label("missing recipe")
+                .help("a recipe's path is relative to the folder of the file that includes it"),
             );
             return;
         }
     };
     if let Some(pos) = stack.iter().position(|(p, _)| *p == canonical) {
-        let mut p = Problem::at(&srcs, inc.file.span, format!("including {} here makes a cycle of includes", path.display()))
-            .label("includes a file that is already being included");
+        let mut p = Problem::at(
+            &srcs,
+            inc.file.span,
+            format!("including {} here makes a cycle of includes", path.display()),
+        )
+        .label("includes a file that is already being included");
         p = match &stack[pos].1 {
             Some(first) => p.also(first.clone(), "it is first included here"),
             None => p.help("it is the graph file being run"),
@@ -164,12 +181,20 @@ fn include(
     let text = match std::fs::read_to_string(&canonical) {
         Ok(t) => t,
         Err(e) => {
-            problems.push(Problem::at(&srcs, inc.file.span, format!("cannot read the recipe {}: {e}", path.display())));
+            problems.push(Problem::at(
+                &srcs,
+                inc.file.span,
+                format!("cannot read the recipe {}: {e}", path.display()),
+            ));
             return;
         }
     };
     let Ok(k) = u16::try_from(root.sources.len()) else {
-        problems.push(Problem::at(&srcs, inc.file.span, "too many recipe files in one graph (65535)"));
+        problems.push(Problem::at(
+            &srcs,
+            inc.file.span,
+            "too many recipe files in one graph (65535)",
+        ));
         return;
     };
     let source = Source::new(path.display().to_string(), text);
@@ -185,9 +210,13 @@ fn include(
             None => {
                 let names: Vec<&str> = recipe.nodes.iter().map(|n| n.name.value.as_str()).collect();
                 problems.push(
-                    Problem::at(&srcs, node.span, format!("the recipe {} has no node `{}`", path.display(), node.value))
-                        .label("unknown node")
-                        .help(format!("its nodes are: {}", names.join(", "))),
+                    Problem::at(
+                        &srcs,
+                        node.span,
+                        format!("the recipe {} has no node `{}`", path.display(), node.value),
+                    )
+                    .label("unknown node")
+                    .help(format!("its nodes are: {}", names.join(", "))),
                 );
             }
         }

@@ -19,8 +19,13 @@ pub fn parse_axis(text: &str) -> Result<Axis, String> {
     if !target.contains('.') {
         return Err(format!("`{target}` is not `node.param`"));
     }
-    let (span, count) = range.rsplit_once(':').ok_or("expected `:N` after the range, the number of values")?;
-    let n: usize = count.trim().parse().map_err(|_| format!("`{count}` is not a whole number of values"))?;
+    let (span, count) = range
+        .rsplit_once(':')
+        .ok_or("expected `:N` after the range, the number of values")?;
+    let n: usize = count
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{count}` is not a whole number of values"))?;
     if n < 1 {
         return Err("a sweep axis needs at least 1 value".into());
     }
@@ -29,9 +34,13 @@ pub fn parse_axis(text: &str) -> Result<Axis, String> {
         let s = s.trim();
         let end = s
             .char_indices()
-            .find(|(i, c)| !(c.is_ascii_digit() || *c == '.' || *c == '-' || *c == '+' || ((*c == 'e' || *c == 'E') && *i > 0)))
+            .find(|(i, c)| {
+                !(c.is_ascii_digit() || *c == '.' || *c == '-' || *c == '+' || ((*c == 'e' || *c == 'E') && *i > 0))
+            })
             .map_or(s.len(), |(i, _)| i);
-        let v: f64 = s[..end].parse().map_err(|_| format!("`{s}` does not start with a number"))?;
+        let v: f64 = s[..end]
+            .parse()
+            .map_err(|_| format!("`{s}` does not start with a number"))?;
         Ok((v, s[end..].trim().to_owned()))
     };
     let (va, ua) = split(a)?;
@@ -44,10 +53,18 @@ pub fn parse_axis(text: &str) -> Result<Axis, String> {
     let values = (0..n)
         .map(|k| {
             // Weighted ends: both ends exact, the middle as exact as the sum allows.
-            let v = if n == 1 { va } else { (va * (n - 1 - k) as f64 + vb * k as f64) / (n - 1) as f64 };
+            let v = if n == 1 {
+                va
+            } else {
+                (va * (n - 1 - k) as f64 + vb * k as f64) / (n - 1) as f64
+            };
             // 12 significant digits: 2.2..2.6:3 gives 2.4, not 2.4000000000000004.
             let v: f64 = format!("{v:.11e}").parse().unwrap_or(v);
-            if unit.is_empty() { format!("{v}") } else { format!("{v} {unit}") }
+            if unit.is_empty() {
+                format!("{v}")
+            } else {
+                format!("{v} {unit}")
+            }
         })
         .collect();
     Ok(Axis {
@@ -92,7 +109,10 @@ mod tests {
         let a = parse_axis("odile.crouch_depth=20..30 cm:3").expect("axis");
         assert_eq!(a.target, "odile.crouch_depth");
         assert_eq!(a.values, ["20 cm", "25 cm", "30 cm"]);
-        assert_eq!(parse_axis("b.gravity=9.8 m/s^2..9.8 m/s^2:1").expect("axis").values, ["9.8 m/s^2"]);
+        assert_eq!(
+            parse_axis("b.gravity=9.8 m/s^2..9.8 m/s^2:1").expect("axis").values,
+            ["9.8 m/s^2"]
+        );
         assert!(parse_axis("b.gravity=1 m..2 s:2").is_err());
         assert!(parse_axis("gravity=1..2:2").is_err());
         assert!(parse_axis("b.g=1..2:0").is_err());
@@ -100,7 +120,10 @@ mod tests {
 
     #[test]
     fn grid_is_row_major_and_shards_partition_it() {
-        let axes = [parse_axis("a.x=1..2:2").expect("axis"), parse_axis("b.y=10..30:3").expect("axis")];
+        let axes = [
+            parse_axis("a.x=1..2:2").expect("axis"),
+            parse_axis("b.y=10..30:3").expect("axis"),
+        ];
         let g = grid(&axes);
         assert_eq!(g.len(), 6);
         assert_eq!(g[1].1, ["1", "20"]);
