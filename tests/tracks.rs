@@ -22,7 +22,11 @@ const NODE: &str = "plate = track.force\n    file = \"plate.csv\"\n    column = 
 fn one_problem(dir: &Path, csv: &str, body: &str) -> (String, String, Option<String>) {
     let p = plan_in(dir, csv, body).expect_err("a problem");
     assert_eq!(p.len(), 1, "{p:?}");
-    (p[0].location(), p[0].message.clone(), p[0].help.as_deref().map(str::to_owned))
+    (
+        p[0].location(),
+        p[0].message.clone(),
+        p[0].help.as_deref().map(str::to_owned),
+    )
 }
 
 #[test]

@@ -327,11 +327,7 @@ where
                 .find(|i| i.shape.kind == PortKind::Scalar)
                 .ok_or("no force series")?;
             let force = series(force_item);
-            let contact = plot
-                .items
-                .iter()
-                .find(|i| i.shape.kind == PortKind::Flag)
-                .map(&series);
+            let contact = plot.items.iter().find(|i| i.shape.kind == PortKind::Flag).map(&series);
             let (_, hi) = bounds(force.iter().copied().chain([bw]));
             let hi = hi.max(bw * 1.2);
             let mut chart = ChartBuilder::on(root)
