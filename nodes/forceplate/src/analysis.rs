@@ -433,15 +433,15 @@ fn find_flight(
             search = touchdown + 1;
             continue;
         }
-        if let Some(x) = (touchdown..n).find(|&x| force[x] < thr) {
-            if force[touchdown..x].iter().all(|&f| f < bw) {
-                warnings.push(format!(
-                    "the touch-down at frame {} may be a spike: the force falls below flight_threshold again at \
-                     frame {} without reaching body weight; raise flight_threshold above the unloaded plate's noise",
-                    clock.frame(touchdown),
-                    clock.frame(x)
-                ));
-            }
+        if let Some(x) = (touchdown..n).find(|&x| force[x] < thr)
+            && force[touchdown..x].iter().all(|&f| f < bw)
+        {
+            warnings.push(format!(
+                "the touch-down at frame {} may be a spike: the force falls below flight_threshold again at \
+                 frame {} without reaching body weight; raise flight_threshold above the unloaded plate's noise",
+                clock.frame(touchdown),
+                clock.frame(x)
+            ));
         }
         return Ok(Flight {
             takeoff: k,
