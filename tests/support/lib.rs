@@ -55,16 +55,12 @@ pub fn plugin_dir() -> &'static Path {
     DIR.get_or_init(|| {
         let dir = profile_dir();
         let target = dir.parent().map(Path::to_path_buf).expect("target folder");
-        build(
-            &[
-                "heft-cli",
-                "heft-trajectory",
-                "heft-contact",
-                "heft-weight",
-                "heft-forceplate",
-            ],
-            &target,
-        );
+        // The packages of the plugins are the library names with `-` for `_`.
+        let packages: Vec<String> = std::iter::once("heft-cli".to_owned())
+            .chain(REAL_PLUGINS.iter().map(|l| l.replace('_', "-")))
+            .collect();
+        let packages: Vec<&str> = packages.iter().map(String::as_str).collect();
+        build(&packages, &target);
         dir
     })
 }

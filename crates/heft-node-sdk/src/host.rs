@@ -159,6 +159,12 @@ impl Plugin {
     /// Opens a plugin library, checks its ABI and reads its descriptor.
     pub fn load(path: &Path) -> Result<Plugin, LoadError> {
         let path_buf = path.to_path_buf();
+        if !path.is_file() {
+            return Err(LoadError::Open {
+                path: path_buf,
+                reason: "no such file".to_owned(),
+            });
+        }
         // SAFETY: opening a library runs its initialisers. heft loads only files the user put
         // on its plugin path; the ABI check below rejects libraries that are not heft plugins
         // before any other function of theirs is called.
