@@ -1,0 +1,1186 @@
+//! The frame loop shared by every strand method: inputs, the initial state, pins, colliders,
+//! wind, outputs, momentum, energy and blow-up detection.
+
+use heft_node_sdk::{Io, NodeError, Params, Series, Timeline};
+
+use crate::forces;
+use crate::geometry::{
+    Colliders, Pose, RigidVelocity, Sphere, Track, V3, add, axpy, cross, dot, norm, read_transform, scale, sub,
+};
+use crate::setup::{Pin, Setup};
+use heft_node_sdk::field::FieldView;
+
+/// The simulated state: positions and velocities of every particle, strand-major (strand s,
+/// particle i at index s * particles + i).
+#[derive(Debug, Clone, PartialEq)]
+pub struct State {
+    /// Positions, m.
+    pub x: Vec<V3>,
+    /// Velocities, m/s.
+    pub v: Vec<V3>,
+}
+
+/// A strand integrator. One value lives for a whole evaluation, so it may keep its own
+/// layout and scratch buffers (allocated in `new`) across frames.
+pub trait Method: Sized {
+    /// Prepares the method for these parameters (allocate scratch here, not in `frame`).
+    fn new(setup: &Setup) -> Self;
+
+    /// Advances every strand by one frame: `env.substeps` steps of `env.h`. Pinned particles
+    /// must end each substep k (1..=substeps) on `env.pin_target(s, slot, k)`, and every free
+    /// particle must be passed through `env.project(k, ..)` after each substep.
+    fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>);
+
+    /// The elastic energy of the method's model, J; by default stretch plus bending as
+    /// [`crate::forces`] defines them.
+    fn elastic_energy(&self, setup: &Setup, state: &State) -> f64 {
+        forces::elastic_energy(setup, state)
+    }
+
+    /// The largest stable step h for these parameters, s, quoted in the blow-up message;
+    /// `None` when the method has no step limit. By default the explicit spring limit
+    /// [`Setup::explicit_step_limit`].
+    fn stability_limit(setup: &Setup, wind: bool) -> Option<f64> {
+        setup.explicit_step_limit(wind)
+    }
+
+    /// What the blow-up message calls the limit of [`Method::stability_limit`] ("... for these
+    /// parameters is about ... s").
+    const LIMIT_NAME: &'static str = "the explicit stability limit";
+
+    /// True when `stretch_stiffness` is the strand's axial stiffness in the method's model
+    /// (springs, compliant constraints): a segment beyond [`BLOW_UP_STRETCH`] rest lengths at a
+    /// step well inside the limit is then the strand's physics, not the step. False for rigid
+    /// segments, where an over-long segment is the solver falling behind.
+    const STRETCHABLE: bool = true;
+}
+
+/// Gravity, damping, relative damping and wind at one substep boundary: the acceleration a
+/// particle feels besides the elastic forces. The anchor velocity is the one
+/// [`FrameEnv::anchor_velocity`] gives (half a step back, matching a half-step or
+/// backward-difference particle velocity); the wind is the field of the two frames around the
+/// substep, blended linearly.
+#[derive(Debug, Clone, Copy)]
+pub struct Ambient<'e> {
+    /// Gravity vector, m/s^2.
+    pub gravity: V3,
+    /// Absolute damping rate, 1/s.
+    pub damping: f64,
+    /// Relative damping rate, 1/s.
+    pub relative_damping: f64,
+    /// The anchor's rigid velocity field (zero without an anchor).
+    pub anchor: RigidVelocity,
+    wind: Option<(&'e FieldView<'e>, &'e FieldView<'e>, f64, f64)>,
+}
+
+impl Ambient<'_> {
+    /// The acceleration at position `x` with velocity `v`:
+    /// g - damping v - relative_damping (v - v_anchor(x)) + drag (v_wind(x) - v).
+    #[inline(always)]
+    pub fn accel(&self, x: V3, v: V3) -> V3 {
+        let mut a = axpy(self.gravity, -self.damping, v);
+        if self.relative_damping != 0.0 {
+            a = axpy(a, -self.relative_damping, sub(v, self.anchor.at(x)));
+        }
+        if let Some((w0, w1, frac, drag)) = self.wind {
+            let w = add(scale(w0.sample(x), 1.0 - frac), scale(w1.sample(x), frac));
+            a = axpy(a, drag, sub(w, v));
+        }
+        a
+    }
+
+    /// The wind velocity at `x` (zero without wind), m/s.
+    pub fn wind(&self, x: V3) -> V3 {
+        match self.wind {
+            Some((w0, w1, frac, _)) => add(scale(w0.sample(x), 1.0 - frac), scale(w1.sample(x), frac)),
+            None => [0.0; 3],
+        }
+    }
+}
+
+/// Poses and colliders at the substep boundaries of one frame, filled once per frame.
+#[derive(Debug, Clone)]
+struct Tables {
+    pose_a: Vec<Pose>,
+    pose_b: Vec<Pose>,
+    colliders: Vec<Colliders>,
+}
+
+impl Tables {
+    fn new(substeps: usize) -> Tables {
+        Tables {
+            pose_a: vec![Pose::IDENTITY; substeps + 1],
+            pose_b: vec![Pose::IDENTITY; substeps + 1],
+            colliders: vec![Colliders::default(); substeps + 1],
+        }
+    }
+}
+
+/// What a method needs inside one frame. Substep boundaries are indexed k = 0..=substeps
+/// (fraction k / substeps of the frame); substep k runs from boundary k to k + 1.
+#[derive(Debug)]
+pub struct FrameEnv<'a> {
+    /// The setup.
+    pub setup: &'a Setup,
+    /// Step size h = frame duration / substeps, s.
+    pub h: f64,
+    /// Substeps in this frame.
+    pub substeps: usize,
+    /// Frame duration, s.
+    pub frame_dt: f64,
+    /// Index (within the call) of the frame being computed (>= 1).
+    pub frame: usize,
+    /// Gravity vector, m/s^2.
+    pub gravity: V3,
+    anchor: Option<Track>,
+    /// The anchor's (linear, angular) velocity at the start and end of the frame (central
+    /// differences of the frames around each).
+    anchor_velocity_ends: [(V3, V3); 2],
+    end: Option<Track>,
+    collider_tracks: [Option<Track>; 3],
+    wind: Option<(FieldView<'a>, FieldView<'a>)>,
+    tables: &'a Tables,
+}
+
+impl<'a> FrameEnv<'a> {
+    /// Fraction of the frame at boundary k.
+    #[inline(always)]
+    pub fn frac(&self, k: usize) -> f64 {
+        k as f64 / self.substeps as f64
+    }
+
+    /// The anchor's pose at boundary k (the world frame when no anchor is connected).
+    #[inline(always)]
+    pub fn anchor_pose(&self, k: usize) -> &Pose {
+        &self.tables.pose_a[k]
+    }
+
+    /// The pose carrying the end pin at boundary k (`anchor_b` if connected, else `anchor`).
+    #[inline(always)]
+    pub fn end_pose(&self, k: usize) -> &Pose {
+        &self.tables.pose_b[k]
+    }
+
+    /// Where pin `slot` (an index into `setup.pins`: 0 = start, 1 = end) of strand `s` is at
+    /// boundary k.
+    #[inline(always)]
+    pub fn pin_target(&self, s: usize, slot: usize, k: usize) -> V3 {
+        if slot == 0 {
+            self.tables.pose_a[k].apply(self.setup.start_offsets[s])
+        } else {
+            self.tables.pose_b[k].apply(self.setup.end_offsets[s])
+        }
+    }
+
+    /// Every pin target at boundary k, strand-major: `out[s * setup.pins.len() + slot]`.
+    pub fn pin_targets(&self, k: usize, out: &mut [V3]) {
+        let np = self.setup.pins.len();
+        for s in 0..self.setup.strands {
+            for slot in 0..np {
+                out[s * np + slot] = self.pin_target(s, slot, k);
+            }
+        }
+    }
+
+    /// Every pin target at an arbitrary fraction of the frame (poses computed on the fly).
+    pub fn pin_targets_at(&self, frac: f64, out: &mut [V3]) {
+        let a = self.anchor.map_or(Pose::IDENTITY, |t| t.pose(frac));
+        let b = self.end.map_or(a, |t| t.pose(frac));
+        let np = self.setup.pins.len();
+        for s in 0..self.setup.strands {
+            for slot in 0..np {
+                out[s * np + slot] = if slot == 0 {
+                    a.apply(self.setup.start_offsets[s])
+                } else {
+                    b.apply(self.setup.end_offsets[s])
+                };
+            }
+        }
+    }
+
+    /// The anchor's rigid velocity field at fraction `frac` of the frame (zero without an
+    /// anchor): its linear and angular velocity are interpolated linearly between the central
+    /// differences at the frame's two ends (one-sided at the ends of the timeline), so a
+    /// quadratic path, such as free fall, has its exact velocity; `frac` may lie slightly outside
+    /// 0..=1 (the values are extrapolated).
+    pub fn anchor_velocity_at(&self, frac: f64) -> RigidVelocity {
+        match &self.anchor {
+            None => RigidVelocity::default(),
+            Some(t) => {
+                let [(l0, w0), (l1, w1)] = self.anchor_velocity_ends;
+                RigidVelocity {
+                    origin: t.translation(frac),
+                    linear: axpy(l0, frac, sub(l1, l0)),
+                    angular: axpy(w0, frac, sub(w1, w0)),
+                }
+            }
+        }
+    }
+
+    /// The anchor's rigid velocity field that goes with the velocities a method holds at
+    /// boundary k: a symplectic-Euler velocity or a backward difference (x_k - x_{k-1}) / h is
+    /// centred half a step back, at (k - 1/2) h, so the field is taken there. This keeps
+    /// relative damping free of a spurious force when the anchor accelerates (a strand on a
+    /// falling anchor stays weightless).
+    #[inline(always)]
+    pub fn anchor_velocity(&self, k: usize) -> RigidVelocity {
+        self.anchor_velocity_at((k as f64 - 0.5) / self.substeps as f64)
+    }
+
+    /// True when any collider is connected.
+    #[inline(always)]
+    pub fn has_colliders(&self) -> bool {
+        self.collider_tracks.iter().any(Option::is_some)
+    }
+
+    /// The colliders at boundary k.
+    #[inline(always)]
+    pub fn colliders(&self, k: usize) -> &Colliders {
+        &self.tables.colliders[k]
+    }
+
+    /// Projects a particle out of the colliders at boundary k (see [`Colliders::project`]).
+    #[inline(always)]
+    pub fn project(&self, k: usize, x: &mut V3, v: &mut V3) -> bool {
+        self.tables.colliders[k].project(x, v)
+    }
+
+    /// Projects a particle out of the colliders at an arbitrary fraction of the frame.
+    pub fn project_at(&self, frac: f64, x: &mut V3, v: &mut V3) -> bool {
+        colliders_at(self.setup, &self.collider_tracks, frac).project(x, v)
+    }
+
+    /// True when a wind field is connected.
+    #[inline(always)]
+    pub fn has_wind(&self) -> bool {
+        self.wind.is_some()
+    }
+
+    /// Gravity, damping, relative damping and wind at boundary k.
+    #[inline]
+    pub fn ambient(&self, k: usize) -> Ambient<'_> {
+        let frac = self.frac(k);
+        Ambient {
+            gravity: self.gravity,
+            damping: self.setup.damping,
+            relative_damping: self.setup.relative_damping,
+            anchor: self.anchor_velocity(k),
+            wind: self.wind.as_ref().map(|(a, b)| (a, b, frac, self.setup.drag)),
+        }
+    }
+
+    /// The wind velocity at world point `x` at boundary k (zero without wind), m/s.
+    pub fn wind_at(&self, k: usize, x: V3) -> V3 {
+        self.ambient(k).wind(x)
+    }
+}
+
+fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], frac: f64) -> Colliders {
+    let mut c = Colliders::default();
+    for (k, t) in tracks.iter().enumerate() {
+        if let Some(t) = t {
+            let p = t.pose(frac);
+            let centre = p.apply(setup.colliders[k].offset);
+            let velocity = add(t.linear, cross(t.angular, sub(centre, p.t)));
+            c.spheres[c.count] = Sphere {
+                centre,
+                radius: setup.colliders[k].radius,
+                velocity,
+            };
+            c.count += 1;
+        }
+    }
+    c
+}
+
+/// The collider input names, in order.
+const COLLIDER_INPUTS: [&str; 3] = ["collider_1", "collider_2", "collider_3"];
+
+/// The connected inputs of one evaluation.
+struct Inputs<'a> {
+    anchor: Option<Series<'a>>,
+    anchor_b: Option<Series<'a>>,
+    wind: Option<Series<'a>>,
+    colliders: [Option<Series<'a>>; 3],
+    initial_positions: Option<Series<'a>>,
+    initial_velocities: Option<Series<'a>>,
+}
+
+fn connected<'a>(
+    io: &Io<'a>,
+    name: &str,
+    frames: usize,
+    width: Option<usize>,
+) -> Result<Option<Series<'a>>, NodeError> {
+    let s = io.input(name)?;
+    if s.is_empty() {
+        return Ok(None);
+    }
+    if let Some(w) = width
+        && s.width() != w
+    {
+        return Err(NodeError::new(format!(
+            "input `{name}` has {} values per frame, expected {w}",
+            s.width()
+        )));
+    }
+    if s.frames() < frames {
+        return Err(NodeError::new(format!(
+            "input `{name}` holds {} frames, the timeline has {frames}",
+            s.frames()
+        )));
+    }
+    Ok(Some(s))
+}
+
+fn transform_at(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<(V3, [f64; 4]), NodeError> {
+    read_transform(series.frame(i)).ok_or_else(|| {
+        NodeError::new(format!(
+            "input `{name}` at frame {} is not a transform: its values are not finite or its rotation quaternion is zero",
+            tl.frame_number(i)
+        ))
+    })
+}
+
+fn track(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<Track, NodeError> {
+    let (t0, q0) = transform_at(series, name, tl, i - 1)?;
+    let (t1, q1) = transform_at(series, name, tl, i)?;
+    Ok(Track::between(t0, q0, t1, q1, tl.dt()))
+}
+
+/// The (linear, angular) velocity of a transform at frame i: the mean of the velocities over
+/// the frames before and after it (a central difference), one-sided at the ends.
+fn frame_velocity(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<(V3, V3), NodeError> {
+    let frames = tl.frames();
+    if frames < 2 {
+        return Ok(([0.0; 3], [0.0; 3]));
+    }
+    let before = if i > 0 { Some(track(series, name, tl, i)?) } else { None };
+    let after = if i + 1 < frames {
+        Some(track(series, name, tl, i + 1)?)
+    } else {
+        None
+    };
+    Ok(match (before, after) {
+        (Some(a), Some(b)) => (
+            scale(add(a.linear, b.linear), 0.5),
+            scale(add(a.angular, b.angular), 0.5),
+        ),
+        (Some(a), None) | (None, Some(a)) => (a.linear, a.angular),
+        (None, None) => ([0.0; 3], [0.0; 3]),
+    })
+}
+
+fn still(series: &Series<'_>, name: &str, tl: &Timeline) -> Result<Track, NodeError> {
+    let (t, q) = transform_at(series, name, tl, 0)?;
+    Ok(Track::still(t, q))
+}
+
+/// Evaluates a strand node with method `M`: the whole frame loop.
+pub fn evaluate<M: Method>(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
+    let setup = Setup::from_params(params)?;
+    evaluate_with::<M>(&setup, io)
+}
+
+/// Evaluates with a given setup (for tests of idealised models, e.g. a setup whose masses
+/// were changed with [`Setup::set_particle_mass`]).
+pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), NodeError> {
+    let tl = io.timeline();
+    let frames = tl.frames();
+    if frames == 0 {
+        return Ok(());
+    }
+    let n = setup.total_particles();
+    let inputs = Inputs {
+        anchor: connected(io, "anchor", frames, Some(7))?,
+        anchor_b: connected(io, "anchor_b", frames, Some(7))?,
+        wind: connected(io, "wind", frames, None)?,
+        colliders: [
+            connected(io, "collider_1", frames, Some(7))?,
+            connected(io, "collider_2", frames, Some(7))?,
+            connected(io, "collider_3", frames, Some(7))?,
+        ],
+        initial_positions: connected(io, "initial_positions", 1, Some(3 * n))?,
+        initial_velocities: connected(io, "initial_velocities", 1, Some(3 * n))?,
+    };
+    if setup.pin != Pin::Free && inputs.anchor.is_none() {
+        let which = if setup.pin == Pin::OneEnd {
+            "one_end"
+        } else {
+            "both_ends"
+        };
+        return Err(NodeError::new(format!(
+            "pin = {which} needs the `anchor` input connected (or set pin = free)"
+        )));
+    }
+    for (name, width) in [
+        ("positions", 3 * n),
+        ("velocities", 3 * n),
+        ("momentum", 3),
+        ("energy", 1),
+    ] {
+        let (buf, w) = io.output(name)?;
+        if w != width || buf.len() != frames * width {
+            return Err(NodeError::new(format!(
+                "output `{name}` has {w} values per frame and {} values, expected {width} per frame for {frames} frames",
+                buf.len()
+            )));
+        }
+    }
+    let wind_used = inputs.wind.is_some();
+    let end_on_b = setup.pin == Pin::BothEnds && inputs.anchor_b.is_some();
+
+    // The initial state (frame 0).
+    let pose0 = match &inputs.anchor {
+        Some(s) => still(s, "anchor", &tl)?.pose(0.0),
+        None => Pose::IDENTITY,
+    };
+    let pose0_b = match (&inputs.anchor_b, end_on_b) {
+        (Some(s), true) => still(s, "anchor_b", &tl)?.pose(0.0),
+        _ => pose0,
+    };
+    let mut state = rest_state(setup, &pose0, &pose0_b);
+    if let Some(s) = &inputs.initial_positions {
+        for (p, c) in state.x.iter_mut().zip(s.frame(0).chunks_exact(3)) {
+            *p = [c[0], c[1], c[2]];
+        }
+    }
+    if let Some(s) = &inputs.initial_velocities {
+        for (p, c) in state.v.iter_mut().zip(s.frame(0).chunks_exact(3)) {
+            *p = [c[0], c[1], c[2]];
+        }
+    }
+    if state.x.iter().chain(&state.v).flatten().any(|c| !c.is_finite()) {
+        return Err(NodeError::new(
+            "`initial_positions` or `initial_velocities` holds a value that is not finite",
+        ));
+    }
+    for s in 0..setup.strands {
+        for (slot, &i) in setup.pins.iter().enumerate() {
+            let pose = if slot == 0 { &pose0 } else { &pose0_b };
+            let off = if slot == 0 {
+                setup.start_offsets[s]
+            } else {
+                setup.end_offsets[s]
+            };
+            state.x[s * setup.particles + i] = pose.apply(off);
+            state.v[s * setup.particles + i] = [0.0; 3];
+        }
+    }
+    let mut tracks_c: [Option<Track>; 3] = [None; 3];
+    for (k, s) in inputs.colliders.iter().enumerate() {
+        if let Some(s) = s {
+            tracks_c[k] = Some(still(s, COLLIDER_INPUTS[k], &tl)?);
+        }
+    }
+    let c0 = colliders_at(setup, &tracks_c, 0.0);
+    let mut pinned_inside: Option<i64> = None;
+    if !c0.is_empty() {
+        for (idx, (x, v)) in state.x.iter_mut().zip(state.v.iter_mut()).enumerate() {
+            if setup.pinned[idx % setup.particles] {
+                if c0.contains(*x) && pinned_inside.is_none() {
+                    pinned_inside = Some(tl.frame_number(0));
+                }
+                continue;
+            }
+            c0.project(x, v);
+        }
+    }
+
+    let mut method = M::new(setup);
+    write_frame(io, 0, setup, &state, method.elastic_energy(setup, &state))?;
+
+    let substeps = setup.substeps;
+    let dt = tl.dt();
+    let h = dt / substeps as f64;
+    let mut tables = Tables::new(substeps);
+    for i in 1..frames {
+        let anchor = match &inputs.anchor {
+            Some(s) => Some(track(s, "anchor", &tl, i)?),
+            None => None,
+        };
+        let anchor_velocity_ends = match &inputs.anchor {
+            Some(s) => [
+                frame_velocity(s, "anchor", &tl, i - 1)?,
+                frame_velocity(s, "anchor", &tl, i)?,
+            ],
+            None => [([0.0; 3], [0.0; 3]); 2],
+        };
+        let end = match (&inputs.anchor_b, end_on_b) {
+            (Some(s), true) => Some(track(s, "anchor_b", &tl, i)?),
+            _ => anchor,
+        };
+        for (k, s) in inputs.colliders.iter().enumerate() {
+            tracks_c[k] = match s {
+                Some(s) => Some(track(s, COLLIDER_INPUTS[k], &tl, i)?),
+                None => None,
+            };
+        }
+        let wind = match &inputs.wind {
+            Some(s) => {
+                let view = |f: usize| {
+                    FieldView::from_frame(s.frame(f))
+                        .map_err(|e| NodeError::new(format!("input `wind` at frame {}: {e}", tl.frame_number(f))))
+                };
+                Some((view(i - 1)?, view(i)?))
+            }
+            None => None,
+        };
+        for k in 0..=substeps {
+            let frac = k as f64 / substeps as f64;
+            tables.pose_a[k] = anchor.map_or(Pose::IDENTITY, |t| t.pose(frac));
+            if setup.pin == Pin::BothEnds {
+                tables.pose_b[k] = if end_on_b {
+                    end.map_or(Pose::IDENTITY, |t| t.pose(frac))
+                } else {
+                    tables.pose_a[k]
+                };
+            }
+            tables.colliders[k] = colliders_at(setup, &tracks_c, frac);
+        }
+        let env = FrameEnv {
+            setup,
+            h,
+            substeps,
+            frame_dt: dt,
+            frame: i,
+            gravity: setup.gravity,
+            anchor,
+            anchor_velocity_ends,
+            end,
+            collider_tracks: tracks_c,
+            wind,
+            tables: &tables,
+        };
+        method.frame(setup, &mut state, &env);
+        check_blow_up::<M>(setup, &state, &tl, i, h, wind_used)?;
+        if pinned_inside.is_none() && !tables.colliders[substeps].is_empty() {
+            let c = &tables.colliders[substeps];
+            let inside = state
+                .x
+                .iter()
+                .enumerate()
+                .any(|(idx, x)| setup.pinned[idx % setup.particles] && c.contains(*x));
+            if inside {
+                pinned_inside = Some(tl.frame_number(i));
+            }
+        }
+        write_frame(io, i, setup, &state, method.elastic_energy(setup, &state))?;
+    }
+    if let Some(f) = pinned_inside {
+        io.warn(format!(
+            "a pinned particle is inside a collider from frame {f}: pins follow their anchor and are not pushed out"
+        ));
+    }
+    Ok(())
+}
+
+/// The rest shape: each strand laid along `rest_direction` from its start point; for
+/// both_ends, a V between the two pins whose arms have the strand's rest length (straight and
+/// stretched when the pins are farther apart than the strand is long), sagging towards
+/// `rest_direction`. Zero velocities.
+pub fn rest_state(setup: &Setup, pose_a: &Pose, pose_b: &Pose) -> State {
+    let p = setup.particles;
+    let l0 = setup.rest_length;
+    let mut x = vec![[0.0; 3]; setup.total_particles()];
+    let dir_world = pose_a.rotate(setup.rest_direction);
+    for s in 0..setup.strands {
+        let a = pose_a.apply(setup.start_offsets[s]);
+        let strand = &mut x[s * p..(s + 1) * p];
+        if setup.pin != Pin::BothEnds {
+            for (i, xi) in strand.iter_mut().enumerate() {
+                *xi = axpy(a, i as f64 * l0, dir_world);
+            }
+            continue;
+        }
+        let b = pose_b.apply(setup.end_offsets[s]);
+        let n = setup.segments;
+        let n1 = n.div_ceil(2);
+        let (la, lb) = (n1 as f64 * l0, (n - n1) as f64 * l0);
+        let ab = sub(b, a);
+        let d = norm(ab);
+        let apex = if d >= la + lb {
+            None
+        } else {
+            let u = if d > 0.0 { scale(ab, 1.0 / d) } else { [0.0; 3] };
+            // Sag direction: rest_direction without its component along the span; any
+            // perpendicular when they are parallel.
+            let mut w = axpy(dir_world, -dot(dir_world, u), u);
+            if norm(w) < 1e-9 {
+                w = if u[2].abs() < 0.9 {
+                    cross(u, [0.0, 0.0, 1.0])
+                } else {
+                    cross(u, [1.0, 0.0, 0.0])
+                };
+            }
+            let w = scale(w, 1.0 / norm(w));
+            let along = if d > 0.0 {
+                (d * d + la * la - lb * lb) / (2.0 * d)
+            } else {
+                0.0
+            };
+            let across = (la * la - along * along).max(0.0).sqrt();
+            Some(add(axpy(a, along, u), scale(w, across)))
+        };
+        for (i, xi) in strand.iter_mut().enumerate() {
+            *xi = match apex {
+                None => axpy(a, i as f64 / n as f64, ab),
+                Some(c) if i <= n1 => axpy(a, i as f64 / n1 as f64, sub(c, a)),
+                Some(c) => axpy(c, (i - n1) as f64 / (n - n1) as f64, sub(b, c)),
+            };
+        }
+    }
+    State {
+        v: vec![[0.0; 3]; x.len()],
+        x,
+    }
+}
+
+/// Speed above which a particle counts as blown up, m/s.
+pub const BLOW_UP_SPEED: f64 = 1.0e4;
+/// Stretch ratio above which a segment counts as blown up.
+pub const BLOW_UP_STRETCH: f64 = 10.0;
+
+/// The first strand that blew up (a non-finite value, a segment longer than 10 rest lengths,
+/// or a speed above 1e4 m/s), if any.
+pub fn blown_strand(setup: &Setup, state: &State) -> Option<usize> {
+    let p = setup.particles;
+    let max_l2 = (BLOW_UP_STRETCH * setup.rest_length).powi(2);
+    let max_v2 = BLOW_UP_SPEED * BLOW_UP_SPEED;
+    (0..setup.strands).find(|&s| {
+        let x = &state.x[s * p..(s + 1) * p];
+        let v = &state.v[s * p..(s + 1) * p];
+        // Written so that NaN fails every comparison and counts as blown up.
+        let bad_point = x.iter().zip(v).any(|(xi, vi)| {
+            let v2 = dot(*vi, *vi);
+            !(xi.iter().all(|c| c.is_finite()) && v2 <= max_v2)
+        });
+        bad_point
+            || x.windows(2).any(|w| {
+                let e = sub(w[1], w[0]);
+                let l2 = dot(e, e);
+                l2.is_nan() || l2 > max_l2
+            })
+    })
+}
+
+/// Why a strand counts as blown up (see [`blown_strand`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum BlowUp {
+    /// A position or velocity is not finite.
+    NonFinite,
+    /// Segment `segment` (numbered from the strand's particle 0) is `ratio` rest lengths long,
+    /// the longest of the strand and more than [`BLOW_UP_STRETCH`].
+    Stretch {
+        /// The segment.
+        segment: usize,
+        /// Its length over the rest length.
+        ratio: f64,
+    },
+    /// Particle `particle` (within the strand) moves faster than [`BLOW_UP_SPEED`].
+    Speed {
+        /// The particle.
+        particle: usize,
+        /// Its speed, m/s.
+        speed: f64,
+    },
+}
+
+/// Why strand `s` is blown up, if it is: a non-finite value first, then the most stretched
+/// segment beyond [`BLOW_UP_STRETCH`], then the fastest particle beyond [`BLOW_UP_SPEED`].
+pub fn blow_up_cause(setup: &Setup, state: &State, s: usize) -> Option<BlowUp> {
+    let p = setup.particles;
+    let x = &state.x[s * p..(s + 1) * p];
+    let v = &state.v[s * p..(s + 1) * p];
+    if x.iter().chain(v).flatten().any(|c| !c.is_finite()) {
+        return Some(BlowUp::NonFinite);
+    }
+    let l0 = setup.rest_length;
+    let (mut segment, mut ratio) = (0, f64::NEG_INFINITY);
+    for (j, w) in x.windows(2).enumerate() {
+        let r = norm(sub(w[1], w[0])) / l0;
+        if r > ratio {
+            (segment, ratio) = (j, r);
+        }
+    }
+    if ratio > BLOW_UP_STRETCH {
+        return Some(BlowUp::Stretch { segment, ratio });
+    }
+    let (mut particle, mut speed) = (0, f64::NEG_INFINITY);
+    for (i, vi) in v.iter().enumerate() {
+        let sp = norm(*vi);
+        if sp > speed {
+            (particle, speed) = (i, sp);
+        }
+    }
+    (speed > BLOW_UP_SPEED).then_some(BlowUp::Speed { particle, speed })
+}
+
+/// For a strand hanging from one pin under gravity: the tension of its top segment at rest,
+/// T = g x (the mass below the pin), N, and that segment's length at rest in rest lengths,
+/// 1 + T / (E A) (Hooke's law for the spring k = E A / l0). `None` for other pins or no gravity.
+pub fn hanging_stretch(setup: &Setup) -> Option<(f64, f64)> {
+    let g = norm(setup.gravity);
+    if setup.pin != Pin::OneEnd || g <= 0.0 || setup.stretch_stiffness <= 0.0 {
+        return None;
+    }
+    let below: f64 = setup.mass.iter().skip(1).sum();
+    let tension = g * below;
+    Some((tension, 1.0 + tension / setup.stretch_stiffness))
+}
+
+/// The blow-up message of strand `s` at frame number `frame`, told apart by cause:
+///
+/// - h above (or within 20 % of) the method's step limit: a numerical instability; the advice is
+///   the substeps that put h at 0.8 of the limit.
+/// - For a stretchable model ([`Method::STRETCHABLE`]), a segment beyond 10 rest lengths while
+///   h is at most half the limit (the method is stable there), or, for a method without a
+///   limit, while the strand's weight alone would stretch its top segment that far when applied
+///   suddenly (an undamped spring k under a constant force F switched on at t = 0 moves as
+///   x = (F / k)(1 - cos omega t), twice its static stretch at the turn): the strand's physics;
+///   more substeps will not help, a stiffer or lighter strand will.
+/// - Otherwise: double the substeps (h within a factor 2 of the limit; or well inside it but too
+///   coarse for the solver, such as rigid segments' projection; or the method has no limit).
+pub fn blow_up_message<M: Method>(
+    setup: &Setup,
+    state: &State,
+    s: usize,
+    frame: i64,
+    h: f64,
+    dt: f64,
+    wind: bool,
+) -> String {
+    let cause = blow_up_cause(setup, state, s).unwrap_or(BlowUp::NonFinite);
+    let limit = M::stability_limit(setup, wind);
+    let name = M::LIMIT_NAME;
+    let head = format!("strand {s} blew up at frame {frame}");
+    let doubled = 2 * setup.substeps as u64;
+    let raise = |need: u64, instead: &str| {
+        if need > 10000 {
+            format!("it would take about {need} substeps, more than the 10000 allowed: {instead}")
+        } else {
+            format!("raise `substeps` to at least {need}")
+        }
+    };
+    let hanging = hanging_stretch(setup);
+    let weight = match hanging {
+        Some((tension, ratio)) => format!(
+            "; hanging still from its pin, its weight alone would stretch the top segment to about {ratio:.3e} rest \
+             lengths: a tension of {tension:.3e} N against `stretch_stiffness` {:.3e} N",
+            setup.stretch_stiffness
+        ),
+        None => String::new(),
+    };
+    let physical = |segment: usize, ratio: f64, why: String| {
+        format!(
+            "{head}: it stretches past {BLOW_UP_STRETCH} times its rest length under its load (segment {segment} is \
+             {ratio:.3e} rest lengths long{weight}); {why}, so this is the strand's physics and more substeps will \
+             not help: give it a stiffer `stretch_stiffness` or a lighter `mass_per_length`"
+        )
+    };
+    match (limit, cause) {
+        (Some(l), _) if h > 0.8 * l => {
+            let relation = if h > l { "above" } else { "close to" };
+            let advice = raise(
+                (1.25 * dt / l).ceil() as u64,
+                "lower `stretch_stiffness` or `bending_stiffness`, raise `mass_per_length`, or use a method without \
+                 this limit",
+            );
+            format!(
+                "{head} (h = {h:.3e} s, {relation} {name} for these parameters, about {l:.3e} s: a numerical \
+                 instability): {advice}"
+            )
+        }
+        (Some(l), BlowUp::Stretch { segment, ratio }) if M::STRETCHABLE && h <= 0.5 * l => physical(
+            segment,
+            ratio,
+            format!(
+                "h = {h:.3e} s is {:.1} times below {name} for these parameters (about {l:.3e} s), where the method \
+                 is stable",
+                l / h
+            ),
+        ),
+        (None, BlowUp::Stretch { segment, ratio })
+            if M::STRETCHABLE && hanging.is_some_and(|(_, r)| 2.0 * r - 1.0 > BLOW_UP_STRETCH) =>
+        {
+            physical(
+                segment,
+                ratio,
+                "the method has no step-size stability limit, and a load applied suddenly stretches a spring twice \
+                 as far as at rest"
+                    .to_owned(),
+            )
+        }
+        (Some(l), _) if h > 0.5 * l => format!(
+            "{head} (h = {h:.3e} s, within a factor 2 of {name} for these parameters, about {l:.3e} s): {}",
+            raise(doubled, "use fewer `segments` or a higher frame rate")
+        ),
+        (Some(l), _) => format!(
+            "{head} (h = {h:.3e} s, well inside {name} for these parameters, about {l:.3e} s, but too coarse for \
+             the solver to keep up): {}",
+            raise(doubled, "use fewer `segments` or a higher frame rate")
+        ),
+        (None, _) => format!(
+            "{head} (h = {h:.3e} s; this method has no step-size stability limit, but a coarse step costs accuracy): \
+             {}",
+            raise(doubled, "use fewer `segments` or a higher frame rate")
+        ),
+    }
+}
+
+fn check_blow_up<M: Method>(
+    setup: &Setup,
+    state: &State,
+    tl: &Timeline,
+    i: usize,
+    h: f64,
+    wind: bool,
+) -> Result<(), NodeError> {
+    match blown_strand(setup, state) {
+        None => Ok(()),
+        Some(s) => Err(NodeError::new(blow_up_message::<M>(
+            setup,
+            state,
+            s,
+            tl.frame_number(i),
+            h,
+            tl.dt(),
+            wind,
+        ))),
+    }
+}
+
+fn write_frame(io: &mut Io<'_>, i: usize, setup: &Setup, state: &State, elastic: f64) -> Result<(), NodeError> {
+    let n = state.x.len();
+    {
+        let (buf, _) = io.output("positions")?;
+        for (o, x) in buf[i * 3 * n..(i + 1) * 3 * n].chunks_exact_mut(3).zip(&state.x) {
+            o.copy_from_slice(x);
+        }
+    }
+    {
+        let (buf, _) = io.output("velocities")?;
+        for (o, v) in buf[i * 3 * n..(i + 1) * 3 * n].chunks_exact_mut(3).zip(&state.v) {
+            o.copy_from_slice(v);
+        }
+    }
+    let p = forces::momentum(setup, state);
+    io.output("momentum")?.0[3 * i..3 * i + 3].copy_from_slice(&p);
+    let (ke, pe) = forces::kinetic_and_gravity(setup, state);
+    let e = ke + pe + elastic;
+    if !e.is_finite() {
+        return Err(NodeError::new(format!(
+            "the energy at frame {i} of the call is not finite (positions too far from the origin?)"
+        )));
+    }
+    io.output("energy")?.0[i] = e;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::spec::node_spec;
+    use heft_node_sdk::{NodeSpec, ParamValue};
+
+    /// A method that leaves the state alone except for the pins (to test the frame loop).
+    struct Frozen;
+    impl Method for Frozen {
+        fn new(_: &Setup) -> Self {
+            Frozen
+        }
+        fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>) {
+            for s in 0..setup.strands {
+                for (slot, &i) in setup.pins.iter().enumerate() {
+                    state.x[s * setup.particles + i] = env.pin_target(s, slot, env.substeps);
+                }
+            }
+        }
+    }
+
+    fn run(spec: &NodeSpec, setup: &Setup, anchor: &[f64], frames: u64) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+        let tl = Timeline {
+            start_frame: 0,
+            frame_count: frames,
+            rate_num: 24,
+            rate_den: 1,
+        };
+        let n = setup.total_particles();
+        let f = frames as usize;
+        let (mut x, mut v, mut p, mut e) = (
+            vec![0.0; f * 3 * n],
+            vec![0.0; f * 3 * n],
+            vec![0.0; f * 3],
+            vec![0.0; f],
+        );
+        let inputs: Vec<Series<'_>> = spec
+            .inputs
+            .iter()
+            .map(|port| {
+                if port.name == "anchor" {
+                    Series::new(anchor, 7)
+                } else {
+                    Series::new(&[], 0)
+                }
+            })
+            .collect();
+        let mut io = Io::new(
+            tl,
+            spec,
+            inputs,
+            vec![&mut x, &mut v, &mut p, &mut e],
+            vec![3 * n, 3 * n, 3, 1],
+        );
+        evaluate_with::<Frozen>(setup, &mut io).expect("runs");
+        (x, p, e)
+    }
+
+    /// The energy of a strand hanging straight down from z = 0 at rest is its gravitational
+    /// energy -mu g L^2 / 2 (the integral of mu g z over the strand; the lumped masses are the
+    /// trapezoidal rule, exact for a linear integrand), and its momentum is zero.
+    #[test]
+    fn the_energy_of_a_hanging_strand_at_rest_is_its_weight_times_its_centre_height() {
+        let spec = node_spec("t", "", "");
+        let setup = Setup::from_params(&Params::defaults(&spec).expect("defaults")).expect("valid");
+        let anchor: Vec<f64> = (0..3).flat_map(|_| [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0]).collect();
+        let (x, p, e) = run(&spec, &setup, &anchor, 3);
+        let want = -0.05 * heft_node_sdk::STANDARD_GRAVITY * 0.4 * 0.4 / 2.0;
+        for ef in e {
+            assert!((ef - want).abs() < 1e-15, "{ef} vs {want}");
+        }
+        assert!(p.iter().all(|c| *c == 0.0));
+        assert!((x[3 * 12 + 2] + 0.4).abs() < 1e-15);
+    }
+
+    #[test]
+    fn both_ends_farther_apart_than_the_strand_is_long_start_straight() {
+        let spec = node_spec("t", "", "");
+        let p = Params::defaults(&spec)
+            .and_then(|p| p.with("pin", ParamValue::Choice("both_ends".into())))
+            .and_then(|p| p.with("end_offset", ParamValue::Vec3([0.8, 0.0, 0.0])))
+            .expect("params");
+        let setup = Setup::from_params(&p).expect("valid");
+        let s = rest_state(&setup, &Pose::IDENTITY, &Pose::IDENTITY);
+        for (i, x) in s.x.iter().enumerate() {
+            assert!((x[0] - 0.8 * i as f64 / 12.0).abs() < 1e-15 && x[2] == 0.0);
+        }
+    }
+
+    #[test]
+    fn a_blown_strand_is_found_by_non_finite_values_stretch_or_speed() {
+        let spec = node_spec("t", "", "");
+        let p = Params::defaults(&spec)
+            .and_then(|p| p.with("count", ParamValue::Integer(3)))
+            .expect("params");
+        let setup = Setup::from_params(&p).expect("valid");
+        let fresh = rest_state(&setup, &Pose::IDENTITY, &Pose::IDENTITY);
+        assert_eq!(blown_strand(&setup, &fresh), None);
+        let mut s = fresh.clone();
+        s.v[2 * 13 + 4] = [0.0, f64::NAN, 0.0];
+        assert_eq!(blown_strand(&setup, &s), Some(2));
+        let mut s = fresh.clone();
+        s.v[13 + 4] = [1.01e4, 0.0, 0.0];
+        assert_eq!(blown_strand(&setup, &s), Some(1));
+        let mut s = fresh;
+        s.x[13 + 12][2] -= 10.0 * setup.rest_length;
+        assert_eq!(blown_strand(&setup, &s), Some(1));
+    }
+
+    #[test]
+    fn the_cause_of_a_blow_up_is_named_with_its_segment_or_particle() {
+        let spec = node_spec("t", "", "");
+        let setup = Setup::from_params(&Params::defaults(&spec).expect("defaults")).expect("valid");
+        let l0 = setup.rest_length;
+        let fresh = rest_state(&setup, &Pose::IDENTITY, &Pose::IDENTITY);
+        assert_eq!(blow_up_cause(&setup, &fresh, 0), None);
+        let mut s = fresh.clone();
+        s.x[4][0] = f64::INFINITY;
+        assert_eq!(blow_up_cause(&setup, &s, 0), Some(BlowUp::NonFinite));
+        // Particles 8..=12 moved down by 11 l0: segment 7 (particles 7 and 8) is 12 l0 long.
+        let mut s = fresh.clone();
+        for x in &mut s.x[8..] {
+            x[2] -= 11.0 * l0;
+        }
+        s.v[3] = [2.0e4, 0.0, 0.0];
+        match blow_up_cause(&setup, &s, 0) {
+            Some(BlowUp::Stretch { segment: 7, ratio }) => assert!((ratio - 12.0).abs() < 1e-12, "{ratio}"),
+            other => panic!("{other:?}"),
+        }
+        let mut s = fresh;
+        s.v[3] = [0.0, -2.0e4, 0.0];
+        assert_eq!(
+            blow_up_cause(&setup, &s, 0),
+            Some(BlowUp::Speed {
+                particle: 3,
+                speed: 2.0e4
+            })
+        );
+    }
+
+    /// A method with rigid segments (an over-long segment is the solver falling behind).
+    struct Rigid;
+    impl Method for Rigid {
+        fn new(_: &Setup) -> Self {
+            Rigid
+        }
+        fn frame(&mut self, _: &Setup, _: &mut State, _: &FrameEnv<'_>) {}
+        const LIMIT_NAME: &'static str = "the bending limit";
+        const STRETCHABLE: bool = false;
+    }
+
+    /// A method without a step limit.
+    struct Unlimited;
+    impl Method for Unlimited {
+        fn new(_: &Setup) -> Self {
+            Unlimited
+        }
+        fn frame(&mut self, _: &Setup, _: &mut State, _: &FrameEnv<'_>) {}
+        fn stability_limit(_: &Setup, _: bool) -> Option<f64> {
+            None
+        }
+    }
+
+    fn setup_with(changes: &[(&str, ParamValue)]) -> Setup {
+        let spec = node_spec("t", "", "");
+        let mut p = Params::defaults(&spec).expect("defaults");
+        for (name, value) in changes {
+            p = p.with(name, value.clone()).expect("a parameter");
+        }
+        Setup::from_params(&p).expect("valid")
+    }
+
+    /// The default strand hanging straight down with its tip segment pulled to 12 rest lengths.
+    fn tip_pulled(setup: &Setup) -> State {
+        let mut s = rest_state(setup, &Pose::IDENTITY, &Pose::IDENTITY);
+        let last = setup.particles - 1;
+        s.x[last][2] -= 11.0 * setup.rest_length;
+        s
+    }
+
+    const DT: f64 = 1.0 / 24.0;
+
+    #[test]
+    fn a_step_above_or_near_the_limit_is_called_an_instability() {
+        let setup = setup_with(&[]);
+        let state = tip_pulled(&setup);
+        let l = Frozen::stability_limit(&setup, false).expect("explicit springs");
+        // 1.25 frame / limit substeps put h a fifth below the limit.
+        let need = (1.25 * DT / l).ceil() as u64;
+        for (h, relation) in [(2.0 * l, "above"), (0.9 * l, "close to")] {
+            let msg = blow_up_message::<Frozen>(&setup, &state, 0, 1005, h, DT, false);
+            assert_eq!(
+                msg,
+                format!(
+                    "strand 0 blew up at frame 1005 (h = {h:.3e} s, {relation} the explicit stability limit for these \
+                     parameters, about {l:.3e} s: a numerical instability): raise `substeps` to at least {need}"
+                )
+            );
+        }
+        // Past 10000 substeps the advice changes to the parameters.
+        let msg = blow_up_message::<Frozen>(&setup, &state, 0, 1005, 2.0 * l, 1.0e4 * DT, false);
+        assert!(
+            msg.contains("more than the 10000 allowed: lower `stretch_stiffness`"),
+            "{msg}"
+        );
+    }
+
+    /// A soft, heavy strand: mass_per_length 1e4 kg/m, stretch_stiffness 1e-3 N, gravity 100 m/s^2
+    /// (the conformance kit's report). Hanging from one pin, its top segment carries the 12 particles
+    /// below it, mu L (1 - 1 / 24) = 3833.3 kg (lumped masses: half a segment at the tip), so
+    /// Hooke's law stretches it to 1 + 3.8333e5 N / 1e-3 N = 3.8333e8 rest lengths.
+    #[test]
+    fn a_stretch_well_inside_the_limit_is_called_the_strands_physics() {
+        let changes = [
+            ("mass_per_length", ParamValue::Number(1.0e4)),
+            ("stretch_stiffness", ParamValue::Number(1.0e-3)),
+            ("gravity", ParamValue::Number(100.0)),
+        ];
+        let setup = setup_with(&changes);
+        let state = tip_pulled(&setup);
+        let (tension, ratio) = hanging_stretch(&setup).expect("hangs from one pin");
+        let want_tension = 100.0 * 1.0e4 * 0.4 * (1.0 - 1.0 / 24.0);
+        assert!((tension - want_tension).abs() < 1e-9 * want_tension, "{tension}");
+        assert!((ratio - (1.0 + want_tension / 1.0e-3)).abs() < 1e-6 * ratio, "{ratio}");
+        let l = Frozen::stability_limit(&setup, false).expect("explicit springs");
+        let h = l / 37.0;
+        let msg = blow_up_message::<Frozen>(&setup, &state, 0, 1002, h, DT, false);
+        assert_eq!(
+            msg,
+            format!(
+                "strand 0 blew up at frame 1002: it stretches past 10 times its rest length under its load (segment 11 \
+                 is {:.3e} rest lengths long; hanging still from its pin, its weight alone would stretch the top \
+                 segment to about {ratio:.3e} rest lengths: a tension of {tension:.3e} N against `stretch_stiffness` \
+                 1.000e-3 N); h = {h:.3e} s is 37.0 times below the explicit stability limit for these parameters \
+                 (about {l:.3e} s), where the method is stable, so this is the strand's physics and more substeps \
+                 will not help: give it a stiffer `stretch_stiffness` or a lighter `mass_per_length`",
+                12.0
+            )
+        );
+        // A method without a limit: the weight alone tells.
+        let msg = blow_up_message::<Unlimited>(&setup, &state, 0, 1002, h, DT, false);
+        assert!(
+            msg.starts_with(
+                "strand 0 blew up at frame 1002: it stretches past 10 times its rest length under its load"
+            ),
+            "{msg}"
+        );
+        assert!(msg.contains("the method has no step-size stability limit"), "{msg}");
+        assert!(!msg.contains("raise `substeps`"), "{msg}");
+    }
+
+    #[test]
+    fn otherwise_the_advice_is_to_double_the_substeps_in_the_methods_words() {
+        // The default strand's own weight stretches it by 1 + 0.05 * 0.4 * (23/24) * g / 200 =
+        // 1.00094 rest lengths: far from 10, so a 12 l0 segment is the solver's doing.
+        let setup = setup_with(&[]);
+        let state = tip_pulled(&setup);
+        let l = Frozen::stability_limit(&setup, false).expect("explicit springs");
+        let h = l / 37.0;
+        // Rigid segments well inside the limit: the solver, not physics.
+        let msg = blow_up_message::<Rigid>(&setup, &state, 0, 7, h, DT, false);
+        assert_eq!(
+            msg,
+            format!(
+                "strand 0 blew up at frame 7 (h = {h:.3e} s, well inside the bending limit for these parameters, \
+                 about {l:.3e} s, but too coarse for the solver to keep up): raise `substeps` to at least 40"
+            )
+        );
+        // No limit, and a weight that cannot stretch the strand that far.
+        let msg = blow_up_message::<Unlimited>(&setup, &state, 0, 7, h, DT, false);
+        assert_eq!(
+            msg,
+            format!(
+                "strand 0 blew up at frame 7 (h = {h:.3e} s; this method has no step-size stability limit, but a \
+                 coarse step costs accuracy): raise `substeps` to at least 40"
+            )
+        );
+        assert!(!msg.contains("explicit"), "{msg}");
+        // A stretchable method with a particle too fast (not a stretch) inside its limit.
+        let mut fast = rest_state(&setup, &Pose::IDENTITY, &Pose::IDENTITY);
+        fast.v[5] = [0.0, 0.0, 2.0e4];
+        let msg = blow_up_message::<Frozen>(&setup, &fast, 0, 7, h, DT, false);
+        assert!(msg.contains("well inside the explicit stability limit"), "{msg}");
+        assert!(msg.ends_with("raise `substeps` to at least 40"), "{msg}");
+        // A stretch at h between half the limit and 0.8 of it: not clearly physics, nor clearly
+        // the step; doubling the substeps tells (at half the step a stretch is called physics).
+        let msg = blow_up_message::<Frozen>(&setup, &state, 0, 7, 0.6 * l, DT, false);
+        assert_eq!(
+            msg,
+            format!(
+                "strand 0 blew up at frame 7 (h = {:.3e} s, within a factor 2 of the explicit stability limit for \
+                 these parameters, about {l:.3e} s): raise `substeps` to at least 40",
+                0.6 * l
+            )
+        );
+        // Doubling past 10000.
+        let many = setup_with(&[("substeps", ParamValue::Integer(6000))]);
+        let msg = blow_up_message::<Unlimited>(&many, &state, 0, 7, h, DT, false);
+        assert!(
+            msg.ends_with(
+                "it would take about 12000 substeps, more than the 10000 allowed: use fewer `segments` or a higher \
+                 frame rate"
+            ),
+            "{msg}"
+        );
+    }
+}

@@ -1,0 +1,292 @@
+//! The contract's ports and parameters, shared by every strand node type.
+
+use heft_node_sdk::{Dimension, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, STANDARD_GRAVITY};
+
+/// Input port names, in spec order.
+pub const INPUTS: [&str; 8] = [
+    "anchor",
+    "anchor_b",
+    "wind",
+    "collider_1",
+    "collider_2",
+    "collider_3",
+    "initial_positions",
+    "initial_velocities",
+];
+
+/// Output port names, in spec order.
+pub const OUTPUTS: [&str; 4] = ["positions", "velocities", "momentum", "energy"];
+
+/// Placement choices.
+pub const PLACEMENTS: [&str; 3] = ["single", "line", "ring"];
+/// Pin choices.
+pub const PINS: [&str; 3] = ["one_end", "both_ends", "free"];
+
+/// The spec of a strand node type: the contract's inputs, outputs and parameters, no summaries.
+pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
+    let len = Dimension::Length;
+    let mut params = vec![
+        ParamSpec::integer(
+            "count",
+            1,
+            (1, 4096),
+            "Strands carried by this node, all sharing these parameters.",
+        ),
+        ParamSpec::choice(
+            "placement",
+            &PLACEMENTS,
+            "single: every strand at the anchor point; line: `spacing` apart along the anchor's local X, centred; \
+             ring: evenly on a circle of `radius` in the anchor's local XY plane.",
+        ),
+        ParamSpec::number(
+            "spacing",
+            len,
+            0.02,
+            (0.0, 10.0),
+            "Distance between strands for `line`.",
+        ),
+        ParamSpec::number("radius", len, 0.15, (0.0, 10.0), "Circle radius for `ring`."),
+        ParamSpec::number("length", len, 0.4, (0.001, 100.0), "Rest length of each strand."),
+        ParamSpec::integer(
+            "segments",
+            12,
+            (1, 256),
+            "Segments per strand; particles per strand = segments + 1.",
+        ),
+        ParamSpec::number(
+            "mass_per_length",
+            Dimension::LinearDensity,
+            0.05,
+            (1.0e-6, 1.0e4),
+            "Mass per unit rest length, lumped onto the particles (half a segment's mass at each end).",
+        ),
+        ParamSpec::number(
+            "stretch_stiffness",
+            Dimension::Force,
+            200.0,
+            (1.0e-3, 1.0e9),
+            "Axial rigidity E A; a segment of rest length l0 is a spring of k = E A / l0.",
+        ),
+        ParamSpec::number(
+            "bending_stiffness",
+            Dimension::BendingStiffness,
+            1.0e-4,
+            (0.0, 1.0e3),
+            "Flexural rigidity E I; 0 = a chain that bends freely.",
+        ),
+        ParamSpec::number(
+            "damping",
+            Dimension::Rate,
+            0.5,
+            (0.0, 1.0e3),
+            "Absolute damping: a = -damping v (still air).",
+        ),
+        ParamSpec::number(
+            "relative_damping",
+            Dimension::Rate,
+            2.0,
+            (0.0, 1.0e3),
+            "Damping relative to the anchor's rigid motion: a = -relative_damping (v - v_anchor).",
+        ),
+        ParamSpec::integer(
+            "substeps",
+            20,
+            (1, 10000),
+            "Solver steps per frame; h = frame duration / substeps.",
+        ),
+        ParamSpec::vec3(
+            "rest_direction",
+            Dimension::Dimensionless,
+            [0.0, 0.0, -1.0],
+            (-1.0e3, 1.0e3),
+            "Direction the strand is laid along at the first frame, in the anchor's local frame (normalised; not zero).",
+        ),
+        ParamSpec::choice(
+            "pin",
+            &PINS,
+            "one_end: particle 0 follows the anchor; both_ends: particle 0 and the last particle follow \
+             `anchor` and `anchor_b` (or two points of `anchor`); free: nothing is pinned.",
+        ),
+        ParamSpec::vec3(
+            "start_offset",
+            len,
+            [0.0; 3],
+            (-100.0, 100.0),
+            "Where particle 0 is pinned, in the anchor's local frame (added to the placement offset).",
+        ),
+        ParamSpec::vec3(
+            "end_offset",
+            len,
+            [0.2, 0.0, 0.0],
+            (-100.0, 100.0),
+            "Where the last particle is pinned for both_ends: on `anchor_b` if connected, else on `anchor`.",
+        ),
+        ParamSpec::number(
+            "gravity",
+            Dimension::Acceleration,
+            STANDARD_GRAVITY,
+            (0.0, 100.0),
+            "Gravity along -Z; standard gravity 9.80665 m/s^2 by default.",
+        ),
+        ParamSpec::number(
+            "drag",
+            Dimension::Rate,
+            1.0,
+            (0.0, 1.0e3),
+            "Wind coupling a = drag (v_wind - v); used only when `wind` is connected.",
+        ),
+    ];
+    for k in 1..=3 {
+        params.push(ParamSpec::number(
+            &format!("collider_{k}_radius"),
+            len,
+            0.1,
+            (0.0, 100.0),
+            &format!("Radius of sphere collider {k}."),
+        ));
+    }
+    for k in 1..=3 {
+        params.push(ParamSpec::vec3(
+            &format!("collider_{k}_offset"),
+            len,
+            [0.0; 3],
+            (-100.0, 100.0),
+            &format!("Centre of sphere collider {k} in its transform's local frame."),
+        ));
+    }
+    let tr = |n: &str, doc: &str| PortSpec::new(n, PortKind::Transform, len, doc).optional();
+    let inputs = vec![
+        tr("anchor", "The transform the pins ride on (a head, a hip)."),
+        tr(
+            "anchor_b",
+            "Second transform for the last particle with pin = both_ends.",
+        ),
+        PortSpec::new(
+            "wind",
+            PortKind::Points,
+            Dimension::Velocity,
+            "Wind field (heft_node_sdk::field layout) sampled at the particles.",
+        )
+        .optional(),
+        tr("collider_1", "Transform carrying sphere collider 1."),
+        tr("collider_2", "Transform carrying sphere collider 2."),
+        tr("collider_3", "Transform carrying sphere collider 3."),
+        PortSpec::new(
+            "initial_positions",
+            PortKind::Points,
+            len,
+            "Frame 0 replaces the rest shape (N = count x (segments + 1), strand-major).",
+        )
+        .optional(),
+        PortSpec::new(
+            "initial_velocities",
+            PortKind::Points,
+            Dimension::Velocity,
+            "Frame 0 replaces the zero initial velocity (same N).",
+        )
+        .optional(),
+    ];
+    let outputs = vec![
+        PortSpec::new(
+            "positions",
+            PortKind::Points,
+            len,
+            "Particle positions; strand s, particle i at index s (segments + 1) + i.",
+        ),
+        PortSpec::new(
+            "velocities",
+            PortKind::Points,
+            Dimension::Velocity,
+            "Particle velocities, same layout.",
+        ),
+        PortSpec::new(
+            "momentum",
+            PortKind::Vec3,
+            Dimension::Impulse,
+            "Total linear momentum sum m_i v_i.",
+        ),
+        PortSpec::new(
+            "energy",
+            PortKind::Scalar,
+            Dimension::Energy,
+            "Kinetic + gravitational (m g z) + elastic energy of the node's model.",
+        ),
+    ];
+    NodeSpec {
+        name: name.to_owned(),
+        doc: doc.to_owned(),
+        notes: notes.to_owned(),
+        inputs,
+        outputs,
+        params,
+        summaries: Vec::new(),
+    }
+}
+
+/// Total particle count N = count x (segments + 1) for these parameters.
+pub fn particle_count(params: &Params) -> Result<usize, NodeError> {
+    let count = params.integer("count")?;
+    let segments = params.integer("segments")?;
+    if !(1..=4096).contains(&count) {
+        return Err(NodeError::new(format!("`count` = {count} is outside 1..=4096")));
+    }
+    if !(1..=256).contains(&segments) {
+        return Err(NodeError::new(format!("`segments` = {segments} is outside 1..=256")));
+    }
+    Ok(count as usize * (segments as usize + 1))
+}
+
+/// The point counts of the outputs: N, N, 0, 0. Checks the `initial_*` input widths
+/// (in input order) against N when they are connected.
+pub fn output_points(params: &Params, inputs: &[usize]) -> Result<Vec<usize>, NodeError> {
+    let n = particle_count(params)?;
+    for (k, name) in [(6, "initial_positions"), (7, "initial_velocities")] {
+        if let Some(&w) = inputs.get(k)
+            && w != 0
+            && w != 3 * n
+        {
+            return Err(NodeError::new(format!(
+                "`{name}` carries {} points but this node has {n} particles (count x (segments + 1))",
+                w / 3
+            )));
+        }
+    }
+    Ok(vec![n, n, 0, 0])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use heft_node_sdk::{ParamType, ParamValue};
+
+    #[test]
+    fn every_parameter_has_a_default_inside_its_range_and_ports_match_the_names() {
+        let spec = node_spec("strand", "doc", "notes");
+        let mut names: Vec<&str> = spec.params.iter().map(|p| p.name.as_str()).collect();
+        names.sort_unstable();
+        names.dedup();
+        assert_eq!(names.len(), spec.params.len(), "duplicate parameter names");
+        for p in &spec.params {
+            match (&p.ty, &p.default) {
+                (ParamType::Number { min, max, .. }, Some(ParamValue::Number(v))) => {
+                    assert!(min <= v && v <= max, "{}", p.name)
+                }
+                (ParamType::Integer { min, max }, Some(ParamValue::Integer(v))) => {
+                    assert!(min <= v && v <= max, "{}", p.name)
+                }
+                (ParamType::Vec3 { min, max, .. }, Some(ParamValue::Vec3(v))) => {
+                    assert!(v.iter().all(|c| min <= c && c <= max), "{}", p.name)
+                }
+                (ParamType::Choice { options }, Some(ParamValue::Choice(v))) => assert!(options.contains(v)),
+                other => panic!("{}: {other:?}", p.name),
+            }
+        }
+        assert_eq!(spec.inputs.iter().map(|p| p.name.as_str()).collect::<Vec<_>>(), INPUTS);
+        assert_eq!(
+            spec.outputs.iter().map(|p| p.name.as_str()).collect::<Vec<_>>(),
+            OUTPUTS
+        );
+        assert!(spec.inputs.iter().all(|p| p.optional));
+        assert!(spec.summaries.is_empty());
+    }
+}
