@@ -1,0 +1,15 @@
+//! heft node plugin `xpbd`.
+//!
+//! - `xpbd.strand`: the strand contract (shared with `strand.euler` and `strand.verlet`, see
+//!   `heft_strand_common`) solved with XPBD: compliant distance and bending constraints, one
+//!   Gauss-Seidel sweep per substep (Macklin et al. 2016, 2019), strands across SIMD lanes.
+//!
+//! [`solver`] is the method core (plain functions over a lane layout); [`strand`] the node.
+//! World space is right-handed, Z up, SI units.
+
+pub mod solver;
+pub mod strand;
+
+pub use strand::{Xpbd, XpbdStrand};
+
+heft_node_sdk::export_plugin!(name: "xpbd", nodes: [XpbdStrand]);
