@@ -1,0 +1,874 @@
+//! Strand throughput: `xpbd.strand`, `strand.verlet` and `strand.euler` called through their
+//! plugin function tables, against the same chains built in rapier3d (a general-purpose
+//! rigid-body engine from crates.io) with spherical impulse joints. Before the benches it prints
+//! the first-mode frequency of a hanging chain measured in `xpbd.strand` and in rapier3d, with
+//! their relative errors against Bernoulli's value; after them, the rates of this run and their
+//! ratios to rapier3d (read back from this run's criterion estimates; machines are shared and
+//! noisy, so only ratios within one run mean anything).
+//!
+//! Run: `cargo bench -p heft-benches --bench strands` (about 2 minutes).
+//!
+//! What is measured (criterion prints elements/s; an element is one particle advanced by one
+//! substep, pinned root particles included; a call's first output frame is the initial state,
+//! so a call over 25 frames simulates 24):
+//!
+//! - `strands_1024x32`: 1024 strands of 32 particles (`count` = 1024, `segments` = 31,
+//!   `length` = 0.4 m, `placement` = line, `pin` = one_end, other parameters at their defaults)
+//!   on an anchor swaying 2 cm at 0.5 Hz along X, 24 frames of 20 substeps at 24 fps
+//!   (h = 1/480 s). rapier3d takes about half a minute for those 480 steps of 32768 bodies, so
+//!   it runs the same chains at the same h for 2 frames (40 steps) a call.
+//! - `strand_1x257`: one long chain, 24 frames of 20 substeps for every engine. The contract
+//!   caps `segments` at 256, so the longest strand a node carries has 257 particles (not the
+//!   1024 of the issue's example).
+//! - A method whose stability limit is below h (`strand.euler`'s explicit springs at both sizes,
+//!   `strand.verlet`'s explicit bending on the long chain) runs at the fewest substeps its limit
+//!   allows plus 25 %, over fewer frames (at least one) to keep a call near 480 substeps; the
+//!   schedule is printed before each bench. The rate per particle-substep is what compares.
+//!
+//! Everything runs on one thread: the strand nodes are single-threaded, and rapier3d is built
+//! without its `parallel` feature. No `-C target-cpu` is set, so x86-64 builds use SSE2 only.
+//!
+//! Peer model (rapier3d 0.36, f32): each particle but the root is a dynamic body with a ball's
+//! mass properties (mass = the node's lumped particle mass, inertia of a 2 mm ball) and no
+//! collider (the strand nodes do no particle-particle collision, so a broad phase would be work
+//! the nodes do not do); a spherical impulse joint ties each body to its parent's centre by a
+//! rigid arm of one rest length: the nodes' chain of point masses on inextensible links. The
+//! roots are joints onto one kinematic anchor body moved at every step as the nodes move their
+//! anchor. Impulse joints, not multibody joints: they are rapier's usual way to build ropes and
+//! chains, and its multibody solver factors a dense augmented mass matrix per multibody per step
+//! (`LU` of a `DMatrix`, rapier3d `multibody.rs`), which scales badly with chain length.
+//! `dt` = h, one `PhysicsWorld::step` per substep, linear damping 0.5 /s like the nodes'
+//! `damping` (rapier has no counterpart of `relative_damping`); `rapier` keeps rapier's default
+//! of 4 solver iterations a step (internal substeps of dt / 4), `rapier_1_iteration` makes one,
+//! as `xpbd.strand` makes one constraint sweep a substep. Bodies never sleep (a hanging chain at
+//! rest would otherwise be skipped). World construction is not timed.
+
+use std::hint::black_box;
+use std::path::PathBuf;
+use std::sync::OnceLock;
+use std::time::{Duration, SystemTime};
+
+use criterion::{BatchSize, Criterion, SamplingMode, Throughput};
+use heft_node_sdk::host::Plugin;
+use heft_node_sdk::{ParamValue, Params, PortKind, STANDARD_GRAVITY, Timeline};
+use heft_strand_common::{Method, Setup, step_limit};
+use heft_xpbd::Xpbd;
+use rapier3d::prelude::{
+    MassProperties, PhysicsWorld, RigidBodyBuilder, RigidBodyHandle, SphericalJointBuilder, Vector,
+};
+
+/// Frames per second of every run here.
+const FPS: u32 = 24;
+/// Substeps per frame of the benches (the contract's default): h = 1 / 480 s.
+const SUBSTEPS: usize = 20;
+/// Spacing of the `line` placement (the contract's default), m.
+const SPACING: f64 = 0.02;
+/// Radius of the rapier balls (sets their rotational inertia only; no colliders), m.
+const BALL_RADIUS: f64 = 0.002;
+
+// ---------------------------------------------------------------------------------------------
+// Calling a strand node through its plugin function table.
+
+/// The contract's node types, with the plugin each lives in.
+#[derive(Clone, Copy)]
+enum Kind {
+    Xpbd,
+    Euler,
+    Verlet,
+}
+
+impl Kind {
+    fn name(self) -> &'static str {
+        match self {
+            Kind::Xpbd => "xpbd",
+            Kind::Euler => "euler",
+            Kind::Verlet => "verlet",
+        }
+    }
+
+    /// The plugin and the node's index in it. `xpbd` is linked statically (its function table);
+    /// `strand` is built as a library and loaded like the host does, because two plugin crates
+    /// cannot be linked into one program: each exports the unmangled entry symbol
+    /// `heft_plugin_entry_v1` (`export_plugin!`), and the linker rejects the duplicate.
+    fn plugin(self) -> (Plugin, u32) {
+        static STRAND: OnceLock<Plugin> = OnceLock::new();
+        let (plugin, node) = match self {
+            Kind::Xpbd => (
+                Plugin::from_static(heft_xpbd::plugin_table(), "xpbd (linked)").expect("the xpbd table loads"),
+                "strand",
+            ),
+            Kind::Euler | Kind::Verlet => {
+                let strand = STRAND.get_or_init(|| {
+                    let path = heft_benches::build_plugin("heft-strand", "heft_strand");
+                    Plugin::load(&path).expect("the strand plugin loads")
+                });
+                (strand.clone(), self.name())
+            }
+        };
+        let index = plugin
+            .descriptor()
+            .nodes
+            .iter()
+            .position(|n| n.name == node)
+            .expect("node type present") as u32;
+        (plugin, index)
+    }
+
+    /// The method's largest stable substep for these parameters, s; `None` when it has none.
+    /// `xpbd.strand` states its own (none); `strand.euler` keeps the strand model's explicit
+    /// spring limit (`Setup::explicit_step_limit`, the `Method` default); `strand.verlet`'s
+    /// segments are rigid constraints, so only its explicit bending term and damping limit the
+    /// step (as nodes/strand/src/verlet.rs states it in `VerletMethod::stability_limit`; the
+    /// plugin is loaded dynamically here, so the bench asks the shared model the same question).
+    /// Every configuration is run once before it is timed, so a wrong limit fails loudly.
+    fn step_limit(self, params: &Params) -> Option<f64> {
+        let setup = Setup::from_params(params).expect("valid parameters");
+        match self {
+            Kind::Xpbd => Xpbd::stability_limit(&setup, false),
+            Kind::Euler => setup.explicit_step_limit(false),
+            Kind::Verlet => step_limit(setup.omega_max_of(0.0, setup.bending_k), setup.damping_rate(false)),
+        }
+    }
+}
+
+/// One prepared node evaluation: parameters encoded, inputs and output buffers allocated.
+struct NodeCall {
+    plugin: Plugin,
+    index: u32,
+    params: Vec<u8>,
+    timeline: Timeline,
+    inputs: Vec<(Vec<f64>, usize)>,
+    outputs: Vec<(Vec<f64>, usize)>,
+    output_names: Vec<String>,
+}
+
+impl NodeCall {
+    /// The node's defaults with `overrides`, and the named inputs connected (the rest empty).
+    fn new(kind: Kind, overrides: &[(&str, ParamValue)], timeline: Timeline, connected: Vec<(&str, Vec<f64>)>) -> Self {
+        let (plugin, index) = kind.plugin();
+        let spec = plugin.descriptor().nodes[index as usize].clone();
+        let mut params = Params::defaults(&spec).expect("every strand parameter has a default");
+        for (name, value) in overrides {
+            params = params.with(name, value.clone()).expect("known parameter");
+        }
+        let frames = timeline.frames();
+        let mut connected = connected;
+        let inputs: Vec<(Vec<f64>, usize)> = spec
+            .inputs
+            .iter()
+            .map(|port| match connected.iter().position(|(n, _)| *n == port.name) {
+                Some(k) => {
+                    let data = connected.swap_remove(k).1;
+                    let width = data.len() / frames;
+                    (data, width)
+                }
+                None => (Vec::new(), 0),
+            })
+            .collect();
+        assert!(
+            connected.is_empty(),
+            "unknown inputs {:?}",
+            connected.iter().map(|c| c.0).collect::<Vec<_>>()
+        );
+        let bytes = Plugin::encode_params(params.values()).expect("encodes");
+        let widths: Vec<usize> = inputs.iter().map(|(_, w)| *w).collect();
+        let points = plugin
+            .output_points(index, &bytes, timeline, &widths, spec.outputs.len())
+            .expect("output shapes");
+        let outputs = spec
+            .outputs
+            .iter()
+            .zip(points)
+            .map(|(port, n)| {
+                let width = if port.kind == PortKind::Points {
+                    3 * n
+                } else {
+                    port.kind.width(0)
+                };
+                (vec![0.0; frames * width], width)
+            })
+            .collect();
+        NodeCall {
+            plugin,
+            index,
+            params: bytes,
+            timeline,
+            inputs,
+            outputs,
+            output_names: spec.outputs.iter().map(|p| p.name.clone()).collect(),
+        }
+    }
+
+    fn run(&mut self) -> Result<(), String> {
+        let inputs: Vec<(&[f64], usize)> = self.inputs.iter().map(|(d, w)| (d.as_slice(), *w)).collect();
+        let mut outputs: Vec<(&mut [f64], usize)> =
+            self.outputs.iter_mut().map(|(d, w)| (d.as_mut_slice(), *w)).collect();
+        self.plugin
+            .evaluate(self.index, &self.params, self.timeline, &inputs, &mut outputs, &mut [])
+            .map(|_| ())
+            .map_err(|e| e.to_string())
+    }
+
+    /// An output series and its width.
+    fn output(&self, name: &str) -> (&[f64], usize) {
+        let k = self.output_names.iter().position(|n| n == name).expect("output name");
+        (&self.outputs[k].0, self.outputs[k].1)
+    }
+}
+
+/// A timeline of `frames` frames from frame 0 at `fps`.
+fn timeline(frames: usize, fps: u32) -> Timeline {
+    Timeline {
+        start_frame: 0,
+        frame_count: frames as u64,
+        rate_num: fps,
+        rate_den: 1,
+    }
+}
+
+/// The anchor's translation at time t: a gentle sway of 2 cm at 0.5 Hz along X, 1.5 m up.
+fn anchor_at(t: f64) -> [f64; 3] {
+    [0.02 * (std::f64::consts::TAU * 0.5 * t).sin(), 0.0, 1.5]
+}
+
+/// The anchor as a transform series (identity rotation).
+fn anchor_series(tl: Timeline) -> Vec<f64> {
+    (0..tl.frames())
+        .flat_map(|i| {
+            let p = anchor_at(tl.time(i));
+            [p[0], p[1], p[2], 0.0, 0.0, 0.0, 1.0]
+        })
+        .collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// The same chains in rapier3d.
+
+/// Chains of balls on spherical impulse joints, rooted on one kinematic anchor body.
+struct RapierChains {
+    world: PhysicsWorld,
+    anchor: RigidBodyHandle,
+    /// Every ball, chain-major (the root particle of each chain is the anchor's joint point).
+    balls: Vec<RigidBodyHandle>,
+    /// Positions written once per frame, like the node's `positions` output (root omitted).
+    out: Vec<f64>,
+}
+
+/// Lumped particle masses of a strand (half a segment's mass at each end), root first.
+fn lumped_masses(mass_per_length: f64, length: f64, particles: usize) -> Vec<f64> {
+    let seg = mass_per_length * length / (particles - 1) as f64;
+    (0..particles)
+        .map(|i| if i == 0 || i + 1 == particles { 0.5 * seg } else { seg })
+        .collect()
+}
+
+fn v3(p: [f64; 3]) -> Vector {
+    Vector::new(p[0] as f32, p[1] as f32, p[2] as f32)
+}
+
+impl RapierChains {
+    /// `roots[c]` is chain c's root offset on the anchor; `shapes[c][i]` particle i's position
+    /// relative to the root (i = 0 is the root itself, at 0). Masses as the strand nodes lump them.
+    fn new(
+        anchor_at: [f64; 3],
+        kinematic: bool,
+        roots: &[[f64; 3]],
+        shapes: &[Vec<[f64; 3]>],
+        masses: &[f64],
+        h: f64,
+        damping: f64,
+    ) -> Self {
+        let mut world = PhysicsWorld {
+            gravity: Vector::new(0.0, 0.0, -(STANDARD_GRAVITY as f32)),
+            ..PhysicsWorld::default()
+        };
+        world.integration_parameters.dt = h as f32;
+        let anchor_body = if kinematic {
+            RigidBodyBuilder::kinematic_position_based()
+        } else {
+            RigidBodyBuilder::fixed()
+        };
+        let anchor = world.insert_body(anchor_body.translation(v3(anchor_at)));
+        let particles = masses.len();
+        let mut balls = Vec::with_capacity(roots.len() * (particles - 1));
+        for (root, shape) in roots.iter().zip(shapes) {
+            let mut parent = anchor;
+            let mut parent_local = v3(*root);
+            for i in 1..particles {
+                let m = masses[i];
+                let inertia = 0.4 * m * BALL_RADIUS * BALL_RADIUS;
+                let p = [0, 1, 2].map(|k| anchor_at[k] + root[k] + shape[i][k]);
+                let body = RigidBodyBuilder::dynamic()
+                    .translation(v3(p))
+                    .additional_mass_properties(MassProperties::new(
+                        Vector::ZERO,
+                        m as f32,
+                        Vector::splat(inertia as f32),
+                    ))
+                    .linear_damping(damping as f32)
+                    .can_sleep(false);
+                let handle = world.insert_body(body);
+                // The arm from this ball to its parent's centre (or the root point).
+                let arm = [0, 1, 2].map(|k| shape[i - 1][k] - shape[i][k]);
+                let joint = SphericalJointBuilder::new()
+                    .local_anchor1(parent_local)
+                    .local_anchor2(v3(arm));
+                world.insert_impulse_joint(parent, handle, joint);
+                balls.push(handle);
+                parent = handle;
+                parent_local = Vector::ZERO;
+            }
+        }
+        let out = vec![0.0; balls.len() * 3];
+        RapierChains {
+            world,
+            anchor,
+            balls,
+            out,
+        }
+    }
+
+    /// Straight chains hanging from a `line` of roots, like the node's rest shape.
+    fn hanging(count: usize, particles: usize, length: f64, mass_per_length: f64, damping: f64, h: f64) -> Self {
+        let l0 = length / (particles - 1) as f64;
+        let roots: Vec<[f64; 3]> = (0..count)
+            .map(|s| [(s as f64 - 0.5 * (count - 1) as f64) * SPACING, 0.0, 0.0])
+            .collect();
+        let shape: Vec<[f64; 3]> = (0..particles).map(|i| [0.0, 0.0, -(i as f64) * l0]).collect();
+        let shapes = vec![shape; count];
+        let masses = lumped_masses(mass_per_length, length, particles);
+        RapierChains::new(anchor_at(0.0), true, &roots, &shapes, &masses, h, damping)
+    }
+
+    /// One frame of `substeps` steps, the anchor moved linearly from time t0 to t1 like the
+    /// nodes interpolate it; then the positions are copied out.
+    fn frame(&mut self, t0: f64, t1: f64, substeps: usize) {
+        let (a0, a1) = (anchor_at(t0), anchor_at(t1));
+        for k in 1..=substeps {
+            let u = k as f64 / substeps as f64;
+            let a = [0, 1, 2].map(|c| a0[c] + u * (a1[c] - a0[c]));
+            self.world.bodies[self.anchor].set_next_kinematic_translation(v3(a));
+            self.world.step();
+        }
+        for (b, out) in self.balls.iter().zip(self.out.chunks_exact_mut(3)) {
+            let p = self.world.bodies[*b].translation();
+            out.copy_from_slice(&[f64::from(p.x), f64::from(p.y), f64::from(p.z)]);
+        }
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// The hanging-chain modes.
+
+/// First zero of the Bessel function J0 (Abramowitz & Stegun 1964, Handbook of Mathematical
+/// Functions, Table 9.5).
+const J0_FIRST_ZERO: f64 = 2.404_825_557_695_773;
+
+/// The first mode of a uniform inextensible chain of length `l` hanging from a fixed point:
+/// omega_1 = (j_{0,1} / 2) sqrt(g / l) (D. Bernoulli 1738, "Theoremata de oscillationibus
+/// corporum filo flexili connexorum et catenae verticaliter suspensae", Comment. Acad. Sci.
+/// Imp. Petrop. 6 (1732/33); the mode shape is J0(2 omega sqrt(s / g)), s measured from the
+/// free end).
+fn bernoulli_omega1(l: f64, g: f64) -> f64 {
+    0.5 * J0_FIRST_ZERO * (g / l).sqrt()
+}
+
+/// The first mode of the discrete chain the nodes and the rapier model simulate: lumped masses
+/// `m[1..]` (m[0] is the fixed root) on massless inextensible links of length `l0`, small
+/// horizontal swings. Bernoulli's n-body hanging chain (same source): m_i u_i'' =
+/// T_i (u_{i+1} - u_i) / l0 - T_{i-1} (u_i - u_{i-1}) / l0 with T_j = g sum_{k > j} m_k the
+/// tension of link j (between particles j and j+1). Returns (omega_1, the mode's u, root
+/// first, u_0 = 0, scaled to a unit tip). Inverse iteration K u = omega^2 M u, each step a
+/// tridiagonal solve (Golub & Van Loan, Matrix Computations, 4th ed., secs. 4.3.6, 8.2.2).
+fn discrete_chain_mode(m: &[f64], l0: f64, g: f64) -> (f64, Vec<f64>) {
+    let n = m.len() - 1; // unknowns u_1..u_n
+    // Tension of link j (particles j, j+1), j = 0..n-1; link n does not exist.
+    let tension: Vec<f64> = (0..n).map(|j| g * m[j + 1..].iter().sum::<f64>()).collect();
+    let t = |j: usize| if j < n { tension[j] } else { 0.0 };
+    // Row r (particle i = r + 1): diagonal (T_{i-1} + T_i) / l0, off-diagonal -T_i / l0.
+    let diag: Vec<f64> = (1..=n).map(|i| (t(i - 1) + t(i)) / l0).collect();
+    let off: Vec<f64> = (1..n).map(|i| -t(i) / l0).collect();
+    let mass = &m[1..];
+    let mut u = vec![1.0; n];
+    let mut omega2 = 0.0;
+    for _ in 0..200 {
+        let rhs: Vec<f64> = u.iter().zip(mass).map(|(a, b)| a * b).collect();
+        let next = solve_tridiagonal(&diag, &off, &rhs);
+        let tip = next[n - 1];
+        u = next.iter().map(|x| x / tip).collect();
+        // Rayleigh quotient u'K u / u'M u.
+        let ku: f64 = (0..n)
+            .map(|r| {
+                let left = if r > 0 { off[r - 1] * u[r - 1] } else { 0.0 };
+                let right = if r + 1 < n { off[r] * u[r + 1] } else { 0.0 };
+                u[r] * (diag[r] * u[r] + left + right)
+            })
+            .sum();
+        let mu: f64 = u.iter().zip(mass).map(|(a, b)| a * a * b).sum();
+        omega2 = ku / mu;
+    }
+    let mut shape = vec![0.0];
+    shape.extend(u);
+    (omega2.sqrt(), shape)
+}
+
+/// Solves the symmetric tridiagonal system (diagonal `d`, off-diagonal `e`) by the Thomas
+/// algorithm (no pivoting; the chain's K is diagonally dominant).
+fn solve_tridiagonal(d: &[f64], e: &[f64], rhs: &[f64]) -> Vec<f64> {
+    let n = d.len();
+    let mut c = vec![0.0; n];
+    let mut y = vec![0.0; n];
+    for r in 0..n {
+        let sub = if r > 0 { e[r - 1] } else { 0.0 };
+        let prev_c = if r > 0 { c[r - 1] } else { 0.0 };
+        let prev_y = if r > 0 { y[r - 1] } else { 0.0 };
+        let denom = d[r] - sub * prev_c;
+        c[r] = if r + 1 < n { e[r] / denom } else { 0.0 };
+        y[r] = (rhs[r] - sub * prev_y) / denom;
+    }
+    let mut x = vec![0.0; n];
+    for r in (0..n).rev() {
+        x[r] = y[r] - if r + 1 < n { c[r] * x[r + 1] } else { 0.0 };
+    }
+    x
+}
+
+/// The swing frequency from a sampled signal: zero crossings found by linear interpolation,
+/// then a least-squares line through (crossing number, time) gives the half period.
+fn frequency_from_crossings(samples: &[f64], dt: f64) -> Option<f64> {
+    let crossings: Vec<f64> = samples
+        .windows(2)
+        .enumerate()
+        .filter(|(_, w)| (w[0] < 0.0) != (w[1] < 0.0))
+        .map(|(i, w)| (i as f64 + w[0] / (w[0] - w[1])) * dt)
+        .collect();
+    if crossings.len() < 4 {
+        return None;
+    }
+    let k = crossings.len() as f64;
+    let mean_i = 0.5 * (k - 1.0);
+    let mean_t = crossings.iter().sum::<f64>() / k;
+    let (mut sxy, mut sxx) = (0.0, 0.0);
+    for (i, t) in crossings.iter().enumerate() {
+        let di = i as f64 - mean_i;
+        sxy += di * (t - mean_t);
+        sxx += di * di;
+    }
+    let half_period = sxy / sxx;
+    Some(std::f64::consts::PI / half_period)
+}
+
+/// What one mode run gives: frequency, tip amplitude at the end over the start, and the chain's
+/// mean length over the run relative to its rest length.
+struct ModeRun {
+    omega: f64,
+    amplitude_ratio: f64,
+    length_ratio: f64,
+}
+
+fn mode_stats(tip_x: &[f64], lengths: &[f64], dt: f64, period: f64, rest_length: f64) -> ModeRun {
+    let omega = frequency_from_crossings(tip_x, dt).expect("the chain swings through zero");
+    let last_period = (period / dt).ceil() as usize;
+    let start = tip_x.iter().take(last_period).fold(0.0f64, |a, x| a.max(x.abs()));
+    let end = tip_x.iter().rev().take(last_period).fold(0.0f64, |a, x| a.max(x.abs()));
+    ModeRun {
+        omega,
+        amplitude_ratio: end / start,
+        length_ratio: lengths.iter().sum::<f64>() / lengths.len() as f64 / rest_length,
+    }
+}
+
+fn chain_length(points: &[f64]) -> f64 {
+    points
+        .chunks_exact(3)
+        .zip(points.chunks_exact(3).skip(1))
+        .map(|(a, b)| ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2) + (b[2] - a[2]).powi(2)).sqrt())
+        .sum()
+}
+
+/// The hanging chain of the mode measurement: a 1 m chain of 32 particles (31 links) with the
+/// contract's default mass per length, released from rest in the discrete chain's first mode
+/// shape with a 1 cm tip displacement, sampled at 240 frames/s for six periods.
+struct ModeSetup {
+    length: f64,
+    particles: usize,
+    mass_per_length: f64,
+    masses: Vec<f64>,
+    /// Particle positions relative to the root (at the origin), m.
+    shape: Vec<[f64; 3]>,
+    fps: u32,
+    frames: usize,
+    period: f64,
+}
+
+impl ModeSetup {
+    /// The chain and the discrete chain's first mode (omega_1 and shape) it is released in.
+    fn new() -> (ModeSetup, f64) {
+        let (length, particles, mass_per_length) = (1.0, 32, 0.05);
+        let l0 = length / (particles - 1) as f64;
+        let masses = lumped_masses(mass_per_length, length, particles);
+        let (omega_d, mode) = discrete_chain_mode(&masses, l0, STANDARD_GRAVITY);
+        let amp = 0.01;
+        // x = 1 cm times the mode; z laid down link by link so that every link is exactly l0.
+        let mut shape = vec![[0.0; 3]; particles];
+        for i in 1..particles {
+            let (x0, x1) = (amp * mode[i - 1], amp * mode[i]);
+            shape[i] = [x1, 0.0, shape[i - 1][2] - (l0 * l0 - (x1 - x0).powi(2)).sqrt()];
+        }
+        let fps = 240;
+        let period = std::f64::consts::TAU / omega_d;
+        let setup = ModeSetup {
+            length,
+            particles,
+            mass_per_length,
+            masses,
+            shape,
+            fps,
+            frames: (6.0 * period * f64::from(fps)).ceil() as usize + 1,
+            period,
+        };
+        (setup, omega_d)
+    }
+
+    fn dt(&self) -> f64 {
+        1.0 / f64::from(self.fps)
+    }
+
+    /// `xpbd.strand` with `substeps` a frame: the anchor still at the origin, the contract's
+    /// default stretch stiffness (E A = 200 N), no bending, no damping.
+    fn xpbd(&self, substeps: usize) -> ModeRun {
+        let tl = timeline(self.frames, self.fps);
+        let still: Vec<f64> = (0..self.frames)
+            .flat_map(|_| [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0])
+            .collect();
+        let initial: Vec<f64> = (0..self.frames)
+            .flat_map(|_| self.shape.iter().flatten().copied())
+            .collect();
+        let mut call = NodeCall::new(
+            Kind::Xpbd,
+            &[
+                ("length", ParamValue::Number(self.length)),
+                ("segments", ParamValue::Integer(self.particles as i64 - 1)),
+                ("mass_per_length", ParamValue::Number(self.mass_per_length)),
+                ("bending_stiffness", ParamValue::Number(0.0)),
+                ("damping", ParamValue::Number(0.0)),
+                ("relative_damping", ParamValue::Number(0.0)),
+                ("substeps", ParamValue::Integer(substeps as i64)),
+            ],
+            tl,
+            vec![("anchor", still), ("initial_positions", initial)],
+        );
+        call.run().expect("xpbd.strand runs the hanging chain");
+        let (pos, width) = call.output("positions");
+        let tip: Vec<f64> = pos.chunks_exact(width).map(|f| f[width - 3]).collect();
+        let lengths: Vec<f64> = pos.chunks_exact(width).map(chain_length).collect();
+        mode_stats(&tip, &lengths, self.dt(), self.period, self.length)
+    }
+
+    /// rapier3d with `substeps` steps a frame and `iterations` solver iterations a step (its
+    /// internal substeps; 4 by default): a fixed root at the origin, no damping.
+    fn rapier(&self, substeps: usize, iterations: usize) -> ModeRun {
+        let h = self.dt() / substeps as f64;
+        let mut chain = RapierChains::new(
+            [0.0; 3],
+            false,
+            &[[0.0; 3]],
+            std::slice::from_ref(&self.shape),
+            &self.masses,
+            h,
+            0.0,
+        );
+        chain.world.integration_parameters.num_solver_iterations = iterations;
+        let mut tip = Vec::with_capacity(self.frames);
+        let mut lengths = Vec::with_capacity(self.frames);
+        for i in 0..self.frames {
+            if i > 0 {
+                for _ in 0..substeps {
+                    chain.world.step();
+                }
+            }
+            let mut pts = vec![0.0; 3];
+            for b in &chain.balls {
+                let p = chain.world.bodies[*b].translation();
+                pts.extend([f64::from(p.x), f64::from(p.y), f64::from(p.z)]);
+            }
+            tip.push(pts[pts.len() - 3]);
+            lengths.push(chain_length(&pts));
+        }
+        mode_stats(&tip, &lengths, self.dt(), self.period, self.length)
+    }
+}
+
+/// Measures the first hanging-chain mode in `xpbd.strand` and in rapier3d and prints both
+/// relative errors against Bernoulli's omega_1 (and against the 31-link discrete chain, to
+/// separate the methods' errors from the discretisation's). The bench's step is h = 1/480 s
+/// (2 substeps a frame at 240 frames/s, the same h as 20 substeps at 24 frames/s); a run at
+/// h / 4 shows how each error converges.
+fn report_modes() {
+    let (setup, omega_d) = ModeSetup::new();
+    let omega_b = bernoulli_omega1(setup.length, STANDARD_GRAVITY);
+    let err = |w: f64| (w - omega_b) / omega_b;
+    eprintln!(
+        "hanging chain, first mode: L = {} m, {} particles, {} kg/m, released in the first mode (1 cm at the tip), \
+         6 periods, tip x sampled at {} frames/s",
+        setup.length, setup.particles, setup.mass_per_length, setup.fps
+    );
+    eprintln!(
+        "  Bernoulli, continuous chain (D. Bernoulli 1738; j0,1 = 2.404826 from Abramowitz & Stegun 1964, \
+         Table 9.5): omega_1 = {omega_b:.5} rad/s"
+    );
+    eprintln!(
+        "  discrete 31-link chain with the nodes' lumped masses (Bernoulli's n-body chain, linearised): \
+         omega_1 = {omega_d:.5} rad/s ({:+.3} % from Bernoulli)",
+        100.0 * err(omega_d)
+    );
+    let runs = [
+        ("xpbd.strand, h = 1/480 s (20 substeps at 24 fps)", setup.xpbd(2)),
+        (
+            "rapier3d,    h = 1/480 s, 4 solver iterations (its default)",
+            setup.rapier(2, 4),
+        ),
+        ("xpbd.strand, h = 1/1920 s", setup.xpbd(8)),
+        ("rapier3d,    h = 1/480 s, 1 solver iteration", setup.rapier(2, 1)),
+    ];
+    for (name, r) in &runs {
+        eprintln!(
+            "  {name}: omega_1 = {:.5} rad/s, error {:+.3} % against Bernoulli ({:+.3} % against the discrete \
+             chain); tip amplitude, 6th period over 1st, x {:.3}; mean chain length x {:.5}",
+            r.omega,
+            100.0 * err(r.omega),
+            100.0 * (r.omega - omega_d) / omega_d,
+            r.amplitude_ratio,
+            r.length_ratio
+        );
+    }
+    // Sanity bounds only (the figures printed above are the result): every run within 5 % of
+    // Bernoulli, and the discrete chain within 1 % of the continuous one at 31 links.
+    for (name, r) in &runs {
+        assert!(err(r.omega).abs() < 0.05, "{name}: first mode off by more than 5 %");
+    }
+    assert!(
+        err(omega_d).abs() < 0.01,
+        "the discrete chain's first mode is off by more than 1 %"
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
+// The benches.
+
+/// A strand case: strands of `particles` particles, `length` m long; rapier3d runs
+/// `rapier_frames` frames (fewer than the nodes' 24 where it would take minutes).
+#[derive(Clone, Copy)]
+struct Case {
+    group: &'static str,
+    strands: usize,
+    particles: usize,
+    length: f64,
+    rapier_frames: usize,
+}
+
+/// Frames the nodes run at the bench's 20 substeps.
+const FRAMES: usize = 24;
+
+/// The node's parameters for a case, the substeps given.
+fn overrides(case: Case, substeps: usize) -> Vec<(&'static str, ParamValue)> {
+    vec![
+        ("count", ParamValue::Integer(case.strands as i64)),
+        ("placement", ParamValue::Choice("line".to_owned())),
+        ("segments", ParamValue::Integer(case.particles as i64 - 1)),
+        ("length", ParamValue::Number(case.length)),
+        ("substeps", ParamValue::Integer(substeps as i64)),
+    ]
+}
+
+/// Substeps and frames for `kind`: the bench's 20 substeps over 24 frames, or for a method whose
+/// stability limit is below the bench's step the fewest substeps the limit allows plus 25 %,
+/// over proportionally fewer frames (at least one) to keep each call near 480 substeps.
+fn schedule(kind: Kind, case: Case) -> (usize, usize) {
+    let (plugin, index) = kind.plugin();
+    let spec = &plugin.descriptor().nodes[index as usize];
+    let mut params = Params::defaults(spec).expect("defaults");
+    for (n, v) in overrides(case, SUBSTEPS) {
+        params = params.with(n, v).expect("known parameter");
+    }
+    let frame = 1.0 / f64::from(FPS);
+    let substeps = match kind.step_limit(&params) {
+        Some(limit) if frame / SUBSTEPS as f64 > limit / 1.25 => (1.25 * frame / limit).ceil() as usize,
+        _ => SUBSTEPS,
+    };
+    (substeps, (FRAMES * SUBSTEPS / substeps).max(1))
+}
+
+/// The benches of one case: (name, particle-substeps per iteration).
+fn bench_names(case: Case) -> Vec<(String, u64)> {
+    let mut names: Vec<(String, u64)> = [Kind::Xpbd, Kind::Verlet, Kind::Euler]
+        .iter()
+        .map(|&k| {
+            let (substeps, frames) = schedule(k, case);
+            (
+                k.name().to_owned(),
+                (case.strands * case.particles * frames * substeps) as u64,
+            )
+        })
+        .collect();
+    for iterations in RAPIER_ITERATIONS {
+        names.push((
+            rapier_name(iterations),
+            (case.strands * case.particles * case.rapier_frames * SUBSTEPS) as u64,
+        ));
+    }
+    names
+}
+
+/// rapier3d's solver iterations a step: its default (4), and 1 (one solver pass a step, as
+/// `xpbd.strand` makes one constraint sweep a substep).
+const RAPIER_ITERATIONS: [usize; 2] = [4, 1];
+
+fn rapier_name(iterations: usize) -> String {
+    if iterations == 4 {
+        "rapier".to_owned()
+    } else {
+        format!("rapier_{iterations}_iteration")
+    }
+}
+
+fn bench_case(c: &mut Criterion, case: Case) {
+    let mut g = c.benchmark_group(case.group);
+    g.sampling_mode(SamplingMode::Flat)
+        .sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(4));
+    let names = bench_names(case);
+    for (kind, (name, elements)) in [Kind::Xpbd, Kind::Verlet, Kind::Euler].into_iter().zip(&names) {
+        let (substeps, frames) = schedule(kind, case);
+        eprintln!(
+            "{}/{name}: {} strands x {} particles, {frames} frames x {substeps} substeps (h = {:.3e} s)",
+            case.group,
+            case.strands,
+            case.particles,
+            1.0 / f64::from(FPS) / substeps as f64
+        );
+        let tl = timeline(frames + 1, FPS);
+        let mut call = NodeCall::new(
+            kind,
+            &overrides(case, substeps),
+            tl,
+            vec![("anchor", anchor_series(tl))],
+        );
+        call.run().unwrap_or_else(|e| panic!("{} fails: {e}", kind.name()));
+        g.throughput(Throughput::Elements(*elements));
+        g.bench_function(name.as_str(), |b| b.iter(|| black_box(call.run())));
+    }
+    let h = 1.0 / f64::from(FPS) / SUBSTEPS as f64;
+    for (iterations, (name, elements)) in RAPIER_ITERATIONS.into_iter().zip(&names[3..]) {
+        g.throughput(Throughput::Elements(*elements));
+        g.bench_function(name.as_str(), |b| {
+            b.iter_batched(
+                || {
+                    let mut chains = RapierChains::hanging(case.strands, case.particles, case.length, 0.05, 0.5, h);
+                    chains.world.integration_parameters.num_solver_iterations = iterations;
+                    chains
+                },
+                |mut chains| {
+                    for f in 0..case.rapier_frames {
+                        let t0 = f as f64 / f64::from(FPS);
+                        chains.frame(t0, t0 + 1.0 / f64::from(FPS), SUBSTEPS);
+                    }
+                    black_box(&chains.out);
+                    chains
+                },
+                BatchSize::PerIteration,
+            )
+        });
+    }
+    g.finish();
+}
+
+/// Criterion's output folder, as criterion finds it ($CRITERION_HOME, else
+/// $CARGO_TARGET_DIR/criterion, else the target folder holding this executable).
+fn criterion_dir() -> Option<PathBuf> {
+    if let Some(home) = std::env::var_os("CRITERION_HOME") {
+        return Some(PathBuf::from(home));
+    }
+    if let Some(target) = std::env::var_os("CARGO_TARGET_DIR") {
+        return Some(PathBuf::from(target).join("criterion"));
+    }
+    let exe = std::env::current_exe().ok()?;
+    Some(exe.parent()?.parent()?.parent()?.join("criterion"))
+}
+
+/// Mean time per iteration (ns) of one bench, from criterion's estimates file, if that file was
+/// written by this run (after `since`).
+fn mean_ns(group: &str, bench: &str, since: SystemTime) -> Option<f64> {
+    let path = criterion_dir()?
+        .join(group)
+        .join(bench)
+        .join("new")
+        .join("estimates.json");
+    if std::fs::metadata(&path).and_then(|m| m.modified()).ok()? < since {
+        return None;
+    }
+    let text = std::fs::read_to_string(path).ok()?;
+    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
+    v["mean"]["point_estimate"].as_f64()
+}
+
+/// Prints the rates of this run and the ratios to rapier3d with its default solver settings.
+fn report_ratios(cases: &[Case], since: SystemTime) {
+    eprintln!("\nstrand rates of this run (particle-substeps per second on one thread, from criterion's means):");
+    for &case in cases {
+        let rates: Vec<(String, Option<f64>)> = bench_names(case)
+            .into_iter()
+            .map(|(n, el)| {
+                let rate = mean_ns(case.group, &n, since).map(|ns| el as f64 / (ns * 1e-9));
+                (n, rate)
+            })
+            .collect();
+        let rate_of = |name: &str| rates.iter().find(|r| r.0 == name).and_then(|r| r.1);
+        let (peer, peer_1) = (rate_of("rapier"), rate_of(&rapier_name(1)));
+        for (n, rate) in &rates {
+            let Some(r) = rate else {
+                eprintln!("  {}/{n}: not run in this run", case.group);
+                continue;
+            };
+            let mut line = format!("  {}/{n}: {r:.3e} /s", case.group);
+            if !n.starts_with("rapier") {
+                if let Some(p) = peer {
+                    line += &format!(", {:.1} x rapier3d (4 iterations)", r / p);
+                }
+                if let Some(p) = peer_1 {
+                    line += &format!(", {:.1} x rapier3d (1 iteration)", r / p);
+                }
+            }
+            eprintln!("{line}");
+        }
+    }
+}
+
+fn main() {
+    let started = SystemTime::now();
+    report_modes();
+    let cases = [
+        Case {
+            group: "strands_1024x32",
+            strands: 1024,
+            particles: 32,
+            length: 0.4,
+            // rapier3d takes 40-60 ms a step here (about 1 s a frame): 2 frames (40 steps) a call.
+            rapier_frames: 2,
+        },
+        Case {
+            group: "strand_1x257",
+            strands: 1,
+            particles: 257,
+            length: 0.4,
+            rapier_frames: FRAMES,
+        },
+    ];
+    let mut c = Criterion::default().configure_from_args();
+    for &case in &cases {
+        bench_case(&mut c, case);
+    }
+    c.final_summary();
+    report_ratios(&cases, started);
+}
