@@ -112,6 +112,8 @@ pub const REAL_PLUGINS: &[&str] = &[
     "heft_weight",
     "heft_forceplate",
     "heft_noise",
+    "heft_strand",
+    "heft_xpbd",
 ];
 
 /// The real plugins plus the test plugin `probe`.
