@@ -21,34 +21,7 @@ use crate::blocks::{BakeFormat, BakeItem, PlannedBake};
 use crate::check::Plan;
 use crate::eval::Evaluation;
 
-type Quat = [f64; 4]; // x, y, z, w
-
-fn q_mul(a: Quat, b: Quat) -> Quat {
-    [
-        a[3] * b[0] + a[0] * b[3] + a[1] * b[2] - a[2] * b[1],
-        a[3] * b[1] - a[0] * b[2] + a[1] * b[3] + a[2] * b[0],
-        a[3] * b[2] + a[0] * b[1] - a[1] * b[0] + a[2] * b[3],
-        a[3] * b[3] - a[0] * b[0] - a[1] * b[1] - a[2] * b[2],
-    ]
-}
-
-fn q_conj(q: Quat) -> Quat {
-    [-q[0], -q[1], -q[2], q[3]]
-}
-
-fn q_rotate(q: Quat, v: [f64; 3]) -> [f64; 3] {
-    let r = q_mul(q_mul(q, [v[0], v[1], v[2], 0.0]), q_conj(q));
-    [r[0], r[1], r[2]]
-}
-
-fn q_normalise(q: Quat) -> Quat {
-    let n = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]).sqrt();
-    if n > 1e-12 {
-        q.map(|c| c / n)
-    } else {
-        [0.0, 0.0, 0.0, 1.0]
-    }
-}
+use crate::quat::{Quat, conj as q_conj, mul as q_mul, normalise as q_normalise, rotate as q_rotate};
 
 /// The shortest rotation taking +Y to the unit vector `d`.
 fn from_y(d: [f64; 3]) -> Quat {

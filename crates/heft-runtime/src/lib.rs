@@ -14,6 +14,7 @@ pub mod gltf_out;
 pub mod graph;
 pub mod output;
 pub mod plots;
+pub mod quat;
 pub mod recipes;
 pub mod registry;
 pub mod sweep;

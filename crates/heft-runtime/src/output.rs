@@ -164,6 +164,13 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
     std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the folder: {e}")))?;
     let mut staged = Vec::new();
     stage(&mut staged, dir, bytes, path.to_path_buf())?;
+    commit(staged).map(|_| ())
+}
+
+/// Renames every staged file into place, with the usual permissions (temporary files are
+/// private, 0600). Returns the paths written.
+fn commit(staged: Staged) -> Result<Vec<PathBuf>, WriteError> {
+    let mut written = Vec::with_capacity(staged.len());
     for (tmp, path) in staged {
         #[cfg(unix)]
         {
@@ -173,8 +180,9 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
                 .map_err(|e| werr(&path, e))?;
         }
         tmp.persist(&path).map_err(|e| werr(&path, e.error))?;
+        written.push(path);
     }
-    Ok(())
+    Ok(written)
 }
 
 /// The file name of the run summary in the output folder.
@@ -301,18 +309,5 @@ pub fn write_all(
     let summary_path = dir.join(SUMMARY_FILE);
     let json = serde_json::to_vec_pretty(&summary).map_err(|e| werr(&summary_path, e))?;
     stage(&mut staged, dir, &json, summary_path)?;
-    let mut written = Vec::new();
-    for (tmp, path) in staged {
-        // Temporary files are private (0600); outputs get the usual permissions.
-        #[cfg(unix)]
-        {
-            use std::os::unix::fs::PermissionsExt;
-            tmp.as_file()
-                .set_permissions(std::fs::Permissions::from_mode(0o644))
-                .map_err(|e| werr(&path, e))?;
-        }
-        tmp.persist(&path).map_err(|e| werr(&path, e.error))?;
-        written.push(path);
-    }
-    Ok(written)
+    commit(staged)
 }

@@ -12,6 +12,8 @@ use std::sync::OnceLock;
 
 use heft_node_sdk::{Dimension, NodeSpec, ParamSpec, ParamValue, PortKind, PortSpec, Timeline};
 
+use crate::quat::{Quat, dot, mul as q_mul, normalise as normalised};
+
 /// The plugin name reserved for host-side nodes.
 pub const HOST_PLUGIN: &str = "track";
 
@@ -293,26 +295,6 @@ fn lerp(col: &[f64], (k, u): (usize, f64)) -> f64 {
     }
 }
 
-type Quat = [f64; 4];
-
-fn q_mul(a: Quat, b: Quat) -> Quat {
-    [
-        a[3] * b[0] + a[0] * b[3] + a[1] * b[2] - a[2] * b[1],
-        a[3] * b[1] - a[0] * b[2] + a[1] * b[3] + a[2] * b[0],
-        a[3] * b[2] + a[0] * b[1] - a[1] * b[0] + a[2] * b[3],
-        a[3] * b[3] - a[0] * b[0] - a[1] * b[1] - a[2] * b[2],
-    ]
-}
-
-fn dot(a: Quat, b: Quat) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
-
-fn normalised(q: Quat) -> Quat {
-    let n = dot(q, q).sqrt();
-    q.map(|c| c / n)
-}
-
 /// Spherical linear interpolation along the shorter arc (Shoemake 1985, "Animating rotation
 /// with quaternion curves", SIGGRAPH), or normalised linear interpolation.
 pub fn interpolate(a: Quat, b: Quat, u: f64, slerp: bool) -> Quat {
@@ -490,10 +472,7 @@ mod tests {
     /// +z to +x (checked by rotating vectors with the quaternion).
     #[test]
     fn euler_orders_about_fixed_axes() {
-        let rot = |q: Quat, v: [f64; 3]| {
-            let r = q_mul(q_mul(q, [v[0], v[1], v[2], 0.0]), [-q[0], -q[1], -q[2], q[3]]);
-            [r[0], r[1], r[2]]
-        };
+        let rot = |q: Quat, v: [f64; 3]| crate::quat::rotate(q, v);
         let r = std::f64::consts::FRAC_PI_2;
         // xyz: x by 90 takes +y to +z; then z by 90 leaves +z.
         let v = rot(euler([r, 0.0, r], "xyz"), [0.0, 1.0, 0.0]);
