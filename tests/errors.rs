@@ -119,7 +119,7 @@ write a.position
         ("t.graph:4:3", "an indented parameter line outside a node"),
         ("t.graph:6:29", "expected `,` between vector components"),
         ("t.graph:7:17", "expected `=` after the parameter name `launch_time`"),
-        ("t.graph:8:32", "expected `)` after three components"),
+        ("t.graph:8:33", "expected `)` after three components"),
         ("t.graph:9:1", "unknown statement `bogus`"),
         ("t.graph:10:1", "expected a statement"),
         ("t.graph:11:12", "expected `->` after the output port"),
@@ -779,4 +779,30 @@ fn rendering_shows_related_places_and_set_values() {
     ] {
         assert!(out.contains(want), "`{want}` missing from:\n{out}");
     }
+}
+
+/// Vector components may carry their own units (`(-10 cm, 0, 2 cm)`); a bare component must
+/// be zero; a unit on the components and after the vector is one too many.
+#[test]
+fn vector_components_with_their_own_units() {
+    let plan = plan_with(
+        "a = trajectory.ballistic\n    launch_position = (-10 cm, 0, 2 m)\n",
+        &[],
+        None,
+    )
+    .expect("plans");
+    assert_eq!(plan.nodes[0].params[0], ParamValue::Vec3([-0.1, 0.0, 2.0]));
+    let p = body_problems(
+        "a = trajectory.ballistic\n    launch_position = (-10 cm, 3, 2 m)\nb = trajectory.ballistic\n    launch_position = (1 cm, 0, 0) m\n",
+    );
+    assert_eq!(
+        located(&p),
+        expect(&[
+            ("t.graph:5:23", "a component of `launch_position` has no unit"),
+            (
+                "t.graph:7:26",
+                "`launch_position` gives a unit both here and after the vector"
+            ),
+        ])
+    );
 }

@@ -128,6 +128,48 @@ fn unit_factor(
     }
 }
 
+/// A vector's components in SI: each takes its own unit, or the one written after the vector.
+/// A component without either may be a bare 0 (zero in any unit).
+fn vector_si(
+    source: &Arc<Source>,
+    values: &[f64; 3],
+    trailing: &UnitText,
+    units: &[UnitText; 3],
+    dim: Dimension,
+    name: &str,
+    span: Span,
+) -> Result<[f64; 3], Problem> {
+    let mut si = [0.0; 3];
+    for k in 0..3 {
+        let f = match (&units[k], trailing) {
+            (Some(own), Some(_)) => {
+                return Err(Problem::new(
+                    source,
+                    own.span,
+                    format!("`{name}` gives a unit both here and after the vector"),
+                )
+                .label("second unit")
+                .help("write `(x, y, z) unit`, or a unit with each component, not both"));
+            }
+            (Some(_), None) => unit_factor(source, &units[k], dim, &format!("`{name}`"), span)?,
+            (None, Some(_)) => unit_factor(source, trailing, dim, &format!("`{name}`"), span)?,
+            (None, None) if values[k] == 0.0 || units.iter().all(Option::is_none) => {
+                unit_factor(source, &None, dim, &format!("`{name}`"), span)
+                    .or_else(|p| if values[k] == 0.0 { Ok(1.0) } else { Err(p) })?
+            }
+            (None, None) => {
+                return Err(
+                    Problem::new(source, span, format!("a component of `{name}` has no unit"))
+                        .label("no unit")
+                        .help("give every non-zero component a unit, or one unit after the vector"),
+                );
+            }
+        };
+        si[k] = values[k] * f;
+    }
+    Ok(si)
+}
+
 /// Converts a written value to the parameter's SI value, checking type, unit and range.
 pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -> Result<ParamValue, Problem> {
     let name = &spec.name;
@@ -191,9 +233,8 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
             }
         }
         (ParamType::Choice { options }, _) => Err(mismatch(&format!("one of {}", options.join(", ")))),
-        (ParamType::Vec3 { dimension, min, max }, Value::Vector { values, unit }) => {
-            let f = unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
-            let si = values.map(|v| v * f);
+        (ParamType::Vec3 { dimension, min, max }, Value::Vector { values, unit, units }) => {
+            let si = vector_si(source, values, unit, units, *dimension, name, span)?;
             if let Some(bad) = si.iter().find(|v| !(**v >= *min && **v <= *max)) {
                 return Err(Problem::new(
                     source,
@@ -218,6 +259,7 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
                 time_unit,
                 values,
                 unit,
+                units,
             },
         ) => {
             let tf = unit_factor(
@@ -227,8 +269,8 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
                 &format!("the time of a `{name}`"),
                 span,
             )?;
-            let f = unit_factor(source, unit, *dimension, &format!("`{name}`"), span)?;
-            Ok(ParamValue::Keys(vec![(time * tf, values.map(|v| v * f))]))
+            let si = vector_si(source, values, unit, units, *dimension, name, span)?;
+            Ok(ParamValue::Keys(vec![(time * tf, si)]))
         }
         (ParamType::Text, Value::Text(t) | Value::Word(t)) => Ok(ParamValue::Text(t.clone())),
         (ParamType::Text, _) => Err(mismatch("a quoted text")),

@@ -56,8 +56,10 @@ pub enum Value {
     Vector {
         /// Components.
         values: [f64; 3],
-        /// The unit as written, applying to every component.
+        /// The unit written after the vector, for components without their own.
         unit: UnitText,
+        /// Units written with the components: `(-10 cm, 0, 2 cm)`.
+        units: [UnitText; 3],
     },
     /// A bare word: `true`, `ring`.
     Word(String),
@@ -73,6 +75,8 @@ pub enum Value {
         values: [f64; 3],
         /// Unit of the vector.
         unit: UnitText,
+        /// Units written with the components.
+        units: [UnitText; 3],
     },
 }
 
@@ -353,7 +357,7 @@ fn valid_unit(source: &Arc<Source>, unit: &UnitText) -> Result<(), Problem> {
     Ok(())
 }
 
-fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<[f64; 3], Problem> {
+fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<([f64; 3], [UnitText; 3]), Problem> {
     let open = line.at();
     if !line.eat("(") {
         return Err(problem(
@@ -363,6 +367,7 @@ fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<[f64; 3], Problem
         ));
     }
     let mut values = [0.0; 3];
+    let mut units: [UnitText; 3] = [None, None, None];
     for (k, v) in values.iter_mut().enumerate() {
         if k > 0 && !line.eat(",") {
             line.skip_ws();
@@ -374,7 +379,23 @@ fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<[f64; 3], Problem
             );
         }
         match line.number() {
-            Some(n) => *v = n.value.0,
+            Some(n) => {
+                *v = n.value.0;
+                // A unit of the component's own, up to the next `,` or `)`.
+                line.skip_ws();
+                let rest = line.rest();
+                let end = rest.find([',', ')']).unwrap_or(rest.len());
+                let text = rest[..end].trim_end();
+                if text.starts_with(|c: char| c.is_alphabetic() || c == '%') {
+                    let at = line.at();
+                    units[k] = Some(Spanned {
+                        value: text.to_owned(),
+                        span: Span::new(at, at + text.len()),
+                    });
+                    line.pos += end;
+                    valid_unit(source, &units[k])?;
+                }
+            }
             None => {
                 line.skip_ws();
                 let at = line.at();
@@ -395,7 +416,7 @@ fn vector(line: &mut Line<'_>, source: &Arc<Source>) -> Result<[f64; 3], Problem
                 .help("a vector has three components: `(x, y, z) unit`"),
         );
     }
-    Ok(values)
+    Ok((values, units))
 }
 
 /// Parses a parameter value such as `28 cm`, `(0, 0, 1) m`, `ring` or `0.4 s: (0, 0, 1) m`.
@@ -435,10 +456,10 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
             Value::Text(t)
         }
         Some('(') => {
-            let values = vector(&mut line, source)?;
+            let (values, units) = vector(&mut line, source)?;
             let unit = line.unit_until(None);
             valid_unit(source, &unit)?;
-            Value::Vector { values, unit }
+            Value::Vector { values, unit, units }
         }
         Some(c) if c.is_ascii_digit() || c == '-' || c == '+' || c == '.' => {
             let n = line
@@ -447,7 +468,7 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
             let unit = line.unit_until(Some(':'));
             if line.eat(":") {
                 valid_unit(source, &unit)?;
-                let values = vector(&mut line, source)?;
+                let (values, units) = vector(&mut line, source)?;
                 let vunit = line.unit_until(None);
                 valid_unit(source, &vunit)?;
                 Value::Key {
@@ -455,6 +476,7 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
                     time_unit: unit,
                     values,
                     unit: vunit,
+                    units,
                 }
             } else {
                 valid_unit(source, &unit)?;
@@ -1052,7 +1074,7 @@ mod tests {
         assert_eq!(n.ty.value, "trajectory.ballistic");
         assert_eq!(n.params.len(), 4);
         assert!(
-            matches!(&n.params[1].value.value, Value::Vector { values, unit: Some(u) } if values == &[1.0, -0.25, 3.0] && u.value == "m/s")
+            matches!(&n.params[1].value.value, Value::Vector { values, unit: Some(u), .. } if values == &[1.0, -0.25, 3.0] && u.value == "m/s")
         );
         assert!(matches!(&n.params[2].value.value, Value::Key { time, .. } if *time == 0.1));
         assert!(matches!(&n.params[3].value.value, Value::Word(w) if w == "ring"));
@@ -1068,6 +1090,6 @@ mod tests {
         );
         let (_, p) = parse(&src);
         let at: Vec<String> = p.iter().map(|p| p.location()).collect();
-        assert_eq!(at, vec!["t.graph:4:1", "t.graph:6:13", "t.graph:7:8"], "{p:?}");
+        assert_eq!(at, vec!["t.graph:4:1", "t.graph:6:14", "t.graph:7:8"], "{p:?}");
     }
 }

@@ -26,10 +26,17 @@ fn span_value(v: &mut Value, k: u16) {
         }
     };
     match v {
-        Value::Number { unit, .. } | Value::Vector { unit, .. } => fix(unit),
-        Value::Key { time_unit, unit, .. } => {
+        Value::Number { unit, .. } => fix(unit),
+        Value::Vector { unit, units, .. } => {
+            fix(unit);
+            units.iter_mut().for_each(fix);
+        }
+        Value::Key {
+            time_unit, unit, units, ..
+        } => {
             fix(time_unit);
             fix(unit);
+            units.iter_mut().for_each(fix);
         }
         Value::Word(_) | Value::Text(_) => {}
     }
