@@ -7,6 +7,7 @@ use std::time::Instant;
 use heft_node_sdk::ParamValue;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::render;
+use heft_runtime::graph::GraphFile;
 use heft_runtime::registry::Registry;
 use heft_runtime::sweep::{Axis, grid};
 use heft_runtime::{check, eval, output, read_graph};
@@ -44,8 +45,10 @@ fn si_value(plan: &Plan, target: &str) -> String {
         .unwrap_or_default()
 }
 
+#[allow(clippy::too_many_arguments)]
 fn run_point(
     registry: &Registry,
+    parsed: &GraphFile,
     graph: &GraphArgs,
     axes: &[Axis],
     index: usize,
@@ -59,20 +62,14 @@ fn run_point(
         summaries: Vec::new(),
         error: None,
     };
-    let (parsed, problems) = match read_graph(&graph.graph) {
-        Ok(g) => g,
-        Err(e) => {
-            result.error = Some(format!("cannot read {}: {e}", graph.graph.display()));
-            return result;
-        }
-    };
     let mut set = graph.set.clone();
     set.extend(axes.iter().zip(values).map(|(a, v)| format!("{}={v}", a.target)));
     let overrides = Overrides {
         set,
         frames: graph.frames,
     };
-    let plan = match check::check(&parsed, problems, registry, &overrides) {
+    // The graph parsed without problems (checked before the sweep starts).
+    let plan = match check::check(parsed, Vec::new(), registry, &overrides) {
         Ok(p) => p,
         Err(p) => {
             result.error = Some(render(&p, false));
@@ -119,8 +116,9 @@ pub(crate) fn run(
     quiet: bool,
     color: bool,
 ) -> ExitCode {
-    // Check the graph once as it stands, so that a broken graph stops before any point runs.
-    match read_graph(&graph.graph) {
+    // Read the graph once and check it as it stands, so that a broken graph stops before any
+    // point runs; every point then checks the same parsed graph with its own overrides.
+    let parsed = match read_graph(&graph.graph) {
         Ok((g, p)) => {
             let overrides = Overrides {
                 set: graph.set.clone(),
@@ -130,12 +128,13 @@ pub(crate) fn run(
                 eprint!("{}", render(&problems, color));
                 return ExitCode::from(1);
             }
+            g
         }
         Err(e) => {
             eprintln!("error: cannot read the graph file {}: {e}", graph.graph.display());
             return ExitCode::from(1);
         }
-    }
+    };
     let points: Vec<(usize, Vec<String>)> = grid(axes)
         .into_iter()
         .filter(|(i, _)| shard.is_none_or(|(k, n)| i % n == k))
@@ -154,7 +153,7 @@ pub(crate) fn run(
     let results: Vec<PointResult> = pool.install(|| {
         points
             .par_iter()
-            .map(|(i, values)| run_point(registry, graph, axes, *i, values, out, wanted))
+            .map(|(i, values)| run_point(registry, &parsed, graph, axes, *i, values, out, wanted))
             .collect()
     });
     // The table: one row per point, the union of summary columns in first-seen order.

@@ -600,19 +600,19 @@ pub fn check(
     // Inputs with a wire that was refused: not reported again as unconnected.
     let mut attempted: BTreeSet<(usize, usize)> = BTreeSet::new();
     let mut edges: Vec<(usize, usize, usize)> = Vec::new(); // (from node, to node, wire index)
-    let resolve_node = |r: &PortRef, problems: &mut Vec<Problem>| -> Option<usize> {
-        match by_name.get(r.node.value.as_str()) {
-            Some(&i) => Some(i),
-            None => {
-                let mut p =
-                    Problem::at(srcs, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
-                if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
-                    p = p.help(format!("did you mean `{c}`?"));
-                }
-                problems.push(p);
-                None
+    // The node a `node.port` names, or the problem saying there is none.
+    let node_index = |r: &PortRef| -> Result<usize, Problem> {
+        by_name.get(r.node.value.as_str()).copied().ok_or_else(|| {
+            let mut p =
+                Problem::at(srcs, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
+            if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
+                p = p.help(format!("did you mean `{c}`?"));
             }
-        }
+            p
+        })
+    };
+    let resolve_node = |r: &PortRef, problems: &mut Vec<Problem>| -> Option<usize> {
+        node_index(r).map_err(|p| problems.push(p)).ok()
     };
     let port_problem = |r: &PortRef, ty: &NodeType, output: bool| {
         let spec = ty.spec();
@@ -949,14 +949,7 @@ pub fn check(
 
     // Bakes and plots.
     let resolve = |r: &PortRef| -> Result<(usize, usize, Shape, Dimension), Problem> {
-        let i = *by_name.get(r.node.value.as_str()).ok_or_else(|| {
-            let mut p =
-                Problem::at(srcs, r.node.span, format!("no node named `{}`", r.node.value)).label("unknown node");
-            if let Some(c) = closest(&r.node.value, by_name.keys().copied()) {
-                p = p.help(format!("did you mean `{c}`?"));
-            }
-            p
-        })?;
+        let i = node_index(r)?;
         let ty = states[i]
             .ty
             .as_ref()

@@ -185,24 +185,29 @@ pub fn evaluate_observed(
     threads: Option<usize>,
     node_done: &(dyn Fn(usize) + Sync),
 ) -> Result<Evaluation, EvalError> {
-    let mut builder = rayon::ThreadPoolBuilder::new();
-    if let Some(n) = threads {
-        builder = builder.num_threads(n.max(1));
-    }
-    let pool = builder.build().map_err(|e| EvalError::Threads(e.to_string()))?;
+    // One thread needs no pool of its own (a sweep evaluates many points this way).
+    let pool = match threads {
+        Some(1) => None,
+        _ => {
+            let mut builder = rayon::ThreadPoolBuilder::new();
+            if let Some(n) = threads {
+                builder = builder.num_threads(n.max(1));
+            }
+            Some(builder.build().map_err(|e| EvalError::Threads(e.to_string()))?)
+        }
+    };
     let started = Instant::now();
     let mut done: Vec<Option<NodeResult>> = (0..plan.nodes.len()).map(|_| None).collect();
     for level in &plan.levels {
-        let results: Vec<Result<NodeResult, EvalError>> = pool.install(|| {
-            level
-                .par_iter()
-                .map(|&i| {
-                    let r = run_node(plan, i, &done);
-                    node_done(i);
-                    r
-                })
-                .collect()
-        });
+        let one = |&i: &usize| {
+            let r = run_node(plan, i, &done);
+            node_done(i);
+            r
+        };
+        let results: Vec<Result<NodeResult, EvalError>> = match &pool {
+            Some(pool) => pool.install(|| level.par_iter().map(one).collect()),
+            None => level.iter().map(one).collect(),
+        };
         for (&i, r) in level.iter().zip(results) {
             done[i] = Some(r?);
         }
