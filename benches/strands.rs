@@ -73,6 +73,7 @@ const BALL_RADIUS: f64 = 0.002;
 #[derive(Clone, Copy)]
 enum Kind {
     Xpbd,
+    XpbdF32,
     Euler,
     Verlet,
 }
@@ -81,6 +82,7 @@ impl Kind {
     fn name(self) -> &'static str {
         match self {
             Kind::Xpbd => "xpbd",
+            Kind::XpbdF32 => "xpbd_f32",
             Kind::Euler => "euler",
             Kind::Verlet => "verlet",
         }
@@ -93,9 +95,13 @@ impl Kind {
     fn plugin(self) -> (Plugin, u32) {
         static STRAND: OnceLock<Plugin> = OnceLock::new();
         let (plugin, node) = match self {
-            Kind::Xpbd => (
+            Kind::Xpbd | Kind::XpbdF32 => (
                 Plugin::from_static(heft_xpbd::plugin_table(), "xpbd (linked)").expect("the xpbd table loads"),
-                "strand",
+                if matches!(self, Kind::Xpbd) {
+                    "strand"
+                } else {
+                    "strand_f32"
+                },
             ),
             Kind::Euler | Kind::Verlet => {
                 let strand = STRAND.get_or_init(|| {
@@ -124,7 +130,8 @@ impl Kind {
     fn step_limit(self, params: &Params) -> Option<f64> {
         let setup = Setup::from_params(params).expect("valid parameters");
         match self {
-            Kind::Xpbd => Xpbd::stability_limit(&setup, false),
+            Kind::Xpbd => Xpbd::<f64>::stability_limit(&setup, false),
+            Kind::XpbdF32 => Xpbd::<f32>::stability_limit(&setup, false),
             Kind::Euler => setup.explicit_step_limit(false),
             Kind::Verlet => step_limit(setup.omega_max_of(0.0, setup.bending_k), setup.damping_rate(false)),
         }
@@ -699,9 +706,12 @@ fn schedule(kind: Kind, case: Case) -> (usize, usize) {
     (substeps, (FRAMES * SUBSTEPS / substeps).max(1))
 }
 
+/// The node types benched, in order.
+const KINDS: [Kind; 4] = [Kind::Xpbd, Kind::XpbdF32, Kind::Verlet, Kind::Euler];
+
 /// The benches of one case: (name, particle-substeps per iteration).
 fn bench_names(case: Case) -> Vec<(String, u64)> {
-    let mut names: Vec<(String, u64)> = [Kind::Xpbd, Kind::Verlet, Kind::Euler]
+    let mut names: Vec<(String, u64)> = KINDS
         .iter()
         .map(|&k| {
             let (substeps, frames) = schedule(k, case);
@@ -739,7 +749,7 @@ fn bench_case(c: &mut Criterion, case: Case) {
         .warm_up_time(Duration::from_secs(1))
         .measurement_time(Duration::from_secs(4));
     let names = bench_names(case);
-    for (kind, (name, elements)) in [Kind::Xpbd, Kind::Verlet, Kind::Euler].into_iter().zip(&names) {
+    for (kind, (name, elements)) in KINDS.into_iter().zip(&names) {
         let (substeps, frames) = schedule(kind, case);
         eprintln!(
             "{}/{name}: {} strands x {} particles, {frames} frames x {substeps} substeps (h = {:.3e} s)",
@@ -760,7 +770,7 @@ fn bench_case(c: &mut Criterion, case: Case) {
         g.bench_function(name.as_str(), |b| b.iter(|| black_box(call.run())));
     }
     let h = 1.0 / f64::from(FPS) / SUBSTEPS as f64;
-    for (iterations, (name, elements)) in RAPIER_ITERATIONS.into_iter().zip(&names[3..]) {
+    for (iterations, (name, elements)) in RAPIER_ITERATIONS.into_iter().zip(&names[KINDS.len()..]) {
         g.throughput(Throughput::Elements(*elements));
         g.bench_function(name.as_str(), |b| {
             b.iter_batched(

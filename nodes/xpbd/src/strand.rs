@@ -1,20 +1,30 @@
-//! `xpbd.strand`: the strand contract solved with XPBD, one constraint sweep per substep, strands
-//! across SIMD lanes.
+//! `xpbd.strand` and `xpbd.strand_f32`: the strand contract solved with XPBD, one constraint
+//! sweep per substep, strands across SIMD lanes in f64 or f32.
 
 use heft_node_sdk::{Io, Node, NodeError, NodeSpec, Params};
 use heft_strand_common::geometry::cross;
 use heft_strand_common::{FrameEnv, Method, Pin, Setup, State, V3};
 
-use crate::solver::{Coeffs, Lanes, Lanes3, Model, SubstepInput, substep};
+use crate::solver::{Coeffs, LaneColliders, Lanes, Lanes3, Model, Real, SubstepInput, substep};
 
-/// The node type `xpbd.strand`.
+/// The node type `xpbd.strand` (f64 lanes).
 #[derive(Debug)]
 pub struct XpbdStrand;
+
+/// The node type `xpbd.strand_f32` (f32 lanes: twice the lanes per SIMD register).
+#[derive(Debug)]
+pub struct XpbdStrandF32;
 
 const DOC: &str = "Strands (hair, braids, skirts, garlands) solved with XPBD: compliant constraints, one sweep per \
                    substep, unconditionally stable for stiff strands.";
 
-const NOTES: &str = "\
+const DOC_F32: &str = "Strands solved with XPBD in single precision: `xpbd.strand` with f32 lanes, for many strands \
+                       (hair, fringes) where speed matters more than the last digits.";
+
+/// The notes both node types share (method, bending, layout, step, stability, energy).
+macro_rules! shared_notes {
+    () => {
+        "\
 Method: extended position-based dynamics (XPBD; Macklin, Muller & Chentanez 2016, \"XPBD: Position-Based \
 Simulation of Compliant Constrained Dynamics\", MIG) with small steps (Macklin, Storey, Lu, Terdiman, Chentanez, \
 Jeschke & Muller 2019, \"Small Steps in Physics Simulation\", SCA). Every substep h: predict x* = x + h v*, damping \
@@ -32,9 +42,12 @@ ds with the central second difference (Terzopoulos, Platt, Barr & Fleischer 1987
 Models\", SIGGRAPH), E I theta^2 / (2 l0) for a small turning angle theta; linear, so one projection solves it. It \
 also resists unequal neighbouring segment lengths, which the stretch stiffness keeps small. The lowest mode of a \
 free strand matches Euler-Bernoulli theory to 0.3 % at 40 segments.\n\
-Layout: strands are grouped 1, 2, 4, 8 or 16 at a time (by count) into SIMD lanes; each particle index holds \
-the x, y, z of its group's strands contiguously and the sweep runs the same branch-free arithmetic on every \
-lane. A strand's result does not depend on its group. f64 throughout.\n\
+Layout: strands are grouped 1, 2, 4, 8, 16 or (f32) 32 at a time (by count) into SIMD lanes; each particle \
+index holds the x, y, z of its group's strands contiguously and the sweep runs the same branch-free arithmetic \
+on every lane, compiled for the widest SIMD instruction set the CPU has (AVX2 and FMA where present, picked at \
+run time; FMA is never used to contract the arithmetic, so results do not depend on the CPU). A strand's \
+result does not depend on its group. Positions are held relative to each strand's particle 0 at the start of \
+the frame (kept in f64), so the precision does not depend on how far from the world origin the strand is.\n\
 Stiffness and step: compliance makes the stiffness independent of the iteration count; the single sweep per \
 substep leaves an error that falls as h^2. A hanging strand at rest stretches segment j by T_j / k + \
 h^2 T_{j+1} / m_{j+1} (T the tension, m the particle mass; the sweep's fixed point), Hooke's value times about \
@@ -53,7 +66,25 @@ every frame (non-finite values, a segment beyond 10 rest lengths, a speed above 
 the step is too coarse for the strand's weight to be carried (h^2 g (n - 1) near 10 l0) or an anchor or initial \
 state is violent: raise `substeps`.\n\
 Energy output: kinetic + m g z + 1/2 k (l - l0)^2 + the bending energy, from the positions; at coarse steps on \
-stiff strands the stretch term mostly measures the sweep's residual stretch.";
+stiff strands the stretch term mostly measures the sweep's residual stretch.\n"
+    };
+}
+
+const NOTES: &str = concat!(
+    shared_notes!(),
+    "Precision: f64 lanes (positions to about 1e-16 of the strand length). `xpbd.strand_f32` is the same method \
+     with f32 lanes, about twice as fast."
+);
+
+const NOTES_F32: &str = concat!(
+    shared_notes!(),
+    "Precision: f32 lanes, everything else (coefficients, pins, colliders, wind, the outputs) in f64. Positions \
+     are resolved to about 6e-8 of the strand length (3e-8 m on a 0.5 m strand) and velocities, held as \
+     (x - x_prev) / h, to that over h (1.4e-5 m/s on a 0.5 m strand at h = 1/480 s); momentum is conserved to \
+     about 1e-5 of M v per frame instead of 1e-12, and the hanging stretch of a stiff strand (3e-5 m per segment \
+     with the defaults) is resolved to about 0.1 %. Invisible in animation; use `xpbd.strand` for analysis or \
+     very stiff, very fine strands. About twice as fast: twice the lanes per SIMD register."
+);
 
 impl Node for XpbdStrand {
     fn spec() -> NodeSpec {
@@ -65,45 +96,67 @@ impl Node for XpbdStrand {
     }
 
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
-        heft_strand_common::evaluate::<Xpbd>(params, io)
+        heft_strand_common::evaluate::<Xpbd<f64>>(params, io)
     }
 }
 
-/// The XPBD method for [`heft_strand_common::evaluate`].
+impl Node for XpbdStrandF32 {
+    fn spec() -> NodeSpec {
+        heft_strand_common::node_spec("strand_f32", DOC_F32, NOTES_F32)
+    }
+
+    fn output_points(params: &Params, inputs: &[usize]) -> Result<Vec<usize>, NodeError> {
+        heft_strand_common::output_points(params, inputs)
+    }
+
+    fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
+        heft_strand_common::evaluate::<Xpbd<f32>>(params, io)
+    }
+}
+
+/// The XPBD method for [`heft_strand_common::evaluate`], with lanes of `T` (f64 or f32).
 #[derive(Debug)]
-pub struct Xpbd {
+pub struct Xpbd<T: Real> {
     model: Model,
-    coeffs: Coeffs,
+    coeffs: Coeffs<T>,
     /// (h, wind connected) the coefficients were made for.
     made_for: (f64, bool),
-    /// Per substep k of a frame: the prediction's base and spin (see [`SubstepInput`]).
+    /// Per substep k of a frame: the prediction's base and spin in f64 (see [`SubstepInput`]).
     shared: Vec<([f64; 3], Option<[f64; 3]>)>,
-    engine: Engine,
+    engine: Engine<T>,
+    /// The instruction set the lanes run on (see [`GroupRun`]).
+    arch: pulp::Arch,
 }
 
 /// The lane width, chosen by the strand count.
 #[derive(Debug)]
-enum Engine {
-    L1(Group<1>),
-    L2(Group<2>),
-    L4(Group<4>),
-    L8(Group<8>),
-    L16(Group<16>),
+enum Engine<T: Real> {
+    L1(Group<T, 1>),
+    L2(Group<T, 2>),
+    L4(Group<T, 4>),
+    L8(Group<T, 8>),
+    L16(Group<T, 16>),
+    L32(Group<T, 32>),
 }
 
 /// Strands in lanes of `N`, with their pin offsets and scratch.
 #[derive(Debug)]
-struct Group<const N: usize> {
-    lanes: Lanes<N>,
+struct Group<T: Real, const N: usize> {
+    lanes: Lanes<T, N>,
     /// Per group: the start and end pin offsets of each lane (anchor-local), m.
     start: Vec<[V3; N]>,
     end: Vec<[V3; N]>,
-    wind: Vec<Lanes3<N>>,
+    /// Scratch: wind per particle, colliders near each lane.
+    wind: Vec<Lanes3<T, N>>,
+    near: Vec<(Lanes3<T, N>, T)>,
+    /// True once the lanes hold the state: the frame loop hands every call the state the
+    /// previous call left, so later frames only move the origins (see [`GroupRun`]).
+    loaded: bool,
 }
 
-impl<const N: usize> Group<N> {
-    fn new(setup: &Setup) -> Group<N> {
-        let lanes = Lanes::<N>::new(setup.strands, setup.particles);
+impl<T: Real, const N: usize> Group<T, N> {
+    fn new(setup: &Setup) -> Group<T, N> {
+        let lanes = Lanes::<T, N>::new(setup.strands, setup.particles);
         let groups = lanes.groups();
         let per_lane = |offsets: &[V3]| -> Vec<[V3; N]> {
             (0..groups)
@@ -113,77 +166,224 @@ impl<const N: usize> Group<N> {
         Group {
             start: per_lane(&setup.start_offsets),
             end: per_lane(&setup.end_offsets),
-            wind: vec![[[0.0; N]; 3]; setup.particles],
+            wind: vec![[[T::ZERO; N]; 3]; setup.particles],
+            near: Vec::with_capacity(3),
+            loaded: false,
             lanes,
         }
     }
 
+    fn elastic_energy(&self, arch: pulp::Arch, setup: &Setup, state: &State, k: (f64, f64, f64)) -> f64 {
+        if !self.loaded {
+            return heft_strand_common::forces::elastic_energy(setup, state);
+        }
+        struct Energy<'a, T: Real, const N: usize>(&'a Lanes<T, N>, (f64, f64, f64));
+        impl<T: Real, const N: usize> pulp::WithSimd for Energy<'_, T, N> {
+            type Output = f64;
+            #[inline(always)]
+            fn with_simd<S: pulp::Simd>(self, _: S) -> f64 {
+                let (k, l0, c) = self.1;
+                self.0.elastic_energy(k, l0, c)
+            }
+        }
+        arch.dispatch(Energy(&self.lanes, k))
+    }
+
+    #[allow(clippy::too_many_arguments)]
     fn frame(
         &mut self,
+        arch: pulp::Arch,
         setup: &Setup,
         state: &mut State,
         env: &FrameEnv<'_>,
-        coeffs: &Coeffs,
+        coeffs: &Coeffs<T>,
         shared: &[([f64; 3], Option<[f64; 3]>)],
     ) {
         let h = env.h;
         let n = setup.particles;
-        self.lanes.load(&state.x, &state.v, h);
+        let reorigin = self.loaded;
+        if !self.loaded {
+            self.lanes.load(&state.x, &state.v, h);
+            self.loaded = true;
+        }
         let root = setup.pin != Pin::Free;
         let tip = setup.pin == Pin::BothEnds;
         let free = (usize::from(root), n - usize::from(tip));
-        let colliders = env.has_colliders();
-        let wind_gain = coeffs.h2_decay * setup.drag;
-        let mut pin_root: Lanes3<N> = [[0.0; N]; 3];
-        let mut pin_tip: Lanes3<N> = [[0.0; N]; 3];
         for g in 0..self.lanes.groups() {
-            let (x, prev) = self.lanes.group_mut(g);
-            for (k, &(base, spin)) in shared.iter().enumerate().take(env.substeps) {
-                if root {
-                    set_pins(env.anchor_pose(k + 1), &self.start[g], &mut pin_root);
-                }
-                if tip {
-                    set_pins(env.end_pose(k + 1), &self.end[g], &mut pin_tip);
-                }
-                if env.has_wind() {
-                    let ambient = env.ambient(k);
-                    for (xi, wi) in x.iter().zip(self.wind.iter_mut()) {
-                        for l in 0..N {
-                            let w = ambient.wind([xi[0][l], xi[1][l], xi[2][l]]);
-                            for c in 0..3 {
-                                wi[c][l] = wind_gain * w[c];
-                            }
-                        }
-                    }
-                }
-                let input = SubstepInput {
-                    pin_root: root.then_some(&pin_root),
-                    pin_tip: tip.then_some(&pin_tip),
-                    base,
-                    spin,
-                    wind: env.has_wind().then_some(&self.wind[..]),
-                    colliders: colliders.then(|| env.colliders(k + 1)),
-                    free,
-                };
-                substep(coeffs, &input, x, prev);
-            }
+            let (origin, x, prev) = self.lanes.group_mut(g);
+            arch.dispatch(GroupRun {
+                origin,
+                x,
+                prev,
+                start: &self.start[g],
+                end: &self.end[g],
+                wind: &mut self.wind,
+                near: &mut self.near,
+                env,
+                coeffs,
+                shared,
+                root,
+                tip,
+                free,
+                wind_gain: coeffs.h2_decay * setup.drag,
+                reorigin,
+            });
         }
         self.lanes.store(&mut state.x, &mut state.v, h);
     }
 }
 
-/// Pin targets of one group's lanes: the pose applied to each lane's offset.
-#[inline]
-fn set_pins<const N: usize>(pose: &heft_strand_common::Pose, offsets: &[V3; N], out: &mut Lanes3<N>) {
-    for (l, off) in offsets.iter().enumerate() {
-        let p = pose.apply(*off);
-        for c in 0..3 {
-            out[c][l] = p[c];
+/// The substeps of one frame for one lane group, run under the widest SIMD instruction set
+/// the CPU has: `pulp` compiles [`pulp::WithSimd::with_simd`] once per instruction set and picks
+/// one at run time; everything it calls on the hot path is `#[inline(always)]`, so it is compiled
+/// for that instruction set too. The arithmetic is the same IEEE sequence on every path (Rust
+/// does not contract `a * b + c` into a fused multiply-add), so results do not depend on the CPU.
+struct GroupRun<'a, T: Real, const N: usize> {
+    origin: &'a mut Lanes3<f64, N>,
+    x: &'a mut [Lanes3<T, N>],
+    prev: &'a mut [Lanes3<T, N>],
+    start: &'a [V3; N],
+    end: &'a [V3; N],
+    wind: &'a mut [Lanes3<T, N>],
+    near: &'a mut Vec<(Lanes3<T, N>, T)>,
+    env: &'a FrameEnv<'a>,
+    coeffs: &'a Coeffs<T>,
+    shared: &'a [([f64; 3], Option<[f64; 3]>)],
+    root: bool,
+    tip: bool,
+    free: (usize, usize),
+    wind_gain: f64,
+    /// Move each lane's origin to its particle 0 before the substeps (as a load would).
+    reorigin: bool,
+}
+
+impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
+    type Output = ();
+
+    #[inline(always)]
+    fn with_simd<S: pulp::Simd>(self, _: S) {
+        let GroupRun {
+            origin,
+            x,
+            prev,
+            start,
+            end,
+            wind,
+            near,
+            env,
+            coeffs,
+            shared,
+            root,
+            tip,
+            free,
+            wind_gain,
+            reorigin,
+        } = self;
+        if reorigin {
+            // o += x_0 (exact in f64), x -= x_0: relative positions stay within a strand
+            // length of zero as the strand travels.
+            let d = x[0];
+            for l in 0..N {
+                for c in 0..3 {
+                    origin[c][l] += d[c][l].wide();
+                }
+            }
+            for (xi, pi) in x.iter_mut().zip(prev.iter_mut()) {
+                for c in 0..3 {
+                    for l in 0..N {
+                        xi[c][l] -= d[c][l];
+                        pi[c][l] -= d[c][l];
+                    }
+                }
+            }
+        }
+        let mut pin_root = [[T::ZERO; N]; 3];
+        let mut pin_tip = [[T::ZERO; N]; 3];
+        let mut base = [[T::ZERO; N]; 3];
+        for (k, &(base_k, spin_k)) in shared.iter().enumerate().take(env.substeps) {
+            if root {
+                set_pins(env.anchor_pose(k + 1), start, origin, &mut pin_root);
+            }
+            if tip {
+                set_pins(env.end_pose(k + 1), end, origin, &mut pin_tip);
+            }
+            // base + spin x o_lane: the spin term's share of the lane's origin.
+            for l in 0..N {
+                let o = [origin[0][l], origin[1][l], origin[2][l]];
+                let so = spin_k.map_or([0.0; 3], |s| cross(s, o));
+                for c in 0..3 {
+                    base[c][l] = T::of(base_k[c] + so[c]);
+                }
+            }
+            if env.has_wind() {
+                let ambient = env.ambient(k);
+                for (xi, wi) in x.iter().zip(wind.iter_mut()) {
+                    for l in 0..N {
+                        let p = [0, 1, 2].map(|c| origin[c][l] + xi[c][l].wide());
+                        let w = ambient.wind(p);
+                        for c in 0..3 {
+                            wi[c][l] = T::of(wind_gain * w[c]);
+                        }
+                    }
+                }
+            }
+            let colliders = env.has_colliders().then(|| {
+                let world = env.colliders(k + 1);
+                near.clear();
+                near.extend(world.spheres[..world.count].iter().map(|s| {
+                    let mut centre = [[T::ZERO; N]; 3];
+                    let mut reach = 0.0f64;
+                    for l in 0..N {
+                        for c in 0..3 {
+                            let r = s.centre[c] - origin[c][l];
+                            centre[c][l] = T::of(r);
+                            reach = reach.max(r.abs());
+                        }
+                    }
+                    // A conservative radius for the cheap test in the lanes' numbers: 0.1 %
+                    // plus the rounding of the relative centre; the test only picks the
+                    // particles the exact f64 projection looks at.
+                    let r = s.radius * 1.001 + 8.0 * T::EPSILON * (reach + s.radius);
+                    (centre, T::of(r * r))
+                }));
+                LaneColliders {
+                    world,
+                    origin,
+                    near: &near[..],
+                }
+            });
+            let input = SubstepInput {
+                pin_root: root.then_some(&pin_root),
+                pin_tip: tip.then_some(&pin_tip),
+                base: &base,
+                spin: spin_k.map(|s| s.map(T::of)),
+                wind: env.has_wind().then_some(&wind[..]),
+                colliders,
+                free,
+            };
+            substep(coeffs, &input, x, prev);
         }
     }
 }
 
-impl Xpbd {
+/// Pin targets of one group's lanes: the pose applied to each lane's offset, relative to the
+/// lane's origin.
+#[inline]
+fn set_pins<T: Real, const N: usize>(
+    pose: &heft_strand_common::Pose,
+    offsets: &[V3; N],
+    origin: &Lanes3<f64, N>,
+    out: &mut Lanes3<T, N>,
+) {
+    for (l, off) in offsets.iter().enumerate() {
+        let p = pose.apply(*off);
+        for c in 0..3 {
+            out[c][l] = T::of(p[c] - origin[c][l]);
+        }
+    }
+}
+
+impl<T: Real> Xpbd<T> {
     fn model(setup: &Setup, wind: bool) -> Model {
         Model {
             rest_length: setup.rest_length,
@@ -196,17 +396,22 @@ impl Xpbd {
     }
 }
 
-impl Method for Xpbd {
-    fn new(setup: &Setup) -> Xpbd {
-        let model = Xpbd::model(setup, false);
+impl<T: Real> Method for Xpbd<T> {
+    fn new(setup: &Setup) -> Xpbd<T> {
+        let model = Xpbd::<T>::model(setup, false);
         // A placeholder step; `frame` remakes the coefficients (in place) for the real one.
         let coeffs = Coeffs::new(&model, 1.0);
+        // Lanes per group: up to 16 for f64 (4 AVX2 registers), 32 for f32 (4 registers), so
+        // four independent chains of dependent projections are in flight.
+        let wide = std::mem::size_of::<T>() == 4;
         let engine = match setup.strands {
             1 => Engine::L1(Group::new(setup)),
             2 => Engine::L2(Group::new(setup)),
             3..=4 => Engine::L4(Group::new(setup)),
             5..=8 => Engine::L8(Group::new(setup)),
-            _ => Engine::L16(Group::new(setup)),
+            9..=16 => Engine::L16(Group::new(setup)),
+            _ if !wide => Engine::L16(Group::new(setup)),
+            _ => Engine::L32(Group::new(setup)),
         };
         Xpbd {
             model,
@@ -214,6 +419,7 @@ impl Method for Xpbd {
             made_for: (f64::NAN, false),
             shared: vec![([0.0; 3], None); setup.substeps],
             engine,
+            arch: pulp::Arch::new(),
         }
     }
 
@@ -240,11 +446,26 @@ impl Method for Xpbd {
         }
         let shared = &self.shared[..env.substeps];
         match &mut self.engine {
-            Engine::L1(e) => e.frame(setup, state, env, c, shared),
-            Engine::L2(e) => e.frame(setup, state, env, c, shared),
-            Engine::L4(e) => e.frame(setup, state, env, c, shared),
-            Engine::L8(e) => e.frame(setup, state, env, c, shared),
-            Engine::L16(e) => e.frame(setup, state, env, c, shared),
+            Engine::L1(e) => e.frame(self.arch, setup, state, env, c, shared),
+            Engine::L2(e) => e.frame(self.arch, setup, state, env, c, shared),
+            Engine::L4(e) => e.frame(self.arch, setup, state, env, c, shared),
+            Engine::L8(e) => e.frame(self.arch, setup, state, env, c, shared),
+            Engine::L16(e) => e.frame(self.arch, setup, state, env, c, shared),
+            Engine::L32(e) => e.frame(self.arch, setup, state, env, c, shared),
+        }
+    }
+
+    /// From the lanes once they hold the state (vectorised; the same sums as the contract's
+    /// default, which the first frame uses).
+    fn elastic_energy(&self, setup: &Setup, state: &State) -> f64 {
+        let k = (setup.spring_k, setup.rest_length, setup.bending_k);
+        match &self.engine {
+            Engine::L1(e) => e.elastic_energy(self.arch, setup, state, k),
+            Engine::L2(e) => e.elastic_energy(self.arch, setup, state, k),
+            Engine::L4(e) => e.elastic_energy(self.arch, setup, state, k),
+            Engine::L8(e) => e.elastic_energy(self.arch, setup, state, k),
+            Engine::L16(e) => e.elastic_energy(self.arch, setup, state, k),
+            Engine::L32(e) => e.elastic_energy(self.arch, setup, state, k),
         }
     }
 

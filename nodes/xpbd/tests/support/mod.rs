@@ -3,7 +3,7 @@
 #![allow(dead_code)]
 
 use heft_node_sdk::{Io, Node, NodeError, NodeSpec, ParamValue, Params, PortKind, Series, Timeline};
-use heft_xpbd::XpbdStrand;
+use heft_xpbd::{XpbdStrand, XpbdStrandF32};
 
 /// Standard gravity, exact by definition (3rd CGPM, 1901).
 pub const G: f64 = heft_node_sdk::STANDARD_GRAVITY;
@@ -77,11 +77,25 @@ impl Run {
 /// Connected inputs by name: (name, values frame-major).
 pub type Inputs<'a> = &'a [(&'static str, Vec<f64>)];
 
-/// Runs `xpbd.strand` with these parameter changes and inputs.
+/// Runs `xpbd.strand` (f64 lanes) with these parameter changes and inputs.
 pub fn run(changes: &[(&'static str, ParamValue)], tl: Timeline, inputs: Inputs<'_>) -> Result<Run, NodeError> {
-    let spec = XpbdStrand::spec();
+    run_node::<XpbdStrand>(changes, tl, inputs)
+}
+
+/// Runs `xpbd.strand_f32` (f32 lanes) with these parameter changes and inputs.
+pub fn run_f32(changes: &[(&'static str, ParamValue)], tl: Timeline, inputs: Inputs<'_>) -> Result<Run, NodeError> {
+    run_node::<XpbdStrandF32>(changes, tl, inputs)
+}
+
+/// Runs node type `Nd` with these parameter changes and inputs.
+pub fn run_node<Nd: Node>(
+    changes: &[(&'static str, ParamValue)],
+    tl: Timeline,
+    inputs: Inputs<'_>,
+) -> Result<Run, NodeError> {
+    let spec = Nd::spec();
     let p = params(&spec, changes);
-    let n = XpbdStrand::output_points(&p, &[])?[0];
+    let n = Nd::output_points(&p, &[])?[0];
     let frames = tl.frames();
     let series: Vec<Series<'_>> = spec
         .inputs
@@ -102,7 +116,7 @@ pub fn run(changes: &[(&'static str, ParamValue)], tl: Timeline, inputs: Inputs<
     let warnings = {
         let outs: Vec<&mut [f64]> = bufs.iter_mut().map(Vec::as_mut_slice).collect();
         let mut io = Io::new(tl, &spec, series, outs, widths);
-        XpbdStrand::evaluate(&p, &mut io)?;
+        Nd::evaluate(&p, &mut io)?;
         io.warnings().to_vec()
     };
     let mut it = bufs.into_iter();
