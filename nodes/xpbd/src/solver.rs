@@ -13,20 +13,23 @@
 //!    terms, v' = (v + h (c_r v_anchor(x) + drag v_wind(x))) / (1 + h gamma) with
 //!    gamma = damping + c_r (+ drag), then the gravity kick v* = v' + h g. Damping first keeps
 //!    it out of the equilibrium (at rest the constraints carry exactly m g) and leaves a particle
-//!    moving with a falling anchor unaffected. The velocity is held implicitly as
-//!    v = (x - x_prev) / h, so the prediction reads x* = x + decay (x - x_prev) + h^2 decay
-//!    (c_r v_anchor(x) + drag v_wind(x)) + h^2 g;
+//!    moving with a falling anchor unaffected. The velocity is held as the particle's step over
+//!    the last substep, s = h v = x - x_prev, so the prediction reads s* = decay s + h^2 decay
+//!    (c_r v_anchor(x) + drag v_wind(x)) + h^2 g, x* = x + s*; x is left as it is and the
+//!    particle's position is x + s until step 4;
 //! 2. pins: the pinned particles are set on their targets at the end of the substep;
 //! 3. one sweep root to tip: for each segment j the distance constraint (j, j+1), then, two
 //!    segments behind, the bending constraint centred on j - 2 (see [`BEND_LAG`]), each projected
-//!    once with lambda = 0;
-//! 4. colliders: each particle found inside a sphere is pushed to its surface and the inward
-//!    normal component of its velocity (relative to the sphere) removed;
-//! 5. the velocity is (x - x_prev) / h (implicit in the layout, read out at the end of a frame).
+//!    once with lambda = 0; every correction is added to the step only, so the step stays
+//!    x - x_prev (the position-based velocity) without that difference ever being taken;
+//! 4. x += s; the velocity is s / h (read out at the end of a frame);
+//! 5. colliders: each particle found inside a sphere is pushed to its surface and the inward
+//!    normal component of its velocity (relative to the sphere) removed (its step set to h
+//!    times the new velocity).
 //!
-//! Steps 1, 3 and 4 run fused in one pass over the particles (a particle is predicted just
-//! before its first constraint and collided once no constraint of the sweep touches it any
-//! more), so each particle's data is loaded once per substep.
+//! Steps 1, 3, 4 and 5 run fused in one pass over the particles (a particle is predicted just
+//! before its first constraint, and finished and collided once no constraint of the sweep
+//! touches it any more), so each particle's data is loaded once per substep.
 //!
 //! Layout: strands are grouped `N` at a time ("lanes"). For each particle index `i` of a group
 //! the x, y and z of its `N` strands are contiguous (`[[f64; N]; 3]`), so the inner loops run
@@ -40,9 +43,12 @@
 //! the start of the frame, kept in f64 (see [`Lanes::load`]). Relative positions stay within a
 //! strand length (plus a frame's travel) of zero whatever the world coordinates, so f32 keeps
 //! a resolution of 3e-8 m on a 0.5 m strand where world positions 10 m from the origin would
-//! have 9.5e-7 m. The velocity is held as (x - x_prev) / h, quantised to ulp(x) / h: 1.4e-5 m/s
-//! on a 0.5 m strand at h = 1/480 s in f32 (2.6e-14 m/s in f64). Everything else (coefficients,
-//! pins, colliders, wind) is computed in f64 and rounded once into the lanes.
+//! have 9.5e-7 m. The step s = x - x_prev is held as a number of its own, not as the difference
+//! of two positions, so the velocity keeps the type's relative precision (6e-8 in f32) however
+//! small the step: a difference of f32 positions would quantise it to ulp(x) / h (1.4e-5 m/s on
+//! a 0.5 m strand at h = 1/480 s), and a gravity kick h^2 g below half an ulp of x (h < 1/8000 s
+//! on a 0.3 m strand) would vanish. Everything else (coefficients, pins, colliders, wind) is
+//! computed in f64 and rounded once into the lanes.
 
 use heft_strand_common::Colliders;
 
@@ -132,6 +138,9 @@ impl Real for f32 {
 
 /// One vector per lane: x, y, z, each `[T; N]`.
 pub type Lanes3<T, const N: usize> = [[T; N]; 3];
+
+/// One particle index of a lane group: its position and its step s = x - x_prev, each per lane.
+pub type Particle<T, const N: usize> = [Lanes3<T, N>; 2];
 
 /// The constants every strand of a node instance shares.
 #[derive(Debug, Clone, PartialEq)]
@@ -251,71 +260,116 @@ pub struct LaneColliders<'a, T, const N: usize> {
     pub near: &'a [(Lanes3<T, N>, T)],
 }
 
-/// x* = x + decay (x - x_prev) + base (+ spin x x) (+ wind); x_prev = x.
+/// s* = decay s + base (+ spin x x) (+ wind). The predicted position is x + s*; x itself stays
+/// the position at the start of the substep until the particle is final ([`finish`]).
 #[inline(always)]
 fn predict<T: Real, const N: usize>(
     c: &Coeffs<T>,
     inp: &SubstepInput<'_, T, N>,
+    base: &Lanes3<T, N>,
     i: usize,
-    x: &mut Lanes3<T, N>,
-    prev: &mut Lanes3<T, N>,
+    p: &mut Particle<T, N>,
 ) {
-    let old = *x;
+    let [x, s] = p;
     for k in 0..3 {
         for l in 0..N {
-            x[k][l] = old[k][l] + c.decay * (old[k][l] - prev[k][l]) + inp.base[k][l];
+            s[k][l] = c.decay * s[k][l] + base[k][l];
         }
     }
-    if let Some(s) = inp.spin {
+    if let Some(w) = inp.spin {
         for l in 0..N {
-            let (px, py, pz) = (old[0][l], old[1][l], old[2][l]);
-            x[0][l] += s[1] * pz - s[2] * py;
-            x[1][l] += s[2] * px - s[0] * pz;
-            x[2][l] += s[0] * py - s[1] * px;
+            let (px, py, pz) = (x[0][l], x[1][l], x[2][l]);
+            s[0][l] += w[1] * pz - w[2] * py;
+            s[1][l] += w[2] * px - w[0] * pz;
+            s[2][l] += w[0] * py - w[1] * px;
         }
     }
     if let Some(w) = inp.wind {
         for k in 0..3 {
             for l in 0..N {
-                x[k][l] += w[i][k][l];
+                s[k][l] += w[i][k][l];
             }
         }
     }
-    *prev = old;
+}
+
+/// A pinned particle: its step is the move to its target.
+#[inline(always)]
+fn pin<T: Real, const N: usize>(target: &Lanes3<T, N>, p: &mut Particle<T, N>) {
+    let [x, s] = p;
+    for k in 0..3 {
+        for l in 0..N {
+            s[k][l] = target[k][l] - x[k][l];
+        }
+    }
 }
 
 /// The distance constraint C = |q - p| - l0 with compliance alpha, projected once with
 /// lambda = 0 (XPBD eq. 18): dlambda = -C / (w_p + w_q + alpha / h^2), p += w_p dlambda n...
-/// written as p += a f d, q -= b f d with d = q - p, f = 1 - l0 / |d|.
+/// written as p += a f d, q -= b f d with d = q - p, f = 1 - l0 / |d|. The current positions
+/// are x + s; d is taken as (x_q - x_p) + (s_q - s_p), and the corrections go into the steps.
 #[inline(always)]
-fn stretch<T: Real, const N: usize>(l0: T, a: T, b: T, p: &mut Lanes3<T, N>, q: &mut Lanes3<T, N>) {
+fn stretch<T: Real, const N: usize>(l0: T, a: T, b: T, p: &mut Particle<T, N>, q: &mut Particle<T, N>) {
+    let [px, ps] = p;
+    let [qx, qs] = q;
     for l in 0..N {
-        let dx = q[0][l] - p[0][l];
-        let dy = q[1][l] - p[1][l];
-        let dz = q[2][l] - p[2][l];
+        let dx = (qx[0][l] - px[0][l]) + (qs[0][l] - ps[0][l]);
+        let dy = (qx[1][l] - px[1][l]) + (qs[1][l] - ps[1][l]);
+        let dz = (qx[2][l] - px[2][l]) + (qs[2][l] - ps[2][l]);
         let r = (dx * dx + dy * dy + dz * dz).max(T::TINY_SQ).sqrt();
         let f = T::ONE - l0 / r;
         let (fa, fb) = (a * f, b * f);
-        p[0][l] += fa * dx;
-        p[1][l] += fa * dy;
-        p[2][l] += fa * dz;
-        q[0][l] -= fb * dx;
-        q[1][l] -= fb * dy;
-        q[2][l] -= fb * dz;
+        ps[0][l] += fa * dx;
+        ps[1][l] += fa * dy;
+        ps[2][l] += fa * dz;
+        qs[0][l] -= fb * dx;
+        qs[1][l] -= fb * dy;
+        qs[2][l] -= fb * dz;
     }
 }
 
 /// The bending constraint C = (p - 2 q + r) / l0 (a vector, linear in the positions, so one
-/// projection solves it exactly), compliance alpha_b = l0 / (E I).
+/// projection solves it exactly), compliance alpha_b = l0 / (E I); positions x + s as in
+/// [`stretch`], corrections into the steps.
 #[inline(always)]
-fn bend<T: Real, const N: usize>(kk: [T; 3], p: &mut Lanes3<T, N>, q: &mut Lanes3<T, N>, r: &mut Lanes3<T, N>) {
+fn bend<T: Real, const N: usize>(kk: [T; 3], p: &mut Particle<T, N>, q: &mut Particle<T, N>, r: &mut Particle<T, N>) {
     let [ka, kb, kc] = kk;
+    let ([px, ps], [qx, qs], [rx, rs]) = (p, q, r);
     for k in 0..3 {
         for l in 0..N {
-            let u = p[k][l] - (q[k][l] + q[k][l]) + r[k][l];
-            p[k][l] -= ka * u;
-            q[k][l] += kb * u;
-            r[k][l] -= kc * u;
+            let u = (px[k][l] - (qx[k][l] + qx[k][l]) + rx[k][l]) + (ps[k][l] - (qs[k][l] + qs[k][l]) + rs[k][l]);
+            ps[k][l] -= ka * u;
+            qs[k][l] += kb * u;
+            rs[k][l] -= kc * u;
+        }
+    }
+}
+
+/// Particle `i`, which no constraint of this substep touches any more: finished, then pushed out
+/// of the colliders unless pinned.
+#[inline(always)]
+fn done_with<T: Real, const N: usize>(
+    c: &Coeffs<T>,
+    inp: &SubstepInput<'_, T, N>,
+    free: &std::ops::Range<usize>,
+    i: usize,
+    p: &mut Particle<T, N>,
+) {
+    finish(p);
+    if let Some(col) = &inp.colliders
+        && free.contains(&i)
+    {
+        collide(c.h, col, p);
+    }
+}
+
+/// A particle no constraint of this substep touches any more: x += s.
+#[inline(always)]
+fn finish<T: Real, const N: usize>(p: &mut Particle<T, N>) {
+    let [x, s] = p;
+    for k in 0..3 {
+        for l in 0..N {
+            x[k][l] += s[k][l];
         }
     }
 }
@@ -324,15 +378,11 @@ fn bend<T: Real, const N: usize>(kk: [T; 3], p: &mut Lanes3<T, N>, q: &mut Lanes
 /// lanes' numbers first). The projection runs in f64 on the world position o + x through
 /// [`Colliders::project`], with every radius grown by a margin of 2 ulps of the relative
 /// position, so that rounding the result back into the lanes cannot leave it inside; the
-/// velocity (x - x_prev) / h goes through it too, and x_prev is set so that the new velocity is
-/// what the projection left.
+/// velocity s / h goes through it too, and the step is set to h times the velocity the
+/// projection left.
 #[inline(always)]
-fn collide<T: Real, const N: usize>(
-    h: f64,
-    col: &LaneColliders<'_, T, N>,
-    x: &mut Lanes3<T, N>,
-    prev: &mut Lanes3<T, N>,
-) {
+fn collide<T: Real, const N: usize>(h: f64, col: &LaneColliders<'_, T, N>, p: &mut Particle<T, N>) {
+    let [x, step] = p;
     let mut inside = false;
     for (centre, r2) in col.near {
         for l in 0..N {
@@ -347,7 +397,7 @@ fn collide<T: Real, const N: usize>(
         let o = [col.origin[0][l], col.origin[1][l], col.origin[2][l]];
         let rel = [x[0][l].wide(), x[1][l].wide(), x[2][l].wide()];
         let mut p = [0, 1, 2].map(|k| o[k] + rel[k]);
-        let mut v = [0, 1, 2].map(|k| (rel[k] - prev[k][l].wide()) / h);
+        let mut v = [0, 1, 2].map(|k| step[k][l].wide() / h);
         let mut grown = *col.world;
         let reach = rel.iter().fold(0.0f64, |m, c| m.max(c.abs()));
         for s in grown.spheres[..grown.count].iter_mut() {
@@ -355,9 +405,8 @@ fn collide<T: Real, const N: usize>(
         }
         if grown.project(&mut p, &mut v) {
             for k in 0..3 {
-                let r = p[k] - o[k];
-                x[k][l] = T::of(r);
-                prev[k][l] = T::of(r - h * v[k]);
+                x[k][l] = T::of(p[k] - o[k]);
+                step[k][l] = T::of(h * v[k]);
             }
         }
     }
@@ -382,38 +431,32 @@ fn triple<T>(s: &mut [T], i: usize) -> (&mut T, &mut T, &mut T) {
 /// projections (latency-bound: a square root and a division per segment) is not lengthened.
 pub const BEND_LAG: usize = 2;
 
-/// Advances one lane group by one substep. `x` holds the positions and `prev` the positions
-/// one substep earlier (particle-major, lanes inside; at least 2 particles).
+/// Advances one lane group by one substep. `x` holds each particle's position and step
+/// (particle-major, lanes inside; at least 2 particles).
 ///
 /// Order, each projection using the latest positions (a Gauss-Seidel sweep): predict particle
-/// j + 1, project segment j, project the bending constraint centred on j - 2, push particle j - 3
-/// (no longer touched by this sweep) out of the colliders; then the remaining bending constraints
-/// and collisions at the tip.
+/// j + 1, project segment j, project the bending constraint centred on j - 2, then finish
+/// particle j - 3 (no constraint of the sweep touches it any more): x += s, and push it out of
+/// the colliders; then the remaining bending constraints and particles at the tip. During the
+/// sweep a particle's position is x + s with x its position at the start of the substep: the
+/// constraints read differences of x (exact for nearby particles) plus differences of s (small
+/// numbers, at full relative precision) and write only s.
 #[inline(always)]
-pub fn substep<T: Real, const N: usize>(
-    c: &Coeffs<T>,
-    inp: &SubstepInput<'_, T, N>,
-    x: &mut [Lanes3<T, N>],
-    prev: &mut [Lanes3<T, N>],
-) {
+pub fn substep<T: Real, const N: usize>(c: &Coeffs<T>, inp: &SubstepInput<'_, T, N>, x: &mut [Particle<T, N>]) {
     let n = x.len();
     let bending = !c.bend.is_empty();
     let l0 = c.rest_length;
-    let (lo, hi) = inp.free;
+    let free = inp.free.0..inp.free.1;
+    // A local copy: the compiler then knows the steps written below are not the base it reads.
+    let base = *inp.base;
     match inp.pin_root {
-        Some(p) => {
-            prev[0] = x[0];
-            x[0] = *p;
-        }
-        None => predict(c, inp, 0, &mut x[0], &mut prev[0]),
+        Some(t) => pin(t, &mut x[0]),
+        None => predict(c, inp, &base, 0, &mut x[0]),
     }
     for j in 0..n - 1 {
         match inp.pin_tip {
-            Some(p) if j + 2 == n => {
-                prev[j + 1] = x[j + 1];
-                x[j + 1] = *p;
-            }
-            _ => predict(c, inp, j + 1, &mut x[j + 1], &mut prev[j + 1]),
+            Some(t) if j + 2 == n => pin(t, &mut x[j + 1]),
+            _ => predict(c, inp, &base, j + 1, &mut x[j + 1]),
         }
         let [a, b] = c.stretch[j];
         let (p, q) = pair(x, j);
@@ -426,14 +469,10 @@ pub fn substep<T: Real, const N: usize>(
                 bend(c.bend[first], p, q, r);
             }
             // Particle `first` is final: its last constraint was the bend centred one past it.
-            if let Some(col) = &inp.colliders
-                && (lo..hi).contains(&first)
-            {
-                collide(c.h, col, &mut x[first], &mut prev[first]);
-            }
+            done_with(c, inp, &free, first, &mut x[first]);
         }
     }
-    // Bends centred on 1..=n-2 not yet projected, then the particles not yet collided.
+    // Bends centred on 1..=n-2 not yet projected, then the particles not yet final.
     let done = (n - 1).saturating_sub(BEND_LAG + 1);
     if bending {
         for first in done..n.saturating_sub(2) {
@@ -441,25 +480,22 @@ pub fn substep<T: Real, const N: usize>(
             bend(c.bend[first], p, q, r);
         }
     }
-    if let Some(col) = &inp.colliders {
-        for i in done.max(lo)..hi {
-            collide(c.h, col, &mut x[i], &mut prev[i]);
-        }
+    for (i, p) in x.iter_mut().enumerate().skip(done) {
+        done_with(c, inp, &free, i, p);
     }
 }
 
-/// The state of all strands laid out in lane groups of `N`: positions and the positions one
-/// substep earlier, relative to each strand's origin.
+/// The state of all strands laid out in lane groups of `N`: positions relative to each strand's
+/// origin, and steps.
 #[derive(Debug, Clone)]
 pub struct Lanes<T, const N: usize> {
     strands: usize,
     particles: usize,
     /// Per group: each lane's origin (world, f64): its strand's particle 0 when loaded.
     pub origin: Vec<Lanes3<f64, N>>,
-    /// Positions relative to the origins, group-major, then particle, then x/y/z, then lane.
-    pub x: Vec<Lanes3<T, N>>,
-    /// Positions one substep earlier, same layout.
-    pub prev: Vec<Lanes3<T, N>>,
+    /// Positions relative to the origins and steps s = x - x_prev, group-major, then particle,
+    /// then position/step, then x/y/z, then lane.
+    pub x: Vec<Particle<T, N>>,
 }
 
 impl<T: Real, const N: usize> Lanes<T, N> {
@@ -471,8 +507,7 @@ impl<T: Real, const N: usize> Lanes<T, N> {
             strands,
             particles,
             origin: vec![[[0.0; N]; 3]; groups],
-            x: vec![zero; groups * particles],
-            prev: vec![zero; groups * particles],
+            x: vec![[zero; 2]; groups * particles],
         }
     }
 
@@ -489,7 +524,7 @@ impl<T: Real, const N: usize> Lanes<T, N> {
 
     /// Loads positions and velocities (world, strand-major, strand s particle i at
     /// s * particles + i), moving each strand's origin to its particle 0 and holding the
-    /// velocity as x_prev = x - h v (both rounded once from f64).
+    /// velocity as the step h v (both rounded once from f64).
     pub fn load(&mut self, x: &[[f64; 3]], v: &[[f64; 3]], h: f64) {
         let n = self.particles;
         for g in 0..self.groups() {
@@ -500,15 +535,15 @@ impl<T: Real, const N: usize> Lanes<T, N> {
                     let (a, b) = (x[s * n + i], v[s * n + i]);
                     for k in 0..3 {
                         self.origin[g][k][l] = o[k];
-                        self.x[g * n + i][k][l] = T::of(a[k] - o[k]);
-                        self.prev[g * n + i][k][l] = T::of(a[k] - h * b[k] - o[k]);
+                        self.x[g * n + i][0][k][l] = T::of(a[k] - o[k]);
+                        self.x[g * n + i][1][k][l] = T::of(h * b[k]);
                     }
                 }
             }
         }
     }
 
-    /// Stores world positions o + x and the velocities v = (x - x_prev) (1 / h) (in f64).
+    /// Stores world positions o + x and the velocities v = s (1 / h) (in f64).
     pub fn store(&self, x: &mut [[f64; 3]], v: &mut [[f64; 3]], h: f64) {
         let n = self.particles;
         let inv_h = 1.0 / h;
@@ -516,9 +551,9 @@ impl<T: Real, const N: usize> Lanes<T, N> {
             let (g, l) = (s / N, s % N);
             let o = self.origin[g];
             for i in 0..n {
-                let (a, b) = (&self.x[g * n + i], &self.prev[g * n + i]);
+                let [a, b] = &self.x[g * n + i];
                 x[s * n + i] = [0, 1, 2].map(|k| o[k][l] + a[k][l].wide());
-                v[s * n + i] = [0, 1, 2].map(|k| (a[k][l].wide() - b[k][l].wide()) * inv_h);
+                v[s * n + i] = [0, 1, 2].map(|k| b[k][l].wide() * inv_h);
             }
         }
     }
@@ -539,9 +574,9 @@ impl<T: Real, const N: usize> Lanes<T, N> {
             let mut eb = [0.0f64; N];
             for w in xs.windows(2) {
                 for l in 0..N {
-                    let dx = w[1][0][l].wide() - w[0][0][l].wide();
-                    let dy = w[1][1][l].wide() - w[0][1][l].wide();
-                    let dz = w[1][2][l].wide() - w[0][2][l].wide();
+                    let dx = w[1][0][0][l].wide() - w[0][0][0][l].wide();
+                    let dy = w[1][0][1][l].wide() - w[0][0][1][l].wide();
+                    let dz = w[1][0][2][l].wide() - w[0][0][2][l].wide();
                     let d = (dx * dx + dy * dy + dz * dz).sqrt() - l0;
                     es[l] += 0.5 * k * d * d;
                 }
@@ -549,7 +584,7 @@ impl<T: Real, const N: usize> Lanes<T, N> {
             if c != 0.0 {
                 for w in xs.windows(3) {
                     for l in 0..N {
-                        let b = |a: usize| w[0][a][l].wide() - 2.0 * w[1][a][l].wide() + w[2][a][l].wide();
+                        let b = |a: usize| w[0][0][a][l].wide() - 2.0 * w[1][0][a][l].wide() + w[2][0][a][l].wide();
                         let (bx, by, bz) = (b(0), b(1), b(2));
                         eb[l] += 0.5 * c * (bx * bx + by * by + bz * bz);
                     }
@@ -562,11 +597,82 @@ impl<T: Real, const N: usize> Lanes<T, N> {
         total
     }
 
-    /// Origins, positions and previous positions of lane group `g`.
-    #[allow(clippy::type_complexity)]
-    pub fn group_mut(&mut self, g: usize) -> (&mut Lanes3<f64, N>, &mut [Lanes3<T, N>], &mut [Lanes3<T, N>]) {
+    /// Total momentum (N s), kinetic and gravitational energy (J) of every strand from the lanes:
+    /// the contract's definitions (`heft_strand_common::forces::momentum_and_energy`) with
+    /// v = s / h and x = o + x_rel in f64, summed per lane, then over lanes in order. `mass` is
+    /// the mass of each particle of a strand.
+    #[inline(always)]
+    pub fn momentum_and_energy(&self, mass: &[f64], gravity: [f64; 3], h: f64) -> ([f64; 3], f64, f64) {
+        let n = self.particles;
+        let inv_h = 1.0 / h;
+        let (mut p, mut ke, mut pe) = ([0.0; 3], 0.0, 0.0);
+        for g in 0..self.groups() {
+            let live = (self.strands - g * N).min(N);
+            let o = &self.origin[g];
+            let mut lp = [[0.0f64; N]; 3];
+            let mut lk = [0.0f64; N];
+            let mut lg = [0.0f64; N];
+            for (q, &m) in self.x[g * n..(g + 1) * n].iter().zip(mass) {
+                for l in 0..N {
+                    let v = [0, 1, 2].map(|k| q[1][k][l].wide() * inv_h);
+                    let x = [0, 1, 2].map(|k| o[k][l] + q[0][k][l].wide());
+                    for k in 0..3 {
+                        lp[k][l] += m * v[k];
+                    }
+                    lk[l] += 0.5 * m * (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]);
+                    lg[l] -= m * (gravity[0] * x[0] + gravity[1] * x[1] + gravity[2] * x[2]);
+                }
+            }
+            for l in 0..live {
+                for k in 0..3 {
+                    p[k] += lp[k][l];
+                }
+                ke += lk[l];
+                pe += lg[l];
+            }
+        }
+        (p, ke, pe)
+    }
+
+    /// True when no strand is near blowing up: every position and step finite, every speed
+    /// |s| / h at most 0.98 `max_speed`, every segment at most 0.98 `max_length` long (f64 from
+    /// the lanes' values). The 2 % margin covers the rounding between these numbers and the
+    /// world positions and velocities the frame loop's own check reads, so true here means that
+    /// check would pass.
+    #[inline(always)]
+    pub fn surely_intact(&self, h: f64, max_length: f64, max_speed: f64) -> bool {
+        let n = self.particles;
+        let max_s2 = (0.98 * max_speed * h).powi(2);
+        let max_l2 = (0.98 * max_length).powi(2);
+        let mut ok = true;
+        for g in 0..self.groups() {
+            let xs = &self.x[g * n..(g + 1) * n];
+            for q in xs {
+                for l in 0..N {
+                    let (x, s) = (
+                        [0, 1, 2].map(|k| q[0][k][l].wide()),
+                        [0, 1, 2].map(|k| q[1][k][l].wide()),
+                    );
+                    let s2 = s[0] * s[0] + s[1] * s[1] + s[2] * s[2];
+                    // NaN fails the comparison; an infinite position makes x - x NaN.
+                    let finite = (x[0] - x[0]) + (x[1] - x[1]) + (x[2] - x[2]) == 0.0;
+                    ok &= finite & (s2 <= max_s2);
+                }
+            }
+            for w in xs.windows(2) {
+                for l in 0..N {
+                    let d = [0, 1, 2].map(|k| w[1][0][k][l].wide() - w[0][0][k][l].wide());
+                    ok &= d[0] * d[0] + d[1] * d[1] + d[2] * d[2] <= max_l2;
+                }
+            }
+        }
+        ok
+    }
+
+    /// Origins and particles of lane group `g`.
+    pub fn group_mut(&mut self, g: usize) -> (&mut Lanes3<f64, N>, &mut [Particle<T, N>]) {
         let r = g * self.particles..(g + 1) * self.particles;
-        (&mut self.origin[g], &mut self.x[r.clone()], &mut self.prev[r])
+        (&mut self.origin[g], &mut self.x[r])
     }
 }
 
@@ -591,12 +697,15 @@ mod tests {
     #[test]
     fn one_stretch_projection_matches_the_hand_computed_xpbd_update() {
         let c = Coeffs::<f64>::new(&model(2, 0.002, None), 0.01);
-        let mut p: Lanes3<f64, 1> = [[0.0], [0.0], [0.0]];
-        let mut q: Lanes3<f64, 1> = [[0.15], [0.0], [0.0]];
+        let zero: Lanes3<f64, 1> = [[0.0], [0.0], [0.0]];
+        let mut p: Particle<f64, 1> = [zero, zero];
+        let mut q: Particle<f64, 1> = [[[0.15], [0.0], [0.0]], zero];
         stretch(c.rest_length, c.stretch[0][0], c.stretch[0][1], &mut p, &mut q);
         let moved = 100.0 * 0.05 / 220.0;
-        assert!((p[0][0] - moved).abs() < 1e-15, "{}", p[0][0]);
-        assert!((q[0][0] - (0.15 - moved)).abs() < 1e-15, "{}", q[0][0]);
+        // Positions are x + s; the corrections go into the steps.
+        assert!((p[1][0][0] - moved).abs() < 1e-15, "{}", p[1][0][0]);
+        assert!((q[1][0][0] + moved).abs() < 1e-15, "{}", q[1][0][0]);
+        assert_eq!((p[0][0][0], q[0][0][0]), (0.0, 0.15));
     }
 
     /// The bending constraint is linear: with zero compliance and equal masses one projection
@@ -606,12 +715,20 @@ mod tests {
     #[test]
     fn a_rigid_bend_projection_straightens_three_particles() {
         let c = Coeffs::<f64>::new(&model(3, 0.002, Some(0.0)), 0.01);
-        let mut x: Vec<Lanes3<f64, 1>> = vec![[[0.0], [0.0], [0.0]], [[0.1], [0.03], [0.0]], [[0.2], [0.0], [0.0]]];
+        let zero: Lanes3<f64, 1> = [[0.0], [0.0], [0.0]];
+        let mut x: Vec<Particle<f64, 1>> = vec![
+            [[[0.0], [0.0], [0.0]], zero],
+            [[[0.1], [0.03], [0.0]], zero],
+            [[[0.2], [0.0], [0.0]], zero],
+        ];
         let (p, q, r) = triple(&mut x, 0);
         bend(c.bend[0], p, q, r);
-        let u = x[0][1][0] - 2.0 * x[1][1][0] + x[2][1][0];
+        for p in &mut x {
+            finish(p);
+        }
+        let u = x[0][0][1][0] - 2.0 * x[1][0][1][0] + x[2][0][1][0];
         assert!(u.abs() < 1e-15, "{u}");
-        let cy = (x[0][1][0] + x[1][1][0] + x[2][1][0]) / 3.0;
+        let cy = (x[0][0][1][0] + x[1][0][1][0] + x[2][0][1][0]) / 3.0;
         assert!((cy - 0.01).abs() < 1e-15, "{cy}");
     }
 

@@ -5,7 +5,7 @@ use heft_node_sdk::{Io, Node, NodeError, NodeSpec, Params};
 use heft_strand_common::geometry::cross;
 use heft_strand_common::{FrameEnv, Method, Pin, Setup, State, V3};
 
-use crate::solver::{Coeffs, LaneColliders, Lanes, Lanes3, Model, Real, SubstepInput, substep};
+use crate::solver::{Coeffs, LaneColliders, Lanes, Lanes3, Model, Particle, Real, SubstepInput, substep};
 
 /// The node type `xpbd.strand` (f64 lanes).
 #[derive(Debug)]
@@ -136,7 +136,6 @@ enum Engine<T: Real> {
     L4(Group<T, 4>),
     L8(Group<T, 8>),
     L16(Group<T, 16>),
-    L32(Group<T, 32>),
 }
 
 /// Strands in lanes of `N`, with their pin offsets and scratch.
@@ -144,8 +143,8 @@ enum Engine<T: Real> {
 struct Group<T: Real, const N: usize> {
     lanes: Lanes<T, N>,
     /// Per group: the start and end pin offsets of each lane (anchor-local), m.
-    start: Vec<[V3; N]>,
-    end: Vec<[V3; N]>,
+    start: Vec<Lanes3<f64, N>>,
+    end: Vec<Lanes3<f64, N>>,
     /// Scratch: wind per particle, colliders near each lane.
     wind: Vec<Lanes3<T, N>>,
     near: Vec<(Lanes3<T, N>, T)>,
@@ -158,9 +157,9 @@ impl<T: Real, const N: usize> Group<T, N> {
     fn new(setup: &Setup) -> Group<T, N> {
         let lanes = Lanes::<T, N>::new(setup.strands, setup.particles);
         let groups = lanes.groups();
-        let per_lane = |offsets: &[V3]| -> Vec<[V3; N]> {
+        let per_lane = |offsets: &[V3]| -> Vec<Lanes3<f64, N>> {
             (0..groups)
-                .map(|g| std::array::from_fn(|l| offsets[lanes.strand_of(g, l)]))
+                .map(|g| std::array::from_fn(|k| std::array::from_fn(|l| offsets[lanes.strand_of(g, l)][k])))
                 .collect()
         };
         Group {
@@ -189,6 +188,33 @@ impl<T: Real, const N: usize> Group<T, N> {
         arch.dispatch(Energy(&self.lanes, k))
     }
 
+    fn momentum_and_energy(&self, arch: pulp::Arch, setup: &Setup, state: &State, h: f64) -> (V3, f64, f64) {
+        if !self.loaded {
+            return heft_strand_common::forces::momentum_and_energy(setup, state);
+        }
+        struct Sums<'a, T: Real, const N: usize>(&'a Lanes<T, N>, &'a Setup, f64);
+        impl<T: Real, const N: usize> pulp::WithSimd for Sums<'_, T, N> {
+            type Output = (V3, f64, f64);
+            #[inline(always)]
+            fn with_simd<S: pulp::Simd>(self, _: S) -> (V3, f64, f64) {
+                self.0.momentum_and_energy(&self.1.mass, self.1.gravity, self.2)
+            }
+        }
+        arch.dispatch(Sums(&self.lanes, setup, h))
+    }
+
+    fn surely_intact(&self, arch: pulp::Arch, h: f64, max_length: f64, max_speed: f64) -> bool {
+        struct Intact<'a, T: Real, const N: usize>(&'a Lanes<T, N>, f64, f64, f64);
+        impl<T: Real, const N: usize> pulp::WithSimd for Intact<'_, T, N> {
+            type Output = bool;
+            #[inline(always)]
+            fn with_simd<S: pulp::Simd>(self, _: S) -> bool {
+                self.0.surely_intact(self.1, self.2, self.3)
+            }
+        }
+        self.loaded && arch.dispatch(Intact(&self.lanes, h, max_length, max_speed))
+    }
+
     #[allow(clippy::too_many_arguments)]
     fn frame(
         &mut self,
@@ -210,11 +236,10 @@ impl<T: Real, const N: usize> Group<T, N> {
         let tip = setup.pin == Pin::BothEnds;
         let free = (usize::from(root), n - usize::from(tip));
         for g in 0..self.lanes.groups() {
-            let (origin, x, prev) = self.lanes.group_mut(g);
+            let (origin, x) = self.lanes.group_mut(g);
             arch.dispatch(GroupRun {
                 origin,
                 x,
-                prev,
                 start: &self.start[g],
                 end: &self.end[g],
                 wind: &mut self.wind,
@@ -240,10 +265,9 @@ impl<T: Real, const N: usize> Group<T, N> {
 /// does not contract `a * b + c` into a fused multiply-add), so results do not depend on the CPU.
 struct GroupRun<'a, T: Real, const N: usize> {
     origin: &'a mut Lanes3<f64, N>,
-    x: &'a mut [Lanes3<T, N>],
-    prev: &'a mut [Lanes3<T, N>],
-    start: &'a [V3; N],
-    end: &'a [V3; N],
+    x: &'a mut [Particle<T, N>],
+    start: &'a Lanes3<f64, N>,
+    end: &'a Lanes3<f64, N>,
     wind: &'a mut [Lanes3<T, N>],
     near: &'a mut Vec<(Lanes3<T, N>, T)>,
     env: &'a FrameEnv<'a>,
@@ -265,7 +289,6 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
         let GroupRun {
             origin,
             x,
-            prev,
             start,
             end,
             wind,
@@ -282,17 +305,17 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
         if reorigin {
             // o += x_0 (exact in f64), x -= x_0: relative positions stay within a strand
             // length of zero as the strand travels.
-            let d = x[0];
+            // The steps do not change.
+            let d = x[0][0];
             for l in 0..N {
                 for c in 0..3 {
                     origin[c][l] += d[c][l].wide();
                 }
             }
-            for (xi, pi) in x.iter_mut().zip(prev.iter_mut()) {
+            for p in x.iter_mut() {
                 for c in 0..3 {
                     for l in 0..N {
-                        xi[c][l] -= d[c][l];
-                        pi[c][l] -= d[c][l];
+                        p[0][c][l] -= d[c][l];
                     }
                 }
             }
@@ -308,18 +331,18 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
                 set_pins(env.end_pose(k + 1), end, origin, &mut pin_tip);
             }
             // base + spin x o_lane: the spin term's share of the lane's origin.
+            let w = spin_k.unwrap_or([0.0; 3]);
             for l in 0..N {
                 let o = [origin[0][l], origin[1][l], origin[2][l]];
-                let so = spin_k.map_or([0.0; 3], |s| cross(s, o));
-                for c in 0..3 {
-                    base[c][l] = T::of(base_k[c] + so[c]);
-                }
+                base[0][l] = T::of(base_k[0] + (w[1] * o[2] - w[2] * o[1]));
+                base[1][l] = T::of(base_k[1] + (w[2] * o[0] - w[0] * o[2]));
+                base[2][l] = T::of(base_k[2] + (w[0] * o[1] - w[1] * o[0]));
             }
             if env.has_wind() {
                 let ambient = env.ambient(k);
                 for (xi, wi) in x.iter().zip(wind.iter_mut()) {
                     for l in 0..N {
-                        let p = [0, 1, 2].map(|c| origin[c][l] + xi[c][l].wide());
+                        let p = [0, 1, 2].map(|c| origin[c][l] + xi[0][c][l].wide());
                         let w = ambient.wind(p);
                         for c in 0..3 {
                             wi[c][l] = T::of(wind_gain * w[c]);
@@ -361,24 +384,25 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
                 colliders,
                 free,
             };
-            substep(coeffs, &input, x, prev);
+            substep(coeffs, &input, x);
         }
     }
 }
 
 /// Pin targets of one group's lanes: the pose applied to each lane's offset, relative to the
-/// lane's origin.
-#[inline]
+/// lane's origin (lanes side by side).
+#[inline(always)]
 fn set_pins<T: Real, const N: usize>(
     pose: &heft_strand_common::Pose,
-    offsets: &[V3; N],
+    offsets: &Lanes3<f64, N>,
     origin: &Lanes3<f64, N>,
     out: &mut Lanes3<T, N>,
 ) {
-    for (l, off) in offsets.iter().enumerate() {
-        let p = pose.apply(*off);
-        for c in 0..3 {
-            out[c][l] = T::of(p[c] - origin[c][l]);
+    let (r, t) = (&pose.r, &pose.t);
+    for k in 0..3 {
+        for l in 0..N {
+            let p = r[k][0] * offsets[0][l] + r[k][1] * offsets[1][l] + r[k][2] * offsets[2][l] + t[k];
+            out[k][l] = T::of(p - origin[k][l]);
         }
     }
 }
@@ -401,17 +425,16 @@ impl<T: Real> Method for Xpbd<T> {
         let model = Xpbd::<T>::model(setup, false);
         // A placeholder step; `frame` remakes the coefficients (in place) for the real one.
         let coeffs = Coeffs::new(&model, 1.0);
-        // Lanes per group: up to 16 for f64 (4 AVX2 registers), 32 for f32 (4 registers), so
-        // four independent chains of dependent projections are in flight.
-        let wide = std::mem::size_of::<T>() == 4;
+        // Lanes per group: up to 16 (4 AVX2 registers of f64, 2 of f32), so several
+        // independent chains of dependent projections are in flight while a group's state
+        // (16 lanes x 32 particles x position and step: 12 KB in f32, 24 KB in f64) stays in
+        // the L1 cache. Measured in benches/strands.rs: 8 and 32 lanes are slower for both types.
         let engine = match setup.strands {
             1 => Engine::L1(Group::new(setup)),
             2 => Engine::L2(Group::new(setup)),
             3..=4 => Engine::L4(Group::new(setup)),
             5..=8 => Engine::L8(Group::new(setup)),
-            9..=16 => Engine::L16(Group::new(setup)),
-            _ if !wide => Engine::L16(Group::new(setup)),
-            _ => Engine::L32(Group::new(setup)),
+            _ => Engine::L16(Group::new(setup)),
         };
         Xpbd {
             model,
@@ -451,7 +474,6 @@ impl<T: Real> Method for Xpbd<T> {
             Engine::L4(e) => e.frame(self.arch, setup, state, env, c, shared),
             Engine::L8(e) => e.frame(self.arch, setup, state, env, c, shared),
             Engine::L16(e) => e.frame(self.arch, setup, state, env, c, shared),
-            Engine::L32(e) => e.frame(self.arch, setup, state, env, c, shared),
         }
     }
 
@@ -465,7 +487,34 @@ impl<T: Real> Method for Xpbd<T> {
             Engine::L4(e) => e.elastic_energy(self.arch, setup, state, k),
             Engine::L8(e) => e.elastic_energy(self.arch, setup, state, k),
             Engine::L16(e) => e.elastic_energy(self.arch, setup, state, k),
-            Engine::L32(e) => e.elastic_energy(self.arch, setup, state, k),
+        }
+    }
+
+    /// From the lanes once they hold the state (vectorised; the contract's definitions, which the
+    /// first frame uses).
+    fn momentum_and_energy(&self, setup: &Setup, state: &State) -> (V3, f64, f64) {
+        match &self.engine {
+            Engine::L1(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
+            Engine::L2(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
+            Engine::L4(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
+            Engine::L8(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
+            Engine::L16(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
+        }
+    }
+
+    /// A vectorised look at the lanes, with a margin (see [`Lanes::surely_intact`]); the frame
+    /// loop's own check runs whenever this is false.
+    fn surely_intact(&self, setup: &Setup, _state: &State) -> bool {
+        let (l, v) = (
+            heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
+            heft_strand_common::BLOW_UP_SPEED,
+        );
+        match &self.engine {
+            Engine::L1(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
+            Engine::L2(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
+            Engine::L4(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
+            Engine::L8(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
+            Engine::L16(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
         }
     }
 

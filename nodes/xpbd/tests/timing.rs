@@ -9,10 +9,7 @@
 mod support;
 use support::*;
 
-use heft_node_sdk::{NodeError, ParamValue, Timeline};
 use std::time::Instant;
-
-type Runner = fn(&[(&'static str, ParamValue)], Timeline, Inputs<'_>) -> Result<Run, NodeError>;
 
 /// The node: `count` strands of `segments` segments on a moving anchor, defaults otherwise.
 fn node(run: Runner, count: i64, segments: i64, substeps: i64, frames: u64) -> f64 {
@@ -37,7 +34,7 @@ fn node(run: Runner, count: i64, segments: i64, substeps: i64, frames: u64) -> f
 fn particle_substeps_per_second() {
     for round in 0..3 {
         println!("round {round}");
-        for (name, r) in [("xpbd.strand", run as Runner), ("xpbd.strand_f32", run_f32 as Runner)] {
+        for (name, r) in BOTH {
             println!(
                 "  {name}, 1024 strands x 32 particles, 20 substeps: {:.3e}",
                 node(r, 1024, 31, 20, 25)

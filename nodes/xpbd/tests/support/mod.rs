@@ -77,6 +77,12 @@ impl Run {
 /// Connected inputs by name: (name, values frame-major).
 pub type Inputs<'a> = &'a [(&'static str, Vec<f64>)];
 
+/// One of the node types' runners ([`run`], [`run_f32`]).
+pub type Runner = fn(&[(&'static str, ParamValue)], Timeline, Inputs<'_>) -> Result<Run, NodeError>;
+
+/// Both node types: (name, runner).
+pub const BOTH: [(&str, Runner); 2] = [("xpbd.strand", run), ("xpbd.strand_f32", run_f32)];
+
 /// Runs `xpbd.strand` (f64 lanes) with these parameter changes and inputs.
 pub fn run(changes: &[(&'static str, ParamValue)], tl: Timeline, inputs: Inputs<'_>) -> Result<Run, NodeError> {
     run_node::<XpbdStrand>(changes, tl, inputs)
