@@ -640,6 +640,7 @@ impl<T: Real, const N: usize> Lanes<T, N> {
     /// world positions and velocities the frame loop's own check reads, so true here means that
     /// check would pass.
     #[inline(always)]
+    #[allow(clippy::needless_range_loop)] // lane loops: x, y, z of one lane from three rows
     pub fn surely_intact(&self, h: f64, max_length: f64, max_speed: f64) -> bool {
         let n = self.particles;
         let max_s2 = (0.98 * max_speed * h).powi(2);
@@ -654,9 +655,8 @@ impl<T: Real, const N: usize> Lanes<T, N> {
                         [0, 1, 2].map(|k| q[1][k][l].wide()),
                     );
                     let s2 = s[0] * s[0] + s[1] * s[1] + s[2] * s[2];
-                    // NaN fails the comparison; an infinite position makes x - x NaN.
-                    let finite = (x[0] - x[0]) + (x[1] - x[1]) + (x[2] - x[2]) == 0.0;
-                    ok &= finite & (s2 <= max_s2);
+                    // A NaN step fails the comparison.
+                    ok &= x[0].is_finite() & x[1].is_finite() & x[2].is_finite() & (s2 <= max_s2);
                 }
             }
             for w in xs.windows(2) {
