@@ -485,6 +485,50 @@ pub fn substep<T: Real, const N: usize>(c: &Coeffs<T>, inp: &SubstepInput<'_, T,
     }
 }
 
+/// What [`Lanes::summary`] needs of the model.
+#[derive(Debug, Clone, Copy)]
+pub struct SummaryModel<'a> {
+    /// Mass of each particle of a strand, kg.
+    pub mass: &'a [f64],
+    /// Gravity, m/s^2.
+    pub gravity: [f64; 3],
+    /// The substep the steps were taken with, s.
+    pub h: f64,
+    /// Segment spring constant k = E A / l0 (N/m), rest length l0 (m), bending constant
+    /// c = E I / l0^3 (N/m) of the contract's energies.
+    pub stretch_k: f64,
+    /// Rest length l0, m.
+    pub rest_length: f64,
+    /// Bending constant c, N/m.
+    pub bending_k: f64,
+    /// The frame loop's blow-up limits: segment length (m) and speed (m/s).
+    pub max_length: f64,
+    /// See `max_length`.
+    pub max_speed: f64,
+}
+
+/// The per-frame figures of a state, as the strand contract defines them: total momentum
+/// sum m v (N s), kinetic energy sum 1/2 m |v|^2 and gravitational energy -sum m g . x (J),
+/// elastic energy sum 1/2 k (|x_{j+1} - x_j| - l0)^2 + sum 1/2 c |x_{i-1} - 2 x_i + x_{i+1}|^2
+/// (J), from v = s / h and x = o + x_rel in f64, summed per lane, then over lanes in order; and
+/// whether no strand is near blowing up: every position and step finite, every speed at most
+/// 0.98 of the limit, every segment at most 0.98 of the limit long. The 2 % margin covers the
+/// rounding between these numbers and the world positions and velocities the frame loop's own
+/// check reads, so `surely_intact` means that check would pass.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Summary {
+    /// N s.
+    pub momentum: [f64; 3],
+    /// J.
+    pub kinetic: f64,
+    /// J.
+    pub gravity: f64,
+    /// J.
+    pub elastic: f64,
+    /// No strand near a blow-up.
+    pub surely_intact: bool,
+}
+
 /// The state of all strands laid out in lane groups of `N`: positions relative to each strand's
 /// origin, and steps.
 #[derive(Debug, Clone)]
@@ -558,115 +602,77 @@ impl<T: Real, const N: usize> Lanes<T, N> {
         }
     }
 
-    /// The elastic energy of every strand, J: sum over segments of 1/2 k (|x_{j+1} - x_j| -
-    /// l0)^2 plus, over interior particles, 1/2 c |x_{i-1} - 2 x_i + x_{i+1}|^2 (the contract's
-    /// default, `heft_strand_common::forces::elastic_energy`), computed in f64 from the lanes'
-    /// values (exact differences of the relative positions), lanes side by side; the same sums
-    /// per strand, added over strands in order.
+    /// The frame loop's per-frame figures of the state in the lanes, in one vectorised pass
+    /// (see [`Summary`]); `mass` is the mass of each particle of a strand, `h` the substep.
     #[inline(always)]
-    pub fn elastic_energy(&self, k: f64, l0: f64, c: f64) -> f64 {
+    #[allow(clippy::needless_range_loop)] // lane loops: x, y, z of one lane from three rows
+    pub fn summary(&self, m: &SummaryModel<'_>) -> Summary {
         let n = self.particles;
-        let mut total = 0.0;
-        for g in 0..self.groups() {
-            let live = (self.strands - g * N).min(N);
-            let xs = &self.x[g * n..(g + 1) * n];
-            let mut es = [0.0f64; N];
-            let mut eb = [0.0f64; N];
-            for w in xs.windows(2) {
-                for l in 0..N {
-                    let dx = w[1][0][0][l].wide() - w[0][0][0][l].wide();
-                    let dy = w[1][0][1][l].wide() - w[0][0][1][l].wide();
-                    let dz = w[1][0][2][l].wide() - w[0][0][2][l].wide();
-                    let d = (dx * dx + dy * dy + dz * dz).sqrt() - l0;
-                    es[l] += 0.5 * k * d * d;
-                }
-            }
-            if c != 0.0 {
-                for w in xs.windows(3) {
-                    for l in 0..N {
-                        let b = |a: usize| w[0][0][a][l].wide() - 2.0 * w[1][0][a][l].wide() + w[2][0][a][l].wide();
-                        let (bx, by, bz) = (b(0), b(1), b(2));
-                        eb[l] += 0.5 * c * (bx * bx + by * by + bz * bz);
-                    }
-                }
-            }
-            for l in 0..live {
-                total += es[l] + eb[l];
-            }
-        }
-        total
-    }
-
-    /// Total momentum (N s), kinetic and gravitational energy (J) of every strand from the lanes:
-    /// the contract's definitions (`heft_strand_common::forces::momentum_and_energy`) with
-    /// v = s / h and x = o + x_rel in f64, summed per lane, then over lanes in order. `mass` is
-    /// the mass of each particle of a strand.
-    #[inline(always)]
-    pub fn momentum_and_energy(&self, mass: &[f64], gravity: [f64; 3], h: f64) -> ([f64; 3], f64, f64) {
-        let n = self.particles;
-        let inv_h = 1.0 / h;
-        let (mut p, mut ke, mut pe) = ([0.0; 3], 0.0, 0.0);
+        let inv_h = 1.0 / m.h;
+        let max_s2 = (0.98 * m.max_speed * m.h).powi(2);
+        let max_l2 = (0.98 * m.max_length).powi(2);
+        let mut out = Summary {
+            momentum: [0.0; 3],
+            kinetic: 0.0,
+            gravity: 0.0,
+            elastic: 0.0,
+            surely_intact: true,
+        };
         for g in 0..self.groups() {
             let live = (self.strands - g * N).min(N);
             let o = &self.origin[g];
+            let xs = &self.x[g * n..(g + 1) * n];
             let mut lp = [[0.0f64; N]; 3];
             let mut lk = [0.0f64; N];
             let mut lg = [0.0f64; N];
-            for (q, &m) in self.x[g * n..(g + 1) * n].iter().zip(mass) {
+            let mut es = [0.0f64; N];
+            let mut eb = [0.0f64; N];
+            let mut ok = true;
+            for (i, (q, &mass)) in xs.iter().zip(m.mass).enumerate() {
                 for l in 0..N {
+                    let rel = [0, 1, 2].map(|k| q[0][k][l].wide());
                     let v = [0, 1, 2].map(|k| q[1][k][l].wide() * inv_h);
-                    let x = [0, 1, 2].map(|k| o[k][l] + q[0][k][l].wide());
+                    let x = [0, 1, 2].map(|k| o[k][l] + rel[k]);
                     for k in 0..3 {
-                        lp[k][l] += m * v[k];
+                        lp[k][l] += mass * v[k];
                     }
-                    lk[l] += 0.5 * m * (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]);
-                    lg[l] -= m * (gravity[0] * x[0] + gravity[1] * x[1] + gravity[2] * x[2]);
+                    let v2 = v[0] * v[0] + v[1] * v[1] + v[2] * v[2];
+                    lk[l] += 0.5 * mass * v2;
+                    lg[l] -= mass * (m.gravity[0] * x[0] + m.gravity[1] * x[1] + m.gravity[2] * x[2]);
+                    // A NaN step fails the comparison.
+                    let s = [0, 1, 2].map(|k| q[1][k][l].wide());
+                    let s2 = s[0] * s[0] + s[1] * s[1] + s[2] * s[2];
+                    ok &= rel[0].is_finite() & rel[1].is_finite() & rel[2].is_finite() & (s2 <= max_s2);
+                }
+                if i >= 1 {
+                    let p = &xs[i - 1];
+                    for l in 0..N {
+                        let d = [0, 1, 2].map(|k| q[0][k][l].wide() - p[0][k][l].wide());
+                        let l2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2];
+                        let e = l2.sqrt() - m.rest_length;
+                        es[l] += 0.5 * m.stretch_k * e * e;
+                        ok &= l2 <= max_l2;
+                    }
+                }
+                if i >= 2 && m.bending_k != 0.0 {
+                    let (p, r) = (&xs[i - 2], &xs[i - 1]);
+                    for l in 0..N {
+                        let b = [0, 1, 2].map(|k| p[0][k][l].wide() - 2.0 * r[0][k][l].wide() + q[0][k][l].wide());
+                        eb[l] += 0.5 * m.bending_k * (b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
+                    }
                 }
             }
             for l in 0..live {
                 for k in 0..3 {
-                    p[k] += lp[k][l];
+                    out.momentum[k] += lp[k][l];
                 }
-                ke += lk[l];
-                pe += lg[l];
+                out.kinetic += lk[l];
+                out.gravity += lg[l];
+                out.elastic += es[l] + eb[l];
             }
+            out.surely_intact &= ok;
         }
-        (p, ke, pe)
-    }
-
-    /// True when no strand is near blowing up: every position and step finite, every speed
-    /// |s| / h at most 0.98 `max_speed`, every segment at most 0.98 `max_length` long (f64 from
-    /// the lanes' values). The 2 % margin covers the rounding between these numbers and the
-    /// world positions and velocities the frame loop's own check reads, so true here means that
-    /// check would pass.
-    #[inline(always)]
-    #[allow(clippy::needless_range_loop)] // lane loops: x, y, z of one lane from three rows
-    pub fn surely_intact(&self, h: f64, max_length: f64, max_speed: f64) -> bool {
-        let n = self.particles;
-        let max_s2 = (0.98 * max_speed * h).powi(2);
-        let max_l2 = (0.98 * max_length).powi(2);
-        let mut ok = true;
-        for g in 0..self.groups() {
-            let xs = &self.x[g * n..(g + 1) * n];
-            for q in xs {
-                for l in 0..N {
-                    let (x, s) = (
-                        [0, 1, 2].map(|k| q[0][k][l].wide()),
-                        [0, 1, 2].map(|k| q[1][k][l].wide()),
-                    );
-                    let s2 = s[0] * s[0] + s[1] * s[1] + s[2] * s[2];
-                    // A NaN step fails the comparison.
-                    ok &= x[0].is_finite() & x[1].is_finite() & x[2].is_finite() & (s2 <= max_s2);
-                }
-            }
-            for w in xs.windows(2) {
-                for l in 0..N {
-                    let d = [0, 1, 2].map(|k| w[1][0][k][l].wide() - w[0][0][k][l].wide());
-                    ok &= d[0] * d[0] + d[1] * d[1] + d[2] * d[2] <= max_l2;
-                }
-            }
-        }
-        ok
+        out
     }
 
     /// Origins and particles of lane group `g`.

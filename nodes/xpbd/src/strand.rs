@@ -5,7 +5,9 @@ use heft_node_sdk::{Io, Node, NodeError, NodeSpec, Params};
 use heft_strand_common::geometry::cross;
 use heft_strand_common::{FrameEnv, Method, Pin, Setup, State, V3};
 
-use crate::solver::{Coeffs, LaneColliders, Lanes, Lanes3, Model, Particle, Real, SubstepInput, substep};
+use crate::solver::{
+    Coeffs, LaneColliders, Lanes, Lanes3, Model, Particle, Real, SubstepInput, Summary, SummaryModel, substep,
+};
 
 /// The node type `xpbd.strand` (f64 lanes).
 #[derive(Debug)]
@@ -151,6 +153,8 @@ struct Group<T: Real, const N: usize> {
     /// True once the lanes hold the state: the frame loop hands every call the state the
     /// previous call left, so later frames only move the origins (see [`GroupRun`]).
     loaded: bool,
+    /// The figures of the state the last frame left (`None` before the first frame).
+    summary: Option<Summary>,
 }
 
 impl<T: Real, const N: usize> Group<T, N> {
@@ -168,51 +172,9 @@ impl<T: Real, const N: usize> Group<T, N> {
             wind: vec![[[T::ZERO; N]; 3]; setup.particles],
             near: Vec::with_capacity(3),
             loaded: false,
+            summary: None,
             lanes,
         }
-    }
-
-    fn elastic_energy(&self, arch: pulp::Arch, setup: &Setup, state: &State, k: (f64, f64, f64)) -> f64 {
-        if !self.loaded {
-            return heft_strand_common::forces::elastic_energy(setup, state);
-        }
-        struct Energy<'a, T: Real, const N: usize>(&'a Lanes<T, N>, (f64, f64, f64));
-        impl<T: Real, const N: usize> pulp::WithSimd for Energy<'_, T, N> {
-            type Output = f64;
-            #[inline(always)]
-            fn with_simd<S: pulp::Simd>(self, _: S) -> f64 {
-                let (k, l0, c) = self.1;
-                self.0.elastic_energy(k, l0, c)
-            }
-        }
-        arch.dispatch(Energy(&self.lanes, k))
-    }
-
-    fn momentum_and_energy(&self, arch: pulp::Arch, setup: &Setup, state: &State, h: f64) -> (V3, f64, f64) {
-        if !self.loaded {
-            return heft_strand_common::forces::momentum_and_energy(setup, state);
-        }
-        struct Sums<'a, T: Real, const N: usize>(&'a Lanes<T, N>, &'a Setup, f64);
-        impl<T: Real, const N: usize> pulp::WithSimd for Sums<'_, T, N> {
-            type Output = (V3, f64, f64);
-            #[inline(always)]
-            fn with_simd<S: pulp::Simd>(self, _: S) -> (V3, f64, f64) {
-                self.0.momentum_and_energy(&self.1.mass, self.1.gravity, self.2)
-            }
-        }
-        arch.dispatch(Sums(&self.lanes, setup, h))
-    }
-
-    fn surely_intact(&self, arch: pulp::Arch, h: f64, max_length: f64, max_speed: f64) -> bool {
-        struct Intact<'a, T: Real, const N: usize>(&'a Lanes<T, N>, f64, f64, f64);
-        impl<T: Real, const N: usize> pulp::WithSimd for Intact<'_, T, N> {
-            type Output = bool;
-            #[inline(always)]
-            fn with_simd<S: pulp::Simd>(self, _: S) -> bool {
-                self.0.surely_intact(self.1, self.2, self.3)
-            }
-        }
-        self.loaded && arch.dispatch(Intact(&self.lanes, h, max_length, max_speed))
     }
 
     #[allow(clippy::too_many_arguments)]
@@ -255,6 +217,25 @@ impl<T: Real, const N: usize> Group<T, N> {
             });
         }
         self.lanes.store(&mut state.x, &mut state.v, h);
+        struct Figures<'a, T: Real, const N: usize>(&'a Lanes<T, N>, SummaryModel<'a>);
+        impl<T: Real, const N: usize> pulp::WithSimd for Figures<'_, T, N> {
+            type Output = Summary;
+            #[inline(always)]
+            fn with_simd<S: pulp::Simd>(self, _: S) -> Summary {
+                self.0.summary(&self.1)
+            }
+        }
+        let model = SummaryModel {
+            mass: &setup.mass,
+            gravity: setup.gravity,
+            h,
+            stretch_k: setup.spring_k,
+            rest_length: setup.rest_length,
+            bending_k: setup.bending_k,
+            max_length: heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
+            max_speed: heft_strand_common::BLOW_UP_SPEED,
+        };
+        self.summary = Some(arch.dispatch(Figures(&self.lanes, model)));
     }
 }
 
@@ -408,6 +389,17 @@ fn set_pins<T: Real, const N: usize>(
 }
 
 impl<T: Real> Xpbd<T> {
+    /// The figures of the state the last frame left.
+    fn summary(&self) -> Option<Summary> {
+        match &self.engine {
+            Engine::L1(e) => e.summary,
+            Engine::L2(e) => e.summary,
+            Engine::L4(e) => e.summary,
+            Engine::L8(e) => e.summary,
+            Engine::L16(e) => e.summary,
+        }
+    }
+
     fn model(setup: &Setup, wind: bool) -> Model {
         Model {
             rest_length: setup.rest_length,
@@ -477,45 +469,27 @@ impl<T: Real> Method for Xpbd<T> {
         }
     }
 
-    /// From the lanes once they hold the state (vectorised; the same sums as the contract's
-    /// default, which the first frame uses).
-    fn elastic_energy(&self, setup: &Setup, state: &State) -> f64 {
-        let k = (setup.spring_k, setup.rest_length, setup.bending_k);
-        match &self.engine {
-            Engine::L1(e) => e.elastic_energy(self.arch, setup, state, k),
-            Engine::L2(e) => e.elastic_energy(self.arch, setup, state, k),
-            Engine::L4(e) => e.elastic_energy(self.arch, setup, state, k),
-            Engine::L8(e) => e.elastic_energy(self.arch, setup, state, k),
-            Engine::L16(e) => e.elastic_energy(self.arch, setup, state, k),
-        }
-    }
-
-    /// From the lanes once they hold the state (vectorised; the contract's definitions, which the
+    /// From the lanes, computed at the end of the frame (the contract's definitions, which the
     /// first frame uses).
-    fn momentum_and_energy(&self, setup: &Setup, state: &State) -> (V3, f64, f64) {
-        match &self.engine {
-            Engine::L1(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
-            Engine::L2(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
-            Engine::L4(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
-            Engine::L8(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
-            Engine::L16(e) => e.momentum_and_energy(self.arch, setup, state, self.made_for.0),
+    fn elastic_energy(&self, setup: &Setup, state: &State) -> f64 {
+        match self.summary() {
+            Some(f) => f.elastic,
+            None => heft_strand_common::forces::elastic_energy(setup, state),
         }
     }
 
-    /// A vectorised look at the lanes, with a margin (see [`Lanes::surely_intact`]); the frame
-    /// loop's own check runs whenever this is false.
-    fn surely_intact(&self, setup: &Setup, _state: &State) -> bool {
-        let (l, v) = (
-            heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
-            heft_strand_common::BLOW_UP_SPEED,
-        );
-        match &self.engine {
-            Engine::L1(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
-            Engine::L2(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
-            Engine::L4(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
-            Engine::L8(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
-            Engine::L16(e) => e.surely_intact(self.arch, self.made_for.0, l, v),
+    /// As [`Method::elastic_energy`].
+    fn momentum_and_energy(&self, setup: &Setup, state: &State) -> (V3, f64, f64) {
+        match self.summary() {
+            Some(f) => (f.momentum, f.kinetic, f.gravity),
+            None => heft_strand_common::forces::momentum_and_energy(setup, state),
         }
+    }
+
+    /// A look at the lanes with a margin (see [`Summary`]); the frame loop's own check runs
+    /// whenever this is false.
+    fn surely_intact(&self, _setup: &Setup, _state: &State) -> bool {
+        self.summary().is_some_and(|f| f.surely_intact)
     }
 
     /// XPBD has no step limit (see the node notes).
