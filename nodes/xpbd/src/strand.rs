@@ -388,6 +388,19 @@ fn set_pins<T: Real, const N: usize>(
     }
 }
 
+/// The environment variable that picks the instruction set the lanes run on: `portable` for the
+/// baseline of the target (SSE2 on x86-64), anything else or unset for the widest the CPU has.
+/// Results are bit-identical either way (tests/simd.rs checks it); the switch is there to show
+/// that, and to time the difference.
+pub const SIMD_VARIABLE: &str = "HEFT_SIMD";
+
+fn instruction_set() -> pulp::Arch {
+    match std::env::var(SIMD_VARIABLE) {
+        Ok(v) if v == "portable" => pulp::Arch::Scalar,
+        _ => pulp::Arch::new(),
+    }
+}
+
 impl<T: Real> Xpbd<T> {
     /// The figures of the state the last frame left.
     fn summary(&self) -> Option<Summary> {
@@ -434,7 +447,7 @@ impl<T: Real> Method for Xpbd<T> {
             made_for: (f64::NAN, false),
             shared: vec![([0.0; 3], None); setup.substeps],
             engine,
-            arch: pulp::Arch::new(),
+            arch: instruction_set(),
         }
     }
 
