@@ -50,8 +50,9 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
         ParamSpec::integer(
             "segments",
             12,
-            (1, 256),
-            "Segments per strand; particles per strand = segments + 1.",
+            (1, 4096),
+            "Segments per strand; particles per strand = segments + 1. A node carries at most 1052672 particles \
+             (count x (segments + 1)): 4096 strands of 256 segments, or one chain of 4096.",
         ),
         ParamSpec::number(
             "mass_per_length",
@@ -223,6 +224,10 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
     }
 }
 
+/// The most particles one strand node carries, count x (segments + 1): 4096 strands of 256
+/// segments. Each output frame of positions is 24 bytes a particle (25 MB at the limit).
+pub const MAX_PARTICLES: usize = 4096 * 257;
+
 /// Total particle count N = count x (segments + 1) for these parameters.
 pub fn particle_count(params: &Params) -> Result<usize, NodeError> {
     let count = params.integer("count")?;
@@ -230,10 +235,18 @@ pub fn particle_count(params: &Params) -> Result<usize, NodeError> {
     if !(1..=4096).contains(&count) {
         return Err(NodeError::new(format!("`count` = {count} is outside 1..=4096")));
     }
-    if !(1..=256).contains(&segments) {
-        return Err(NodeError::new(format!("`segments` = {segments} is outside 1..=256")));
+    if !(1..=4096).contains(&segments) {
+        return Err(NodeError::new(format!("`segments` = {segments} is outside 1..=4096")));
     }
-    Ok(count as usize * (segments as usize + 1))
+    let n = count as usize * (segments as usize + 1);
+    if n > MAX_PARTICLES {
+        return Err(NodeError::new(format!(
+            "`count` x (`segments` + 1) = {count} x {} = {n} particles, more than the {MAX_PARTICLES} a strand node \
+             carries: use fewer strands or segments, or split them over several nodes",
+            segments + 1
+        )));
+    }
+    Ok(n)
 }
 
 /// The point counts of the outputs: N, N, 0, 0. Checks the `initial_*` input widths
@@ -258,6 +271,28 @@ pub fn output_points(params: &Params, inputs: &[usize]) -> Result<Vec<usize>, No
 mod tests {
     use super::*;
     use heft_node_sdk::{ParamType, ParamValue};
+
+    fn counted(count: i64, segments: i64) -> Result<usize, NodeError> {
+        let spec = node_spec("strand", "doc", "notes");
+        let p = Params::defaults(&spec)
+            .and_then(|p| p.with("count", ParamValue::Integer(count)))
+            .and_then(|p| p.with("segments", ParamValue::Integer(segments)))
+            .expect("in range");
+        particle_count(&p)
+    }
+
+    /// One chain of 4096 segments, or 4096 strands of 256, fits; more particles in all is
+    /// refused with both figures named.
+    #[test]
+    fn a_node_carries_a_long_chain_or_many_strands_up_to_the_particle_limit() {
+        assert_eq!(counted(1, 4096).unwrap(), 4097);
+        assert_eq!(counted(4096, 256).unwrap(), MAX_PARTICLES);
+        let e = counted(4096, 257).unwrap_err().0;
+        assert!(
+            e.contains("4096 x 258 = 1056768 particles") && e.contains("1052672"),
+            "{e}"
+        );
+    }
 
     #[test]
     fn every_parameter_has_a_default_inside_its_range_and_ports_match_the_names() {
