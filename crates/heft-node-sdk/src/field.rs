@@ -170,6 +170,7 @@ impl<'a> FieldView<'a> {
     /// surrounding samples; zero outside the grid's box (and for a non-finite `p`). At a
     /// sample's position it returns that sample exactly. Along an axis with one sample
     /// the box is flat: only points on that plane are inside.
+    #[inline]
     pub fn sample(&self, p: [f64; 3]) -> [f64; 3] {
         let mut lower = [0usize; 3];
         let mut upper = [0usize; 3];
@@ -181,33 +182,44 @@ impl<'a> FieldView<'a> {
             if !(u >= -SNAP_CELLS && u <= top + SNAP_CELLS) {
                 return [0.0; 3];
             }
-            let nearest = u.round();
+            // u >= -SNAP_CELLS here, so u + 0.5 > 0 and truncation is the floor: the nearest
+            // sample (ties, far from any snap, go up), without a call to the C library's
+            // round or floor on targets whose baseline has no rounding instruction.
+            let nearest = (u + 0.5) as usize as f64;
             if (u - nearest).abs() <= SNAP_CELLS {
                 u = nearest;
             }
             let u = u.clamp(0.0, top);
-            let i = (u.floor() as usize).min(n.saturating_sub(2));
+            let i = (u as usize).min(n.saturating_sub(2));
             lower[a] = i;
             upper[a] = (i + 1).min(n - 1);
             frac[a] = u - i as f64;
         }
+        // The eight corners: the lower sample's index plus, per axis, the step to the upper
+        // one (zero along an axis with one sample).
+        let [nx, ny, _] = self.dims;
+        let base = 3 * (lower[0] + nx * (lower[1] + ny * lower[2]));
+        let step = [
+            3 * (upper[0] - lower[0]),
+            3 * nx * (upper[1] - lower[1]),
+            3 * nx * ny * (upper[2] - lower[2]),
+        ];
         let mut v = [0.0; 3];
-        for corner in 0..8 {
+        for corner in 0..8usize {
             let mut w = 1.0;
-            let mut idx = [0usize; 3];
+            let mut idx = base;
             for a in 0..3 {
                 if corner >> a & 1 == 1 {
                     w *= frac[a];
-                    idx[a] = upper[a];
+                    idx += step[a];
                 } else {
                     w *= 1.0 - frac[a];
-                    idx[a] = lower[a];
                 }
             }
             if w == 0.0 {
                 continue;
             }
-            let s = self.at(idx[0], idx[1], idx[2]);
+            let s = &self.samples[idx..idx + 3];
             for c in 0..3 {
                 v[c] += w * s[c];
             }

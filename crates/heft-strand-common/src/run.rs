@@ -104,6 +104,7 @@ impl Ambient<'_> {
     }
 
     /// The wind velocity at `x` (zero without wind), m/s.
+    #[inline]
     pub fn wind(&self, x: V3) -> V3 {
         match self.wind {
             Some((w0, w1, frac, _)) => add(scale(w0.sample(x), 1.0 - frac), scale(w1.sample(x), frac)),
