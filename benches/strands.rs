@@ -1,4 +1,4 @@
-//! Strand throughput: `xpbd.strand`, `strand.verlet` and `strand.euler` called through their
+//! Strand throughput: `xpbd.strand`, `xpbd.strand_f32`, `strand.verlet` and `strand.euler` called through their
 //! plugin function tables, against the same chains built in rapier3d (a general-purpose
 //! rigid-body engine from crates.io) with spherical impulse joints. Before the benches it prints
 //! the first-mode frequency of a hanging chain measured in `xpbd.strand` and in rapier3d, with
@@ -17,16 +17,20 @@
 //!   on an anchor swaying 2 cm at 0.5 Hz along X, 24 frames of 20 substeps at 24 fps
 //!   (h = 1/480 s). rapier3d takes about half a minute for those 480 steps of 32768 bodies, so
 //!   it runs the same chains at the same h for 2 frames (40 steps) a call.
-//! - `strand_1x257`: one long chain, 24 frames of 20 substeps for every engine. The contract
-//!   caps `segments` at 256, so the longest strand a node carries has 257 particles (not the
-//!   1024 of the example).
+//! - `strand_1x257`: one long chain, 24 frames of 20 substeps for every engine. XPBD with one
+//!   sweep a substep carries a chain's weight only with a top-segment stretch of about
+//!   h^2 g (n - 1) (the node notes): at this h a 0.4 m chain of 257 particles already hangs with
+//!   its top segment about 7 rest lengths long, and a longer one would pass the blow-up limit of
+//!   10, so the long chain stays at 257 particles (the contract allows 4097).
 //! - A method whose stability limit is below h (`strand.euler`'s explicit springs at both sizes,
 //!   `strand.verlet`'s explicit bending on the long chain) runs at the fewest substeps its limit
 //!   allows plus 25 %, over fewer frames (at least one) to keep a call near 480 substeps; the
 //!   schedule is printed before each bench. The rate per particle-substep is what compares.
 //!
 //! Everything runs on one thread: the strand nodes are single-threaded, and rapier3d is built
-//! without its `parallel` feature. No `-C target-cpu` is set, so x86-64 builds use SSE2 only.
+//! without its `parallel` feature. No `-C target-cpu` is set: the XPBD nodes pick AVX2 at run
+//! time where the CPU has it (`HEFT_SIMD=portable` forces the SSE2 baseline); the other nodes
+//! and rapier3d run on the SSE2 baseline.
 //!
 //! Peer model (rapier3d 0.36, f32): each particle but the root is a dynamic body with a ball's
 //! mass properties (mass = the node's lumped particle mass, inertia of a 2 mm ball) and no

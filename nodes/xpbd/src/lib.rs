@@ -11,6 +11,6 @@
 pub mod solver;
 pub mod strand;
 
-pub use strand::{Xpbd, XpbdStrand, XpbdStrandF32};
+pub use strand::{Precision, Xpbd, XpbdNode, XpbdStrand, XpbdStrandF32};
 
 heft_node_sdk::export_plugin!(name: "xpbd", nodes: [XpbdStrand, XpbdStrandF32]);

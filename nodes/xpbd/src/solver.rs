@@ -32,11 +32,15 @@
 //! touches it any more), so each particle's data is loaded once per substep.
 //!
 //! Layout: strands are grouped `N` at a time ("lanes"). For each particle index `i` of a group
-//! the x, y and z of its `N` strands are contiguous (`[[f64; N]; 3]`), so the inner loops run
-//! the same arithmetic on all lanes with no branches and the compiler vectorises them. Gauss-
-//! Seidel along a strand is sequential in `i`; the lanes give the parallelism. Every lane's
-//! arithmetic is the same sequence of IEEE operations whatever `N` is (Rust neither reassociates
-//! nor contracts floating-point operations), so a strand's result does not depend on its group.
+//! the position and the step of its `N` strands are stored x, y, z rows of `N` lanes
+//! ([`Particle`]: `[[[T; N]; 3]; 2]`), so the inner loops run the same arithmetic on all lanes
+//! with no branches and the compiler vectorises them. Gauss-Seidel along a strand is sequential
+//! in `i`; the lanes give the parallelism. Every lane's arithmetic is the same sequence of IEEE
+//! operations whatever `N` is and whatever instruction set runs it (Rust neither reassociates
+//! nor contracts floating-point operations), so a strand's result depends neither on its group
+//! nor on the CPU. The node runs the substeps through `pulp`, which compiles them once per
+//! instruction set and picks the widest the CPU has at run time; every function on the substep
+//! path is `#[inline(always)]` so that it is compiled inside that choice.
 //!
 //! Precision: the lanes hold [`Real`] numbers, f64 (`xpbd.strand`) or f32
 //! (`xpbd.strand_f32`), as positions relative to a per-strand origin: the strand's particle 0 at
@@ -86,55 +90,40 @@ pub trait Real:
     fn wide(self) -> f64;
     /// Square root (correctly rounded, IEEE).
     fn sqrt(self) -> Self;
-    /// The larger of two values (`self` if either is NaN... see `f64::max`).
+    /// The larger of two values (the other one when one is NaN, as `f64::max`).
     fn max(self, other: Self) -> Self;
 }
 
-impl Real for f64 {
-    const ZERO: f64 = 0.0;
-    const ONE: f64 = 1.0;
-    const TINY_SQ: f64 = 1.0e-300;
-    const EPSILON: f64 = f64::EPSILON;
-    #[inline(always)]
-    fn of(x: f64) -> f64 {
-        x
-    }
-    #[inline(always)]
-    fn wide(self) -> f64 {
-        self
-    }
-    #[inline(always)]
-    fn sqrt(self) -> f64 {
-        f64::sqrt(self)
-    }
-    #[inline(always)]
-    fn max(self, other: f64) -> f64 {
-        f64::max(self, other)
-    }
+/// `Real` for a float type, its smallest squared length given.
+macro_rules! real {
+    ($t:ty, $tiny:expr) => {
+        impl Real for $t {
+            const ZERO: $t = 0.0;
+            const ONE: $t = 1.0;
+            const TINY_SQ: $t = $tiny;
+            const EPSILON: f64 = <$t>::EPSILON as f64;
+            #[inline(always)]
+            fn of(x: f64) -> $t {
+                x as $t
+            }
+            #[inline(always)]
+            fn wide(self) -> f64 {
+                f64::from(self)
+            }
+            #[inline(always)]
+            fn sqrt(self) -> $t {
+                <$t>::sqrt(self)
+            }
+            #[inline(always)]
+            fn max(self, other: $t) -> $t {
+                <$t>::max(self, other)
+            }
+        }
+    };
 }
 
-impl Real for f32 {
-    const ZERO: f32 = 0.0;
-    const ONE: f32 = 1.0;
-    const TINY_SQ: f32 = 1.0e-36;
-    const EPSILON: f64 = f32::EPSILON as f64;
-    #[inline(always)]
-    fn of(x: f64) -> f32 {
-        x as f32
-    }
-    #[inline(always)]
-    fn wide(self) -> f64 {
-        f64::from(self)
-    }
-    #[inline(always)]
-    fn sqrt(self) -> f32 {
-        f32::sqrt(self)
-    }
-    #[inline(always)]
-    fn max(self, other: f32) -> f32 {
-        f32::max(self, other)
-    }
-}
+real!(f64, 1.0e-300);
+real!(f32, 1.0e-36);
 
 /// One vector per lane: x, y, z, each `[T; N]`.
 pub type Lanes3<T, const N: usize> = [[T; N]; 3];
