@@ -274,9 +274,12 @@ fn predict<T: Real, const N: usize>(
         }
     }
     if let Some(w) = inp.wind {
+        // A local copy, as for the base in `substep`: otherwise the compiler, unable to tell
+        // the wind slice from the steps, goes lane by lane.
+        let wi = w[i];
         for k in 0..3 {
             for l in 0..N {
-                s[k][l] += w[i][k][l];
+                s[k][l] += wi[k][l];
             }
         }
     }
