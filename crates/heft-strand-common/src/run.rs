@@ -37,6 +37,20 @@ pub trait Method: Sized {
         forces::elastic_energy(setup, state)
     }
 
+    /// Whether `frame` leaves the state in its `state` argument: true by default. A method that
+    /// keeps the state in a layout of its own may answer false and skip that copy; the frame
+    /// loop then has [`Method::store`] write the positions and velocities straight into the
+    /// output frame, and into `state` only when the loop reads it (a blow-up check that the
+    /// method cannot rule out, colliders).
+    fn fills_state(&self) -> bool {
+        true
+    }
+
+    /// Writes the positions and velocities of the state the last `frame` left, strand-major,
+    /// three values a particle, m and m/s. Called only when [`Method::fills_state`] is false;
+    /// by default it writes nothing.
+    fn store(&self, _x: &mut [f64], _v: &mut [f64]) {}
+
     /// Total linear momentum (N s), kinetic and gravitational energy (J) of `state`, as
     /// [`forces::momentum_and_energy`] defines them (the default); a method may give them from
     /// its own layout when that is faster.
@@ -503,7 +517,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
     }
 
     let mut method = M::new(setup);
-    write_frame(io, 0, setup, &state, &method)?;
+    write_frame(io, 0, setup, &state, &method, true)?;
 
     let substeps = setup.substeps;
     let dt = tl.dt();
@@ -568,10 +582,19 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             tables: &tables,
         };
         method.frame(setup, &mut state, &env);
+        let mut filled = method.fills_state();
+        let mut fill = |state: &mut State| {
+            if !filled {
+                method.store(state.x.as_flattened_mut(), state.v.as_flattened_mut());
+                filled = true;
+            }
+        };
         if !method.surely_intact(setup, &state) {
+            fill(&mut state);
             check_blow_up::<M>(setup, &state, &tl, i, h, wind_used)?;
         }
         if pinned_inside.is_none() && !tables.colliders[substeps].is_empty() {
+            fill(&mut state);
             let c = &tables.colliders[substeps];
             let inside = state
                 .x
@@ -582,7 +605,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                 pinned_inside = Some(tl.frame_number(i));
             }
         }
-        write_frame(io, i, setup, &state, &method)?;
+        write_frame(io, i, setup, &state, &method, filled)?;
     }
     if let Some(f) = pinned_inside {
         io.warn(format!(
@@ -872,17 +895,26 @@ fn check_blow_up<M: Method>(
     }
 }
 
+/// Writes frame `i` of every output: from `state` when `filled`, else positions and velocities
+/// straight from the method ([`Method::store`]).
 fn write_frame<M: Method>(
     io: &mut Io<'_>,
     i: usize,
     setup: &Setup,
     state: &State,
     method: &M,
+    filled: bool,
 ) -> Result<(), NodeError> {
     let elastic = method.elastic_energy(setup, state);
     let n = state.x.len();
-    io.output("positions")?.0[i * 3 * n..(i + 1) * 3 * n].copy_from_slice(state.x.as_flattened());
-    io.output("velocities")?.0[i * 3 * n..(i + 1) * 3 * n].copy_from_slice(state.v.as_flattened());
+    let frame = i * 3 * n..(i + 1) * 3 * n;
+    if filled {
+        io.output("positions")?.0[frame.clone()].copy_from_slice(state.x.as_flattened());
+        io.output("velocities")?.0[frame].copy_from_slice(state.v.as_flattened());
+    } else {
+        let (x, v) = io.output_pair("positions", "velocities")?;
+        method.store(&mut x[frame.clone()], &mut v[frame]);
+    }
     let (p, ke, pe) = method.momentum_and_energy(setup, state);
     io.output("momentum")?.0[3 * i..3 * i + 3].copy_from_slice(&p);
     let e = ke + pe + elastic;

@@ -579,8 +579,9 @@ impl<T: Real, const N: usize> Lanes<T, N> {
         }
     }
 
-    /// Stores world positions o + x and the velocities v = s (1 / h) (in f64).
-    pub fn store(&self, x: &mut [[f64; 3]], v: &mut [[f64; 3]], h: f64) {
+    /// Stores world positions o + x and the velocities v = s (1 / h) (in f64), strand-major,
+    /// three values a particle.
+    pub fn store(&self, x: &mut [f64], v: &mut [f64], h: f64) {
         let n = self.particles;
         let inv_h = 1.0 / h;
         for s in 0..self.strands {
@@ -588,8 +589,11 @@ impl<T: Real, const N: usize> Lanes<T, N> {
             let o = self.origin[g];
             for i in 0..n {
                 let [a, b] = &self.x[g * n + i];
-                x[s * n + i] = [0, 1, 2].map(|k| o[k][l] + a[k][l].wide());
-                v[s * n + i] = [0, 1, 2].map(|k| b[k][l].wide() * inv_h);
+                let at = 3 * (s * n + i);
+                for k in 0..3 {
+                    x[at + k] = o[k][l] + a[k][l].wide();
+                    v[at + k] = b[k][l].wide() * inv_h;
+                }
             }
         }
     }
@@ -741,7 +745,7 @@ mod tests {
         let mut lanes = Lanes::<f64, 4>::new(strands, particles);
         lanes.load(&x, &v, h);
         let (mut x2, mut v2) = (vec![[0.0; 3]; x.len()], vec![[0.0; 3]; x.len()]);
-        lanes.store(&mut x2, &mut v2, h);
+        lanes.store(x2.as_flattened_mut(), v2.as_flattened_mut(), h);
         assert_eq!(x, x2);
         for (a, b) in v.iter().zip(&v2) {
             for k in 0..3 {

@@ -171,6 +171,8 @@ struct Group<T: Real, const N: usize> {
     loaded: bool,
     /// The figures of the state the last frame left (`None` before the first frame).
     summary: Option<Summary>,
+    /// The substep of the last frame (the lanes hold h v).
+    stored_h: f64,
 }
 
 impl<T: Real, const N: usize> Group<T, N> {
@@ -189,6 +191,7 @@ impl<T: Real, const N: usize> Group<T, N> {
             near: Vec::with_capacity(3),
             loaded: false,
             summary: None,
+            stored_h: 1.0,
             lanes,
         }
     }
@@ -232,7 +235,8 @@ impl<T: Real, const N: usize> Group<T, N> {
                 reorigin,
             });
         }
-        self.lanes.store(&mut state.x, &mut state.v, h);
+        // The state stays in the lanes: the frame loop asks for it through `Method::store`.
+        self.stored_h = h;
         struct Figures<'a, T: Real, const N: usize>(&'a Lanes<T, N>, SummaryModel<'a>);
         impl<T: Real, const N: usize> pulp::WithSimd for Figures<'_, T, N> {
             type Output = Summary;
@@ -495,6 +499,22 @@ impl<T: Real> Method for Xpbd<T> {
             Engine::L4(e) => e.frame(self.arch, setup, state, env, c, shared),
             Engine::L8(e) => e.frame(self.arch, setup, state, env, c, shared),
             Engine::L16(e) => e.frame(self.arch, setup, state, env, c, shared),
+        }
+    }
+
+    /// The state stays in the lanes between frames.
+    fn fills_state(&self) -> bool {
+        false
+    }
+
+    /// From the lanes.
+    fn store(&self, x: &mut [f64], v: &mut [f64]) {
+        match &self.engine {
+            Engine::L1(e) => e.lanes.store(x, v, e.stored_h),
+            Engine::L2(e) => e.lanes.store(x, v, e.stored_h),
+            Engine::L4(e) => e.lanes.store(x, v, e.stored_h),
+            Engine::L8(e) => e.lanes.store(x, v, e.stored_h),
+            Engine::L16(e) => e.lanes.store(x, v, e.stored_h),
         }
     }
 
