@@ -102,7 +102,7 @@ stiff strands the stretch term mostly measures the sweep's residual stretch.\n"
 
 const NOTES: &str = concat!(
     shared_notes!(),
-    "Precision: f64 lanes. `xpbd.strand_f32` is the same method with f32 lanes, about 1.7 times as fast."
+    "Precision: f64 lanes. `xpbd.strand_f32` is the same method with f32 lanes, 1.5 to 1.9 times as fast."
 );
 
 const NOTES_F32: &str = concat!(
@@ -115,7 +115,7 @@ const NOTES_F32: &str = concat!(
      to about 1e-5 of M v over a frame (1e-12 in f64), the swing of a pendulum matches `xpbd.strand` to 1e-4, a \
      busy scene stays within 3e-6 m of it over 2 s, and the stretch energy of very stiff strands (1/2 k \
      (l - l0)^2 with k = 1e9 N/m) is dominated by that rounding. Invisible in animation; use `xpbd.strand` for \
-     analysis and for very stiff strands. About 1.7 times as fast: twice the lanes per SIMD register."
+     analysis and for very stiff strands. 1.5 to 1.9 times as fast: twice the lanes per SIMD register."
 );
 
 impl<T: Precision> Node for XpbdNode<T> {
