@@ -82,24 +82,11 @@ pub fn bending_energy(x: &[V3], c: f64) -> f64 {
 
 /// Stretch plus bending energy of every strand, J (the default elastic energy of a method).
 pub fn elastic_energy(setup: &Setup, state: &State) -> f64 {
-    let (k, l0, c) = (setup.spring_k, setup.rest_length, setup.bending_k);
-    let mut e = 0.0;
-    for x in state.x.chunks_exact(setup.particles) {
-        // One pass per strand, the same sums as `stretch_energy` and `bending_energy`.
-        let (mut es, mut eb) = (0.0, 0.0);
-        for w in x.windows(2) {
-            let d = crate::geometry::norm(sub(w[1], w[0])) - l0;
-            es += 0.5 * k * d * d;
-        }
-        if c != 0.0 {
-            for w in x.windows(3) {
-                let b = add(sub(w[0], scale(w[1], 2.0)), w[2]);
-                eb += 0.5 * c * dot(b, b);
-            }
-        }
-        e += es + eb;
-    }
-    e
+    state
+        .x
+        .chunks_exact(setup.particles)
+        .map(|x| stretch_energy(x, setup.spring_k, setup.rest_length) + bending_energy(x, setup.bending_k))
+        .sum()
 }
 
 /// Bending energy only, of every strand, J (for methods whose segments are rigid).
@@ -111,52 +98,23 @@ pub fn bending_energy_all(setup: &Setup, state: &State) -> f64 {
         .sum()
 }
 
-/// Kinetic energy sum 1/2 m |v|^2 and gravitational energy -sum m g . x (= m g z), J.
-pub fn kinetic_and_gravity(setup: &Setup, state: &State) -> (f64, f64) {
-    let p = setup.particles;
-    let mut ke = 0.0;
-    let mut pe = 0.0;
-    for (xs, vs) in state.x.chunks_exact(p).zip(state.v.chunks_exact(p)) {
+/// Total linear momentum sum m_i v_i (N s), kinetic energy sum 1/2 m |v|^2 and gravitational
+/// energy -sum m g . x (J), in one pass.
+pub fn momentum_and_energy(setup: &Setup, state: &State) -> (V3, f64, f64) {
+    let mut mom = [0.0; 3];
+    let (mut ke, mut pe) = (0.0, 0.0);
+    for (xs, vs) in state
+        .x
+        .chunks_exact(setup.particles)
+        .zip(state.v.chunks_exact(setup.particles))
+    {
         for ((x, v), &m) in xs.iter().zip(vs).zip(&setup.mass) {
+            mom = axpy(mom, m, *v);
             ke += 0.5 * m * dot(*v, *v);
             pe -= m * dot(setup.gravity, *x);
         }
     }
-    (ke, pe)
-}
-
-/// Total linear momentum sum m_i v_i (N s), kinetic energy sum 1/2 m |v|^2 and gravitational
-/// energy -sum m g . x (J), in one pass.
-pub fn momentum_and_energy(setup: &Setup, state: &State) -> (V3, f64, f64) {
-    let p = setup.particles;
-    let g = setup.gravity;
-    // Four partial sums of each (particles 4 apart), so the additions are independent.
-    let mut mom = [[0.0; 4]; 3];
-    let (mut ke, mut pe) = ([0.0; 4], [0.0; 4]);
-    for (xs, vs) in state.x.chunks_exact(p).zip(state.v.chunks_exact(p)) {
-        for ((x, v), m) in xs.chunks(4).zip(vs.chunks(4)).zip(setup.mass.chunks(4)) {
-            for j in 0..m.len() {
-                for k in 0..3 {
-                    mom[k][j] += m[j] * v[j][k];
-                }
-                ke[j] += 0.5 * m[j] * dot(v[j], v[j]);
-                pe[j] -= m[j] * dot(g, x[j]);
-            }
-        }
-    }
-    let sum4 = |a: [f64; 4]| (a[0] + a[1]) + (a[2] + a[3]);
-    ([sum4(mom[0]), sum4(mom[1]), sum4(mom[2])], sum4(ke), sum4(pe))
-}
-
-/// Total linear momentum sum m_i v_i, N s.
-pub fn momentum(setup: &Setup, state: &State) -> V3 {
-    let mut out = [0.0; 3];
-    for vs in state.v.chunks_exact(setup.particles) {
-        for (v, &m) in vs.iter().zip(&setup.mass) {
-            out = axpy(out, m, *v);
-        }
-    }
-    out
+    (mom, ke, pe)
 }
 
 #[cfg(test)]
