@@ -305,8 +305,7 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
         } = self;
         if reorigin {
             // o += x_0 (exact in f64), x -= x_0: relative positions stay within a strand
-            // length of zero as the strand travels.
-            // The steps do not change.
+            // length of zero as the strand travels. The steps do not change.
             let d = x[0][0];
             for l in 0..N {
                 for c in 0..3 {
