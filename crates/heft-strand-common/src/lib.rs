@@ -22,6 +22,8 @@ pub mod geometry;
 pub mod run;
 pub mod setup;
 pub mod spec;
+#[cfg(feature = "testing")]
+pub mod testing;
 
 pub use geometry::{Colliders, Pose, RigidVelocity, Sphere, Track, V3};
 pub use run::{
