@@ -7,7 +7,8 @@
 //!   lengths, spring and bending constants, damping, gravity, pins, placement, colliders).
 //! - [`State`]: positions and velocities, strand-major.
 //! - [`FrameEnv`]: what a method needs inside one frame: step size, pin targets and anchor
-//!   velocity at each substep boundary, collider projection, gravity, damping and wind
+//!   velocity at each substep boundary, collider projection (spheres and tapered capsules,
+//!   [`Collider`]), gravity, damping and wind
 //!   ([`Ambient`]; the wind field is read with `heft_node_sdk::field::FieldView`).
 //! - [`Method`]: advances all strands by one frame.
 //! - [`evaluate`]: the whole frame loop (initial state, outputs, momentum, energy, blow-up
@@ -22,10 +23,10 @@ pub mod geometry;
 pub mod run;
 pub mod setup;
 pub mod spec;
-#[cfg(feature = "testing")]
+#[cfg(any(test, feature = "testing"))]
 pub mod testing;
 
-pub use geometry::{Colliders, Pose, RigidVelocity, Sphere, Track, V3};
+pub use geometry::{Capsule, CapsuleContact, Collider, Colliders, Pose, RigidVelocity, Sphere, Track, V3};
 pub use run::{
     Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, FrameEnv, Method, State, blow_up_cause, blow_up_message,
     blown_strand, evaluate, evaluate_with, hanging_stretch, rest_state,

@@ -5,7 +5,8 @@ use heft_node_sdk::{Io, NodeError, Params, Series, Timeline};
 
 use crate::forces;
 use crate::geometry::{
-    Colliders, Pose, RigidVelocity, Sphere, Track, V3, add, axpy, cross, dot, norm, read_transform, scale, sub,
+    Collider, Colliders, Pose, RigidVelocity, Sphere, Track, V3, add, axpy, cross, dot, norm, read_transform, scale,
+    sub,
 };
 use crate::setup::{Pin, Setup};
 use heft_node_sdk::field::FieldView;
@@ -167,6 +168,7 @@ pub struct FrameEnv<'a> {
     anchor_velocity_ends: [(V3, V3); 2],
     end: Option<Track>,
     collider_tracks: [Option<Track>; 3],
+    collider_end_tracks: [Option<Track>; 3],
     wind: Option<(FieldView<'a>, FieldView<'a>)>,
     tables: &'a Tables,
 }
@@ -276,7 +278,7 @@ impl<'a> FrameEnv<'a> {
 
     /// Projects a particle out of the colliders at an arbitrary fraction of the frame.
     pub fn project_at(&self, frac: f64, x: &mut V3, v: &mut V3) -> bool {
-        colliders_at(self.setup, &self.collider_tracks, frac).project(x, v)
+        colliders_at(self.setup, &self.collider_tracks, &self.collider_end_tracks, frac).project(x, v)
     }
 
     /// True when a wind field is connected.
@@ -304,17 +306,29 @@ impl<'a> FrameEnv<'a> {
     }
 }
 
-fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], frac: f64) -> Colliders {
+/// The colliders at fraction `frac` of the frame: collider k is a sphere on `tracks[k]`, or,
+/// when `ends[k]` is connected too, a capsule from the start point on `tracks[k]` to the end
+/// point on `ends[k]`. Each point moves with its transform's rigid velocity over the frame.
+fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], ends: &[Option<Track>; 3], frac: f64) -> Colliders {
     let mut c = Colliders::default();
     for (k, t) in tracks.iter().enumerate() {
         if let Some(t) = t {
             let p = t.pose(frac);
-            let centre = p.apply(setup.colliders[k].offset);
+            let params = &setup.colliders[k];
+            let centre = p.apply(params.offset);
             let velocity = add(t.linear, cross(t.angular, sub(centre, p.t)));
-            c.spheres[c.count] = Sphere {
-                centre,
-                radius: setup.colliders[k].radius,
-                velocity,
+            c.shapes[c.count] = match &ends[k] {
+                None => Collider::Sphere(Sphere {
+                    centre,
+                    radius: params.radius,
+                    velocity,
+                }),
+                Some(e) => {
+                    let pe = e.pose(frac);
+                    let end = pe.apply(params.end_offset);
+                    let end_velocity = add(e.linear, cross(e.angular, sub(end, pe.t)));
+                    Collider::capsule(centre, end, params.radius, params.end_radius, velocity, end_velocity)
+                }
             };
             c.count += 1;
         }
@@ -324,6 +338,8 @@ fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], frac: f64) -> Collid
 
 /// The collider input names, in order.
 const COLLIDER_INPUTS: [&str; 3] = ["collider_1", "collider_2", "collider_3"];
+/// The inputs carrying the colliders' end points, in order.
+const COLLIDER_END_INPUTS: [&str; 3] = ["collider_1_end", "collider_2_end", "collider_3_end"];
 
 /// The connected inputs of one evaluation.
 struct Inputs<'a> {
@@ -331,6 +347,7 @@ struct Inputs<'a> {
     anchor_b: Option<Series<'a>>,
     wind: Option<Series<'a>>,
     colliders: [Option<Series<'a>>; 3],
+    collider_ends: [Option<Series<'a>>; 3],
     initial_positions: Option<Series<'a>>,
     initial_velocities: Option<Series<'a>>,
 }
@@ -429,6 +446,11 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             connected(io, "collider_2", frames, Some(7))?,
             connected(io, "collider_3", frames, Some(7))?,
         ],
+        collider_ends: [
+            connected(io, "collider_1_end", frames, Some(7))?,
+            connected(io, "collider_2_end", frames, Some(7))?,
+            connected(io, "collider_3_end", frames, Some(7))?,
+        ],
         initial_positions: connected(io, "initial_positions", 1, Some(3 * n))?,
         initial_velocities: connected(io, "initial_velocities", 1, Some(3 * n))?,
     };
@@ -453,6 +475,16 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             return Err(NodeError::new(format!(
                 "output `{name}` has {w} values per frame and {} values, expected {width} per frame for {frames} frames",
                 buf.len()
+            )));
+        }
+    }
+    for k in 0..3 {
+        if inputs.collider_ends[k].is_some() && inputs.colliders[k].is_none() {
+            let (start, end) = (COLLIDER_INPUTS[k], COLLIDER_END_INPUTS[k]);
+            return Err(NodeError::new(format!(
+                "`{end}` is connected but `{start}` is not: capsule collider {} runs from `{start}` to `{end}`; \
+                 connect `{start}` too (alone it makes a sphere)",
+                k + 1
             )));
         }
     }
@@ -497,12 +529,18 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
         }
     }
     let mut tracks_c: [Option<Track>; 3] = [None; 3];
+    let mut tracks_e: [Option<Track>; 3] = [None; 3];
     for (k, s) in inputs.colliders.iter().enumerate() {
         if let Some(s) = s {
             tracks_c[k] = Some(still(s, COLLIDER_INPUTS[k], &tl)?);
         }
     }
-    let c0 = colliders_at(setup, &tracks_c, 0.0);
+    for (k, s) in inputs.collider_ends.iter().enumerate() {
+        if let Some(s) = s {
+            tracks_e[k] = Some(still(s, COLLIDER_END_INPUTS[k], &tl)?);
+        }
+    }
+    let c0 = colliders_at(setup, &tracks_c, &tracks_e, 0.0);
     let mut pinned_inside: Option<i64> = None;
     if !c0.is_empty() {
         for (idx, (x, v)) in state.x.iter_mut().zip(state.v.iter_mut()).enumerate() {
@@ -545,6 +583,12 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                 None => None,
             };
         }
+        for (k, s) in inputs.collider_ends.iter().enumerate() {
+            tracks_e[k] = match s {
+                Some(s) => Some(track(s, COLLIDER_END_INPUTS[k], &tl, i)?),
+                None => None,
+            };
+        }
         let wind = match &inputs.wind {
             Some(s) => {
                 let view = |f: usize| {
@@ -565,7 +609,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                     tables.pose_a[k]
                 };
             }
-            tables.colliders[k] = colliders_at(setup, &tracks_c, frac);
+            tables.colliders[k] = colliders_at(setup, &tracks_c, &tracks_e, frac);
         }
         let env = FrameEnv {
             setup,
@@ -578,6 +622,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             anchor_velocity_ends,
             end,
             collider_tracks: tracks_c,
+            collider_end_tracks: tracks_e,
             wind,
             tables: &tables,
         };

@@ -27,13 +27,20 @@ pub enum Placement {
     Ring,
 }
 
-/// A sphere collider's parameters.
+/// A collider's parameters: a sphere on its transform, or, when its end transform is
+/// connected, a capsule from the start point to the end point.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ColliderParams {
-    /// Radius, m.
+    /// Radius of the sphere, or at the start of the capsule, m.
     pub radius: f64,
-    /// Centre in the collider transform's local frame, m.
+    /// Centre of the sphere, or the start of the capsule, in the collider transform's local
+    /// frame, m.
     pub offset: V3,
+    /// Radius at the end of the capsule, m: `collider_k_end_radius`, or `radius` when that
+    /// parameter is 0 (its default).
+    pub end_radius: f64,
+    /// The end of the capsule in the end transform's local frame, m.
+    pub end_offset: V3,
 }
 
 /// The strand model derived from parameters. Every strand of the node shares it. Fields are
@@ -89,7 +96,7 @@ pub struct Setup {
     /// Where the last particle of each strand is pinned for both_ends, in the end anchor's
     /// local frame (placement + end_offset), m.
     pub end_offsets: Vec<V3>,
-    /// The three sphere colliders' parameters.
+    /// The three colliders' parameters.
     pub colliders: [ColliderParams; 3],
 }
 
@@ -171,10 +178,15 @@ impl Setup {
         let mut colliders = [ColliderParams {
             radius: 0.0,
             offset: [0.0; 3],
+            end_radius: 0.0,
+            end_offset: [0.0; 3],
         }; 3];
         for (k, c) in colliders.iter_mut().enumerate() {
             c.radius = non_negative(&format!("collider_{}_radius", k + 1))?;
             c.offset = vec(&format!("collider_{}_offset", k + 1))?;
+            let end_radius = non_negative(&format!("collider_{}_end_radius", k + 1))?;
+            c.end_radius = if end_radius == 0.0 { c.radius } else { end_radius };
+            c.end_offset = vec(&format!("collider_{}_end_offset", k + 1))?;
         }
 
         let l0 = length / segments as f64;

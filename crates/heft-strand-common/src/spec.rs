@@ -2,8 +2,9 @@
 
 use heft_node_sdk::{Dimension, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, STANDARD_GRAVITY};
 
-/// Input port names, in spec order.
-pub const INPUTS: [&str; 8] = [
+/// Input port names, in spec order. The collider end inputs come last, after the `initial_*`
+/// inputs, so that the input widths [`output_points`] reads keep their places.
+pub const INPUTS: [&str; 11] = [
     "anchor",
     "anchor_b",
     "wind",
@@ -12,6 +13,9 @@ pub const INPUTS: [&str; 8] = [
     "collider_3",
     "initial_positions",
     "initial_velocities",
+    "collider_1_end",
+    "collider_2_end",
+    "collider_3_end",
 ];
 
 /// Output port names, in spec order.
@@ -143,7 +147,10 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             len,
             0.1,
             (0.0, 100.0),
-            &format!("Radius of sphere collider {k}."),
+            &format!(
+                "Radius of collider {k}: of the sphere, or at the start of the capsule when `collider_{k}_end` is \
+                 connected."
+            ),
         ));
     }
     for k in 1..=3 {
@@ -152,11 +159,39 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             len,
             [0.0; 3],
             (-100.0, 100.0),
-            &format!("Centre of sphere collider {k} in its transform's local frame."),
+            &format!(
+                "Centre of collider {k}'s sphere, or the start of its capsule, in the local frame of `collider_{k}`."
+            ),
+        ));
+    }
+    for k in 1..=3 {
+        params.push(ParamSpec::number(
+            &format!("collider_{k}_end_radius"),
+            len,
+            0.0,
+            (0.0, 100.0),
+            &format!(
+                "Radius at the end of capsule collider {k} (used only when `collider_{k}_end` is connected); the \
+                 radius varies linearly along the capsule from `collider_{k}_radius` at the start. 0 (the default) \
+                 means the same as `collider_{k}_radius`, a straight capsule; for a pointed end give a small radius \
+                 (1 mm). Where one end's sphere contains the other's, the capsule is that sphere."
+            ),
+        ));
+    }
+    for k in 1..=3 {
+        params.push(ParamSpec::vec3(
+            &format!("collider_{k}_end_offset"),
+            len,
+            [0.0; 3],
+            (-100.0, 100.0),
+            &format!(
+                "The end of capsule collider {k} in the local frame of `collider_{k}_end` (used only when that \
+                 input is connected)."
+            ),
         ));
     }
     let tr = |n: &str, doc: &str| PortSpec::new(n, PortKind::Transform, len, doc).optional();
-    let inputs = vec![
+    let mut inputs = vec![
         tr("anchor", "The transform the pins ride on (a head, a hip)."),
         tr(
             "anchor_b",
@@ -169,9 +204,18 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             "Wind field (heft_node_sdk::field layout) sampled at the particles.",
         )
         .optional(),
-        tr("collider_1", "Transform carrying sphere collider 1."),
-        tr("collider_2", "Transform carrying sphere collider 2."),
-        tr("collider_3", "Transform carrying sphere collider 3."),
+        tr(
+            "collider_1",
+            "Transform carrying collider 1: a sphere, or the start of a capsule when `collider_1_end` is connected.",
+        ),
+        tr(
+            "collider_2",
+            "Transform carrying collider 2: a sphere, or the start of a capsule when `collider_2_end` is connected.",
+        ),
+        tr(
+            "collider_3",
+            "Transform carrying collider 3: a sphere, or the start of a capsule when `collider_3_end` is connected.",
+        ),
         PortSpec::new(
             "initial_positions",
             PortKind::Points,
@@ -187,6 +231,15 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
         )
         .optional(),
     ];
+    for k in 1..=3 {
+        inputs.push(tr(
+            &format!("collider_{k}_end"),
+            &format!(
+                "Transform carrying the end of collider {k}: when connected, collider {k} is a capsule from \
+                 `collider_{k}` to here (a limb, from a joint to its child); `collider_{k}` must be connected too."
+            ),
+        ));
+    }
     let outputs = vec![
         PortSpec::new(
             "positions",

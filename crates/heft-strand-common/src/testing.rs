@@ -234,3 +234,209 @@ impl SplitMix {
         lo + (hi - lo) * (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
     }
 }
+
+/// The signed distance (m, negative inside) of `x` from the tapered capsule from ball
+/// (`start`, `r0`) to ball (`end`, `r1`), computed from its definition as a union of balls, as
+/// a reference independent of `heft_strand_common::Capsule`: min over t in [0, 1] of
+/// |x - c(t)| - r(t), c(t) = start + t (end - start), r(t) = r0 + t (r1 - r0). Outside that is
+/// the distance to the union; inside, minus the depth in the deepest ball, which for this
+/// convex union (the hull of its two end balls) is the distance to its surface: every ball lies
+/// inside, and the ball that the nearest surface point lies on holds x at exactly that depth.
+/// The function of t is convex (a norm of an affine function minus a linear one), so a golden-
+/// section search finds its minimum (Kiefer 1953, "Sequential minimax search for a maximum",
+/// Proc. AMS 4); 200 iterations shrink the bracket below 1e-40.
+pub fn round_cone_distance(x: [f64; 3], start: [f64; 3], end: [f64; 3], r0: f64, r1: f64) -> f64 {
+    let f = |t: f64| {
+        let c = [0, 1, 2].map(|k| start[k] + t * (end[k] - start[k]));
+        let d = [0, 1, 2].map(|k| x[k] - c[k]);
+        (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt() - (r0 + t * (r1 - r0))
+    };
+    let g = (5.0f64.sqrt() - 1.0) / 2.0;
+    let (mut lo, mut hi) = (0.0f64, 1.0f64);
+    let (mut a, mut b) = (hi - g * (hi - lo), lo + g * (hi - lo));
+    let (mut fa, mut fb) = (f(a), f(b));
+    for _ in 0..200 {
+        if fa <= fb {
+            hi = b;
+            (b, fb) = (a, fa);
+            a = hi - g * (hi - lo);
+            fa = f(a);
+        } else {
+            lo = a;
+            (a, fa) = (b, fb);
+            b = lo + g * (hi - lo);
+            fb = f(b);
+        }
+    }
+    f(0.0).min(f(1.0)).min(fa).min(fb)
+}
+
+/// The two end centres and radii of a capsule at one instant: (start, end, r0, r1), m.
+pub type CapsuleShape = ([f64; 3], [f64; 3], f64, f64);
+
+/// A scene for the capsule collider tests, shared by every strand node type's tests: parameter
+/// changes, connected inputs, and where the capsule is at any time (for the checks).
+#[derive(Debug, Clone)]
+pub struct CapsuleScene {
+    pub tl: Timeline,
+    pub changes: Vec<(&'static str, ParamValue)>,
+    pub inputs: Vec<(&'static str, Vec<f64>)>,
+    /// The capsule at time t (s), from the same transforms as the inputs.
+    pub capsule: fn(f64) -> CapsuleShape,
+}
+
+impl CapsuleScene {
+    /// Runs node type `N` on the scene, with `extra` parameter changes on top (a method's
+    /// substeps, say).
+    pub fn run<N: Node>(&self, extra: &[(&'static str, ParamValue)]) -> Result<Run, NodeError> {
+        let changes: Vec<(&'static str, ParamValue)> = self.changes.iter().chain(extra).cloned().collect();
+        run::<N>(&changes, self.tl, &self.inputs)
+    }
+
+    /// The signed distance of particle `i` at `frame` from the capsule at that frame's time, by
+    /// [`round_cone_distance`] (m, negative inside).
+    pub fn distance(&self, run: &Run, frame: usize, i: usize) -> f64 {
+        let (a, b, r0, r1) = (self.capsule)(run.time(frame));
+        round_cone_distance(run.x(frame, i), a, b, r0, r1)
+    }
+
+    /// The least signed distance of any particle for which `free` holds, over every frame, with
+    /// its frame and particle.
+    pub fn deepest(&self, run: &Run, free: impl Fn(usize) -> bool) -> (f64, usize, usize) {
+        let mut worst = (f64::INFINITY, 0, 0);
+        for f in 0..run.frames() {
+            for i in (0..run.n).filter(|&i| free(i)) {
+                let d = self.distance(run, f, i);
+                if d < worst.0 {
+                    worst = (d, f, i);
+                }
+            }
+        }
+        worst
+    }
+}
+
+/// Where the limb of [`limb_scene`] runs: along Y at x = 0.03 m, z = -0.15 m, from y = -0.15 m
+/// to 0.15 m.
+pub const LIMB_X: f64 = 0.03;
+/// See [`LIMB_X`].
+pub const LIMB_Z: f64 = -0.15;
+/// The radius of the straight limb of [`limb_scene`], m.
+pub const LIMB_RADIUS: f64 = 0.05;
+
+/// A still horizontal limb, a capsule from one transform (the shoulder) to another (the elbow),
+/// in the way of a 0.4 m strand of 40 segments and no bending stiffness (a chain) on a still
+/// anchor at the origin, whose plumb line would pass 3 cm inside the limb: the strand starts
+/// clear of it, laid 19 degrees off the vertical towards -X, swings against the limb's -X side
+/// and settles there over 5 s (24 fps), damped at 4 + 2 1/s (damping, relative damping).
+/// Straight: radius 0.05 m; tapered: 0.06 m at the shoulder (y = -0.15 m) to 0.04 m at the
+/// elbow (y = 0.15 m).
+pub fn limb_scene(tapered: bool) -> CapsuleScene {
+    let tl = timeline(24, 120);
+    let (r0, r1) = if tapered { (0.06, 0.04) } else { (LIMB_RADIUS, 0.0) };
+    let changes = vec![
+        int("segments", 40),
+        num("bending_stiffness", 0.0),
+        num("damping", 4.0),
+        vec3("rest_direction", [-0.35, 0.0, -1.0]),
+        num("collider_1_radius", r0),
+        num("collider_1_end_radius", r1),
+    ];
+    let inputs = vec![
+        ("anchor", fixed_anchor(tl, [0.0; 3])),
+        ("collider_1", fixed_anchor(tl, [LIMB_X, -0.15, LIMB_Z])),
+        ("collider_1_end", fixed_anchor(tl, [LIMB_X, 0.15, LIMB_Z])),
+    ];
+    fn straight(_: f64) -> CapsuleShape {
+        (
+            [LIMB_X, -0.15, LIMB_Z],
+            [LIMB_X, 0.15, LIMB_Z],
+            LIMB_RADIUS,
+            LIMB_RADIUS,
+        )
+    }
+    fn tapered_limb(_: f64) -> CapsuleShape {
+        ([LIMB_X, -0.15, LIMB_Z], [LIMB_X, 0.15, LIMB_Z], 0.06, 0.04)
+    }
+    CapsuleScene {
+        tl,
+        changes,
+        inputs,
+        capsule: if tapered { tapered_limb } else { straight },
+    }
+}
+
+/// The speed of the capsule of [`pushed_scene`], m/s.
+pub const PUSH_SPEED: f64 = 0.5;
+
+/// A free strand (0.2 m, 12 segments, 0.05 kg/m) lying still along Y from (0.1, -0.1, 0) with
+/// no gravity and no damping, and a straight capsule of radius 0.05 m along Y whose two ends ride
+/// on two transforms moving at [`PUSH_SPEED`] along +X from x = -0.1 m: its surface reaches the
+/// strand at t = 0.3 s and pushes it on; 1 s at 24 fps, 200 substeps.
+pub fn pushed_scene() -> CapsuleScene {
+    let tl = timeline(24, 24);
+    let changes = vec![
+        choice("pin", "free"),
+        num("gravity", 0.0),
+        num("damping", 0.0),
+        num("relative_damping", 0.0),
+        num("length", 0.2),
+        vec3("rest_direction", [0.0, 1.0, 0.0]),
+        vec3("start_offset", [0.1, -0.1, 0.0]),
+        num("collider_1_radius", 0.05),
+        // The explicit limit of `strand.euler` for this strand is 2.6e-4 s (k = 1.2e4 N/m,
+        // m = 8.3e-4 kg): 200 substeps at 24 fps.
+        int("substeps", 200),
+    ];
+    let inputs = vec![
+        (
+            "collider_1",
+            transform(tl, |t| ([-0.1 + PUSH_SPEED * t, -0.2, 0.0], [0.0, 0.0, 0.0, 1.0])),
+        ),
+        (
+            "collider_1_end",
+            transform(tl, |t| ([-0.1 + PUSH_SPEED * t, 0.2, 0.0], [0.0, 0.0, 0.0, 1.0])),
+        ),
+    ];
+    fn shape(t: f64) -> CapsuleShape {
+        let x = -0.1 + PUSH_SPEED * t;
+        ([x, -0.2, 0.0], [x, 0.2, 0.0], 0.05, 0.05)
+    }
+    CapsuleScene {
+        tl,
+        changes,
+        inputs,
+        capsule: shape,
+    }
+}
+
+/// The elbow of [`forearm_scene`], m.
+pub const ELBOW: [f64; 3] = [0.0, -0.2, -0.25];
+
+/// A forearm sweeping through a hanging strand (the defaults on a still anchor at the origin):
+/// a tapered capsule, 0.04 m at the elbow to 0.03 m at the wrist, from a still elbow transform
+/// at [`ELBOW`] to a wrist transform 0.3 m away that swings about the elbow in the horizontal
+/// plane from -X through +Y (where the strand hangs, 0.2 m from the elbow) to +X in 1.5 s; 2 s
+/// at 24 fps.
+pub fn forearm_scene() -> CapsuleScene {
+    let tl = timeline(24, 48);
+    fn wrist(t: f64) -> [f64; 3] {
+        let a = std::f64::consts::PI * (t / 1.5).min(1.0);
+        [ELBOW[0] - 0.3 * a.cos(), ELBOW[1] + 0.3 * a.sin(), ELBOW[2]]
+    }
+    let changes = vec![num("collider_1_radius", 0.04), num("collider_1_end_radius", 0.03)];
+    let inputs = vec![
+        ("anchor", fixed_anchor(tl, [0.0; 3])),
+        ("collider_1", fixed_anchor(tl, ELBOW)),
+        ("collider_1_end", transform(tl, |t| (wrist(t), [0.0, 0.0, 0.0, 1.0]))),
+    ];
+    fn shape(t: f64) -> CapsuleShape {
+        (ELBOW, wrist(t), 0.04, 0.03)
+    }
+    CapsuleScene {
+        tl,
+        changes,
+        inputs,
+        capsule: shape,
+    }
+}

@@ -108,8 +108,12 @@ impl Node for Euler {
              damping and drag, are the half-step ones (first order), and v_anchor (the anchor's rigid velocity \
              field, interpolated from central differences of its frames) is taken at the same half step. Pinned \
              particles are placed on the anchor at every substep (translation lerp, rotation nlerp between \
-             frames). After every substep particles inside a sphere collider are pushed to its surface and lose \
-             their inward velocity relative to the sphere. \
+             frames). After every substep particles inside a collider are pushed to its nearest surface point \
+             and lose their inward velocity relative to the surface there. A collider is a sphere on \
+             `collider_k`, or, with `collider_k_end` connected, a capsule from `collider_k` to `collider_k_end` \
+             whose radius runs linearly from `collider_k_radius` to `collider_k_end_radius` (a limb: the union of \
+             the spheres along the segment, a cone frustum tangent to the two end spheres plus their caps); its \
+             surface moves with the two ends' velocities, interpolated along it. \
              Stability: explicit, h < 2 / omega_max with omega_max^2 <= (4 k + 16 c) / m for a chain \
              (2 sqrt(k / m) without bending), reduced by damping gamma to h < (sqrt(gamma^2 + 4 omega^2) - \
              gamma) / omega^2. For the defaults (k = 6000 N/m, m = 1.67e-3 kg, c = 2.7 N/m, gamma = 2.5 1/s) \
@@ -120,8 +124,9 @@ impl Node for Euler {
              the limit it says how many substeps are needed; with h well inside it, a segment beyond 10 rest \
              lengths is the strand's physics (too soft or too heavy for its load: more substeps would not help) \
              and the error says so. \
-             Limits: no self-collision or strand-strand contact; no twist; colliders are spheres only, a \
-             particle squeezed between overlapping spheres may stay inside one; pins are not pushed out of \
+             Limits: no self-collision or strand-strand contact; no twist; colliders are spheres and capsules \
+             and act on particles only (a segment may cut through a collider thinner than it is long); a \
+             particle squeezed between overlapping colliders may stay inside one; pins are not pushed out of \
              colliders (a warning says so).",
         );
         for p in &mut spec.params {

@@ -344,8 +344,10 @@ impl Node for Verlet {
              (c / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2 at each interior particle, c = bending_stiffness / l0^3 \
              (central-difference Euler-Bernoulli; Terzopoulos et al. 1987). Pins follow the anchor at every \
              substep; v_anchor is the anchor's rigid velocity field taken half a step back, like the backward \
-             difference it is compared with. Sphere colliders push particles to their surface after every \
-             substep and remove their inward velocity relative to the sphere. Stability: the constraints are \
+             difference it is compared with. Colliders (spheres, or capsules from `collider_k` to \
+             `collider_k_end`, straight or tapered) push particles to their nearest surface point after every \
+             substep and remove their inward velocity relative to the surface there (x_prev is moved to match). \
+             Stability: the constraints are \
              unconditionally stable; the explicit bending term needs h < 2 / omega_b with omega_b^2 <= 16 c / m \
              (161 rad/s for the defaults: h < 1.2e-2 s; a 64-segment strand needs h < 4.4e-4 s), and damping \
              gamma needs h gamma < 2. Limits: the projection along the new segment direction removes kinetic \
@@ -355,7 +357,8 @@ impl Node for Verlet {
              4 passes leave a residual stretch under load \
              that grows as (segments h)^2 (hanging defaults at 24 fps: strain 1.9e-3, 0.7 mm on 0.4 m; \
              32 segments: 1.3e-2), cut quadratically by more substeps; velocities lag half a step (backward \
-             difference); no self-collision, no twist, spheres only; pins are not pushed out of colliders.",
+             difference); no self-collision, no twist; colliders act on particles only; pins are not pushed out of \
+             colliders.",
         )
     }
 

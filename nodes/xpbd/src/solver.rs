@@ -23,9 +23,9 @@
 //!    once with lambda = 0; every correction is added to the step only, so the step stays
 //!    x - x_prev (the position-based velocity) without that difference ever being taken;
 //! 4. x += s; the velocity is s / h (read out at the end of a frame);
-//! 5. colliders: each particle found inside a sphere is pushed to its surface and the inward
-//!    normal component of its velocity (relative to the sphere) removed (its step set to h
-//!    times the new velocity).
+//! 5. colliders: each particle found inside a sphere or capsule is pushed to the nearest point
+//!    of its surface and the inward normal component of its velocity (relative to the surface
+//!    there) removed (its step set to h times the new velocity).
 //!
 //! Steps 1, 3, 4 and 5 run fused in one pass over the particles (a particle is predicted just
 //! before its first constraint, and finished and collided once no constraint of the sweep
@@ -54,7 +54,7 @@
 //! on a 0.3 m strand) would vanish. Everything else (coefficients, pins, colliders, wind) is
 //! computed in f64 and rounded once into the lanes.
 
-use heft_strand_common::Colliders;
+use heft_strand_common::{Collider, Colliders};
 
 use std::fmt::Debug;
 use std::ops::{Add, AddAssign, Div, Mul, Sub, SubAssign};
@@ -92,6 +92,8 @@ pub trait Real:
     fn sqrt(self) -> Self;
     /// The larger of two values (the other one when one is NaN, as `f64::max`).
     fn max(self, other: Self) -> Self;
+    /// The smaller of two values (the other one when one is NaN, as `f64::min`).
+    fn min(self, other: Self) -> Self;
 }
 
 /// `Real` for a float type, its smallest squared length given.
@@ -117,6 +119,10 @@ macro_rules! real {
             #[inline(always)]
             fn max(self, other: $t) -> $t {
                 <$t>::max(self, other)
+            }
+            #[inline(always)]
+            fn min(self, other: $t) -> $t {
+                <$t>::min(self, other)
             }
         }
     };
@@ -232,7 +238,7 @@ pub struct SubstepInput<'a, T, const N: usize> {
     /// h^2 decay drag v_wind(x) per particle and lane, when wind is connected.
     pub wind: Option<&'a [Lanes3<T, N>]>,
     /// Colliders at the end of the substep (world, f64), when any is connected, with the lanes'
-    /// origins and each live sphere's centre relative to each lane's origin.
+    /// origins and each live collider as the lanes' cheap test sees it.
     pub colliders: Option<LaneColliders<'a, T, N>>,
     /// Particles `free.0..free.1` may be collided (pinned ones are not).
     pub free: (usize, usize),
@@ -241,12 +247,31 @@ pub struct SubstepInput<'a, T, const N: usize> {
 /// The colliders of one substep as one lane group sees them.
 #[derive(Debug, Clone, Copy)]
 pub struct LaneColliders<'a, T, const N: usize> {
-    /// The spheres (world, f64).
+    /// The colliders (world, f64).
     pub world: &'a Colliders,
     /// The lanes' origins (world, f64).
     pub origin: &'a Lanes3<f64, N>,
-    /// Per live sphere: its centre relative to each lane's origin, and its radius squared.
-    pub near: &'a [(Lanes3<T, N>, T)],
+    /// Per live collider, in the lanes' numbers: what the cheap test reads.
+    pub near: &'a [Near<T, N>],
+}
+
+/// A live collider as the cheap test in the lanes sees it: a particle is a candidate when it
+/// lies within sqrt(`r2`) of `start` (a sphere) or of the segment from `start` to
+/// `start + axis` (a capsule, which lies inside the straight capsule of its larger radius).
+/// `r2` is conservative: the test only picks the particles that the exact f64 projection
+/// ([`Colliders::project`]) looks at.
+#[derive(Debug, Clone, Copy)]
+pub struct Near<T, const N: usize> {
+    /// The sphere's centre, or the capsule's start, relative to each lane's origin.
+    pub start: Lanes3<T, N>,
+    /// end - start (world axes); zero for a sphere.
+    pub axis: [T; 3],
+    /// 1 / |axis|^2; zero for a sphere.
+    pub inv_len2: T,
+    /// The squared radius of the test.
+    pub r2: T,
+    /// True for a capsule (the segment test), false for a sphere (the distance to `start`).
+    pub capsule: bool,
 }
 
 /// s* = decay s + base (+ spin x x) (+ wind). The predicted position is x + s*; x itself stays
@@ -367,19 +392,30 @@ fn finish<T: Real, const N: usize>(p: &mut Particle<T, N>) {
 }
 
 /// Projects the lanes of one particle that are inside a collider (rare: a cheap test in the
-/// lanes' numbers first). The projection runs in f64 on the world position o + x through
-/// [`Colliders::project`], with every radius grown by a margin of 2 ulps of the relative
-/// position, so that rounding the result back into the lanes cannot leave it inside; the
-/// velocity s / h goes through it too, and the step is set to h times the velocity the
-/// projection left.
+/// lanes' numbers first, see [`Near`]). The projection runs in f64 on the world position o + x
+/// through [`Colliders::project`], with every radius grown by a margin of 2 ulps of the
+/// relative position (and of twice the larger radius), so that rounding the result back into
+/// the lanes cannot leave it inside; the velocity s / h goes through it too, and the step is
+/// set to h times the velocity the projection left.
 #[inline(always)]
 fn collide<T: Real, const N: usize>(h: f64, col: &LaneColliders<'_, T, N>, p: &mut Particle<T, N>) {
     let [x, step] = p;
     let mut inside = false;
-    for (centre, r2) in col.near {
-        for l in 0..N {
-            let (dx, dy, dz) = (x[0][l] - centre[0][l], x[1][l] - centre[1][l], x[2][l] - centre[2][l]);
-            inside |= dx * dx + dy * dy + dz * dz < *r2;
+    for near in col.near {
+        let (c, r2) = (&near.start, near.r2);
+        if near.capsule {
+            let (a, w) = (near.axis, near.inv_len2);
+            for l in 0..N {
+                let (dx, dy, dz) = (x[0][l] - c[0][l], x[1][l] - c[1][l], x[2][l] - c[2][l]);
+                let t = ((dx * a[0] + dy * a[1] + dz * a[2]) * w).max(T::ZERO).min(T::ONE);
+                let (ex, ey, ez) = (dx - t * a[0], dy - t * a[1], dz - t * a[2]);
+                inside |= ex * ex + ey * ey + ez * ez < r2;
+            }
+        } else {
+            for l in 0..N {
+                let (dx, dy, dz) = (x[0][l] - c[0][l], x[1][l] - c[1][l], x[2][l] - c[2][l]);
+                inside |= dx * dx + dy * dy + dz * dz < r2;
+            }
         }
     }
     if !inside {
@@ -392,8 +428,25 @@ fn collide<T: Real, const N: usize>(h: f64, col: &LaneColliders<'_, T, N>, p: &m
         let mut v = [0, 1, 2].map(|k| step[k][l].wide() / h);
         let mut grown = *col.world;
         let reach = rel.iter().fold(0.0f64, |m, c| m.max(c.abs()));
-        for s in grown.spheres[..grown.count].iter_mut() {
-            s.radius += 2.0 * T::EPSILON * (reach + s.radius + s.radius);
+        for s in grown.shapes[..grown.count].iter_mut() {
+            *s = match *s {
+                Collider::Sphere(mut b) => {
+                    b.radius += 2.0 * T::EPSILON * (reach + b.radius + b.radius);
+                    Collider::Sphere(b)
+                }
+                Collider::Capsule(c) => {
+                    let m = c.max_radius();
+                    let by = 2.0 * T::EPSILON * (reach + m + m);
+                    Collider::capsule(
+                        c.start,
+                        c.end,
+                        c.start_radius + by,
+                        c.end_radius + by,
+                        c.start_velocity,
+                        c.end_velocity,
+                    )
+                }
+            };
         }
         if grown.project(&mut p, &mut v) {
             for k in 0..3 {

@@ -4,11 +4,11 @@
 use std::marker::PhantomData;
 
 use heft_node_sdk::{Io, Node, NodeError, NodeSpec, Params};
-use heft_strand_common::geometry::cross;
-use heft_strand_common::{FrameEnv, Method, Pin, Setup, State, V3};
+use heft_strand_common::geometry::{cross, dot, sub};
+use heft_strand_common::{Collider, FrameEnv, Method, Pin, Setup, State, V3};
 
 use crate::solver::{
-    Coeffs, LaneColliders, Lanes, Lanes3, Model, Particle, Real, SubstepInput, Summary, SummaryModel, substep,
+    Coeffs, LaneColliders, Lanes, Lanes3, Model, Near, Particle, Real, SubstepInput, Summary, SummaryModel, substep,
 };
 
 /// An XPBD strand node type with lanes of `T`.
@@ -62,7 +62,10 @@ nothing from the equilibrium and a strand falling with its anchor is not held ba
 anchors; one Gauss-Seidel sweep root to tip projecting each segment's distance constraint C = |x_{j+1} - x_j| - \
 l0 with compliance alpha = 1 / k = l0 / (E A) and, two segments behind, each interior particle's bending \
 constraint, each once with lambda = 0 (no iterations, nothing carried across substeps); push particles out of \
-the colliders (pinned ones excepted) and remove their inward velocity; v = (x - x_prev) / h. Wind is sampled at \
+the colliders (pinned ones excepted) to their nearest surface point and remove their inward velocity relative \
+to the surface there; v = (x - x_prev) / h. A collider is a sphere on `collider_k`, or, with `collider_k_end` \
+connected, a capsule from `collider_k` to `collider_k_end`, straight or tapered (radius from \
+`collider_k_radius` to `collider_k_end_radius`), moving with its two ends. Wind is sampled at \
 each particle every substep.\n\
 Bending: the vector constraint (x_{i-1} - 2 x_i + x_{i+1}) / l0 with compliance l0 / (E I), i.e. the energy \
 E I / (2 l0^3) |x_{i-1} - 2 x_i + x_{i+1}|^2 per interior particle: the Euler-Bernoulli energy 1/2 int E I |x''|^2 \
@@ -165,7 +168,7 @@ struct Group<T: Real, const N: usize> {
     end: Vec<Lanes3<f64, N>>,
     /// Scratch: wind per particle, colliders near each lane.
     wind: Vec<Lanes3<T, N>>,
-    near: Vec<(Lanes3<T, N>, T)>,
+    near: Vec<Near<T, N>>,
     /// True once the lanes hold the state: the frame loop hands every call the state the
     /// previous call left, so later frames only move the origins (see [`GroupRun`]).
     loaded: bool,
@@ -270,7 +273,7 @@ struct GroupRun<'a, T: Real, const N: usize> {
     start: &'a Lanes3<f64, N>,
     end: &'a Lanes3<f64, N>,
     wind: &'a mut [Lanes3<T, N>],
-    near: &'a mut Vec<(Lanes3<T, N>, T)>,
+    near: &'a mut Vec<Near<T, N>>,
     env: &'a FrameEnv<'a>,
     coeffs: &'a Coeffs<T>,
     shared: &'a [([f64; 3], Option<[f64; 3]>)],
@@ -353,22 +356,7 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
             let colliders = env.has_colliders().then(|| {
                 let world = env.colliders(k + 1);
                 near.clear();
-                near.extend(world.spheres[..world.count].iter().map(|s| {
-                    let mut centre = [[T::ZERO; N]; 3];
-                    let mut reach = 0.0f64;
-                    for l in 0..N {
-                        for c in 0..3 {
-                            let r = s.centre[c] - origin[c][l];
-                            centre[c][l] = T::of(r);
-                            reach = reach.max(r.abs());
-                        }
-                    }
-                    // A conservative radius for the cheap test in the lanes' numbers: 0.1 %
-                    // plus the rounding of the relative centre; the test only picks the
-                    // particles the exact f64 projection looks at.
-                    let r = s.radius * 1.001 + 8.0 * T::EPSILON * (reach + s.radius);
-                    (centre, T::of(r * r))
-                }));
+                near.extend(world.shapes[..world.count].iter().map(|s| near_lanes(s, origin)));
                 LaneColliders {
                     world,
                     origin,
@@ -385,6 +373,53 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
                 free,
             };
             substep(coeffs, &input, x);
+        }
+    }
+}
+
+/// A collider as the cheap test of one lane group sees it (see [`Near`]): its centre or start
+/// relative to each lane's origin, with a conservative radius: 0.1 % plus the rounding of the
+/// relative positions (for a capsule, of the axis and of the projection onto it as well).
+#[inline(always)]
+fn near_lanes<T: Real, const N: usize>(s: &Collider, origin: &Lanes3<f64, N>) -> Near<T, N> {
+    let mut start = [[T::ZERO; N]; 3];
+    let mut reach = 0.0f64;
+    match s {
+        Collider::Sphere(s) => {
+            for l in 0..N {
+                for c in 0..3 {
+                    let r = s.centre[c] - origin[c][l];
+                    start[c][l] = T::of(r);
+                    reach = reach.max(r.abs());
+                }
+            }
+            let r = s.radius * 1.001 + 8.0 * T::EPSILON * (reach + s.radius);
+            Near {
+                start,
+                axis: [T::ZERO; 3],
+                inv_len2: T::ZERO,
+                r2: T::of(r * r),
+                capsule: false,
+            }
+        }
+        Collider::Capsule(k) => {
+            for l in 0..N {
+                for c in 0..3 {
+                    let r = k.start[c] - origin[c][l];
+                    start[c][l] = T::of(r);
+                    reach = reach.max(r.abs()).max((k.end[c] - origin[c][l]).abs());
+                }
+            }
+            let axis = sub(k.end, k.start);
+            let m = k.max_radius();
+            let r = m * 1.001 + 16.0 * T::EPSILON * (reach + k.length() + m);
+            Near {
+                start,
+                axis: axis.map(T::of),
+                inv_len2: T::of(1.0 / dot(axis, axis)),
+                r2: T::of(r * r),
+                capsule: true,
+            }
         }
     }
 }
