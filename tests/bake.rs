@@ -108,12 +108,12 @@ fn read(path: &Path) -> Read {
 
 #[test]
 fn a_glb_bake_reads_back_with_the_run_csv_values() {
-    let (dir, o) = run("bake \"odile.glb\"\n    odile.head\n    odile.com_position\n    coil.points chains 4\n");
+    let (dir, o) = run("bake \"odile.glb\"\n    odile.head\n    odile.com_position\n    coil.points joints 4\n");
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let out = dir.path().join("out");
     let r = read(&out.join("odile.glb"));
-    // 1 head + 1 COM + 3 chains of 4 joints.
-    assert_eq!(r.nodes.len(), 2 + 12);
+    // 1 head + 1 COM + the still node the unanchored chains hang under + 3 chains of 4 joints.
+    assert_eq!(r.nodes.len(), 3 + 12);
     assert_eq!(r.channels, 2 + 1 + 12 * 2);
     // 24 frames from frame 10: times 0, 1/24, ...
     assert_eq!(r.times.len(), 24);
@@ -131,11 +131,11 @@ fn a_glb_bake_reads_back_with_the_run_csv_values() {
     };
     for f in [0, 7, 23] {
         assert!(close(
-            r.translation[&idx("odile.head")][f],
+            r.translation[&idx("odile_head")][f],
             y_up([head[f][2], head[f][3], head[f][4]])
         ));
         assert!(close(
-            r.translation[&idx("odile.com_position")][f],
+            r.translation[&idx("odile_com_position")][f],
             y_up([com[f][2], com[f][3], com[f][4]])
         ));
         // The chain's joints, composed from the root, land on the points.
@@ -143,14 +143,14 @@ fn a_glb_bake_reads_back_with_the_run_csv_values() {
             let mut pos = [0.0f32; 3];
             let mut rot = [0.0f32, 0.0, 0.0, 1.0];
             for j in 0..4 {
-                let n = idx(&format!("coil.points.s{s}.j{j}"));
+                let n = idx(&format!("coil_points_s{s}_j{j}"));
                 assert_eq!(
                     r.nodes[n].1,
-                    if j == 0 {
-                        None
+                    Some(if j == 0 {
+                        idx("coil_points_strands")
                     } else {
-                        Some(idx(&format!("coil.points.s{s}.j{}", j - 1)))
-                    }
+                        idx(&format!("coil_points_s{s}_j{}", j - 1))
+                    })
                 );
                 let t = r.translation[&n][f];
                 let moved = rotate(rot, t);
@@ -195,7 +195,7 @@ fn gltf_with_separate_and_embedded_buffers_read_back() {
     assert_eq!(emb.nodes.len(), 1);
     // `axes = y_up` writes (x, y, z) as they are; the default writes (x, z, -y).
     let raw = emb.translation[&0][0];
-    let conv = sep.translation[&sep.nodes.iter().position(|n| n.0 == "odile.hips").expect("hips")][0];
+    let conv = sep.translation[&sep.nodes.iter().position(|n| n.0 == "odile_hips").expect("hips")][0];
     assert_eq!((raw[0], raw[2], -raw[1]), (conv[0], conv[1], conv[2]));
     assert!(raw[2] > 0.5, "the hips are up in Z in heft's world: {raw:?}");
 }
@@ -203,7 +203,7 @@ fn gltf_with_separate_and_embedded_buffers_read_back() {
 #[test]
 fn bake_problems_are_reported_in_place() {
     let (_, o) = run(
-        "bake \"x.glb\"\n    buffer = embedded\n    odile.contact\n    coil.points chains 5\nbake \"y.fbx\"\n    odile.head\n",
+        "bake \"x.glb\"\n    buffer = embedded\n    odile.contact\n    coil.points joints 5\nbake \"y.fbx\"\n    odile.head\n",
     );
     assert_eq!(o.status.code(), Some(1));
     let err = String::from_utf8_lossy(&o.stderr);

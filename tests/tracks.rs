@@ -103,7 +103,10 @@ fn a_track_shorter_than_the_timeline_is_an_error() {
         msg.ends_with("covers 0 s to 0.02 s, but the graph evaluates frames 0..3 (0 s to 0.03 s)"),
         "{msg}"
     );
-    assert_eq!(help.as_deref(), Some("set a frame range inside frames 0..2"));
+    assert_eq!(
+        help.as_deref(),
+        Some("set a frame range inside frames 0..2, or `outside = hold` or `loop`")
+    );
 }
 
 /// Positions in centimetres become metres; rotations given as quaternions are slerped between
@@ -178,4 +181,61 @@ fn the_file_can_be_set_from_the_command_line_without_quotes() {
         evaluate(&plan, None).expect("evaluates").values[0][0],
         [7.0, 8.0, 9.0, 10.0]
     );
+}
+
+/// Time controls: a take whose shot starts 10 s in reads with `time_offset = 10 s`; `hold`
+/// keeps the end values; `loop` repeats the covered time; `refuse` (the default) names the
+/// range it would need.
+#[test]
+fn time_offset_and_outside() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    // Samples at 10.00 .. 10.03 s: frame k (k/100 s) reads k/100 + 10 s.
+    let csv = "time,Fz\n10.00,1\n10.01,2\n10.02,3\n10.03,4\n";
+    let body = "plate = track.force\n    file = \"plate.csv\"\n    column = \"Fz\"\n    time_offset = 10 s\n";
+    let plan = plan_in(dir.path(), csv, body).expect("checks");
+    assert_eq!(
+        evaluate(&plan, Some(1)).expect("evaluates").values[0][0],
+        [1.0, 2.0, 3.0, 4.0]
+    );
+    // Half a sample later: linear between samples.
+    let body = "plate = track.force\n    file = \"plate.csv\"\n    column = \"Fz\"\n    time_offset = 10.005 s\n    outside = hold\n";
+    let plan = plan_in(dir.path(), csv, body).expect("checks");
+    let v = &evaluate(&plan, Some(1)).expect("evaluates").values[0][0];
+    for (got, want) in v.iter().zip([1.5, 2.5, 3.5, 4.0]) {
+        assert!((got - want).abs() < 1e-9, "{v:?}");
+    }
+    // Loop: a 3-sample cycle 0, 1, 2 (period 0.02 s, the last sample equal to the first).
+    let csv = "time,Fz\n0.00,0\n0.01,1\n0.02,0\n";
+    let body = "plate = track.force\n    file = \"plate.csv\"\n    column = \"Fz\"\n    outside = loop\n";
+    let plan = plan_in(dir.path(), csv, body).expect("checks");
+    let v = &evaluate(&plan, Some(1)).expect("evaluates").values[0][0];
+    for (got, want) in v.iter().zip([0.0, 1.0, 0.0, 1.0]) {
+        assert!((got - want).abs() < 1e-9, "{v:?}");
+    }
+    let body = "plate = track.force\n    file = \"plate.csv\"\n    column = \"Fz\"\n";
+    let (_, msg, help) = one_problem(dir.path(), csv, body);
+    assert!(msg.contains("covers 0 s to 0.02 s"), "{msg}");
+    assert!(help.is_some_and(|h| h.contains("`outside = hold` or `loop`")));
+}
+
+/// Y-up position data (a capture exported Y up) is turned into heft's Z up:
+/// (x, y, z) -> (x, -z, y), and quaternions the same way.
+#[test]
+fn y_up_tracks_are_turned_z_up() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let h = std::f64::consts::FRAC_PI_8; // a quarter turn about the file's Y (its up axis)
+    let csv = format!(
+        "time,x,y,z,qx,qy,qz,qw\n0,1,2,3,0,{s},0,{c}\n0.01,1,2,3,0,{s},0,{c}\n0.02,1,2,3,0,{s},0,{c}\n0.03,1,2,3,0,{s},0,{c}\n",
+        s = (2.0 * h).sin(),
+        c = (2.0 * h).cos()
+    );
+    let body = "hand = track.transform\n    file = \"plate.csv\"\n    rotation = quaternion\n    axes = y_up\n";
+    let plan = plan_in(dir.path(), &csv, body).expect("checks");
+    let v = &evaluate(&plan, Some(1)).expect("evaluates").values[0][0];
+    assert_eq!(&v[..3], &[1.0, -3.0, 2.0]);
+    // A turn about the file's up axis is a turn about heft's +Z: (qx, -qz, qy, qw).
+    let want = [0.0, 0.0, (2.0 * h).sin(), (2.0 * h).cos()];
+    for k in 0..4 {
+        assert!((v[3 + k] - want[k]).abs() < 1e-12, "{v:?}");
+    }
 }

@@ -18,6 +18,29 @@ pub enum BakeFormat {
     GltfSeparate,
 }
 
+/// What a baked strand hangs from.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum BakeAnchor {
+    /// Nothing: the chains hang under a still node of their own.
+    None,
+    /// A transform series: the chains hang under a node that shows it.
+    Series {
+        /// Node index.
+        node: usize,
+        /// Output index.
+        output: usize,
+    },
+    /// A joint of a glTF character: the chains hang under that bone.
+    Joint {
+        /// The character node's index.
+        node: usize,
+        /// The output that carries the joint.
+        output: usize,
+        /// The joint, an index into the character's nodes.
+        joint: usize,
+    },
+}
+
 /// One baked series.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BakeItem {
@@ -27,10 +50,12 @@ pub struct BakeItem {
     pub output: usize,
     /// Its shape.
     pub shape: Shape,
-    /// Points per chain, for points baked as strands.
+    /// Joints per chain, for points baked as strands.
     pub chain: Option<usize>,
     /// `node.port`, used to name the glTF nodes.
     pub name: String,
+    /// For chains: what they hang from.
+    pub anchor: BakeAnchor,
 }
 
 /// A checked `bake` block.
@@ -45,6 +70,13 @@ pub struct PlannedBake {
     pub y_up_source: bool,
     /// The series.
     pub items: Vec<BakeItem>,
+    /// The frames baked (first and last frame numbers), when not the whole run.
+    pub range: Option<(i64, i64)>,
+    /// `character = NAME`: the character node whose own file the bake is written into (its
+    /// meshes, skins, materials and clips copied through, the strands added under its bones).
+    pub character: Option<(String, crate::diag::Span)>,
+    /// The character node's index, once checked.
+    pub base: Option<usize>,
 }
 
 /// A port reference resolved to (node, output, shape, dimension), or a problem.
@@ -106,8 +138,25 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
     let glb = block.file.value.ends_with(".glb");
     let mut format = if glb { BakeFormat::Glb } else { BakeFormat::GltfSeparate };
     let mut y_up_source = false;
+    let mut range = None;
+    let mut character = None;
     for opt in &block.options {
         match opt.name.value.as_str() {
+            "character" => match &opt.value.value {
+                Value::Word(w) | Value::Text(w) => character = Some((w.clone(), opt.value.span)),
+                _ => problems.push(
+                    Problem::new(src, opt.value.span, "`character` takes the name of a `track.character` node")
+                        .label("not a node name"),
+                ),
+            },
+            "frames" => match frame_range(&opt.value.value) {
+                Some(r) => range = Some(r),
+                None => problems.push(
+                    Problem::new(src, opt.value.span, "`frames` takes a range of frame numbers `A..B`")
+                        .label("not a frame range")
+                        .help("for example `frames = 12..84`: the first and last frames baked, inside the run's range"),
+                ),
+            },
             "axes" => match word_option(src, opt, &["z_up", "y_up"]) {
                 Ok(w) => y_up_source = w == "y_up",
                 Err(p) => problems.push(p),
@@ -126,14 +175,14 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
             other => problems.push(
                 Problem::new(src, opt.name.span, format!("`bake` has no option `{other}`"))
                     .label("unknown option")
-                    .help("options: axes = z_up | y_up (the data's up axis; heft's world is z_up), buffer = separate | embedded (.gltf only)"),
+                    .help("options: frames = A..B (the frames baked), character = NODE (write into that character's own file), axes = z_up | y_up (the data's up axis; heft's world is z_up), buffer = separate | embedded (.gltf only)"),
             ),
         }
     }
     if block.items.is_empty() {
         problems.push(
             Problem::new(src, block.file.span, "this bake lists no series")
-                .help("list indented lines such as `odile.head` or `braid.positions chains 13`"),
+                .help("list indented lines such as `odile.head` or `braid.positions`"),
         );
     }
     let mut items = Vec::new();
@@ -169,7 +218,7 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
                         src,
                         c.span,
                         format!(
-                            "`{}` has {} points, not a whole number of chains of {}",
+                            "`{}` has {} points, not a whole number of chains of {} joints",
                             item.port.text(),
                             shape.points,
                             c.value
@@ -184,7 +233,7 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
                 continue;
             }
             (PortKind::Vec3 | PortKind::Transform, Some(c)) => {
-                problems.push(Problem::new(src, c.span, "`chains` is for points outputs").label("not points"));
+                problems.push(Problem::new(src, c.span, "`joints` is for points outputs").label("not points"));
                 continue;
             }
             _ => {}
@@ -195,6 +244,7 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
             shape,
             chain: item.chains.as_ref().map(|c| c.value),
             name: item.port.text(),
+            anchor: BakeAnchor::None,
         });
     }
     if problems.is_empty() {
@@ -203,8 +253,19 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
             format,
             y_up_source,
             items,
+            range,
+            character,
+            base: None,
         })
     } else {
         Err(problems)
     }
+}
+
+/// `A..B` with whole frame numbers, A <= B.
+fn frame_range(v: &Value) -> Option<(i64, i64)> {
+    let Value::Text(t) = v else { return None };
+    let (a, b) = t.split_once("..")?;
+    let (a, b) = (a.trim().parse::<i64>().ok()?, b.trim().parse::<i64>().ok()?);
+    (a <= b).then_some((a, b))
 }

@@ -587,6 +587,51 @@ pub fn check(
         states[i].params = complete;
     }
 
+    // Host nodes read their files now, before the wires are checked: a character's outputs
+    // are the nodes its file holds.
+    // A track's file is relative to the file that declares the track (a graph or a recipe).
+    let dir_of = |span: Span| {
+        let name = &srcs.get(usize::from(span.file)).unwrap_or(src).name;
+        std::path::Path::new(name)
+            .parent()
+            .map(std::path::Path::to_path_buf)
+            .unwrap_or_default()
+    };
+    let mut host_data: Vec<Option<Vec<Vec<f64>>>> = vec![None; graph.nodes.len()];
+    for (i, decl) in graph.nodes.iter().enumerate() {
+        let (Some(ty), true) = (states[i].ty.clone(), states[i].ok) else {
+            continue;
+        };
+        let Provider::Host(h) = ty.provider else { continue };
+        match tracks::load(h, &states[i].params, &dir_of(decl.name.span), timeline) {
+            Ok(loaded) => {
+                if let Some(instance) = loaded.instance {
+                    states[i].ty = Some(NodeType {
+                        instance: Some(Arc::new(instance)),
+                        ..ty
+                    });
+                }
+                host_data[i] = Some(loaded.outputs);
+            }
+            Err(e) => {
+                // Point at the line that set the parameter, or at the node.
+                let at = written[i].iter().rev().find(|w| w.line.name.value == e.param);
+                let mut p = match at {
+                    Some(w) => Problem::new(&w.source, w.line.value.span, e.message),
+                    None => Problem::at(srcs, decl.name.span, e.message),
+                }
+                .label(format!("`{}` of this node", e.param));
+                if let Some(h) = e.help {
+                    p = p.help(h);
+                }
+                problems.push(p);
+                states[i].ok = false;
+                // Its outputs are unknown: wires from it are not checked further.
+                states[i].ty = None;
+            }
+        }
+    }
+
     // Wires.
     let n = graph.nodes.len();
     let mut inputs: Vec<Vec<Option<(usize, usize)>>> = states
@@ -616,6 +661,13 @@ pub fn check(
     };
     let port_problem = |r: &PortRef, ty: &NodeType, output: bool| {
         let spec = ty.spec();
+        if let Some((_, why)) = ty
+            .instance
+            .as_ref()
+            .and_then(|i| i.unusable.iter().find(|(name, _)| *name == r.port.value))
+        {
+            return Problem::at(srcs, r.port.span, why.clone()).label("cannot be used");
+        }
         let (want, other) = if output {
             (&spec.outputs, &spec.inputs)
         } else {
@@ -800,15 +852,6 @@ pub fn check(
     // Output shapes, in order.
     let mut shapes: Vec<Option<Vec<Shape>>> = vec![None; n];
     let mut params_bytes: Vec<Vec<u8>> = vec![Vec::new(); n];
-    let mut host_data: Vec<Option<Vec<Vec<f64>>>> = vec![None; n];
-    // A track's file is relative to the file that declares the track (a graph or a recipe).
-    let dir_of = |span: Span| {
-        let name = &srcs.get(usize::from(span.file)).unwrap_or(src).name;
-        std::path::Path::new(name)
-            .parent()
-            .map(std::path::Path::to_path_buf)
-            .unwrap_or_default()
-    };
     for level in &levels {
         for &i in level {
             let (Some(ty), true) = (&states[i].ty, states[i].ok) else {
@@ -863,26 +906,9 @@ pub fn check(
                 }
             };
             match &ty.provider {
-                Provider::Host(h) => {
-                    match tracks::load(*h, &states[i].params, &dir_of(graph.nodes[i].name.span), timeline) {
-                        Ok(data) => {
-                            shapes[i] = Some(spec.outputs.iter().map(|o| Shape::of(o.kind)).collect());
-                            host_data[i] = Some(data);
-                        }
-                        Err(e) => {
-                            // Point at the line that set the parameter, or at the node.
-                            let at = written[i].iter().rev().find(|w| w.line.name.value == e.param);
-                            let mut p = match at {
-                                Some(w) => Problem::new(&w.source, w.line.value.span, e.message),
-                                None => Problem::at(srcs, graph.nodes[i].name.span, e.message),
-                            }
-                            .label(format!("`{}` of this track", e.param));
-                            if let Some(h) = e.help {
-                                p = p.help(h);
-                            }
-                            problems.push(p);
-                        }
-                    }
+                Provider::Host(_) => {
+                    // Read above; a host node that failed to read has no type here.
+                    shapes[i] = Some(spec.outputs.iter().map(|o| Shape::of(o.kind)).collect());
                 }
                 Provider::Plugin { plugin, index } => {
                     match plugin
@@ -986,11 +1012,93 @@ pub fn check(
         files.insert(block.file.value.clone(), block.file.span);
         match block.kind {
             BlockKind::Bake => match blocks::plan_bake(block_src(block), block, &resolve) {
-                Ok(b) => bakes.push(b),
+                Ok(mut b) => {
+                    for item in &mut b.items {
+                        if item.shape.kind != PortKind::Points {
+                            continue;
+                        }
+                        item.chain = item
+                            .chain
+                            .or_else(|| strand_joints(&states[item.node], item.shape.points));
+                        if item.chain.is_some() {
+                            item.anchor = anchor_of(&states, &inputs, item.node);
+                        }
+                    }
+                    if let Some((a, z)) = b.range {
+                        let last = timeline.start_frame + timeline.frame_count as i64 - 1;
+                        if a < timeline.start_frame || z > last {
+                            let at = block
+                                .options
+                                .iter()
+                                .find(|o| o.name.value == "frames")
+                                .map_or(block.file.span, |o| o.value.span);
+                            problems.push(
+                                Problem::at(
+                                    srcs,
+                                    at,
+                                    format!(
+                                        "the bake's frames {a}..{z} are not all in the run's frames {}..{last}",
+                                        timeline.start_frame
+                                    ),
+                                )
+                                .label("outside the run")
+                                .help("bake a range inside the graph's `frames` (or the `--frames` given)"),
+                            );
+                        }
+                    }
+                    if let Some((name, span)) = b.character.clone() {
+                        let found = by_name.get(name.as_str()).copied();
+                        let is_character = found.is_some_and(|i| {
+                            states[i]
+                                .ty
+                                .as_ref()
+                                .and_then(|t| t.instance.as_ref())
+                                .is_some_and(|inst| inst.character.is_some())
+                        });
+                        match found {
+                            Some(i) if is_character => b.base = Some(i),
+                            _ => {
+                                let mut p = Problem::at(
+                                    srcs,
+                                    span,
+                                    format!("`{name}` is not a `track.character` node of this graph"),
+                                )
+                                .label("not a character");
+                                let characters: Vec<&str> = by_name
+                                    .iter()
+                                    .filter(|(_, i)| {
+                                        states[**i]
+                                            .ty
+                                            .as_ref()
+                                            .and_then(|t| t.instance.as_ref())
+                                            .is_some_and(|inst| inst.character.is_some())
+                                    })
+                                    .map(|(n, _)| *n)
+                                    .collect();
+                                p = p.help(if characters.is_empty() {
+                                    "the bake writes into a character's own file: declare one with `NAME = track.character`".to_owned()
+                                } else {
+                                    format!("characters: {}", characters.join(", "))
+                                });
+                                problems.push(p);
+                            }
+                        }
+                    }
+                    bakes.push(b);
+                }
                 Err(mut p) => problems.append(&mut p),
             },
             BlockKind::Plot => match plots::plan_plot(block_src(block), block, &resolve) {
-                Ok(p) => plots.push(p),
+                Ok(mut p) => {
+                    for item in &mut p.items {
+                        if item.shape.kind == PortKind::Points {
+                            item.chain = item
+                                .chain
+                                .or_else(|| strand_joints(&states[item.node], item.shape.points));
+                        }
+                    }
+                    plots.push(p);
+                }
                 Err(mut p) => problems.append(&mut p),
             },
         }
@@ -1048,4 +1156,48 @@ fn cycle_through_drivers(start: usize, edges: &[(usize, usize, usize)], level_of
         at = a;
     }
     Vec::new()
+}
+
+/// The joints per chain of a strand node's points: its `segments` parameter plus one, when it
+/// has one and the points divide into such chains.
+fn strand_joints(state: &NodeState, points: usize) -> Option<usize> {
+    let ty = state.ty.as_ref()?;
+    let k = ty.spec().params.iter().position(|p| p.name == "segments")?;
+    let ParamValue::Integer(segments) = state.params.get(k)? else {
+        return None;
+    };
+    let c = usize::try_from(*segments).ok()? + 1;
+    (c >= 2 && points.is_multiple_of(c)).then_some(c)
+}
+
+/// What a strand node hangs from: the driver of its `anchor` input.
+fn anchor_of(states: &[NodeState], inputs: &[Vec<Option<(usize, usize)>>], node: usize) -> blocks::BakeAnchor {
+    let Some(ty) = states[node].ty.as_ref() else {
+        return blocks::BakeAnchor::None;
+    };
+    let Some(k) = ty.spec().inputs.iter().position(|p| p.name == "anchor") else {
+        return blocks::BakeAnchor::None;
+    };
+    let Some((a, out)) = inputs[node].get(k).copied().flatten() else {
+        return blocks::BakeAnchor::None;
+    };
+    let Some(source) = states[a].ty.as_ref() else {
+        return blocks::BakeAnchor::None;
+    };
+    if source.spec().outputs.get(out).map(|o| o.kind) != Some(PortKind::Transform) {
+        return blocks::BakeAnchor::None;
+    }
+    let joint = source.instance.as_ref().and_then(|i| {
+        let ch = i.character.as_ref()?;
+        let port = &source.spec().outputs[out].name;
+        ch.nodes.iter().position(|n| &n.port == port)
+    });
+    match joint {
+        Some(joint) => blocks::BakeAnchor::Joint {
+            node: a,
+            output: out,
+            joint,
+        },
+        None => blocks::BakeAnchor::Series { node: a, output: out },
+    }
 }

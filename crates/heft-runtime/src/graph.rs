@@ -162,7 +162,7 @@ pub enum BlockKind {
     Plot,
 }
 
-/// One series line in an output block: `node.port`, or `node.port chains N`.
+/// One series line in an output block: `node.port`, or `node.port joints N`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BlockItem {
     /// The output port.
@@ -843,7 +843,7 @@ fn override_line(source: &Arc<Source>, line: &mut Line<'_>, inc: &mut IncludeDec
     Ok(())
 }
 
-/// An indented line under `bake` or `plot`: `name = value` or `node.port [chains N]`.
+/// An indented line under `bake` or `plot`: `name = value` or `node.port [joints N]`.
 fn block_line(source: &Arc<Source>, line: &mut Line<'_>, block: &mut OutputBlock) -> Result<(), Problem> {
     line.skip_ws();
     let rest = line.rest();
@@ -861,7 +861,18 @@ fn block_line(source: &Arc<Source>, line: &mut Line<'_>, block: &mut OutputBlock
             ));
         }
         let at = line.at();
-        let value = parse_value(source, line.rest(), at)?;
+        // `frames = A..B` is kept as text and read by the block's checker.
+        let value = if name.value == "frames" {
+            let raw = line.rest();
+            let lead = raw.len() - raw.trim_start().len();
+            let text = raw.trim();
+            Spanned {
+                value: Value::Text(text.to_owned()),
+                span: Span::new(at + lead, at + lead + text.len()),
+            }
+        } else {
+            parse_value(source, line.rest(), at)?
+        };
         block.options.push(ParamLine {
             name,
             value,
@@ -874,23 +885,28 @@ fn block_line(source: &Arc<Source>, line: &mut Line<'_>, block: &mut OutputBlock
     if !line.done() {
         let at = line.at();
         match line.ident() {
-            Some(w) if w.value == "chains" => {
+            Some(w) if w.value == "joints" => {
                 let n = line
                     .number()
                     .filter(|n| n.value.1 && n.value.0 >= 1.0)
-                    .ok_or_else(|| problem(source, line.span_from(at), "expected the points per chain: `chains 13`"))?;
+                    .ok_or_else(|| problem(source, line.span_from(at), "expected the joints per chain: `joints 13`"))?;
                 chains = Some(Spanned {
                     value: n.value.0 as usize,
                     span: n.span,
                 });
             }
+            Some(w) if w.value == "chains" => {
+                return Err(problem(source, w.span, "`chains N` is now `joints N`")
+                    .label("renamed")
+                    .help("it always meant chains of N joints; for a strand node leave it out (heft takes the joints per chain from the strand), for other points write `joints N`"));
+            }
             _ => {
                 return Err(problem(
                     source,
                     Span::new(at, line.base + line.text.len()),
-                    "expected `chains N` or the end of the line",
+                    "expected `joints N` or the end of the line",
                 )
-                .help("a series line reads `node.port`, or `node.port chains N` for points that form strands of N"));
+                .help("a series line reads `node.port`, or `node.port joints N` for points that form chains of N joints (a strand node's points form chains without it)"));
             }
         }
         if !line.done() {

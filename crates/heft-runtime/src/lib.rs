@@ -7,6 +7,7 @@
 #![warn(missing_docs)]
 
 pub mod blocks;
+pub mod character;
 pub mod check;
 pub mod diag;
 pub mod eval;

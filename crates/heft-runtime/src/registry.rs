@@ -14,7 +14,7 @@ use heft_node_sdk::NodeSpec;
 use heft_node_sdk::abi::PluginTable;
 use heft_node_sdk::host::{LoadError, Plugin};
 
-use crate::tracks::{HOST_PLUGIN, HostNode};
+use crate::tracks::{HOST_PLUGIN, HostInstance, HostNode};
 use sha2::{Digest, Sha256};
 
 /// The environment variable holding extra plugin folders (`:`-separated on Unix).
@@ -50,11 +50,16 @@ pub struct NodeType {
     pub full_name: String,
     /// Who evaluates it.
     pub provider: Provider,
+    /// For a host node whose outputs depend on its file (a character), what this instance read.
+    pub instance: Option<Arc<HostInstance>>,
 }
 
 impl NodeType {
-    /// Its spec.
+    /// Its spec (an instance's own, where it has one).
     pub fn spec(&self) -> &NodeSpec {
+        if let Some(i) = &self.instance {
+            return &i.spec;
+        }
         match &self.provider {
             Provider::Plugin { plugin, index } => &plugin.plugin.descriptor().nodes[*index as usize],
             Provider::Host(h) => h.spec(),
@@ -119,6 +124,7 @@ impl Registry {
             reg.types.entry(full_name.clone()).or_default().push(NodeType {
                 full_name,
                 provider: Provider::Host(h),
+                instance: None,
             });
         }
         reg
@@ -185,6 +191,7 @@ impl Registry {
                     plugin: Arc::clone(&loaded),
                     index: i as u32,
                 },
+                instance: None,
             });
         }
         self.plugins.push(loaded);

@@ -12,6 +12,9 @@ use std::sync::OnceLock;
 
 use heft_node_sdk::{Dimension, NodeSpec, ParamSpec, ParamValue, PortKind, PortSpec, Timeline};
 
+use std::sync::Arc;
+
+use crate::character::{Axes, Character, Outside, Request};
 use crate::quat::{Quat, dot, mul as q_mul, normalise as normalised};
 
 /// The plugin name reserved for host-side nodes.
@@ -26,6 +29,8 @@ pub enum HostNode {
     Position,
     /// A position and a rotation (a joint, an attachment).
     Transform,
+    /// A character from a glTF 2.0 file: one transform output per named node.
+    Character,
 }
 
 const EULER_ORDERS: [&str; 6] = ["xyz", "xzy", "yxz", "yzx", "zxy", "zyx"];
@@ -40,6 +45,27 @@ fn file_params() -> Vec<ParamSpec> {
         ParamSpec::text("time_column", Some("time"), "Header of the time column."),
         ParamSpec::choice("time_unit", &["s", "ms"], "Unit of the time column."),
     ]
+    .into_iter()
+    .chain(time_params())
+    .collect()
+}
+
+/// The time controls every track shares.
+fn time_params() -> Vec<ParamSpec> {
+    vec![
+        ParamSpec::number(
+            "time_offset",
+            Dimension::Time,
+            0.0,
+            (-1.0e7, 1.0e7),
+            "Added to each frame's time to give the time read from the file: a take whose shot starts 10 s in reads with 10 s.",
+        ),
+        ParamSpec::choice(
+            "outside",
+            &["refuse", "hold", "loop"],
+            "Frames outside the time the file covers: an error, the first or last value held, or the covered time repeated (cyclic motion).",
+        ),
+    ]
 }
 
 fn position_params() -> Vec<ParamSpec> {
@@ -48,16 +74,38 @@ fn position_params() -> Vec<ParamSpec> {
         ParamSpec::text("y_column", Some("y"), "Header of the y column."),
         ParamSpec::text("z_column", Some("z"), "Header of the z column."),
         ParamSpec::choice("unit", &["m", "cm", "mm"], "Unit of the position columns."),
+        ParamSpec::choice(
+            "axes",
+            &["z_up", "y_up"],
+            "The file's up axis: z_up (heft's world) or y_up (turned into heft's: (x, y, z) -> (x, -z, y)).",
+        ),
     ]
 }
 
 const COMMON_NOTES: &str = "The file is read when the graph is checked; a relative path is taken from the graph file's \
      folder. Samples may be at any rate: each frame is interpolated between the samples around its time (linearly for \
-     forces and positions). The file must cover the timeline.";
+     forces and positions). A frame reads the file at its time plus `time_offset`; the file must cover those times \
+     unless `outside` says to hold the end values or loop.";
+
+const CHARACTER_NOTES: &str = "Reads a .glb or .gltf file (buffers embedded or beside it) when the graph is checked: the \
+     scene's node hierarchy and one animation clip (`clip`: a name, or an index from 0; the file's only clip when empty). \
+     Every named node of the scene becomes an output of the same name, its world transform per frame (a name's characters \
+     other than letters, digits, `_` and `-` become `_`): wire it like any transform, `juno.head -> braid.anchor`. The \
+     clip is resampled at the graph's frames by the glTF 2.0 specification's rules (STEP; LINEAR, rotations by \
+     spherical linear interpolation; CUBICSPLINE Hermite), scale in the hierarchy is honoured, and glTF's Y-up world \
+     is turned into heft's Z-up one ((X, Y, Z) -> (X, -Z, Y)) unless `axes = z_up`. A node whose world matrix has \
+     shear (a non-uniform scale above a rotated child) cannot be carried as a transform and is refused when used. \
+     A frame reads the clip at its time plus `time_offset`; frames outside the clip are refused unless `outside` \
+     says to hold or loop.";
 
 impl HostNode {
     /// Every host node type.
-    pub const ALL: [HostNode; 3] = [HostNode::Force, HostNode::Position, HostNode::Transform];
+    pub const ALL: [HostNode; 4] = [
+        HostNode::Force,
+        HostNode::Position,
+        HostNode::Transform,
+        HostNode::Character,
+    ];
 
     /// `track.force`, ...
     pub fn full_name(self) -> String {
@@ -66,7 +114,7 @@ impl HostNode {
 
     /// The node type's spec.
     pub fn spec(self) -> &'static NodeSpec {
-        static SPECS: OnceLock<[NodeSpec; 3]> = OnceLock::new();
+        static SPECS: OnceLock<[NodeSpec; 4]> = OnceLock::new();
         let specs = SPECS.get_or_init(|| {
             let force = NodeSpec {
                 name: "force".into(),
@@ -128,12 +176,32 @@ impl HostNode {
                 params: transform_params,
                 ..Default::default()
             };
-            [force, position, transform]
+            let character = NodeSpec {
+                name: "character".into(),
+                doc: "A character's joints read from a glTF 2.0 file: one world transform output per named node.".into(),
+                notes: CHARACTER_NOTES.into(),
+                outputs: Vec::new(),
+                params: [
+                    ParamSpec::text("file", None, "A .glb or .gltf file, relative to the graph file's folder."),
+                    ParamSpec::text("clip", Some(""), "The animation clip: its name, or its index from 0; empty for the file's only clip."),
+                    ParamSpec::choice(
+                        "axes",
+                        &["y_up", "z_up"],
+                        "The file's up axis: y_up as glTF specifies (turned into heft's Z up), or z_up for a file that is Z up already.",
+                    ),
+                ]
+                .into_iter()
+                .chain(time_params())
+                .collect(),
+                ..Default::default()
+            };
+            [force, position, transform, character]
         });
         match self {
             HostNode::Force => &specs[0],
             HostNode::Position => &specs[1],
             HostNode::Transform => &specs[2],
+            HostNode::Character => &specs[3],
         }
     }
 }
@@ -247,32 +315,48 @@ fn read_columns(
     Ok(table)
 }
 
-/// For each frame: the sample index before its time and the weight of the one after.
-fn brackets(table: &Table, tl: Timeline) -> Result<Vec<(usize, f64)>, TrackError> {
+/// For each frame: the sample index before the time it reads (its time plus `offset`, mapped
+/// by `outside`) and the weight of the one after.
+fn brackets(table: &Table, tl: Timeline, offset: f64, outside: Outside) -> Result<Vec<(usize, f64)>, TrackError> {
     let t = &table.times;
     let (first, last) = (t[0], t[t.len() - 1]);
     let eps = 1e-9 * first.abs().max(last.abs()).max(1.0);
-    let (want_first, want_last) = (tl.time(0), tl.time(tl.frames().saturating_sub(1)));
-    if want_first < first - eps || want_last > last + eps {
-        let fps = tl.fps();
-        return Err(TrackError {
-            param: "file",
-            message: format!(
-                "{} covers {first} s to {last} s, but the graph evaluates frames {}..{} ({want_first} s to {want_last} s)",
-                table.path.display(),
-                tl.start_frame,
-                tl.frame_number(tl.frames().saturating_sub(1)),
-            ),
-            help: Some(format!(
-                "set a frame range inside frames {}..{}",
-                (first * fps - 1e-9).ceil() as i64,
-                (last * fps + 1e-9).floor() as i64
-            )),
-        });
+    let mut read = Vec::with_capacity(tl.frames());
+    for i in 0..tl.frames() {
+        match outside.map(tl.time(i) + offset, first, last) {
+            Some(x) => read.push(x),
+            None => {
+                let (want_first, want_last) = (tl.time(0), tl.time(tl.frames().saturating_sub(1)));
+                let fps = tl.fps();
+                let shifted = if offset == 0.0 {
+                    String::new()
+                } else {
+                    format!(
+                        ", read at {} s to {} s with the time offset",
+                        want_first + offset,
+                        want_last + offset
+                    )
+                };
+                return Err(TrackError {
+                    param: "file",
+                    message: format!(
+                        "{} covers {first} s to {last} s, but the graph evaluates frames {}..{} ({want_first} s to {want_last} s{shifted})",
+                        table.path.display(),
+                        tl.start_frame,
+                        tl.frame_number(tl.frames().saturating_sub(1)),
+                    ),
+                    help: Some(format!(
+                        "set a frame range inside frames {}..{}, or `outside = hold` or `loop`",
+                        ((first - offset) * fps - 1e-9).ceil() as i64,
+                        ((last - offset) * fps + 1e-9).floor() as i64
+                    )),
+                });
+            }
+        }
     }
-    Ok((0..tl.frames())
-        .map(|i| {
-            let x = tl.time(i).clamp(first, last);
+    Ok(read
+        .into_iter()
+        .map(|x| {
             let k = t.partition_point(|&s| s <= x).clamp(1, t.len() - 1) - 1;
             let u = ((x - t[k]) / (t[k + 1] - t[k])).clamp(0.0, 1.0);
             // A frame that falls on a sample takes it exactly.
@@ -331,15 +415,141 @@ pub fn euler(angles: [f64; 3], order: &str) -> Quat {
 }
 
 /// Reads a host node's data for the timeline: one series per output.
-pub fn load(
-    node: HostNode,
-    values: &[ParamValue],
-    graph_dir: &Path,
-    timeline: Timeline,
-) -> Result<Vec<Vec<f64>>, TrackError> {
+pub fn load(node: HostNode, values: &[ParamValue], graph_dir: &Path, timeline: Timeline) -> Result<Loaded, TrackError> {
     let spec = node.spec();
     let p = |name: &str| text(spec, values, name);
     let path: PathBuf = graph_dir.join(p("file"));
+    let offset = number(spec, values, "time_offset");
+    let outside = Outside::from_choice(p("outside"));
+    if node == HostNode::Character {
+        return load_character(&path, values, timeline);
+    }
+    let axes = if p("axes") == "y_up" { Axes::YUp } else { Axes::ZUp };
+    load_table(node, values, &path, timeline, offset, outside, axes).map(|outputs| Loaded {
+        outputs,
+        instance: None,
+    })
+}
+
+/// A host node's data for the timeline.
+#[derive(Debug, Clone)]
+pub struct Loaded {
+    /// One series per output.
+    pub outputs: Vec<Vec<f64>>,
+    /// For a node whose outputs depend on its file (a character): the instance's own outputs.
+    pub instance: Option<HostInstance>,
+}
+
+/// What a host node instance declares beyond its type: its outputs, the outputs it could not
+/// give (and why), and the character it read.
+#[derive(Debug, Clone)]
+pub struct HostInstance {
+    /// The type's spec with this instance's outputs.
+    pub spec: NodeSpec,
+    /// Names that would be outputs but cannot be used, each with the reason.
+    pub unusable: Vec<(String, String)>,
+    /// The character read, for bakes that rebuild its hierarchy.
+    pub character: Option<Arc<Character>>,
+}
+
+fn number(spec: &NodeSpec, values: &[ParamValue], name: &str) -> f64 {
+    spec.params
+        .iter()
+        .position(|p| p.name == name)
+        .and_then(|i| match &values[i] {
+            ParamValue::Number(v) => Some(*v),
+            _ => None,
+        })
+        .unwrap_or_default()
+}
+
+fn load_character(path: &Path, values: &[ParamValue], timeline: Timeline) -> Result<Loaded, TrackError> {
+    let spec = HostNode::Character.spec();
+    let p = |name: &str| text(spec, values, name);
+    let req = Request {
+        clip: p("clip"),
+        axes: if p("axes") == "z_up" { Axes::ZUp } else { Axes::YUp },
+        offset: number(spec, values, "time_offset"),
+        outside: Outside::from_choice(p("outside")),
+    };
+    let times: Vec<f64> = (0..timeline.frames()).map(|i| timeline.time(i)).collect();
+    let ch = crate::character::load(path, &req, &times).map_err(|e| TrackError {
+        param: e.param,
+        message: e.message,
+        help: e.help,
+    })?;
+    let mut instance_spec = spec.clone();
+    let mut outputs = Vec::new();
+    let mut unusable = Vec::new();
+    let mut by_port: std::collections::BTreeMap<&str, Vec<usize>> = std::collections::BTreeMap::new();
+    for (i, n) in ch.nodes.iter().enumerate() {
+        by_port.entry(n.port.as_str()).or_default().push(i);
+    }
+    for (i, n) in ch.nodes.iter().enumerate() {
+        let same = &by_port[n.port.as_str()];
+        if same.len() > 1 {
+            if same[0] == i {
+                let which: Vec<String> = same
+                    .iter()
+                    .map(|&k| format!("`nodes[{}]` `{}`", ch.nodes[k].index, ch.nodes[k].name))
+                    .collect();
+                unusable.push((
+                    n.port.clone(),
+                    format!(
+                        "`{}` names more than one node of {}: {}",
+                        n.port,
+                        path.display(),
+                        which.join(", ")
+                    ),
+                ));
+            }
+            continue;
+        }
+        match ch.series(i) {
+            Ok(series) => {
+                instance_spec.outputs.push(PortSpec::new(
+                    &n.port,
+                    PortKind::Transform,
+                    Dimension::Length,
+                    &format!("World transform of `{}` (`nodes[{}]`).", n.name, n.index),
+                ));
+                outputs.push(series);
+            }
+            Err(frame) => unusable.push((
+                n.port.clone(),
+                format!(
+                    "`{}` (`nodes[{}]` of {}) has shear in its world transform at frame {}: a non-uniform scale above it \
+                     meets a rotation, which a transform (position and rotation) cannot carry",
+                    n.name,
+                    n.index,
+                    path.display(),
+                    timeline.frame_number(frame)
+                ),
+            )),
+        }
+    }
+    Ok(Loaded {
+        outputs,
+        instance: Some(HostInstance {
+            spec: instance_spec,
+            unusable,
+            character: Some(Arc::new(ch)),
+        }),
+    })
+}
+
+fn load_table(
+    node: HostNode,
+    values: &[ParamValue],
+    path: &Path,
+    timeline: Timeline,
+    offset: f64,
+    outside: Outside,
+    axes: Axes,
+) -> Result<Vec<Vec<f64>>, TrackError> {
+    let spec = node.spec();
+    let p = |name: &str| text(spec, values, name);
+    let path = path.to_path_buf();
     let time_scale = if p("time_unit") == "ms" { 1e-3 } else { 1.0 };
     let length_scale = match p("unit") {
         "cm" => 0.01,
@@ -350,11 +560,12 @@ pub fn load(
     match node {
         HostNode::Force => {
             let table = read_columns(&path, p("time_column"), time_scale, &[("column", p("column"))])?;
-            let at = brackets(&table, timeline)?;
+            let at = brackets(&table, timeline, offset, outside)?;
             Ok(vec![
                 at.iter().map(|&b| length_scale * lerp(&table.columns[0], b)).collect(),
             ])
         }
+        HostNode::Character => Err(err("file", "a character is not a table".to_owned())),
         HostNode::Position | HostNode::Transform => {
             let mut wanted = vec![
                 ("x_column", p("x_column")),
@@ -381,8 +592,8 @@ pub fn load(
                 _ => {}
             }
             let table = read_columns(&path, p("time_column"), time_scale, &wanted)?;
-            let at = brackets(&table, timeline)?;
-            let pos = |b| [0, 1, 2].map(|k| length_scale * lerp(&table.columns[k], b));
+            let at = brackets(&table, timeline, offset, outside)?;
+            let pos = |b| axes.point([0, 1, 2].map(|k| length_scale * lerp(&table.columns[k], b)));
             if node == HostNode::Position {
                 return Ok(vec![at.iter().flat_map(|&b| pos(b)).collect()]);
             }
@@ -423,7 +634,7 @@ pub fn load(
                     }
                     _ => [0.0, 0.0, 0.0, 1.0],
                 };
-                rots.push(q);
+                rots.push(axes.rotation(q));
             }
             let slerp = p("rotation_interpolation") != "nlerp";
             Ok(vec![
