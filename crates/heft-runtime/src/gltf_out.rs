@@ -87,7 +87,9 @@ pub fn transport(points: &[[f64; 3]], root: Quat) -> Vec<Quat> {
         if j + 1 < points.len()
             && let Some(d) = unit(sub(points[j + 1], points[j]))
         {
-            frame = normalise(mul(arc(rotate(frame, Y), d), frame));
+            // A product of unit quaternions is one to rounding; each frame starts afresh from
+            // `root`, so nothing accumulates beyond the chain's length.
+            frame = mul(arc(rotate(frame, Y), d), frame);
         }
         out.push(frame);
     }
@@ -134,16 +136,28 @@ struct Builder {
 
 impl Builder {
     fn floats(&mut self, data: &[f32], ty: &str, count: usize, min_max: Option<(Vec<f32>, Vec<f32>)>) -> usize {
+        self.floats_of(data.iter().copied(), data.len(), ty, count, min_max)
+    }
+
+    /// `len` floats from `data` into the buffer, little-endian, as one accessor.
+    fn floats_of(
+        &mut self,
+        data: impl Iterator<Item = f32>,
+        len: usize,
+        ty: &str,
+        count: usize,
+        min_max: Option<(Vec<f32>, Vec<f32>)>,
+    ) -> usize {
         while !self.bin.len().is_multiple_of(4) {
             self.bin.push(0);
         }
         let offset = self.bin.len();
-        self.bin.reserve(data.len() * 4);
-        for v in data {
-            self.bin.extend_from_slice(&v.to_le_bytes());
+        self.bin.resize(offset + 4 * len, 0);
+        for (bytes, v) in self.bin[offset..].chunks_exact_mut(4).zip(data) {
+            bytes.copy_from_slice(&v.to_le_bytes());
         }
         self.views
-            .push(json!({"buffer": 0, "byteOffset": offset, "byteLength": data.len() * 4}));
+            .push(json!({"buffer": 0, "byteOffset": offset, "byteLength": len * 4}));
         let mut acc = json!({
             "bufferView": self.views.len() - 1,
             "componentType": 5126,
@@ -158,8 +172,9 @@ impl Builder {
         self.accessors.len() - 1
     }
 
-    fn channel(&mut self, node: usize, path: &str, data: &[f32], ty: &str, count: usize) {
-        let output = self.floats(data, ty, count, None);
+    fn channel_of(&mut self, node: usize, path: &str, data: impl Iterator<Item = f32>, width: usize, count: usize) {
+        let ty = if width == 4 { "VEC4" } else { "VEC3" };
+        let output = self.floats_of(data, width * count, ty, count, None);
         self.samplers
             .push(json!({"input": self.time_accessor, "output": output, "interpolation": "LINEAR"}));
         self.channels
@@ -210,21 +225,21 @@ impl Builder {
 
     fn animate_t(&mut self, node: usize, t: &[[f64; 3]]) {
         self.rest(node, t.first().copied(), None, None);
-        let data: Vec<f32> = t.iter().flat_map(|p| p.map(|c| c as f32)).collect();
-        self.channel(node, "translation", &data, "VEC3", t.len());
+        let data = t.iter().flat_map(|p| p.map(|c| c as f32));
+        self.channel_of(node, "translation", data, 3, t.len());
     }
 
     fn animate_r(&mut self, node: usize, r: &mut [Quat]) {
         continuous(r);
         self.rest(node, None, r.first().copied(), None);
-        let data: Vec<f32> = r.iter().flat_map(|q| q.map(|c| c as f32)).collect();
-        self.channel(node, "rotation", &data, "VEC4", r.len());
+        let data = r.iter().flat_map(|q| q.map(|c| c as f32));
+        self.channel_of(node, "rotation", data, 4, r.len());
     }
 
     fn animate_s(&mut self, node: usize, s: &[[f64; 3]]) {
         self.rest(node, None, None, s.first().copied());
-        let data: Vec<f32> = s.iter().flat_map(|p| p.map(|c| c as f32)).collect();
-        self.channel(node, "scale", &data, "VEC3", s.len());
+        let data = s.iter().flat_map(|p| p.map(|c| c as f32));
+        self.channel_of(node, "scale", data, 3, s.len());
     }
 }
 
@@ -479,6 +494,7 @@ impl Bake<'_> {
                 }
             }
             // Local transforms.
+            let (mut t, mut r) = (Vec::with_capacity(nf), Vec::with_capacity(nf));
             let mut joints = Vec::with_capacity(c);
             let mut parent_node = parent;
             for j in 0..c {
@@ -488,8 +504,8 @@ impl Bake<'_> {
                     Some(json!({"name": name, "series": item.name, "point": s * c + j})),
                     Some(parent_node),
                 );
-                let mut t = Vec::with_capacity(nf);
-                let mut r = Vec::with_capacity(nf);
+                t.clear();
+                r.clear();
                 for k in 0..nf {
                     let up = if j == 0 {
                         parent_world[k]
@@ -656,8 +672,12 @@ fn load_base(ch: &Character) -> Result<Base, String> {
     })
 }
 
-/// The files of one bake: (file name, bytes); a separate-buffer .gltf adds its .bin file.
-pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<Vec<(String, Vec<u8>)>, String> {
+/// A file to write: its name, and its bytes in consecutive parts (so that the large binary
+/// buffer is never copied into place behind the header).
+pub type FileParts = (String, Vec<Vec<u8>>);
+
+/// The files of one bake; a separate-buffer .gltf adds its .bin file.
+pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<Vec<FileParts>, String> {
     let tl = plan.timeline;
     let frames = baked_frames(plan, bake);
     if frames.is_empty() {
@@ -735,6 +755,10 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
         characters: BTreeMap::new(),
         base: bake.base,
     };
+    // Room for every channel: a translation and a rotation per point (a joint or a node) per
+    // frame, so the buffer grows once.
+    let per_frame: usize = bake.items.iter().map(|i| 7 * i.shape.points.max(1)).sum();
+    bk.b.bin.reserve(4 * per_frame * frames.len() + 4 * times.len());
     let (tmin, tmax) = (
         times.first().copied().unwrap_or(0.0),
         times.last().copied().unwrap_or(0.0),
@@ -832,24 +856,23 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
             }
             let total = 12 + 8 + json_bytes.len() + 8 + bin.len();
             let total = u32::try_from(total).map_err(|_| "the bake is larger than a .glb file can hold (4 GiB)")?;
-            let mut out = Vec::with_capacity(total as usize);
-            out.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
-            out.extend_from_slice(&2u32.to_le_bytes());
-            out.extend_from_slice(&total.to_le_bytes());
-            out.extend_from_slice(&(json_bytes.len() as u32).to_le_bytes());
-            out.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
-            out.extend_from_slice(&json_bytes);
-            out.extend_from_slice(&(bin.len() as u32).to_le_bytes());
-            out.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
-            out.extend_from_slice(&bin);
-            Ok(vec![(bake.file.clone(), out)])
+            let mut head = Vec::with_capacity(12 + 8 + json_bytes.len() + 8);
+            head.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
+            head.extend_from_slice(&2u32.to_le_bytes());
+            head.extend_from_slice(&total.to_le_bytes());
+            head.extend_from_slice(&(json_bytes.len() as u32).to_le_bytes());
+            head.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
+            head.extend_from_slice(&json_bytes);
+            head.extend_from_slice(&(bin.len() as u32).to_le_bytes());
+            head.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
+            Ok(vec![(bake.file.clone(), vec![head, bin])])
         }
         BakeFormat::GltfEmbedded => {
             let data = base64::engine::general_purpose::STANDARD.encode(&b.bin);
             doc["buffers"][0]["uri"] = json!(format!("data:application/octet-stream;base64,{data}"));
             Ok(vec![(
                 bake.file.clone(),
-                serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?,
+                vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
             )])
         }
         BakeFormat::GltfSeparate => {
@@ -863,9 +886,9 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
             Ok(vec![
                 (
                     bake.file.clone(),
-                    serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?,
+                    vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
                 ),
-                (bin_file, b.bin),
+                (bin_file, vec![b.bin]),
             ])
         }
     }

@@ -144,12 +144,19 @@ type Staged = Vec<(tempfile::NamedTempFile, PathBuf)>;
 
 /// Writes `bytes` to a temporary file in `dir`, to be renamed to `path` when all is written.
 fn stage(staged: &mut Staged, dir: &Path, bytes: &[u8], path: PathBuf) -> Result<(), WriteError> {
+    stage_parts(staged, dir, &[bytes], path)
+}
+
+/// [`stage`] for a file given as consecutive parts.
+fn stage_parts(staged: &mut Staged, dir: &Path, parts: &[&[u8]], path: PathBuf) -> Result<(), WriteError> {
     let mut tmp = tempfile::Builder::new()
         .prefix(".heft-")
         .suffix(".partial")
         .tempfile_in(dir)
         .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
-    tmp.write_all(bytes).map_err(|e| werr(&path, e))?;
+    for bytes in parts {
+        tmp.write_all(bytes).map_err(|e| werr(&path, e))?;
+    }
     tmp.as_file().sync_all().map_err(|e| werr(&path, e))?;
     staged.push((tmp, path));
     Ok(())
@@ -216,12 +223,13 @@ pub fn write_all(
     }
     for bake in &plan.bakes {
         let files = crate::gltf_out::bake_files(plan, eval, bake).map_err(|e| werr(&dir.join(&bake.file), e))?;
-        for (name, bytes) in files {
+        for (name, parts) in files {
             let path = dir.join(&name);
             if let Some(parent) = path.parent() {
                 std::fs::create_dir_all(parent).map_err(|e| werr(parent, e))?;
             }
-            stage(&mut staged, dir, &bytes, path)?;
+            let parts: Vec<&[u8]> = parts.iter().map(Vec::as_slice).collect();
+            stage_parts(&mut staged, dir, &parts, path)?;
             outputs.push(OutputEntry {
                 file: name,
                 node: String::new(),

@@ -18,10 +18,20 @@ pub fn conj(q: Quat) -> Quat {
     [-q[0], -q[1], -q[2], q[3]]
 }
 
-/// Rotates a vector by a unit quaternion: q v q*.
+/// Rotates a vector by a unit quaternion: q v q*, evaluated as v + 2 w (u x v) + 2 u x (u x v)
+/// with u the vector part (the same product, expanded).
 pub fn rotate(q: Quat, v: [f64; 3]) -> [f64; 3] {
-    let r = mul(mul(q, [v[0], v[1], v[2], 0.0]), conj(q));
-    [r[0], r[1], r[2]]
+    let (x, y, z, w) = (q[0], q[1], q[2], q[3]);
+    let c = [
+        2.0 * (y * v[2] - z * v[1]),
+        2.0 * (z * v[0] - x * v[2]),
+        2.0 * (x * v[1] - y * v[0]),
+    ];
+    [
+        v[0] + w * c[0] + (y * c[2] - z * c[1]),
+        v[1] + w * c[1] + (z * c[0] - x * c[2]),
+        v[2] + w * c[2] + (x * c[1] - y * c[0]),
+    ]
 }
 
 /// The 4D dot product.
