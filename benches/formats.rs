@@ -10,10 +10,9 @@ use std::time::Duration;
 
 use base64::Engine;
 use criterion::{Criterion, Throughput, criterion_group, criterion_main};
-use heft_runtime::character::{Axes, Outside, Request, load};
+use heft_formats::character::{Axes, Outside, Request, load};
 use heft_runtime::check::Overrides;
 use heft_runtime::eval::Evaluation;
-use heft_runtime::registry::Registry;
 use serde_json::json;
 
 /// A 60-joint chain (a long spine of a creature: the joint count matters, not the shape)
@@ -102,7 +101,7 @@ fn read_character(c: &mut Criterion) {
 }
 
 fn write_glb(c: &mut Criterion) {
-    let mut reg = Registry::new();
+    let mut reg = heft_formats::registry();
     reg.add_static(heft_xpbd::plugin_table(), "xpbd (linked)")
         .expect("xpbd");
     let text = "format 1\nrate 24 fps\nframes 0..719\n\
@@ -146,7 +145,7 @@ fn write_glb(c: &mut Criterion) {
         warnings: Vec::new(),
         wall: Duration::ZERO,
     };
-    let bytes: usize = heft_runtime::gltf_out::bake_files(&plan, &eval, &plan.bakes[0]).expect("bakes")[0]
+    let bytes: usize = heft_formats::gltf_out::bake_files(&plan, &eval, &plan.bakes[0]).expect("bakes")[0]
         .1
         .iter()
         .map(Vec::len)
@@ -155,7 +154,7 @@ fn write_glb(c: &mut Criterion) {
     g.sample_size(10);
     g.throughput(Throughput::Bytes(bytes as u64));
     g.bench_function("write the glb of 1000 strands x 17 joints x 720 frames", |b| {
-        b.iter(|| black_box(heft_runtime::gltf_out::bake_files(&plan, &eval, &plan.bakes[0]).expect("bakes")))
+        b.iter(|| black_box(heft_formats::gltf_out::bake_files(&plan, &eval, &plan.bakes[0]).expect("bakes")))
     });
     g.finish();
 }

@@ -62,7 +62,7 @@ fn a_file_that_is_not_a_library_is_refused_and_discovery_goes_on() {
         library(&real, "heft_trajectory"),
     )
     .expect("copy");
-    let reg = Registry::discover(&[dir.path().to_path_buf(), real]);
+    let reg = heft_formats::discover(&[dir.path().to_path_buf(), real]);
     assert_eq!(reg.failures().len(), 1);
     assert!(matches!(reg.lookup("trajectory.ballistic"), Ok(Some(_))));
 }
@@ -170,7 +170,7 @@ fn the_same_file_reached_twice_is_loaded_once() {
     )
     .expect("copy");
     let d = dir.path().to_path_buf();
-    let reg = Registry::discover(&[d.clone(), d.join("."), d]);
+    let reg = heft_formats::discover(&[d.clone(), d.join("."), d]);
     assert_eq!(reg.plugins().len(), 1);
     assert!(matches!(reg.lookup("trajectory.ballistic"), Ok(Some(_))));
 }

@@ -97,7 +97,7 @@ pub fn library(dir: &Path, name: &str) -> PathBuf {
 /// A registry of the workspace's real plugins, loaded file by file (so that whatever else
 /// a developer has built into the target folder does not change the test).
 pub fn registry() -> Registry {
-    let mut reg = Registry::new();
+    let mut reg = heft_formats::registry();
     for name in REAL_PLUGINS {
         reg.load_file(&library(plugin_dir(), name));
     }

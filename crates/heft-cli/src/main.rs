@@ -7,10 +7,11 @@ use std::process::ExitCode;
 use std::time::Instant;
 
 use clap::{Args, Parser, Subcommand};
+use heft_formats::output;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::render;
 use heft_runtime::registry::{Registry, search_path};
-use heft_runtime::{check, eval, output, read_graph};
+use heft_runtime::{check, eval, read_graph};
 
 mod describe;
 mod sweep;
@@ -121,7 +122,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let color = std::io::stderr().is_terminal();
     let dirs = search_path(&cli.plugins);
-    let registry = Registry::discover(&dirs);
+    let registry = heft_formats::discover(&dirs);
     if cli.verbose {
         eprintln!("plugin folders searched, in order:");
         for d in &dirs {

@@ -4,13 +4,14 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::time::Instant;
 
+use heft_formats::output;
 use heft_node_sdk::ParamValue;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::render;
 use heft_runtime::graph::GraphFile;
 use heft_runtime::registry::Registry;
 use heft_runtime::sweep::{Axis, grid};
-use heft_runtime::{check, eval, output, read_graph};
+use heft_runtime::{check, eval, read_graph};
 use rayon::prelude::*;
 
 use crate::GraphArgs;

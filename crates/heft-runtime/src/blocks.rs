@@ -1,4 +1,5 @@
-//! Checking `bake` and `plot` blocks into plans the writers follow.
+//! Checking `bake` and `plot` blocks into plans the writers follow (the writers live in
+//! `heft-formats`; a plan names what to write, never how).
 
 use std::sync::Arc;
 
@@ -6,6 +7,7 @@ use heft_node_sdk::{Dimension, PortKind, Shape};
 
 use crate::diag::{Problem, Source};
 use crate::graph::{BlockKind, OutputBlock, ParamLine, PortRef, Value};
+use crate::units;
 
 /// How a glTF bake is stored.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -30,14 +32,13 @@ pub enum BakeAnchor {
         /// Output index.
         output: usize,
     },
-    /// A joint of a glTF character: the chains hang under that bone.
+    /// A joint of a node hierarchy a source read (a glTF character): the chains hang under
+    /// that bone.
     Joint {
         /// The character node's index.
         node: usize,
-        /// The output that carries the joint.
+        /// The output that carries the joint (named after it).
         output: usize,
-        /// The joint, an index into the character's nodes.
-        joint: usize,
     },
 }
 
@@ -268,4 +269,185 @@ fn frame_range(v: &Value) -> Option<(i64, i64)> {
     let (a, b) = t.split_once("..")?;
     let (a, b) = (a.trim().parse::<i64>().ok()?, b.trim().parse::<i64>().ok()?);
     (a <= b).then_some((a, b))
+}
+
+/// What a plot shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Style {
+    /// Series against time.
+    Lines,
+    /// A ground reaction force curve.
+    Weight,
+    /// Paths projected on a plane.
+    Path,
+}
+
+/// One plotted series.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlotItem {
+    /// Node index.
+    pub node: usize,
+    /// Output index.
+    pub output: usize,
+    /// Its shape.
+    pub shape: Shape,
+    /// Its dimension.
+    pub dimension: Dimension,
+    /// Points per chain (path style: only chain tips are drawn).
+    pub chain: Option<usize>,
+    /// `node.port`.
+    pub name: String,
+}
+
+/// A checked `plot` block.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlannedPlot {
+    /// File name in the output folder.
+    pub file: String,
+    /// What it shows.
+    pub style: Style,
+    /// The series.
+    pub items: Vec<PlotItem>,
+    /// Body mass for the weight style (kg).
+    pub mass: Option<f64>,
+    /// The two axes of the path style (0 = x, 1 = y, 2 = z).
+    pub plane: [usize; 2],
+    /// Title.
+    pub title: String,
+}
+
+/// Checks a `plot` block.
+pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) -> Result<PlannedPlot, Vec<Problem>> {
+    let mut problems = Vec::new();
+    if let Err(p) = check_file_name(src, block, &["svg", "png"]) {
+        problems.push(p);
+    }
+    let mut style = Style::Lines;
+    let mut mass = None;
+    let mut plane = [0, 2];
+    let mut title = block.file.value.clone();
+    for opt in &block.options {
+        let v = &opt.value;
+        let bad =
+            |what: &str| Problem::new(src, v.span, format!("`{}` takes {what}", opt.name.value)).label("not accepted");
+        match (opt.name.value.as_str(), &v.value) {
+            ("style", Value::Word(w)) => match w.as_str() {
+                "lines" => style = Style::Lines,
+                "weight" => style = Style::Weight,
+                "path" => style = Style::Path,
+                _ => problems.push(bad("lines, weight or path")),
+            },
+            ("mass", Value::Number { value, unit, .. }) => match unit.as_ref().and_then(|u| units::lookup(&u.value)) {
+                Some((Dimension::Mass, f)) if value * f > 0.0 => mass = Some(value * f),
+                _ => problems.push(bad("a positive mass with its unit, such as `58 kg`")),
+            },
+            ("plane", Value::Word(w)) => match w.as_str() {
+                "xz" => plane = [0, 2],
+                "xy" => plane = [0, 1],
+                "yz" => plane = [1, 2],
+                _ => problems.push(bad("xz, xy or yz")),
+            },
+            ("title", Value::Text(t)) => title = t.clone(),
+            ("style", _) => problems.push(bad("lines, weight or path")),
+            ("mass", _) => problems.push(bad("a positive mass with its unit, such as `58 kg`")),
+            ("plane", _) => problems.push(bad("xz, xy or yz")),
+            ("title", _) => problems.push(bad("a quoted text")),
+            (other, _) => problems.push(
+                Problem::new(src, opt.name.span, format!("`plot` has no option `{other}`"))
+                    .label("unknown option")
+                    .help("options: style = lines | weight | path, mass = .. kg, plane = xz | xy | yz, title = \"..\""),
+            ),
+        }
+    }
+    let mut items = Vec::new();
+    for item in &block.items {
+        match resolve(&item.port) {
+            Ok((node, output, shape, dimension)) => items.push((item, node, output, shape, dimension)),
+            Err(p) => problems.push(p),
+        }
+    }
+    if block.items.is_empty() {
+        problems.push(
+            Problem::new(src, block.file.span, "this plot lists no series")
+                .help("list indented lines such as `weight.force`"),
+        );
+    }
+    let mut planned = Vec::new();
+    for (item, node, output, shape, dimension) in items {
+        let span = item.port.span();
+        let ok = match style {
+            Style::Lines => matches!(shape.kind, PortKind::Scalar | PortKind::Vec3 | PortKind::Flag),
+            Style::Weight => matches!(shape.kind, PortKind::Scalar | PortKind::Flag),
+            Style::Path => matches!(shape.kind, PortKind::Points | PortKind::Vec3 | PortKind::Transform),
+        };
+        if !ok {
+            problems.push(Problem::new(src, span, format!("`{}` ({}) cannot be drawn in this plot style", item.port.text(), shape.kind.name())).label("wrong kind").help(
+                "lines: scalar, flag or vec3 series; weight: a force scalar and a contact flag; path: points, vec3 or transform",
+            ));
+            continue;
+        }
+        planned.push(PlotItem {
+            node,
+            output,
+            shape,
+            dimension,
+            chain: item.chains.as_ref().map(|c| c.value),
+            name: item.port.text(),
+        });
+    }
+    match style {
+        Style::Weight => {
+            let forces = planned.iter().filter(|i| i.shape.kind == PortKind::Scalar).count();
+            let flags = planned.iter().filter(|i| i.shape.kind == PortKind::Flag).count();
+            if forces != 1
+                || flags > 1
+                || planned
+                    .iter()
+                    .any(|i| i.shape.kind == PortKind::Scalar && i.dimension != Dimension::Force)
+            {
+                problems.push(
+                    Problem::new(
+                        src,
+                        block.file.span,
+                        "a weight plot takes one force series (N) and at most one contact flag",
+                    )
+                    .label("weight plot"),
+                );
+            }
+            if mass.is_none() {
+                problems.push(
+                    Problem::new(src, block.file.span, "a weight plot needs the body mass")
+                        .label("weight plot")
+                        .help("add `mass = 58 kg` under the plot"),
+                );
+            }
+        }
+        Style::Lines => {
+            let dims: Vec<Dimension> = planned
+                .iter()
+                .filter(|i| i.shape.kind != PortKind::Flag)
+                .map(|i| i.dimension)
+                .collect();
+            if dims.windows(2).any(|w| w[0] != w[1]) {
+                problems.push(
+                    Problem::new(src, block.file.span, "the series of one plot must share a unit")
+                        .label("mixed units")
+                        .help("make one plot per unit"),
+                );
+            }
+        }
+        Style::Path => {}
+    }
+    if problems.is_empty() {
+        Ok(PlannedPlot {
+            file: block.file.value.clone(),
+            style,
+            items: planned,
+            mass,
+            plane,
+            title,
+        })
+    } else {
+        Err(problems)
+    }
 }

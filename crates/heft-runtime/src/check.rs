@@ -9,13 +9,11 @@ use std::sync::Arc;
 use heft_node_sdk::host::Plugin;
 use heft_node_sdk::{Dimension, ParamSpec, ParamType, ParamValue, PortKind, Shape, Timeline};
 
-use crate::blocks::{self, PlannedBake};
+use crate::blocks::{self, PlannedBake, PlannedPlot};
 use crate::diag::{Place, Problem, Source, Span};
 use crate::graph::BlockKind;
 use crate::graph::{GraphFile, ParamLine, PortRef, Spanned, UnitText, Value, parse_value};
-use crate::plots::{self, PlannedPlot};
 use crate::registry::{NodeType, Provider, Registry, closest};
-use crate::tracks;
 use crate::units;
 
 /// What the command line changes in a graph.
@@ -602,8 +600,8 @@ pub fn check(
         let (Some(ty), true) = (states[i].ty.clone(), states[i].ok) else {
             continue;
         };
-        let Provider::Host(h) = ty.provider else { continue };
-        match tracks::load(h, &states[i].params, &dir_of(decl.name.span), timeline) {
+        let Provider::Host(h) = &ty.provider else { continue };
+        match h.load(&states[i].params, &dir_of(decl.name.span), timeline) {
             Ok(loaded) => {
                 if let Some(instance) = loaded.instance {
                     states[i].ty = Some(NodeType {
@@ -1053,7 +1051,7 @@ pub fn check(
                                 .ty
                                 .as_ref()
                                 .and_then(|t| t.instance.as_ref())
-                                .is_some_and(|inst| inst.character.is_some())
+                                .is_some_and(|inst| inst.hierarchy.is_some())
                         });
                         match found {
                             Some(i) if is_character => b.base = Some(i),
@@ -1071,7 +1069,7 @@ pub fn check(
                                             .ty
                                             .as_ref()
                                             .and_then(|t| t.instance.as_ref())
-                                            .is_some_and(|inst| inst.character.is_some())
+                                            .is_some_and(|inst| inst.hierarchy.is_some())
                                     })
                                     .map(|(n, _)| *n)
                                     .collect();
@@ -1088,7 +1086,7 @@ pub fn check(
                 }
                 Err(mut p) => problems.append(&mut p),
             },
-            BlockKind::Plot => match plots::plan_plot(block_src(block), block, &resolve) {
+            BlockKind::Plot => match blocks::plan_plot(block_src(block), block, &resolve) {
                 Ok(mut p) => {
                     for item in &mut p.items {
                         if item.shape.kind == PortKind::Points {
@@ -1187,17 +1185,9 @@ fn anchor_of(states: &[NodeState], inputs: &[Vec<Option<(usize, usize)>>], node:
     if source.spec().outputs.get(out).map(|o| o.kind) != Some(PortKind::Transform) {
         return blocks::BakeAnchor::None;
     }
-    let joint = source.instance.as_ref().and_then(|i| {
-        let ch = i.character.as_ref()?;
-        let port = &source.spec().outputs[out].name;
-        ch.nodes.iter().position(|n| &n.port == port)
-    });
-    match joint {
-        Some(joint) => blocks::BakeAnchor::Joint {
-            node: a,
-            output: out,
-            joint,
-        },
-        None => blocks::BakeAnchor::Series { node: a, output: out },
+    if source.instance.as_ref().is_some_and(|inst| inst.hierarchy.is_some()) {
+        blocks::BakeAnchor::Joint { node: a, output: out }
+    } else {
+        blocks::BakeAnchor::Series { node: a, output: out }
     }
 }

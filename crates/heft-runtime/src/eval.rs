@@ -6,8 +6,9 @@ use std::time::{Duration, Instant};
 
 use rayon::prelude::*;
 
+use heft_node_sdk::{Dimension, PortKind, Shape};
+
 use crate::check::Plan;
-use crate::output::columns;
 use crate::registry::Provider;
 
 /// Why an evaluation stopped.
@@ -236,4 +237,31 @@ pub fn evaluate_observed(
         warnings,
         wall,
     })
+}
+
+/// The names of a port's values, with units (used in messages, and as CSV headers by the
+/// writers): `position.x [m]`, `hips.qw`, `tips.p3.z [m]`.
+pub fn columns(port: &str, shape: Shape, dimension: Dimension) -> Vec<String> {
+    let unit = match dimension.si_symbol() {
+        "" => String::new(),
+        s => format!(" [{s}]"),
+    };
+    match shape.kind {
+        PortKind::Scalar => vec![format!("{port}{unit}")],
+        PortKind::Flag => vec![format!("{port} [on/off]")],
+        PortKind::Vec3 => ["x", "y", "z"].iter().map(|a| format!("{port}.{a}{unit}")).collect(),
+        PortKind::Transform => ["tx", "ty", "tz"]
+            .iter()
+            .map(|a| format!("{port}.{a}{unit}"))
+            .chain(["qx", "qy", "qz", "qw"].iter().map(|a| format!("{port}.{a}")))
+            .collect(),
+        PortKind::Points => (0..shape.points)
+            .flat_map(|p| {
+                let unit = unit.clone();
+                ["x", "y", "z"]
+                    .into_iter()
+                    .map(move |a| format!("{port}.p{p}.{a}{unit}"))
+            })
+            .collect(),
+    }
 }

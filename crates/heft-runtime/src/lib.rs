@@ -1,21 +1,16 @@
 //! The heft runtime: reads graph files, finds and loads node plugins, checks a graph
-//! against them, evaluates it (independent branches in parallel) and writes outputs.
-//!
-//! This crate does all of heft's file I/O; it holds no `unsafe` (the plugin boundary is
-//! `heft-node-sdk`'s).
+//! against them and evaluates it (independent branches in parallel). It names no file
+//! format: host source nodes come in through [`source::HostSource`], and the writers of
+//! outputs (`heft-formats`) follow the plan it makes. It holds no `unsafe` (the plugin
+//! boundary is `heft-node-sdk`'s).
 #![forbid(unsafe_code)]
 #![warn(missing_docs)]
 
 pub mod blocks;
-pub mod character;
 pub mod check;
 pub mod diag;
 pub mod eval;
-pub mod gltf_out;
 pub mod graph;
-pub mod output;
-pub mod plots;
-pub mod quat;
 pub mod recipes;
 pub mod registry;
 pub mod sweep;
@@ -47,4 +42,4 @@ pub fn plan_text(
     check::check(&graph, problems, registry, overrides)
 }
 pub mod node_docs;
-pub mod tracks;
+pub mod source;

@@ -89,8 +89,9 @@ pub fn list(registry: &Registry) -> String {
         }
     }
     let _ = writeln!(out, "built into heft");
-    for h in crate::tracks::HostNode::ALL {
-        let _ = writeln!(out, "  {:<28} {}", h.full_name(), h.spec().doc);
+    for h in registry.hosts() {
+        let full = format!("{}.{}", crate::source::HOST_PLUGIN, h.spec().name);
+        let _ = writeln!(out, "  {full:<28} {}", h.spec().doc);
     }
     for f in registry.failures() {
         let _ = writeln!(out, "not loaded: {f}");
@@ -138,6 +139,9 @@ pub fn describe_type(t: &NodeType) -> String {
         port_line(&mut out, p, width);
     }
     let _ = writeln!(out, "\noutputs:");
+    if spec.outputs.is_empty() {
+        let _ = writeln!(out, "  (none of its own: each node it reads has them, see above)");
+    }
     for p in &spec.outputs {
         port_line(&mut out, p, width);
     }

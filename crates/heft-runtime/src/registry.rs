@@ -14,7 +14,7 @@ use heft_node_sdk::NodeSpec;
 use heft_node_sdk::abi::PluginTable;
 use heft_node_sdk::host::{LoadError, Plugin};
 
-use crate::tracks::{HOST_PLUGIN, HostInstance, HostNode};
+use crate::source::{HOST_PLUGIN, HostInstance, HostSource};
 use sha2::{Digest, Sha256};
 
 /// The environment variable holding extra plugin folders (`:`-separated on Unix).
@@ -40,7 +40,7 @@ pub enum Provider {
         index: u32,
     },
     /// The host itself (a source that reads a file).
-    Host(HostNode),
+    Host(Arc<dyn HostSource>),
 }
 
 /// A node type: `plugin.node` and who provides it.
@@ -87,6 +87,7 @@ pub struct Registry {
     plugins: Vec<Arc<LoadedPlugin>>,
     failures: Vec<LoadError>,
     types: BTreeMap<String, Vec<NodeType>>,
+    hosts: Vec<Arc<dyn HostSource>>,
 }
 
 /// The folders searched, in order, given the `--plugins` folders.
@@ -116,18 +117,25 @@ fn sha256_hex(path: &Path) -> String {
 }
 
 impl Registry {
-    /// A registry holding only the node types built into the host.
+    /// An empty registry: no plugins, no host sources.
     pub fn new() -> Registry {
-        let mut reg = Registry::default();
-        for h in HostNode::ALL {
-            let full_name = h.full_name();
-            reg.types.entry(full_name.clone()).or_default().push(NodeType {
-                full_name,
-                provider: Provider::Host(h),
-                instance: None,
-            });
-        }
-        reg
+        Registry::default()
+    }
+
+    /// Adds a host source node type, `track.NAME`.
+    pub fn add_host(&mut self, source: Arc<dyn HostSource>) {
+        let full_name = format!("{HOST_PLUGIN}.{}", source.spec().name);
+        self.hosts.push(Arc::clone(&source));
+        self.types.entry(full_name.clone()).or_default().push(NodeType {
+            full_name,
+            provider: Provider::Host(source),
+            instance: None,
+        });
+    }
+
+    /// The host source node types, in the order added.
+    pub fn hosts(&self) -> &[Arc<dyn HostSource>] {
+        &self.hosts
     }
 
     /// Loads every plugin in the folders, in order. Missing folders are skipped; the same

@@ -33,12 +33,13 @@ use base64::Engine;
 use heft_node_sdk::PortKind;
 use serde_json::{Value, json};
 
-use crate::blocks::{BakeAnchor, BakeFormat, BakeItem, PlannedBake};
+use heft_runtime::blocks::{BakeAnchor, BakeFormat, BakeItem, PlannedBake};
+use heft_runtime::check::Plan;
+use heft_runtime::eval::Evaluation;
+
 use std::sync::Arc;
 
 use crate::character::{Affine, Axes, Character};
-use crate::check::Plan;
-use crate::eval::Evaluation;
 use crate::quat::{Quat, conj, mul, normalise, rotate};
 
 /// The shortest rotation taking the unit vector `a` to the unit vector `b`.
@@ -262,6 +263,12 @@ impl Rigid {
     }
 }
 
+/// The character a node read, if it is a `track.character`.
+fn character_of(plan: &Plan, node: usize) -> Option<Arc<Character>> {
+    let hierarchy = plan.nodes[node].ty.instance.as_ref()?.hierarchy.clone()?;
+    hierarchy.downcast::<Character>().ok()
+}
+
 /// The frames of a bake (indices into the timeline).
 fn baked_frames(plan: &Plan, bake: &PlannedBake) -> std::ops::Range<usize> {
     let tl = plan.timeline;
@@ -420,14 +427,15 @@ impl Bake<'_> {
                 parent_world = self.frames.clone().map(|i| self.rigid(node, output, i)).collect();
                 self.series_node(node, output)
             }
-            BakeAnchor::Joint { node, output, joint } => {
-                let (node, output, joint) = (*node, *output, *joint);
-                let ch = self.plan.nodes[node]
-                    .ty
-                    .instance
-                    .as_ref()
-                    .and_then(|i| i.character.clone())
+            BakeAnchor::Joint { node, output } => {
+                let (node, output) = (*node, *output);
+                let ch = character_of(self.plan, node)
                     .ok_or_else(|| format!("`{}` has no character to hang on", item.name))?;
+                let port = &self.plan.nodes[node].ty.spec().outputs[output].name;
+                let joint =
+                    ch.nodes.iter().position(|n| &n.port == port).ok_or_else(|| {
+                        format!("`{}` hangs on `{port}`, which its character does not hold", item.name)
+                    })?;
                 parent_world = self.frames.clone().map(|i| self.rigid(node, output, i)).collect();
                 let bone = self.character_node(node, &ch, joint);
                 // A node under the bone that cancels its scale: its world is the bone's rotation
@@ -683,13 +691,7 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
     if frames.is_empty() {
         return Err("the bake's frame range holds no frame of the run".to_owned());
     }
-    let base_ch: Option<Arc<Character>> = bake.base.and_then(|i| {
-        plan.nodes[i]
-            .ty
-            .instance
-            .as_ref()
-            .and_then(|inst| inst.character.clone())
-    });
+    let base_ch: Option<Arc<Character>> = bake.base.and_then(|i| character_of(plan, i));
     let (y_up, times, base) = match &base_ch {
         None => {
             let t0 = tl.time(frames.start);

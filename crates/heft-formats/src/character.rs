@@ -621,7 +621,7 @@ fn read(path: &Path, shown: &str, req: &Request<'_>, times: &[f64]) -> Result<Ch
     } else {
         let names: Vec<String> = animations.iter().map(clip_label).collect();
         let mut help = format!("its clips are {} (or an index from 0)", list());
-        if let Some(c) = crate::registry::closest(req.clip, names.iter().map(String::as_str)) {
+        if let Some(c) = heft_runtime::registry::closest(req.clip, names.iter().map(String::as_str)) {
             help = format!("did you mean `{c}`? {help}");
         }
         return Err(CharacterError {

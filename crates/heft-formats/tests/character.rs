@@ -6,7 +6,7 @@
 
 use std::path::{Path, PathBuf};
 
-use heft_runtime::character::{Axes, Character, Outside, Request, load};
+use heft_formats::character::{Axes, Character, Outside, Request, load};
 use serde_json::Value;
 
 fn fixtures() -> PathBuf {
@@ -158,8 +158,8 @@ fn y_up_becomes_z_up() {
     // A rotation turned the same way: the file's +Y (up) is heft's +Z.
     let q = [s[3], s[4], s[5], s[6]];
     let r = ch.world[head][0].rotation_scale().expect("rigid").0;
-    let up_file = heft_runtime::quat::rotate(r, [0.0, 1.0, 0.0]);
-    let up_heft = heft_runtime::quat::rotate(q, [0.0, 0.0, 1.0]);
+    let up_file = heft_formats::quat::rotate(r, [0.0, 1.0, 0.0]);
+    let up_heft = heft_formats::quat::rotate(q, [0.0, 0.0, 1.0]);
     let turned = [up_file[0], -up_file[2], up_file[1]];
     for k in 0..3 {
         assert!((up_heft[k] - turned[k]).abs() < 1e-12);

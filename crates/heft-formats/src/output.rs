@@ -6,37 +6,10 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
-use heft_node_sdk::{Dimension, PortKind, Shape};
 use serde::Serialize;
 
-use crate::check::Plan;
-use crate::eval::Evaluation;
-
-/// Column names of a port, with units: `position.x [m]`, `hips.qw`, `tips.p3.z [m]`.
-pub fn columns(port: &str, shape: Shape, dimension: Dimension) -> Vec<String> {
-    let unit = match dimension.si_symbol() {
-        "" => String::new(),
-        s => format!(" [{s}]"),
-    };
-    match shape.kind {
-        PortKind::Scalar => vec![format!("{port}{unit}")],
-        PortKind::Flag => vec![format!("{port} [on/off]")],
-        PortKind::Vec3 => ["x", "y", "z"].iter().map(|a| format!("{port}.{a}{unit}")).collect(),
-        PortKind::Transform => ["tx", "ty", "tz"]
-            .iter()
-            .map(|a| format!("{port}.{a}{unit}"))
-            .chain(["qx", "qy", "qz", "qw"].iter().map(|a| format!("{port}.{a}")))
-            .collect(),
-        PortKind::Points => (0..shape.points)
-            .flat_map(|p| {
-                let unit = unit.clone();
-                ["x", "y", "z"]
-                    .into_iter()
-                    .map(move |a| format!("{port}.p{p}.{a}{unit}"))
-            })
-            .collect(),
-    }
-}
+use heft_runtime::check::Plan;
+use heft_runtime::eval::{Evaluation, columns};
 
 /// Why outputs could not be written.
 #[derive(Debug)]

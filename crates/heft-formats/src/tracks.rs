@@ -14,11 +14,10 @@ use heft_node_sdk::{Dimension, NodeSpec, ParamSpec, ParamValue, PortKind, PortSp
 
 use std::sync::Arc;
 
-use crate::character::{Axes, Character, Outside, Request};
-use crate::quat::{Quat, dot, mul as q_mul, normalise as normalised};
+use heft_runtime::source::{HOST_PLUGIN, HostInstance, HostSource, Loaded, SourceError};
 
-/// The plugin name reserved for host-side nodes.
-pub const HOST_PLUGIN: &str = "track";
+use crate::character::{Axes, Outside, Request};
+use crate::quat::{Quat, dot, mul as q_mul, normalise as normalised};
 
 /// A host-side node type.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -206,16 +205,8 @@ impl HostNode {
     }
 }
 
-/// Why a track could not be read; `param` names the parameter the problem belongs to.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct TrackError {
-    /// The parameter to point at (`file`, `column`, ...).
-    pub param: &'static str,
-    /// What is wrong, naming the file, line and column where it applies.
-    pub message: String,
-    /// How to fix it.
-    pub help: Option<String>,
-}
+/// Why a track could not be read.
+type TrackError = SourceError;
 
 fn err(param: &'static str, message: String) -> TrackError {
     TrackError {
@@ -414,6 +405,15 @@ pub fn euler(angles: [f64; 3], order: &str) -> Quat {
     q
 }
 
+impl HostSource for HostNode {
+    fn spec(&self) -> &NodeSpec {
+        HostNode::spec(*self)
+    }
+    fn load(&self, params: &[ParamValue], dir: &Path, timeline: Timeline) -> Result<Loaded, SourceError> {
+        load(*self, params, dir, timeline)
+    }
+}
+
 /// Reads a host node's data for the timeline: one series per output.
 pub fn load(node: HostNode, values: &[ParamValue], graph_dir: &Path, timeline: Timeline) -> Result<Loaded, TrackError> {
     let spec = node.spec();
@@ -429,27 +429,6 @@ pub fn load(node: HostNode, values: &[ParamValue], graph_dir: &Path, timeline: T
         outputs,
         instance: None,
     })
-}
-
-/// A host node's data for the timeline.
-#[derive(Debug, Clone)]
-pub struct Loaded {
-    /// One series per output.
-    pub outputs: Vec<Vec<f64>>,
-    /// For a node whose outputs depend on its file (a character): the instance's own outputs.
-    pub instance: Option<HostInstance>,
-}
-
-/// What a host node instance declares beyond its type: its outputs, the outputs it could not
-/// give (and why), and the character it read.
-#[derive(Debug, Clone)]
-pub struct HostInstance {
-    /// The type's spec with this instance's outputs.
-    pub spec: NodeSpec,
-    /// Names that would be outputs but cannot be used, each with the reason.
-    pub unusable: Vec<(String, String)>,
-    /// The character read, for bakes that rebuild its hierarchy.
-    pub character: Option<Arc<Character>>,
 }
 
 fn number(spec: &NodeSpec, values: &[ParamValue], name: &str) -> f64 {
@@ -533,7 +512,7 @@ fn load_character(path: &Path, values: &[ParamValue], timeline: Timeline) -> Res
         instance: Some(HostInstance {
             spec: instance_spec,
             unusable,
-            character: Some(Arc::new(ch)),
+            hierarchy: Some(Arc::new(ch)),
         }),
     })
 }
