@@ -329,11 +329,9 @@ fn cerr(param: &'static str, message: String, help: Option<&str>) -> CharacterEr
     }
 }
 
-/// The port name of a node name: letters, digits, `_` and `-` kept, anything else `_`, and a
-/// leading `_` added when the name does not start with a letter or `_`.
-pub fn port_name(name: &str) -> String {
-    let mut s: String = name
-        .chars()
+/// A name every tool accepts: letters, digits, `_` and `-` kept, anything else `_`.
+pub fn tool_safe(name: &str) -> String {
+    name.chars()
         .map(|c| {
             if c.is_ascii_alphanumeric() || c == '_' || c == '-' {
                 c
@@ -341,7 +339,13 @@ pub fn port_name(name: &str) -> String {
                 '_'
             }
         })
-        .collect();
+        .collect()
+}
+
+/// The port name of a node name: [`tool_safe`], and a leading `_` added when the name does not
+/// start with a letter or `_`.
+pub fn port_name(name: &str) -> String {
+    let mut s = tool_safe(name);
     if !s.starts_with(|c: char| c.is_ascii_alphabetic() || c == '_') {
         s.insert(0, '_');
     }

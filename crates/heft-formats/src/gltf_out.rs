@@ -107,18 +107,9 @@ fn continuous(qs: &mut [Quat]) {
     }
 }
 
-/// A name every tool accepts: letters, digits, `_` and `-`.
+/// A node name every tool accepts (letters, digits, `_`, `-`), never empty.
 pub fn tool_name(name: &str) -> String {
-    let s: String = name
-        .chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() || c == '_' || c == '-' {
-                c
-            } else {
-                '_'
-            }
-        })
-        .collect();
+    let s = crate::character::tool_safe(name);
     if s.is_empty() { "node".to_owned() } else { s }
 }
 
