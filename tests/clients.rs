@@ -165,8 +165,8 @@ fn rename_node_in_glb(bytes: &[u8], index: usize, name: &str) -> Vec<u8> {
     out
 }
 
-/// The checker can fail: one CSV value moved by 1 cm, and one node renamed with a dot (which
-/// three.js strips), are each caught and named.
+/// The checker can fail: one CSV value moved by 1 cm, one node renamed with a dot (which
+/// three.js strips), and a chain joint twisted about its bone are each caught and named.
 #[test]
 fn the_checker_fails_a_moved_value_and_a_dotted_name() {
     // A run with a .glb bake and a CSV output whose series (node.port) one of its bakes shows.
@@ -249,5 +249,75 @@ fn the_checker_fails_a_moved_value_and_a_dotted_name() {
             "a node of {glb} named with a dot: expected `{want}` in:\n{report}"
         ));
     }
+    // 3. The tip joint of a chain turned a quarter turn about its own bone at every frame: its
+    // position does not move (it has no children), but a card skinned across it would narrow
+    // to cos(45 deg) = 0.71 of its width.
+    let twisted = scratch.path().join("twisted");
+    copy_dir(good, &twisted);
+    let path = twisted.join(&glb);
+    let bytes = std::fs::read(&path).expect("glb");
+    let (bytes, tip) = twist_a_chain_tip(&bytes);
+    std::fs::write(&path, bytes).expect("write glb");
+    let o = check(&[&twisted]);
+    let report = text(&o);
+    let want = format!(
+        "twist narrows a ribbon to 0.7071 of its width between joints {} and {}",
+        tip - 1,
+        tip
+    );
+    if o.status.success() {
+        misses.push(format!("a chain tip of {glb} twisted by 90 degrees passed:\n{report}"));
+    } else if !report.contains(&want) {
+        misses.push(format!(
+            "a chain tip of {glb} twisted by 90 degrees: expected `{want}` in:\n{report}"
+        ));
+    }
     assert!(misses.is_empty(), "{}", misses.join("\n\n"));
+}
+
+/// Turns the last joint of the first baked chain by a quarter turn about its own +Y, in every
+/// key of its rotation channel (q -> q (0, sin 45, 0, cos 45)). Returns the new bytes and the
+/// joint's index in its chain.
+fn twist_a_chain_tip(bytes: &[u8]) -> (Vec<u8>, usize) {
+    let json_len = u32::from_le_bytes(bytes[12..16].try_into().expect("4 bytes")) as usize;
+    let doc: Value = serde_json::from_slice(&bytes[20..20 + json_len]).expect("GLB JSON");
+    let bin_start = 20 + json_len + 8;
+    let skin = &doc["skins"][0];
+    let joints = skin["joints"].as_array().expect("joints");
+    let tip = joints.len() - 1;
+    let node = joints[tip].as_u64().expect("index");
+    let anim = &doc["animations"][0];
+    let channel = anim["channels"]
+        .as_array()
+        .expect("channels")
+        .iter()
+        .find(|c| c["target"]["node"].as_u64() == Some(node) && c["target"]["path"] == "rotation")
+        .expect("the tip's rotation channel");
+    let sampler = &anim["samplers"][channel["sampler"].as_u64().expect("sampler") as usize];
+    let acc = &doc["accessors"][sampler["output"].as_u64().expect("output") as usize];
+    let view = &doc["bufferViews"][acc["bufferView"].as_u64().expect("view") as usize];
+    let start = bin_start
+        + view["byteOffset"].as_u64().unwrap_or(0) as usize
+        + acc["byteOffset"].as_u64().unwrap_or(0) as usize;
+    let count = acc["count"].as_u64().expect("count") as usize;
+    let mut out = bytes.to_vec();
+    let h = std::f32::consts::FRAC_PI_4;
+    let (s, c) = (h.sin(), h.cos());
+    for k in 0..count {
+        let at = start + 16 * k;
+        let q: Vec<f32> = (0..4)
+            .map(|i| f32::from_le_bytes(out[at + 4 * i..at + 4 * i + 4].try_into().expect("4 bytes")))
+            .collect();
+        // q (0, s, 0, c), the Hamilton product.
+        let r = [
+            q[0] * c - q[2] * s,
+            q[3] * s + q[1] * c,
+            q[0] * s + q[2] * c,
+            q[3] * c - q[1] * s,
+        ];
+        for (i, v) in r.iter().enumerate() {
+            out[at + 4 * i..at + 4 * i + 4].copy_from_slice(&v.to_le_bytes());
+        }
+    }
+    (out, tip)
 }
