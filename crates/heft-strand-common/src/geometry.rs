@@ -118,15 +118,26 @@ pub fn read_transform(v: &[f64]) -> Option<(V3, [f64; 4])> {
     Some(([v[0], v[1], v[2]], [q[0] / n, q[1] / n, q[2] / n, q[3] / n]))
 }
 
-/// The motion of a transform over one frame: translation interpolated linearly, rotation by
-/// normalised lerp (nlerp) along the shorter arc.
+/// The motion of a transform over one frame. The translation follows the cubic Hermite
+/// curve through the two frame samples with the velocities at the two ends (continuous in
+/// position and velocity from frame to frame; exact for a path that is a polynomial of degree
+/// up to 3 in time, a free-fall parabola among them, when the end velocities are exact), or
+/// the straight line when no end velocities are given. The rotation turns at the constant
+/// angular velocity that takes the start orientation to the end one along the shorter arc
+/// (spherical linear interpolation, Shoemake 1985), so a point carried by a transform turning
+/// at a constant rate moves along its arc at a constant speed.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Track {
     t0: V3,
     t1: V3,
     q0: [f64; 4],
     q1: [f64; 4],
-    /// Velocity of the translation over the frame, m/s.
+    /// Velocity of the translation at the start and the end of the frame, m/s.
+    m0: V3,
+    m1: V3,
+    /// The frame's duration, s.
+    dt: f64,
+    /// Mean velocity of the translation over the frame (the chord), m/s.
     pub linear: V3,
     /// Angular velocity over the frame (world axes), rad/s: the rotation from the start to the
     /// end orientation divided by the frame duration.
@@ -141,12 +152,16 @@ impl Track {
             t1: t,
             q0: q,
             q1: q,
+            m0: [0.0; 3],
+            m1: [0.0; 3],
+            dt: 1.0,
             linear: [0.0; 3],
             angular: [0.0; 3],
         }
     }
 
-    /// The motion from (t0, q0) to (t1, q1) over `dt` seconds (unit quaternions).
+    /// The motion from (t0, q0) to (t1, q1) over `dt` seconds (unit quaternions), the
+    /// translation along the straight line.
     pub fn between(t0: V3, q0: [f64; 4], t1: V3, q1: [f64; 4], dt: f64) -> Track {
         let d = q0[0] * q1[0] + q0[1] * q1[1] + q0[2] * q1[2] + q0[3] * q1[3];
         let q1 = if d < 0.0 { [-q1[0], -q1[1], -q1[2], -q1[3]] } else { q1 };
@@ -161,39 +176,79 @@ impl Track {
         } else {
             scale(v, 2.0 * s.atan2(w.max(0.0)) / (s * dt))
         };
+        let linear = scale(sub(t1, t0), 1.0 / dt);
         Track {
             t0,
             t1,
             q0,
             q1,
-            linear: scale(sub(t1, t0), 1.0 / dt),
+            m0: linear,
+            m1: linear,
+            dt,
+            linear,
             angular,
         }
     }
 
+    /// The same frame with the translation's velocities at its start and end (m/s): the path
+    /// becomes the cubic Hermite curve through the two samples with those tangents.
+    pub fn with_end_velocities(self, m0: V3, m1: V3) -> Track {
+        Track { m0, m1, ..self }
+    }
+
     /// The pose at fraction `frac` (0 = start of the frame, 1 = end).
     pub fn pose(&self, frac: f64) -> Pose {
-        let t = axpy(self.t0, frac, sub(self.t1, self.t0));
-        let mut q = [0.0; 4];
-        for (k, slot) in q.iter_mut().enumerate() {
-            *slot = self.q0[k] + frac * (self.q1[k] - self.q0[k]);
-        }
-        // q0 . q1 >= 0 after the sign flip, so |q| >= 1/sqrt(2): never zero.
-        let n = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]).sqrt();
-        Pose::new(t, [q[0] / n, q[1] / n, q[2] / n, q[3] / n])
+        Pose::new(self.translation(frac), self.rotation(frac))
     }
 
-    /// The translation at fraction `frac` (extrapolated linearly outside 0..=1).
+    /// The rotation at fraction `frac`: the start orientation turned by `angular` for
+    /// `frac` of the frame.
+    fn rotation(&self, frac: f64) -> [f64; 4] {
+        let (q0, q1) = (self.q0, self.q1);
+        let diff = [0, 1, 2, 3].map(|k| q1[k] - q0[k]);
+        let sum = [0, 1, 2, 3].map(|k| q1[k] + q0[k]);
+        let n4 = |v: [f64; 4]| (v[0] * v[0] + v[1] * v[1] + v[2] * v[2] + v[3] * v[3]).sqrt();
+        // The angle between q0 and q1 in 4D, accurate near zero.
+        let half = 2.0 * n4(diff).atan2(n4(sum));
+        let (wa, wb) = if half < 1e-9 {
+            (1.0 - frac, frac)
+        } else {
+            let s = half.sin();
+            (((1.0 - frac) * half).sin() / s, (frac * half).sin() / s)
+        };
+        let q = [0, 1, 2, 3].map(|k| wa * q0[k] + wb * q1[k]);
+        let n = n4(q);
+        [q[0] / n, q[1] / n, q[2] / n, q[3] / n]
+    }
+
+    /// The translation at fraction `frac` (the curve extended outside 0..=1).
     pub fn translation(&self, frac: f64) -> V3 {
-        axpy(self.t0, frac, sub(self.t1, self.t0))
+        let u = frac;
+        let (u2, u3) = (u * u, u * u * u);
+        let h00 = 2.0 * u3 - 3.0 * u2 + 1.0;
+        let h10 = u3 - 2.0 * u2 + u;
+        let h01 = -2.0 * u3 + 3.0 * u2;
+        let h11 = u3 - u2;
+        [0, 1, 2].map(|k| h00 * self.t0[k] + h10 * self.dt * self.m0[k] + h01 * self.t1[k] + h11 * self.dt * self.m1[k])
     }
 
-    /// The rigid-body velocity field of the transform at fraction `frac`, with the frame's
-    /// constant linear and angular velocity.
+    /// The velocity of the translation at fraction `frac`, m/s.
+    pub fn linear_at(&self, frac: f64) -> V3 {
+        let u = frac;
+        let u2 = u * u;
+        let d00 = 6.0 * u2 - 6.0 * u;
+        let d10 = 3.0 * u2 - 4.0 * u + 1.0;
+        let d01 = -6.0 * u2 + 6.0 * u;
+        let d11 = 3.0 * u2 - 2.0 * u;
+        [0, 1, 2].map(|k| (d00 * self.t0[k] + d01 * self.t1[k]) / self.dt + d10 * self.m0[k] + d11 * self.m1[k])
+    }
+
+    /// The rigid-body velocity field of the transform at fraction `frac`: the translation's
+    /// velocity there and the frame's constant angular velocity.
     pub fn velocity(&self, frac: f64) -> RigidVelocity {
         RigidVelocity {
-            origin: axpy(self.t0, frac, sub(self.t1, self.t0)),
-            linear: self.linear,
+            origin: self.translation(frac),
+            linear: self.linear_at(frac),
             angular: self.angular,
         }
     }
@@ -610,6 +665,48 @@ impl Colliders {
 mod tests {
     use super::*;
 
+    /// The cubic through two samples of z = -g t^2 / 2 with the exact velocities at both ends
+    /// is the parabola itself, anywhere inside the frame, and so is its velocity.
+    #[test]
+    fn a_track_with_end_velocities_follows_a_parabola_exactly() {
+        let g = 9.80665;
+        let (t0, dt) = (0.3, 1.0 / 24.0);
+        let z = |t: f64| -0.5 * g * t * t;
+        let id = [0.0, 0.0, 0.0, 1.0];
+        let tr = Track::between([0.0, 0.0, z(t0)], id, [0.0, 0.0, z(t0 + dt)], id, dt)
+            .with_end_velocities([0.0, 0.0, -g * t0], [0.0, 0.0, -g * (t0 + dt)]);
+        for k in 0..=10 {
+            let f = f64::from(k) / 10.0;
+            let t = t0 + f * dt;
+            assert!((tr.pose(f).t[2] - z(t)).abs() < 1e-15, "{f}");
+            assert!((tr.linear_at(f)[2] + g * t).abs() < 1e-13, "{f}");
+        }
+    }
+
+    /// A transform turning a quarter turn about Z in one frame carries a point 10 cm out along
+    /// the arc at a constant angular speed: halfway, at 45 degrees and still 10 cm out (slerp,
+    /// Shoemake 1985), where the chord would pass 7.07 cm out.
+    #[test]
+    fn a_turning_track_moves_points_along_the_arc() {
+        let h = std::f64::consts::FRAC_PI_4; // half of 90 degrees
+        let tr = Track::between(
+            [0.0; 3],
+            [0.0, 0.0, 0.0, 1.0],
+            [0.0; 3],
+            [0.0, 0.0, h.sin(), h.cos()],
+            1.0 / 24.0,
+        );
+        for k in 0..=8 {
+            let f = f64::from(k) / 8.0;
+            let p = tr.pose(f).apply([0.1, 0.0, 0.0]);
+            let angle = f * std::f64::consts::FRAC_PI_2;
+            assert!(
+                (p[0] - 0.1 * angle.cos()).abs() < 1e-15 && (p[1] - 0.1 * angle.sin()).abs() < 1e-15,
+                "{f}: {p:?}"
+            );
+        }
+    }
+
     fn close(a: V3, b: V3, tol: f64) -> bool {
         (0..3).all(|k| (a[k] - b[k]).abs() <= tol)
     }
@@ -629,7 +726,7 @@ mod tests {
         let t = Track::between([0.0; 3], [0.0, 0.0, 0.0, 1.0], [0.0; 3], [0.0, 0.0, -h, -h], 1.0);
         assert!(close(t.angular, [0.0, 0.0, std::f64::consts::FRAC_PI_2], 1e-14));
         let half = t.pose(0.5);
-        // nlerp at the midpoint of a symmetric arc is the slerp midpoint: 45 degrees.
+        // The midpoint of a quarter turn: 45 degrees (slerp).
         let e = std::f64::consts::FRAC_PI_8;
         assert!(close([half.q[2], half.q[3], 0.0], [e.sin(), e.cos(), 0.0], 1e-15));
     }

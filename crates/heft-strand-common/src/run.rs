@@ -230,18 +230,18 @@ impl<'a> FrameEnv<'a> {
     }
 
     /// The anchor's rigid velocity field at fraction `frac` of the frame (zero without an
-    /// anchor): its linear and angular velocity are interpolated linearly between the central
-    /// differences at the frame's two ends (one-sided at the ends of the timeline), so a
-    /// quadratic path, such as free fall, has its exact velocity; `frac` may lie slightly outside
-    /// 0..=1 (the values are extrapolated).
+    /// anchor): the linear velocity of the anchor's path there (the derivative of the curve the
+    /// pins follow, exact for a quadratic path such as free fall), and the angular velocity
+    /// interpolated linearly between the central differences at the frame's two ends; `frac`
+    /// may lie slightly outside 0..=1 (the values are extrapolated).
     pub fn anchor_velocity_at(&self, frac: f64) -> RigidVelocity {
         match &self.anchor {
             None => RigidVelocity::default(),
             Some(t) => {
-                let [(l0, w0), (l1, w1)] = self.anchor_velocity_ends;
+                let [(_, w0), (_, w1)] = self.anchor_velocity_ends;
                 RigidVelocity {
                     origin: t.translation(frac),
-                    linear: axpy(l0, frac, sub(l1, l0)),
+                    linear: t.linear_at(frac),
                     angular: axpy(w0, frac, sub(w1, w0)),
                 }
             }
@@ -316,7 +316,7 @@ fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], ends: &[Option<Track
             let p = t.pose(frac);
             let params = &setup.colliders[k];
             let centre = p.apply(params.offset);
-            let velocity = add(t.linear, cross(t.angular, sub(centre, p.t)));
+            let velocity = t.velocity(frac).at(centre);
             c.shapes[c.count] = match &ends[k] {
                 None => Collider::Sphere(Sphere {
                     centre,
@@ -326,7 +326,7 @@ fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], ends: &[Option<Track
                 Some(e) => {
                     let pe = e.pose(frac);
                     let end = pe.apply(params.end_offset);
-                    let end_velocity = add(e.linear, cross(e.angular, sub(end, pe.t)));
+                    let end_velocity = e.velocity(frac).at(end);
                     Collider::capsule(centre, end, params.radius, params.end_radius, velocity, end_velocity)
                 }
             };
@@ -391,7 +391,33 @@ fn transform_at(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Res
 fn track(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<Track, NodeError> {
     let (t0, q0) = transform_at(series, name, tl, i - 1)?;
     let (t1, q1) = transform_at(series, name, tl, i)?;
-    Ok(Track::between(t0, q0, t1, q1, tl.dt()))
+    let chord = Track::between(t0, q0, t1, q1, tl.dt());
+    Ok(chord.with_end_velocities(
+        translation_velocity(series, name, tl, i - 1)?,
+        translation_velocity(series, name, tl, i)?,
+    ))
+}
+
+/// The velocity of a transform's translation at frame j, from the frame samples: the central
+/// difference inside the timeline, the second-order one-sided difference at its ends (both
+/// exact for a path quadratic in time, such as free fall), the chord with only two frames.
+fn translation_velocity(series: &Series<'_>, name: &str, tl: &Timeline, j: usize) -> Result<V3, NodeError> {
+    let frames = tl.frames();
+    let at = |f: usize| transform_at(series, name, tl, f).map(|(t, _)| t);
+    let dt = tl.dt();
+    Ok(if frames < 2 {
+        [0.0; 3]
+    } else if frames == 2 {
+        scale(sub(at(1)?, at(0)?), 1.0 / dt)
+    } else if j == 0 {
+        let (a, b, c) = (at(0)?, at(1)?, at(2)?);
+        [0, 1, 2].map(|k| (-3.0 * a[k] + 4.0 * b[k] - c[k]) / (2.0 * dt))
+    } else if j + 1 == frames {
+        let (a, b, c) = (at(j - 2)?, at(j - 1)?, at(j)?);
+        [0, 1, 2].map(|k| (a[k] - 4.0 * b[k] + 3.0 * c[k]) / (2.0 * dt))
+    } else {
+        scale(sub(at(j + 1)?, at(j - 1)?), 0.5 / dt)
+    })
 }
 
 /// The (linear, angular) velocity of a transform at frame i: the mean of the velocities over

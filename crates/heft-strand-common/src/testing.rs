@@ -440,3 +440,37 @@ pub fn forearm_scene() -> CapsuleScene {
         capsule: shape,
     }
 }
+
+/// A 30 cm strand of 8 segments hanging at 45 degrees from an anchor that falls freely from
+/// rest (z = -g t^2 / 2, sampled at the frames), for half a second at `fps`, no damping, with
+/// each node's default substeps unless `substeps` is given. Returns the largest distance of a
+/// particle from where it started relative to the anchor. In the anchor's falling frame the
+/// strand is weightless (equivalence principle), so at rest it must stay exactly as it was.
+pub fn free_fall_drift<N: Node>(fps: u32, substeps: Option<i64>) -> f64 {
+    let tl = timeline(fps, u64::from(fps) / 2 + 1);
+    let g = heft_node_sdk::STANDARD_GRAVITY;
+    let anchor = transform(tl, |t| ([0.0, 0.0, -0.5 * g * t * t], [0.0, 0.0, 0.0, 1.0]));
+    let h = std::f64::consts::FRAC_1_SQRT_2;
+    let mut changes = vec![
+        int("segments", 8),
+        num("length", 0.3),
+        vec3("rest_direction", [h, 0.0, -h]),
+        num("damping", 0.0),
+        num("relative_damping", 0.0),
+    ];
+    if let Some(s) = substeps {
+        changes.push(int("substeps", s));
+    }
+    let run = run::<N>(&changes, tl, &[("anchor", anchor)]).expect("runs");
+    let mut worst: f64 = 0.0;
+    for f in 0..run.frames() {
+        let pivot = run.x(f, 0);
+        for i in 0..run.n {
+            let (p, p0, pivot0) = (run.x(f, i), run.x(0, i), run.x(0, 0));
+            for k in 0..3 {
+                worst = worst.max(((p[k] - pivot[k]) - (p0[k] - pivot0[k])).abs());
+            }
+        }
+    }
+    worst
+}

@@ -107,8 +107,10 @@ impl Node for Euler {
              positions are second-order accurate for conservative forces; the velocities reported, and used by \
              damping and drag, are the half-step ones (first order), and v_anchor (the anchor's rigid velocity \
              field, interpolated from central differences of its frames) is taken at the same half step. Pinned \
-             particles are placed on the anchor at every substep (translation lerp, rotation nlerp between \
-             frames). After every substep particles inside a collider are pushed to its nearest surface point \
+             particles are placed on the anchor at every substep: the anchor's translation follows the cubic \
+             through the frame samples with central-difference velocities (exact for a parabola, so an anchor \
+             in free fall carries no kick once a frame), its rotation turns at the frame's constant angular \
+             velocity (slerp). After every substep particles inside a collider are pushed to its nearest surface point \
              and lose their inward velocity relative to the surface there. A collider is a sphere on \
              `collider_k`, or, with `collider_k_end` connected, a capsule from `collider_k` to `collider_k_end` \
              whose radius runs linearly from `collider_k_radius` to `collider_k_end_radius` (a limb: the union of \

@@ -613,8 +613,11 @@ impl<T: Real, const N: usize> Lanes<T, N> {
 
     /// Loads positions and velocities (world, strand-major, strand s particle i at
     /// s * particles + i), moving each strand's origin to its particle 0 and holding the
-    /// velocity as the step h v (both rounded once from f64).
-    pub fn load(&mut self, x: &[[f64; 3]], v: &[[f64; 3]], h: f64) {
+    /// velocity as the step h v - h^2 a / 2 (both rounded once from f64): the step from the
+    /// position half a step back on the path of constant acceleration a = `accel` (gravity), so that a
+    /// free particle follows x0 + v0 t + a t^2 / 2 exactly (a second-order start; the step h v
+    /// alone would leave it behind by a h t / 2).
+    pub fn load(&mut self, x: &[[f64; 3]], v: &[[f64; 3]], h: f64, accel: [f64; 3]) {
         let n = self.particles;
         for g in 0..self.groups() {
             for l in 0..N {
@@ -625,7 +628,7 @@ impl<T: Real, const N: usize> Lanes<T, N> {
                     for k in 0..3 {
                         self.origin[g][k][l] = o[k];
                         self.x[g * n + i][0][k][l] = T::of(a[k] - o[k]);
-                        self.x[g * n + i][1][k][l] = T::of(h * b[k]);
+                        self.x[g * n + i][1][k][l] = T::of(h * b[k] - 0.5 * h * h * accel[k]);
                     }
                 }
             }
@@ -796,7 +799,7 @@ mod tests {
             .collect();
         let v: Vec<[f64; 3]> = (0..strands * particles).map(|i| [0.1, -(i as f64), 2.0]).collect();
         let mut lanes = Lanes::<f64, 4>::new(strands, particles);
-        lanes.load(&x, &v, h);
+        lanes.load(&x, &v, h, [0.0; 3]);
         let (mut x2, mut v2) = (vec![[0.0; 3]; x.len()], vec![[0.0; 3]; x.len()]);
         lanes.store(x2.as_flattened_mut(), v2.as_flattened_mut(), h);
         assert_eq!(x, x2);

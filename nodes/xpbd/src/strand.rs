@@ -80,7 +80,9 @@ HEFT_SIMD=portable forces the target's baseline). The arithmetic is never contra
 so results are bit-identical whatever the CPU, and a strand's result does not depend on its group. Positions \
 are held relative to each strand's particle 0 at the start of the frame (kept in f64), so the precision does \
 not depend on how far from the world origin the strand is; the velocity is held as the step s = x - x_prev, a \
-number of its own that the constraints correct directly, never as a difference of two positions.\n\
+number of its own that the constraints correct directly, never as a difference of two positions. The run starts \
+at second order: the first step is h v0 - h^2 g / 2, the step from half a step back on the parabola, so a free \
+strand falls exactly as x0 + v0 t + g t^2 / 2 (a step h v0 would leave it g h t / 2 behind).\n\
 Stiffness and step: compliance makes the stiffness independent of the iteration count; the single sweep per \
 substep leaves an error that falls as h^2. A hanging strand at rest stretches segment j by T_j / k + \
 h^2 T_{j+1} / m_{j+1} (T the tension, m the particle mass; the sweep's fixed point), Hooke's value times about \
@@ -213,7 +215,7 @@ impl<T: Real, const N: usize> Group<T, N> {
         let n = setup.particles;
         let reorigin = self.loaded;
         if !self.loaded {
-            self.lanes.load(&state.x, &state.v, h);
+            self.lanes.load(&state.x, &state.v, h, setup.gravity);
             self.loaded = true;
         }
         let root = setup.pin != Pin::Free;
