@@ -474,3 +474,35 @@ pub fn free_fall_drift<N: Node>(fps: u32, substeps: Option<i64>) -> f64 {
     }
     worst
 }
+
+/// The stretch of the top segment of a 30 cm strand of 8 segments hanging from an anchor that
+/// accelerates upward at `a` from rest (z = a t^2 / 2), at `fps` for `seconds`, with relative
+/// damping so that it settles: the mean over the last second of (|x1 - x0| - rest length).
+/// A strand at rest in a frame accelerating upward at a feels gravity g + a (equivalence
+/// principle), so its tensions, and a linear stretch, scale by (g + a) / g.
+pub fn elevator_stretch<N: Node>(a: f64, fps: u32, seconds: u32) -> f64 {
+    let frames = u64::from(fps * seconds) + 1;
+    let tl = timeline(fps, frames);
+    let anchor = transform(tl, |t| ([0.0, 0.0, 0.5 * a * t * t], [0.0, 0.0, 0.0, 1.0]));
+    let run = run::<N>(
+        &[
+            int("segments", 8),
+            num("length", 0.3),
+            num("damping", 0.0),
+            num("relative_damping", 5.0),
+        ],
+        tl,
+        &[("anchor", anchor)],
+    )
+    .expect("runs");
+    let rest = 0.3 / 8.0;
+    let last = run.frames() - 1;
+    let from = last + 1 - fps as usize;
+    let mut sum = 0.0;
+    for f in from..=last {
+        let (p0, p1) = (run.x(f, 0), run.x(f, 1));
+        let d = ((p1[0] - p0[0]).powi(2) + (p1[1] - p0[1]).powi(2) + (p1[2] - p0[2]).powi(2)).sqrt();
+        sum += d - rest;
+    }
+    sum / fps as f64
+}

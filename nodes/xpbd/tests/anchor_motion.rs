@@ -16,3 +16,22 @@ fn a_strand_on_a_falling_anchor_keeps_its_shape_at_24_fps() {
     assert!(f64_drift < 1e-5, "{f64_drift}");
     assert!(f32_drift < 5e-5, "{f32_drift}");
 }
+
+/// A strand hanging from an anchor that accelerates upward at 4 m/s^2 carries (g + a) / g of
+/// its static tension (equivalence principle; Halliday, Resnick & Walker, Fundamentals of
+/// Physics, ch. 5, the apparent weight in an accelerating elevator). XPBD's stretch of a
+/// segment is linear in the tensions (the sweep's fixed point, see the node's notes), so the top
+/// segment stretches by that ratio: within 0.5 % at 24 and 60 fps (measured: to 1e-12).
+#[test]
+fn a_strand_in_an_accelerating_elevator_carries_g_plus_a() {
+    let (g, a) = (heft_node_sdk::STANDARD_GRAVITY, 4.0);
+    for fps in [24, 60] {
+        let stretch = |a| heft_strand_common::testing::elevator_stretch::<heft_xpbd::XpbdStrand>(a, fps, 4);
+        let ratio = stretch(a) / stretch(0.0);
+        eprintln!(
+            "xpbd.strand at {fps} fps: stretch ratio {ratio:.10} vs {:.10}",
+            (g + a) / g
+        );
+        assert!((ratio / ((g + a) / g) - 1.0).abs() < 5e-3, "{ratio}");
+    }
+}
