@@ -662,7 +662,11 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
         };
         if !method.surely_intact(setup, &state) {
             fill(&mut state);
-            check_blow_up::<M>(setup, &state, &tl, i, h, wind_used)?;
+            if let Err(e) = check_blow_up::<M>(setup, &state, &tl, i, h, wind_used) {
+                // A strand torn apart by its anchor jumping (a glitch in the motion data) is
+                // the data's fault, not the step's: say so, naming the anchor and the frame.
+                return Err(anchor_jump(&inputs, &tl, i)?.unwrap_or(e));
+            }
         }
         if pinned_inside.is_none() && !tables.colliders[substeps].is_empty() {
             fill(&mut state);
@@ -958,6 +962,47 @@ fn check_blow_up<M: Method>(
             wind,
         ))),
     }
+}
+
+/// An anchor whose acceleration is implausible for a body: above this, in m/s^2 (50 g; a
+/// landing from a 1 m drop stops the body at about 10 to 20 g; common practice, no source).
+const ANCHOR_JUMP: f64 = 50.0 * heft_node_sdk::STANDARD_GRAVITY;
+
+/// When a strand blows up in frame `i`: the anchor input that jumps around it (its velocity
+/// changing from frame to frame by more than [`ANCHOR_JUMP`] allows), as an error naming the
+/// input, the frame and the speed.
+fn anchor_jump(inputs: &Inputs<'_>, tl: &Timeline, i: usize) -> Result<Option<NodeError>, NodeError> {
+    let dt = tl.dt();
+    let anchors = [("anchor", &inputs.anchor), ("anchor_b", &inputs.anchor_b)];
+    for (name, series) in anchors {
+        let Some(series) = series else { continue };
+        let at = |f: usize| transform_at(series, name, tl, f).map(|(t, _)| t);
+        // Chord velocities of the frames from i - 2 to i + 1, where they exist.
+        let first = i.saturating_sub(2).max(1);
+        let last = (i + 1).min(tl.frames() - 1);
+        let mut velocities = Vec::new();
+        for f in first..=last {
+            velocities.push((f, scale(sub(at(f)?, at(f - 1)?), 1.0 / dt)));
+        }
+        for w in velocities.windows(2) {
+            let ((_, v0), (f, v1)) = (w[0], w[1]);
+            let accel = norm(sub(v1, v0)) / dt;
+            if accel > ANCHOR_JUMP {
+                let (speed, before) = (norm(v1), norm(v0));
+                let worst = if speed >= before { f } else { f - 1 };
+                let moved = norm(sub(at(worst)?, at(worst - 1)?));
+                return Ok(Some(NodeError::new(format!(
+                    "input `{name}` jumps at frame {}: it moves {moved:.3} m in one frame ({:.1} m/s), an acceleration \
+                     of {:.0} g that no body makes, and the strand cannot follow; check the motion data there (a glitch \
+                     in a capture?) rather than the substeps",
+                    tl.frame_number(worst),
+                    moved / dt,
+                    accel / heft_node_sdk::STANDARD_GRAVITY
+                ))));
+            }
+        }
+    }
+    Ok(None)
 }
 
 /// Writes frame `i` of every output: from `state` when `filled`, else positions and velocities

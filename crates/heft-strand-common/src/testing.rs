@@ -506,3 +506,17 @@ pub fn elevator_stretch<N: Node>(a: f64, fps: u32, seconds: u32) -> f64 {
     }
     sum / fps as f64
 }
+
+/// Runs a strand whose anchor holds still except for three frames (20 to 22) where the capture
+/// put it 500 m away, at 24 fps for 2 s: returns the error, if the node gives one.
+pub fn glitched_anchor<N: Node>() -> Option<String> {
+    let tl = timeline(24, 49);
+    let anchor = transform(tl, |t| {
+        let frame = (t * 24.0).round() as i64;
+        let x = if (20..=22).contains(&frame) { 500.0 } else { 0.0 };
+        ([x, 0.0, 1.5], [0.0, 0.0, 0.0, 1.0])
+    });
+    run::<N>(&[int("segments", 8), num("length", 0.3)], tl, &[("anchor", anchor)])
+        .err()
+        .map(|e| e.to_string())
+}

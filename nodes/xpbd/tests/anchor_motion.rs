@@ -35,3 +35,23 @@ fn a_strand_in_an_accelerating_elevator_carries_g_plus_a() {
         assert!((ratio / ((g + a) / g) - 1.0).abs() < 5e-3, "{ratio}");
     }
 }
+
+/// An anchor put 500 m away for three frames (a capture glitch) tears the strand apart; the
+/// error names the input, the frame and the speed (500 m in one frame at 24 fps: 12000 m/s),
+/// instead of asking for more substeps.
+#[test]
+fn a_glitch_in_the_anchor_is_named_not_blamed_on_the_substeps() {
+    use heft_strand_common::testing::glitched_anchor;
+    for (name, err) in [
+        ("xpbd.strand", glitched_anchor::<heft_xpbd::XpbdStrand>()),
+        ("xpbd.strand_f32", glitched_anchor::<heft_xpbd::XpbdStrandF32>()),
+    ] {
+        let err = err.unwrap_or_else(|| panic!("{name}: no error"));
+        assert!(
+            err.contains("input `anchor` jumps at frame 20")
+                && err.contains("(12000.0 m/s)")
+                && !err.contains("raise `substeps`"),
+            "{name}: {err}"
+        );
+    }
+}
