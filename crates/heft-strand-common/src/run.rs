@@ -876,7 +876,8 @@ pub fn blow_up_message<M: Method>(
             format!("raise `substeps` to at least {need}")
         }
     };
-    let hanging = hanging_stretch(setup);
+    // A model with rigid segments ignores `stretch_stiffness`: no advice names it.
+    let hanging = if M::STRETCHABLE { hanging_stretch(setup) } else { None };
     let weight = match hanging {
         Some((tension, ratio)) => format!(
             "; hanging still from its pin, its weight alone would stretch the top segment to about {ratio:.3e} rest \
@@ -895,11 +896,13 @@ pub fn blow_up_message<M: Method>(
     match (limit, cause) {
         (Some(l), _) if h > 0.8 * l => {
             let relation = if h > l { "above" } else { "close to" };
-            let advice = raise(
-                (1.25 * dt / l).ceil() as u64,
+            let instead = if M::STRETCHABLE {
                 "lower `stretch_stiffness` or `bending_stiffness`, raise `mass_per_length`, or use a method without \
-                 this limit",
-            );
+                 this limit"
+            } else {
+                "lower `bending_stiffness` or the damping, raise `mass_per_length`, or use a method without this limit"
+            };
+            let advice = raise((1.25 * dt / l).ceil() as u64, instead);
             format!(
                 "{head} (h = {h:.3e} s, {relation} {name} for these parameters, about {l:.3e} s: a numerical \
                  instability): {advice}"

@@ -339,7 +339,10 @@ impl Node for Verlet {
              Inextensible Cloth, SIGGRAPH), which keeps a free strand's centre of mass, with x_prev moved along so \
              the correction is not turned into velocity: frame 0 of the outputs is the state as given, frame 1 \
              follows from the projected one. The run starts with x_prev = x0 - h v0 + h^2 a0 / 2. Segments are \
-             rigid: `stretch_stiffness` is ignored and the energy output counts bending only. Masses are lumped \
+             rigid: `stretch_stiffness` is ignored and the energy output counts bending only. The projection takes \
+             energy out of a swing, at a rate that falls with h (first order): a 1 m pendulum released at 30 degrees \
+             loses 15.7 % of its amplitude per period at 60 fps and 1 substep, 4.3 % at 4 substeps, 0.9 % at 20, and \
+             2.2 % at 24 fps and the default 20 (measured). Masses are lumped \
              (half a segment's mass at each end of every segment). Bending: energy \
              (c / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2 at each interior particle, c = bending_stiffness / l0^3 \
              (central-difference Euler-Bernoulli; Terzopoulos et al. 1987). Pins follow the anchor at every \

@@ -21,3 +21,32 @@ fn a_glitch_in_the_anchor_is_named_not_blamed_on_the_substeps() {
         );
     }
 }
+
+/// strand.verlet holds its segments at their length with constraints and ignores
+/// `stretch_stiffness`: when it blows up, its advice names only what it uses (more substeps; past
+/// the 10000 allowed, the parameters it has).
+#[test]
+fn verlet_advice_never_names_stretch_stiffness() {
+    use heft_strand_common::testing::{int, num, run, timeline, transform};
+    let tl = timeline(24, 25);
+    let anchor = transform(tl, |t| ([0.3 * (8.0 * t).sin(), 0.0, 1.5], [0.0, 0.0, 0.0, 1.0]));
+    for (bending, want) in [
+        (1.0, "raise `substeps` to at least"),
+        (1.0e4, "lower `bending_stiffness`"),
+    ] {
+        let err = run::<Verlet>(
+            &[
+                int("segments", 16),
+                num("length", 0.3),
+                num("bending_stiffness", bending),
+                int("substeps", 1),
+            ],
+            tl,
+            &[("anchor", anchor.clone())],
+        )
+        .err()
+        .map(|e| e.to_string())
+        .expect("a stiff strand at one substep blows up");
+        assert!(err.contains(want) && !err.contains("stretch_stiffness"), "{err}");
+    }
+}
