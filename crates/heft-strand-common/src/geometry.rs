@@ -573,6 +573,38 @@ pub enum Collider {
     Sphere(Sphere),
     /// A capsule, straight or tapered.
     Capsule(Capsule),
+    /// The ground: everything below a height.
+    Ground(Ground),
+}
+
+/// The ground at one instant: the half-space z < `height` (world Z is up), still.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Ground {
+    /// Height of the ground, m.
+    pub height: f64,
+}
+
+impl Ground {
+    /// Lifts a particle below the ground onto it and removes its downward velocity. Returns
+    /// true when the particle was below.
+    #[inline]
+    pub fn project(&self, x: &mut V3, v: &mut V3) -> bool {
+        if x[2] >= self.height {
+            return false;
+        }
+        // Just above, by the rounding of the height (a particle left exactly on it is not inside).
+        x[2] = self.height + 8.0 * f64::EPSILON * self.height.abs().max(1.0);
+        if v[2] < 0.0 {
+            v[2] = 0.0;
+        }
+        true
+    }
+
+    /// True when `x` is strictly below the ground.
+    #[inline]
+    pub fn contains(&self, x: V3) -> bool {
+        x[2] < self.height
+    }
 }
 
 impl Default for Collider {
@@ -606,6 +638,7 @@ impl Collider {
         match self {
             Collider::Sphere(s) => s.project(x, v),
             Collider::Capsule(c) => c.project(x, v),
+            Collider::Ground(g) => g.project(x, v),
         }
     }
 
@@ -615,15 +648,16 @@ impl Collider {
         match self {
             Collider::Sphere(s) => s.contains(x),
             Collider::Capsule(c) => c.contains(x),
+            Collider::Ground(g) => g.contains(x),
         }
     }
 }
 
-/// Up to three colliders at one instant.
+/// Up to three colliders and the ground at one instant.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct Colliders {
     /// The colliders; only the first `count` are live.
-    pub shapes: [Collider; 3],
+    pub shapes: [Collider; 4],
     /// How many colliders are live.
     pub count: usize,
 }
@@ -742,6 +776,7 @@ mod tests {
                 }),
                 Collider::default(),
                 Collider::default(),
+                Collider::default(),
             ],
             count: 1,
         };
@@ -751,6 +786,20 @@ mod tests {
         assert!(!c.contains(x));
         assert!(close(x, [0.0, 0.0, 1.0], 1e-14));
         assert!(close(v, [1.0, 0.0, 0.0], 1e-15));
+    }
+
+    /// The ground lifts a particle below it onto its surface and stops its fall, keeps its
+    /// sideways velocity (no friction), and leaves a particle above it alone.
+    #[test]
+    fn the_ground_lifts_and_stops_a_particle_below_it() {
+        let g = Ground { height: -0.25 };
+        let (mut x, mut v) = ([1.0, 2.0, -0.3], [0.5, -0.5, -3.0]);
+        assert!(g.project(&mut x, &mut v));
+        assert!(!g.contains(x) && (x[2] + 0.25).abs() < 1e-14 && [x[0], x[1]] == [1.0, 2.0]);
+        assert_eq!(v, [0.5, -0.5, 0.0]);
+        let (mut x, mut v) = ([0.0, 0.0, -0.2], [0.0, 0.0, -1.0]);
+        assert!(!g.project(&mut x, &mut v));
+        assert_eq!((x, v), ([0.0, 0.0, -0.2], [0.0, 0.0, -1.0]));
     }
 
     // ------------------------------------------------------------ capsules

@@ -26,7 +26,7 @@ pub mod spec;
 #[cfg(any(test, feature = "testing"))]
 pub mod testing;
 
-pub use geometry::{Capsule, CapsuleContact, Collider, Colliders, Pose, RigidVelocity, Sphere, Track, V3};
+pub use geometry::{Capsule, CapsuleContact, Collider, Colliders, Ground, Pose, RigidVelocity, Sphere, Track, V3};
 pub use run::{
     Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, FrameEnv, Method, State, blow_up_cause, blow_up_message,
     blown_strand, evaluate, evaluate_with, hanging_stretch, rest_state,

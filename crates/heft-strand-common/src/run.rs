@@ -5,8 +5,8 @@ use heft_node_sdk::{Io, NodeError, Params, Series, Timeline};
 
 use crate::forces;
 use crate::geometry::{
-    Collider, Colliders, Pose, RigidVelocity, Sphere, Track, V3, add, axpy, cross, dot, norm, read_transform, scale,
-    sub,
+    Collider, Colliders, Ground, Pose, RigidVelocity, Sphere, Track, V3, add, axpy, cross, dot, norm, read_transform,
+    scale, sub,
 };
 use crate::setup::{Pin, Setup};
 use heft_node_sdk::field::FieldView;
@@ -258,10 +258,10 @@ impl<'a> FrameEnv<'a> {
         self.anchor_velocity_at((k as f64 - 0.5) / self.substeps as f64)
     }
 
-    /// True when any collider is connected.
+    /// True when any collider is connected or the ground is on.
     #[inline(always)]
     pub fn has_colliders(&self) -> bool {
-        self.collider_tracks.iter().any(Option::is_some)
+        self.setup.ground.is_some() || self.collider_tracks.iter().any(Option::is_some)
     }
 
     /// The colliders at boundary k.
@@ -332,6 +332,10 @@ fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], ends: &[Option<Track
             };
             c.count += 1;
         }
+    }
+    if let Some(height) = setup.ground {
+        c.shapes[c.count] = Collider::Ground(Ground { height });
+        c.count += 1;
     }
     c
 }

@@ -98,6 +98,8 @@ pub struct Setup {
     pub end_offsets: Vec<V3>,
     /// The three colliders' parameters.
     pub colliders: [ColliderParams; 3],
+    /// The ground's height (world Z), m, when the strands have a ground to rest on.
+    pub ground: Option<f64>,
 }
 
 impl Setup {
@@ -248,6 +250,7 @@ impl Setup {
             start_offsets,
             end_offsets,
             colliders,
+            ground: params.boolean("ground")?.then_some(params.number("ground_height")?),
         })
     }
 

@@ -190,6 +190,19 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             ),
         ));
     }
+    params.push(ParamSpec::boolean(
+        "ground",
+        false,
+        "A ground the strands rest on: the plane z = `ground_height` in world space (Z up); particles below it are \
+         lifted onto it after every substep and lose their downward velocity.",
+    ));
+    params.push(ParamSpec::number(
+        "ground_height",
+        len,
+        0.0,
+        (-1.0e4, 1.0e4),
+        "Height of the ground (world Z), used when `ground` is on.",
+    ));
     let tr = |n: &str, doc: &str| PortSpec::new(n, PortKind::Transform, len, doc).optional();
     let mut inputs = vec![
         tr("anchor", "The transform the pins ride on (a head, a hip)."),
@@ -366,6 +379,7 @@ mod tests {
                     assert!(v.iter().all(|c| min <= c && c <= max), "{}", p.name)
                 }
                 (ParamType::Choice { options }, Some(ParamValue::Choice(v))) => assert!(options.contains(v)),
+                (ParamType::Bool, Some(ParamValue::Bool(_))) => {}
                 other => panic!("{}: {other:?}", p.name),
             }
         }

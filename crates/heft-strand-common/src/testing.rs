@@ -520,3 +520,51 @@ pub fn glitched_anchor<N: Node>() -> Option<String> {
         .err()
         .map(|e| e.to_string())
 }
+
+/// A 110 cm sash hanging from hips that crouch, jump 0.35 m and land (a made-up path: 0.95 m
+/// standing, 0.70 m at the bottom of the crouch, a free-fall parabola in the air), over a ground
+/// at z = 0, at 24 fps for 2 s with the default substeps. Returns the lowest particle height over
+/// every frame, and the lowest height the sash's tip would reach without the ground (hanging
+/// straight down at the bottom of the crouch: 0.70 - 1.10 = -0.40 m).
+pub fn sash_over_the_ground<N: Node>() -> (f64, f64) {
+    let tl = timeline(24, 49);
+    let g = heft_node_sdk::STANDARD_GRAVITY;
+    let z = |t: f64| -> f64 {
+        // 0 to 0.5 s: crouch 0.95 -> 0.70 (cosine); 0.5 to 0.8 s: push 0.70 -> 1.00 (cosine),
+        // leaving at 2.62 m/s; then the parabola from 1.00 m at 2.62 m/s until it comes back to
+        // 0.95 m; then standing.
+        let ease = |u: f64| 0.5 - 0.5 * (std::f64::consts::PI * u.clamp(0.0, 1.0)).cos();
+        let v0 = (2.0 * g * 0.35).sqrt();
+        let t_land = 0.8 + (v0 + (v0 * v0 + 2.0 * g * 0.05).sqrt()) / g;
+        if t < 0.5 {
+            0.95 - 0.25 * ease(t / 0.5)
+        } else if t < 0.8 {
+            0.70 + 0.30 * ease((t - 0.5) / 0.3)
+        } else if t < t_land {
+            let s = t - 0.8;
+            1.0 + v0 * s - 0.5 * g * s * s
+        } else {
+            0.95
+        }
+    };
+    let hips = transform(tl, |t| ([0.0, 0.0, z(t)], [0.0, 0.0, 0.0, 1.0]));
+    let run = run::<N>(
+        &[
+            int("segments", 22),
+            num("length", 1.1),
+            vec3("rest_direction", [0.0, 0.0, -1.0]),
+            vec3("start_offset", [0.0, 0.15, 0.0]),
+            ("ground", ParamValue::Bool(true)),
+        ],
+        tl,
+        &[("anchor", hips)],
+    )
+    .expect("runs");
+    let mut lowest = f64::INFINITY;
+    for f in 0..run.frames() {
+        for i in 0..run.n {
+            lowest = lowest.min(run.x(f, i)[2]);
+        }
+    }
+    (lowest, 0.70 - 1.10)
+}

@@ -50,3 +50,18 @@ fn verlet_advice_never_names_stretch_stiffness() {
         assert!(err.contains(want) && !err.contains("stretch_stiffness"), "{err}");
     }
 }
+
+/// A 110 cm sash on hips that crouch to 0.70 m, jump and land, over the ground at z = 0: it
+/// would reach 0.40 m below the ground hanging straight down; with `ground` on no particle is
+/// ever below it, and the sash does rest on it (its lowest point within 1 mm of the ground).
+#[test]
+fn a_sash_rests_on_the_ground_and_never_passes_below_it() {
+    use heft_strand_common::testing::sash_over_the_ground;
+    for (name, (lowest, unconstrained)) in [
+        ("strand.euler", sash_over_the_ground::<Euler>()),
+        ("strand.verlet", sash_over_the_ground::<Verlet>()),
+    ] {
+        assert!(unconstrained < -0.3);
+        assert!((0.0..1e-3).contains(&lowest), "{name}: lowest particle at {lowest} m");
+    }
+}

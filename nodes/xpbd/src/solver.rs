@@ -272,6 +272,8 @@ pub struct Near<T, const N: usize> {
     pub r2: T,
     /// True for a capsule (the segment test), false for a sphere (the distance to `start`).
     pub capsule: bool,
+    /// True for the ground: the test is z below start's z plus the margin `r2` (not squared).
+    pub ground: bool,
 }
 
 /// s* = decay s + base (+ spin x x) (+ wind). The predicted position is x + s*; x itself stays
@@ -403,7 +405,11 @@ fn collide<T: Real, const N: usize>(h: f64, col: &LaneColliders<'_, T, N>, p: &m
     let mut inside = false;
     for near in col.near {
         let (c, r2) = (&near.start, near.r2);
-        if near.capsule {
+        if near.ground {
+            for l in 0..N {
+                inside |= x[2][l] < c[2][l] + r2;
+            }
+        } else if near.capsule {
             let (a, w) = (near.axis, near.inv_len2);
             for l in 0..N {
                 let (dx, dy, dz) = (x[0][l] - c[0][l], x[1][l] - c[1][l], x[2][l] - c[2][l]);
@@ -433,6 +439,10 @@ fn collide<T: Real, const N: usize>(h: f64, col: &LaneColliders<'_, T, N>, p: &m
                 Collider::Sphere(mut b) => {
                     b.radius += 2.0 * T::EPSILON * (reach + b.radius + b.radius);
                     Collider::Sphere(b)
+                }
+                Collider::Ground(mut g) => {
+                    g.height += 2.0 * T::EPSILON * (reach + g.height.abs());
+                    Collider::Ground(g)
                 }
                 Collider::Capsule(c) => {
                     let m = c.max_radius();

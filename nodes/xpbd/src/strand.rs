@@ -65,7 +65,8 @@ constraint, each once with lambda = 0 (no iterations, nothing carried across sub
 the colliders (pinned ones excepted) to their nearest surface point and remove their inward velocity relative \
 to the surface there; v = (x - x_prev) / h. A collider is a sphere on `collider_k`, or, with `collider_k_end` \
 connected, a capsule from `collider_k` to `collider_k_end`, straight or tapered (radius from \
-`collider_k_radius` to `collider_k_end_radius`), moving with its two ends. Wind is sampled at \
+`collider_k_radius` to `collider_k_end_radius`), moving with its two ends; with `ground` on, the plane \
+z = `ground_height` is a collider too. Wind is sampled at \
 each particle every substep.\n\
 Bending: the vector constraint (x_{i-1} - 2 x_i + x_{i+1}) / l0 with compliance l0 / (E I), i.e. the energy \
 E I / (2 l0^3) |x_{i-1} - 2 x_i + x_{i+1}|^2 per interior particle: the Euler-Bernoulli energy 1/2 int E I |x''|^2 \
@@ -402,6 +403,7 @@ fn near_lanes<T: Real, const N: usize>(s: &Collider, origin: &Lanes3<f64, N>) ->
                 inv_len2: T::ZERO,
                 r2: T::of(r * r),
                 capsule: false,
+                ground: false,
             }
         }
         Collider::Capsule(k) => {
@@ -421,6 +423,24 @@ fn near_lanes<T: Real, const N: usize>(s: &Collider, origin: &Lanes3<f64, N>) ->
                 inv_len2: T::of(1.0 / dot(axis, axis)),
                 r2: T::of(r * r),
                 capsule: true,
+                ground: false,
+            }
+        }
+        Collider::Ground(g) => {
+            for l in 0..N {
+                let r = g.height - origin[2][l];
+                start[2][l] = T::of(r);
+                reach = reach.max(r.abs());
+            }
+            // A margin of 0.1 mm plus the rounding of the relative heights: a particle that
+            // close above is checked exactly.
+            Near {
+                start,
+                axis: [T::ZERO; 3],
+                inv_len2: T::ZERO,
+                r2: T::of(1.0e-4 + 16.0 * T::EPSILON * reach),
+                capsule: false,
+                ground: true,
             }
         }
     }
