@@ -584,6 +584,33 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
         }
     }
 
+    let mut warnings = Vec::new();
+    if setup.settled_start {
+        settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &tracks_c, &tracks_e)?;
+        // A rest shape inside a collider: said, with the place and the depth.
+        let c0 = colliders_at(setup, &tracks_c, &tracks_e, 0.0);
+        for (idx, x) in state.x.iter().enumerate() {
+            for (k, shape) in c0.shapes[..c0.count].iter().enumerate() {
+                let (mut p, mut v) = (*x, [0.0; 3]);
+                if shape.contains(*x) && shape.project(&mut p, &mut v) {
+                    let what = match shape {
+                        Collider::Ground(_) => "the ground".to_owned(),
+                        _ => format!("collider {}", k + 1),
+                    };
+                    warnings.push(format!(
+                        "strand {} particle {} starts {:.3e} m inside {what} even settled (pinned there, or held \
+                         by its neighbours): move the pin or the collider",
+                        idx / setup.particles,
+                        idx % setup.particles,
+                        norm(sub(p, *x))
+                    ));
+                }
+            }
+        }
+    }
+    for w in warnings {
+        io.warn(&w);
+    }
     let mut method = M::new(setup);
     write_frame(io, 0, setup, &state, &method, true)?;
 
@@ -969,6 +996,107 @@ fn check_blow_up<M: Method>(
             wind,
         ))),
     }
+}
+
+/// Settles the strands for `start = settled`: their dynamics, with the anchors and colliders
+/// held still at their first-frame pose and no wind, are run from the laid-out state, and the
+/// velocities are set to zero each time the kinetic energy has passed a peak (kinetic damping,
+/// the dynamic relaxation of Cundall 1976 and Day 1965: every swing is stopped at the bottom of
+/// its path, so the energy drains away without a damping force), until the particles move by
+/// less than 1e-4 of a segment in a frame or 40 s of settling have passed. Then every particle
+/// takes the first frame's anchor velocity (the rigid motion of the anchor at frame 0).
+fn settle<M: Method>(
+    setup: &Setup,
+    state: &mut State,
+    inputs: &Inputs<'_>,
+    tl: &Timeline,
+    poses: [Pose; 2],
+    tracks_c: &[Option<Track>; 3],
+    tracks_e: &[Option<Track>; 3],
+) -> Result<(), NodeError> {
+    let substeps = setup.substeps;
+    let dt = tl.dt();
+    let h = dt / substeps as f64;
+    let mut tables = Tables::new(substeps);
+    for k in 0..=substeps {
+        tables.pose_a[k] = poses[0];
+        tables.pose_b[k] = poses[1];
+        tables.colliders[k] = colliders_at(setup, tracks_c, tracks_e, 0.0);
+    }
+    let still_a = inputs.anchor.as_ref().map(|_| Track::still(poses[0].t, poses[0].q));
+    let still_b = inputs.anchor_b.as_ref().map(|_| Track::still(poses[1].t, poses[1].q));
+    let env = FrameEnv {
+        setup,
+        h,
+        substeps,
+        frame_dt: dt,
+        frame: 1,
+        gravity: setup.gravity,
+        anchor: still_a,
+        anchor_velocity_ends: [([0.0; 3], [0.0; 3]); 2],
+        end: still_b.or(still_a),
+        collider_tracks: *tracks_c,
+        collider_end_tracks: *tracks_e,
+        wind: None,
+        tables: &tables,
+    };
+    let kinetic = |state: &State| -> f64 {
+        state
+            .v
+            .iter()
+            .enumerate()
+            .map(|(i, v)| 0.5 * setup.mass[i % setup.particles] * dot(*v, *v))
+            .sum()
+    };
+    let limit = 1.0e-6 * setup.rest_length;
+    let most = (40.0 / dt).ceil() as usize;
+    let mut method = M::new(setup);
+    let mut last = f64::INFINITY;
+    for _ in 0..most {
+        let before = state.x.clone();
+        method.frame(setup, state, &env);
+        if !method.fills_state() {
+            method.store(state.x.as_flattened_mut(), state.v.as_flattened_mut());
+        }
+        if state.x.iter().flatten().any(|c| !c.is_finite()) {
+            return Err(NodeError::new(
+                "the strand blew up while settling at its first pose: raise `substeps`, or start it as laid \
+                 (`start = as_laid`)",
+            ));
+        }
+        let moved = state
+            .x
+            .iter()
+            .zip(&before)
+            .map(|(a, b)| norm(sub(*a, *b)))
+            .fold(0.0, f64::max);
+        if moved < limit {
+            break;
+        }
+        let e = kinetic(state);
+        if e < last {
+            // Past the peak: stop every particle, and start the method afresh from this state.
+            for v in &mut state.v {
+                *v = [0.0; 3];
+            }
+            method = M::new(setup);
+            last = f64::INFINITY;
+        } else {
+            last = e;
+        }
+    }
+    // At rest with the anchor: its rigid velocity at the first frame.
+    let (linear, angular) = match &inputs.anchor {
+        Some(s) => (
+            translation_velocity(s, "anchor", tl, 0)?,
+            frame_velocity(s, "anchor", tl, 0)?.1,
+        ),
+        None => ([0.0; 3], [0.0; 3]),
+    };
+    for (x, v) in state.x.iter().zip(state.v.iter_mut()) {
+        *v = add(linear, cross(angular, sub(*x, poses[0].t)));
+    }
+    Ok(())
 }
 
 /// An anchor whose acceleration is implausible for a body: above this, in m/s^2 (50 g; a

@@ -100,6 +100,8 @@ pub struct Setup {
     pub colliders: [ColliderParams; 3],
     /// The ground's height (world Z), m, when the strands have a ground to rest on.
     pub ground: Option<f64>,
+    /// True when the strands start at rest in their hanging equilibrium (`start = settled`).
+    pub settled_start: bool,
 }
 
 impl Setup {
@@ -251,6 +253,7 @@ impl Setup {
             end_offsets,
             colliders,
             ground: params.boolean("ground")?.then_some(params.number("ground_height")?),
+            settled_start: params.choice("start")? == "settled",
         })
     }
 

@@ -190,6 +190,13 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             ),
         ));
     }
+    params.push(ParamSpec::choice(
+        "start",
+        &["as_laid", "settled"],
+        "How the strands start: as laid out (straight along `rest_direction`, or between the pins), or settled: at \
+         rest in their hanging equilibrium for the first frame's pose of the anchors and colliders, so that the \
+         first frames are calm (a strand pinned at both ends hangs at its rest length).",
+    ));
     params.push(ParamSpec::boolean(
         "ground",
         false,

@@ -250,8 +250,18 @@ impl Method for VerletMethod {
                 // x_prev = x0 - h v0 + h^2 a(x0, v0) / 2 (Verlet 1967; Hairer, Lubich & Wanner 2003,
                 // Acta Numerica 12, "Geometric numerical integration illustrated by the
                 // Stormer-Verlet method", sec. 1.2).
-                for lane in 0..lanes {
-                    project_onto_constraints(&mut xs[lane * p..(lane + 1) * p], &setup.inv_mass, l0, &mut self.start);
+                // A settled strand is already where this solver holds it (its passes leave a
+                // hanging chain slightly long): projecting it would move it off that and start
+                // it bouncing.
+                if !setup.settled_start {
+                    for lane in 0..lanes {
+                        project_onto_constraints(
+                            &mut xs[lane * p..(lane + 1) * p],
+                            &setup.inv_mass,
+                            l0,
+                            &mut self.start,
+                        );
+                    }
                 }
                 let ambient = env.ambient(0);
                 for lane in 0..lanes {
@@ -261,7 +271,9 @@ impl Method for VerletMethod {
                     f.fill([0.0; 3]);
                     add_bending_forces(x, c_b, f);
                     for i in 0..p {
-                        let a = if setup.pinned[i] {
+                        // A settled strand starts in equilibrium: the constraints' forces, which
+                        // a(x0, v0) leaves out, balance the rest, so its acceleration is zero.
+                        let a = if setup.pinned[i] || setup.settled_start {
                             [0.0; 3]
                         } else {
                             axpy(ambient.accel(x[i], v[i]), setup.inv_mass[i], f[i])

@@ -65,3 +65,67 @@ fn a_sash_rests_on_the_ground_and_never_passes_below_it() {
         assert!((0.0..1e-3).contains(&lowest), "{name}: lowest particle at {lowest} m");
     }
 }
+
+/// `start = settled`: a 45 cm braid laid out sideways from its pin, and a 42 cm necklace pinned
+/// 12 cm apart, start at rest in their hanging equilibrium. On a still anchor nothing then moves
+/// by more than 1e-5 m in a second (measured about 1e-6 m); the braid hangs straight down
+/// (its tip within 1 % of its length below the pin), and the necklace hangs at its rest length
+/// (its chain within 1 % of 42 cm; laid out it started 58.5 cm long between pins 12 cm apart).
+#[test]
+fn settled_strands_start_calm_at_their_rest_length() {
+    use heft_strand_common::testing::settled_start;
+    for (name, braid, necklace) in [
+        (
+            "strand.euler",
+            settled_start::<Euler>(false, Some(400)),
+            settled_start::<Euler>(true, Some(400)),
+        ),
+        (
+            "strand.verlet",
+            settled_start::<Verlet>(false, None),
+            settled_start::<Verlet>(true, None),
+        ),
+    ] {
+        let (moved, length, tip) = braid;
+        assert!(moved < 1e-5, "{name}: the braid moved {moved} m");
+        assert!(
+            ((1.5 - tip) / length - 1.0).abs() < 1e-2,
+            "{name}: tip at {tip} m for a {length} m braid"
+        );
+        let (moved, length, _) = necklace;
+        assert!(moved < 1e-5, "{name}: the necklace moved {moved} m");
+        assert!(
+            (length / 0.42 - 1.0).abs() < 1e-2,
+            "{name}: the necklace is {length} m long"
+        );
+    }
+}
+
+/// A settled strand whose pin sits inside a collider is said to start inside it, with the
+/// strand, the particle, the collider and the depth.
+#[test]
+fn a_settled_strand_starting_inside_a_collider_is_warned_about() {
+    use heft_strand_common::testing::{choice, int, num, run, timeline, transform, vec3};
+    let tl = timeline(24, 5);
+    let anchor = transform(tl, |_| ([0.0, 0.0, 1.5], [0.0, 0.0, 0.0, 1.0]));
+    let r = run::<Verlet>(
+        &[
+            int("segments", 8),
+            num("length", 0.3),
+            choice("start", "settled"),
+            vec3("rest_direction", [1.0, 0.0, 0.0]),
+            num("collider_1_radius", 0.1),
+            vec3("collider_1_offset", [0.0, 0.0, 0.05]),
+        ],
+        tl,
+        &[("anchor", anchor.clone()), ("collider_1", anchor)],
+    )
+    .expect("runs");
+    assert!(
+        r.warnings
+            .iter()
+            .any(|w| w.contains("strand 0 particle 0 starts 5.000e-2 m inside collider 1")),
+        "{:?}",
+        r.warnings
+    );
+}

@@ -216,7 +216,11 @@ impl<T: Real, const N: usize> Group<T, N> {
         let n = setup.particles;
         let reorigin = self.loaded;
         if !self.loaded {
-            self.lanes.load(&state.x, &state.v, h, setup.gravity);
+            // The first step is taken from half a step back on the path of the particles'
+            // acceleration at the start: gravity for a strand as laid out (exact for a free
+            // fall), none for a settled one (in equilibrium the constraints balance gravity).
+            let start_accel = if setup.settled_start { [0.0; 3] } else { setup.gravity };
+            self.lanes.load(&state.x, &state.v, h, start_accel);
             self.loaded = true;
         }
         let root = setup.pin != Pin::Free;

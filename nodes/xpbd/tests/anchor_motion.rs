@@ -70,3 +70,42 @@ fn a_sash_rests_on_the_ground_and_never_passes_below_it() {
         assert!((0.0..1e-3).contains(&lowest), "{name}: lowest particle at {lowest} m");
     }
 }
+
+/// `start = settled`: a 45 cm braid laid out sideways from its pin, and a 42 cm necklace pinned
+/// 12 cm apart, start at rest in their hanging equilibrium. On a still anchor nothing then moves
+/// by more than 1e-5 m in a second (measured about 1e-6 m); the braid hangs straight down (its
+/// tip within 2 % of its length below the pin: XPBD's hanging stretch at the default step is
+/// about 1.7 %, see the node's notes), and the necklace hangs at its rest length within 1 %.
+#[test]
+fn settled_strands_start_calm_at_their_rest_length() {
+    use heft_strand_common::testing::settled_start;
+    for (name, braid, necklace) in [
+        (
+            "xpbd.strand",
+            settled_start::<heft_xpbd::XpbdStrand>(false, None),
+            settled_start::<heft_xpbd::XpbdStrand>(true, None),
+        ),
+        (
+            "xpbd.strand_f32",
+            settled_start::<heft_xpbd::XpbdStrandF32>(false, None),
+            settled_start::<heft_xpbd::XpbdStrandF32>(true, None),
+        ),
+    ] {
+        let (moved, length, tip) = braid;
+        assert!(moved < 1e-5, "{name}: the braid moved {moved} m");
+        assert!(
+            ((1.5 - tip) / length - 1.0).abs() < 1e-2,
+            "{name}: tip at {tip} m for a {length} m braid"
+        );
+        assert!(
+            (length / 0.45 - 1.0).abs() < 2e-2,
+            "{name}: the braid is {length} m long"
+        );
+        let (moved, length, _) = necklace;
+        assert!(moved < 1e-5, "{name}: the necklace moved {moved} m");
+        assert!(
+            (length / 0.42 - 1.0).abs() < 1e-2,
+            "{name}: the necklace is {length} m long"
+        );
+    }
+}
