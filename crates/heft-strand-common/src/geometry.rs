@@ -273,6 +273,64 @@ impl RigidVelocity {
     }
 }
 
+/// Coulomb friction at a contact: the static and the kinetic coefficient.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Friction {
+    /// Static coefficient: a contact whose sliding speed is within this times the normal velocity
+    /// change stops sliding.
+    pub static_coefficient: f64,
+    /// Kinetic coefficient: otherwise the sliding speed drops by this times the normal velocity
+    /// change.
+    pub kinetic: f64,
+    /// The step the contact's velocity was taken over, s: the sliding the friction takes out of
+    /// the velocity is taken out of that step's displacement too (zero: velocity only).
+    pub step: f64,
+}
+
+/// A contact's velocity ([`contact_velocity`]) and the matching position: the tangential
+/// displacement the friction removed from this step (`friction.step` times the velocity it
+/// took away) taken back, so a particle that static friction holds does not creep.
+#[inline]
+fn contact_with_friction(x: &mut V3, v: &mut V3, surface: V3, n: V3, friction: Friction) {
+    let before = *v;
+    *v = contact_velocity(before, surface, n, friction);
+    if friction.step > 0.0 && (friction.kinetic > 0.0 || friction.static_coefficient > 0.0) {
+        // The change in the tangential part (the normal part's change is the push out, which
+        // the projection has already made in position).
+        let change = sub(*v, before);
+        let tangential = axpy(change, -dot(change, n), n);
+        *x = axpy(*x, friction.step, tangential);
+    }
+}
+
+/// The velocity of a particle after a contact with unit normal `n` (out of the collider) on a
+/// surface moving at `surface`: the inward part of the relative velocity removed, and its
+/// tangential part slowed by Coulomb friction, the normal velocity change dvn standing for the
+/// normal impulse per unit mass: stopped when its speed is within mu_s dvn, else shortened by
+/// mu_k dvn (Bridson, Fedkiw & Anderson 2002, "Robust treatment of collisions, contact and
+/// friction for cloth animation", SIGGRAPH, sec. 7.2). With no friction only the inward part
+/// goes. Resting on the ground, dvn is g h each step, so a sliding particle slows at mu_k g.
+#[inline]
+pub fn contact_velocity(v: V3, surface: V3, n: V3, friction: Friction) -> V3 {
+    let rel = sub(v, surface);
+    let vn = dot(rel, n);
+    if vn >= 0.0 {
+        return v;
+    }
+    let dvn = -vn;
+    let tangential = axpy(rel, -vn, n);
+    if friction.kinetic <= 0.0 && friction.static_coefficient <= 0.0 {
+        return axpy(v, -vn, n);
+    }
+    let speed = norm(tangential);
+    let kept = if speed <= friction.static_coefficient * dvn {
+        0.0
+    } else {
+        (1.0 - friction.kinetic * dvn / speed).max(0.0)
+    };
+    add(surface, scale(tangential, kept))
+}
+
 /// A sphere collider at one instant.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct Sphere {
@@ -294,6 +352,12 @@ impl Sphere {
     /// when the particle was inside.
     #[inline]
     pub fn project(&self, x: &mut V3, v: &mut V3) -> bool {
+        self.project_with(x, v, Friction::default())
+    }
+
+    /// [`Sphere::project`] with Coulomb friction on the tangential velocity ([`contact_velocity`]).
+    #[inline]
+    pub fn project_with(&self, x: &mut V3, v: &mut V3, friction: Friction) -> bool {
         let d = sub(*x, self.centre);
         let d2 = dot(d, d);
         if d2 >= self.radius * self.radius {
@@ -303,10 +367,7 @@ impl Sphere {
         // A particle exactly at the centre leaves upward (+Z): deterministic.
         let n = if l > 0.0 { scale(d, 1.0 / l) } else { [0.0, 0.0, 1.0] };
         *x = axpy(self.centre, self.radius * SURFACE, n);
-        let vn = dot(sub(*v, self.velocity), n);
-        if vn < 0.0 {
-            *v = axpy(*v, -vn, n);
-        }
+        contact_with_friction(x, v, self.velocity, n, friction);
         true
     }
 
@@ -515,16 +576,19 @@ impl Capsule {
     /// Returns true when the particle was inside.
     #[inline]
     pub fn project(&self, x: &mut V3, v: &mut V3) -> bool {
+        self.project_with(x, v, Friction::default())
+    }
+
+    /// [`Capsule::project`] with Coulomb friction on the tangential velocity ([`contact_velocity`]).
+    #[inline]
+    pub fn project_with(&self, x: &mut V3, v: &mut V3, friction: Friction) -> bool {
         let k = self.contact(*x);
         if k.distance >= 0.0 {
             return false;
         }
         let n = k.normal;
         *x = axpy(k.centre, k.radius + self.slack, n);
-        let vn = dot(sub(*v, self.surface_velocity(k.t)), n);
-        if vn < 0.0 {
-            *v = axpy(*v, -vn, n);
-        }
+        contact_with_friction(x, v, self.surface_velocity(k.t), n, friction);
         true
     }
 }
@@ -589,14 +653,18 @@ impl Ground {
     /// true when the particle was below.
     #[inline]
     pub fn project(&self, x: &mut V3, v: &mut V3) -> bool {
+        self.project_with(x, v, Friction::default())
+    }
+
+    /// [`Ground::project`] with Coulomb friction on the horizontal velocity ([`contact_velocity`]).
+    #[inline]
+    pub fn project_with(&self, x: &mut V3, v: &mut V3, friction: Friction) -> bool {
         if x[2] >= self.height {
             return false;
         }
         // Just above, by the rounding of the height (a particle left exactly on it is not inside).
         x[2] = self.height + 8.0 * f64::EPSILON * self.height.abs().max(1.0);
-        if v[2] < 0.0 {
-            v[2] = 0.0;
-        }
+        contact_with_friction(x, v, [0.0; 3], [0.0, 0.0, 1.0], friction);
         true
     }
 
@@ -635,10 +703,16 @@ impl Collider {
     /// See [`Sphere::project`] and [`Capsule::project`].
     #[inline]
     pub fn project(&self, x: &mut V3, v: &mut V3) -> bool {
+        self.project_with(x, v, Friction::default())
+    }
+
+    /// [`Collider::project`] with Coulomb friction.
+    #[inline]
+    pub fn project_with(&self, x: &mut V3, v: &mut V3, friction: Friction) -> bool {
         match self {
-            Collider::Sphere(s) => s.project(x, v),
-            Collider::Capsule(c) => c.project(x, v),
-            Collider::Ground(g) => g.project(x, v),
+            Collider::Sphere(s) => s.project_with(x, v, friction),
+            Collider::Capsule(c) => c.project_with(x, v, friction),
+            Collider::Ground(g) => g.project_with(x, v, friction),
         }
     }
 
@@ -660,6 +734,8 @@ pub struct Colliders {
     pub shapes: [Collider; 4],
     /// How many colliders are live.
     pub count: usize,
+    /// Friction at every contact.
+    pub friction: Friction,
 }
 
 impl Colliders {
@@ -679,7 +755,7 @@ impl Colliders {
         for _ in 0..4 {
             let mut any = false;
             for s in &self.shapes[..self.count] {
-                any |= s.project(x, v);
+                any |= s.project_with(x, v, self.friction);
             }
             moved |= any;
             if !any || self.count == 1 {
@@ -779,6 +855,7 @@ mod tests {
                 Collider::default(),
             ],
             count: 1,
+            friction: Friction::default(),
         };
         let mut x = [0.0, 0.0, 0.5];
         let mut v = [1.0, 0.0, -2.0];
@@ -800,6 +877,30 @@ mod tests {
         let (mut x, mut v) = ([0.0, 0.0, -0.2], [0.0, 0.0, -1.0]);
         assert!(!g.project(&mut x, &mut v));
         assert_eq!((x, v), ([0.0, 0.0, -0.2], [0.0, 0.0, -1.0]));
+    }
+
+    /// Coulomb friction at a contact (Bridson, Fedkiw & Anderson 2002, sec. 7.2): a particle
+    /// hitting the ground at (3, 0, -4) m/s loses its 4 m/s of fall; with mu_k = 0.5 its sliding
+    /// speed drops by 0.5 x 4 = 2 m/s, to 1 m/s; with mu_s = 1 (4 m/s of allowance) it stops.
+    #[test]
+    fn friction_slows_or_stops_the_sliding_part() {
+        let v = [3.0, 0.0, -4.0];
+        let n = [0.0, 0.0, 1.0];
+        let kinetic = Friction {
+            static_coefficient: 0.5,
+            kinetic: 0.5,
+            step: 0.0,
+        };
+        assert!(close(contact_velocity(v, [0.0; 3], n, kinetic), [1.0, 0.0, 0.0], 1e-15));
+        let stuck = Friction {
+            static_coefficient: 1.0,
+            kinetic: 0.5,
+            step: 0.0,
+        };
+        assert!(close(contact_velocity(v, [0.0; 3], n, stuck), [0.0; 3], 1e-15));
+        assert_eq!(contact_velocity(v, [0.0; 3], n, Friction::default()), [3.0, 0.0, 0.0]);
+        // Leaving the surface: untouched.
+        assert_eq!(contact_velocity([3.0, 0.0, 1.0], [0.0; 3], n, stuck), [3.0, 0.0, 1.0]);
     }
 
     // ------------------------------------------------------------ capsules

@@ -337,6 +337,7 @@ fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], ends: &[Option<Track
         c.shapes[c.count] = Collider::Ground(Ground { height });
         c.count += 1;
     }
+    c.friction = setup.friction;
     c
 }
 
@@ -667,6 +668,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                 };
             }
             tables.colliders[k] = colliders_at(setup, &tracks_c, &tracks_e, frac);
+            tables.colliders[k].friction.step = h;
         }
         let env = FrameEnv {
             setup,
@@ -1022,6 +1024,7 @@ fn settle<M: Method>(
         tables.pose_a[k] = poses[0];
         tables.pose_b[k] = poses[1];
         tables.colliders[k] = colliders_at(setup, tracks_c, tracks_e, 0.0);
+        tables.colliders[k].friction.step = h;
     }
     let still_a = inputs.anchor.as_ref().map(|_| Track::still(poses[0].t, poses[0].q));
     let still_b = inputs.anchor_b.as_ref().map(|_| Track::still(poses[1].t, poses[1].q));

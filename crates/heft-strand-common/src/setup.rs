@@ -102,6 +102,8 @@ pub struct Setup {
     pub ground: Option<f64>,
     /// True when the strands start at rest in their hanging equilibrium (`start = settled`).
     pub settled_start: bool,
+    /// Friction at every collider and the ground.
+    pub friction: crate::geometry::Friction,
 }
 
 impl Setup {
@@ -254,6 +256,11 @@ impl Setup {
             colliders,
             ground: params.boolean("ground")?.then_some(params.number("ground_height")?),
             settled_start: params.choice("start")? == "settled",
+            friction: crate::geometry::Friction {
+                static_coefficient: params.number("static_friction")?.max(params.number("friction")?),
+                kinetic: params.number("friction")?,
+                step: 0.0,
+            },
         })
     }
 

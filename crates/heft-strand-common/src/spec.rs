@@ -197,6 +197,22 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
          rest in their hanging equilibrium for the first frame's pose of the anchors and colliders, so that the \
          first frames are calm (a strand pinned at both ends hangs at its rest length).",
     ));
+    params.push(ParamSpec::number(
+        "friction",
+        Dimension::Dimensionless,
+        0.0,
+        (0.0, 10.0),
+        "Kinetic friction coefficient at every collider and the ground (Coulomb): a particle sliding on a surface \
+         slows by this times the push the surface gives it (on the ground, a deceleration friction x g).",
+    ));
+    params.push(ParamSpec::number(
+        "static_friction",
+        Dimension::Dimensionless,
+        0.0,
+        (0.0, 10.0),
+        "Static friction coefficient: a particle sliding slower than this times the push the surface gives it stops \
+         (taken as at least `friction`).",
+    ));
     params.push(ParamSpec::boolean(
         "ground",
         false,

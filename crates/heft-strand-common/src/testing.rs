@@ -611,3 +611,67 @@ pub fn settled_start<N: Node>(both_ends: bool, substeps: Option<i64>) -> (f64, f
         .sum();
     (moved, length, run.x(0, run.n - 1)[2])
 }
+
+/// A free 30 cm strand lying flat on the ground (z = 0) along x, all of it sliding along x at
+/// `v0` m/s, with these friction coefficients, at 24 fps for 2 s: returns how far its centre
+/// of mass slides.
+pub fn sliding_distance<N: Node>(static_friction: f64, friction: f64, v0: f64) -> f64 {
+    let tl = timeline(24, 49);
+    let n = 9;
+    let x0: Vec<[f64; 3]> = (0..n).map(|i| [0.3 * i as f64 / 8.0, 0.0, 0.0]).collect();
+    let v: Vec<[f64; 3]> = vec![[v0, 0.0, 0.0]; n];
+    let run = run::<N>(
+        &[
+            int("segments", 8),
+            num("length", 0.3),
+            choice("pin", "free"),
+            num("damping", 0.0),
+            num("relative_damping", 0.0),
+            num("friction", friction),
+            num("static_friction", static_friction),
+            ("ground", ParamValue::Bool(true)),
+        ],
+        tl,
+        &[
+            ("initial_positions", points_input(tl, &x0)),
+            ("initial_velocities", points_input(tl, &v)),
+        ],
+    )
+    .expect("runs");
+    let com = |f: usize| (0..n).map(|i| run.x(f, i)[0]).sum::<f64>() / n as f64;
+    com(run.frames() - 1) - com(0)
+}
+
+/// A free 1 cm strand resting on a still sphere of radius 1 m, 20 degrees from its top (laid
+/// along the slope's level line), at 24 fps for 1 s with these friction coefficients: returns
+/// how far its centre of mass moves. Coulomb: it holds where tan 20 deg = 0.364 is below the
+/// static coefficient, and slides off where it is above.
+pub fn resting_on_a_slope<N: Node>(static_friction: f64, friction: f64, substeps: Option<i64>) -> f64 {
+    let tl = timeline(24, 25);
+    let a = 20f64.to_radians();
+    let r = 1.0 + 1e-9;
+    let x0 = vec![[r * a.sin(), -0.005, r * a.cos()], [r * a.sin(), 0.005, r * a.cos()]];
+    let sphere = transform(tl, |_| ([0.0; 3], [0.0, 0.0, 0.0, 1.0]));
+    let run = run::<N>(
+        &[
+            int("segments", 1),
+            num("length", 0.01),
+            choice("pin", "free"),
+            num("damping", 0.0),
+            num("relative_damping", 0.0),
+            num("friction", friction),
+            num("static_friction", static_friction),
+            num("collider_1_radius", 1.0),
+            int("substeps", substeps.unwrap_or(20)),
+        ],
+        tl,
+        &[("initial_positions", points_input(tl, &x0)), ("collider_1", sphere)],
+    )
+    .expect("runs");
+    let com = |f: usize| {
+        let (p, q) = (run.x(f, 0), run.x(f, 1));
+        [0.5 * (p[0] + q[0]), 0.5 * (p[1] + q[1]), 0.5 * (p[2] + q[2])]
+    };
+    let (a, b) = (com(0), com(run.frames() - 1));
+    ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2) + (a[2] - b[2]).powi(2)).sqrt()
+}

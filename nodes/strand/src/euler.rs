@@ -115,7 +115,7 @@ impl Node for Euler {
              `collider_k`, or, with `collider_k_end` connected, a capsule from `collider_k` to `collider_k_end` \
              whose radius runs linearly from `collider_k_radius` to `collider_k_end_radius` (a limb: the union of \
              the spheres along the segment, a cone frustum tangent to the two end spheres plus their caps); its \
-             surface moves with the two ends' velocities, interpolated along it. With `ground` on, the plane z = `ground_height` is a collider too: a particle below it is lifted onto it and loses its downward velocity. \
+             surface moves with the two ends' velocities, interpolated along it. With `ground` on, the plane z = `ground_height` is a collider too: a particle below it is lifted onto it and loses its downward velocity. Contacts have Coulomb friction (`friction`, `static_friction`; Bridson, Fedkiw & Anderson 2002): the sliding velocity is slowed by mu_k times the push out, or stopped within mu_s times it, and the step's displacement with it. \
              Stability: explicit, h < 2 / omega_max with omega_max^2 <= (4 k + 16 c) / m for a chain \
              (2 sqrt(k / m) without bending), reduced by damping gamma to h < (sqrt(gamma^2 + 4 omega^2) - \
              gamma) / omega^2. For the defaults (k = 6000 N/m, m = 1.67e-3 kg, c = 2.7 N/m, gamma = 2.5 1/s) \

@@ -362,7 +362,7 @@ impl Node for Verlet {
              difference it is compared with. Colliders (spheres, or capsules from `collider_k` to \
              `collider_k_end`, straight or tapered) push particles to their nearest surface point after every \
              substep and remove their inward velocity relative to the surface there (x_prev is moved to match); \
-             with `ground` on, the plane z = `ground_height` is a collider too. \
+             with `ground` on, the plane z = `ground_height` is a collider too. Contacts have Coulomb friction (`friction`, `static_friction`; Bridson, Fedkiw & Anderson 2002): the sliding velocity is slowed by mu_k times the push out, or stopped within mu_s times it, and the step's displacement with it. \
              Stability: the constraints are \
              unconditionally stable; the explicit bending term needs h < 2 / omega_b with omega_b^2 <= 16 c / m \
              (161 rad/s for the defaults: h < 1.2e-2 s; a 64-segment strand needs h < 4.4e-4 s), and damping \

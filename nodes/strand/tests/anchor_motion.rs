@@ -1,4 +1,5 @@
-//! What reaches a strand from its anchor's motion data: a glitch in the data is named as such.
+//! What reaches a strand from its anchor and its surroundings: the anchor's motion inside a
+//! frame, a settled start, the ground and friction, and a glitch in the motion data named as such.
 
 use heft_strand::{Euler, Verlet};
 use heft_strand_common::testing::glitched_anchor;
@@ -128,4 +129,38 @@ fn a_settled_strand_starting_inside_a_collider_is_warned_about() {
         "{:?}",
         r.warnings
     );
+}
+
+/// Coulomb friction on the ground: a strand sliding flat at 1 m/s with mu_k = 0.5 stops after
+/// v^2 / (2 mu_k g) = 0.10197 m (a block sliding to rest; measured to 2e-6), and on a sphere 20
+/// degrees from its top (tan 20 deg = 0.364) a resting strand holds with mu_s = 0.5 (it creeps
+/// less than 0.1 mm in a second) and slides off with mu_s = mu_k = 0.2.
+#[test]
+fn friction_stops_a_slide_where_coulomb_says_and_holds_on_a_gentle_slope() {
+    use heft_strand_common::testing::{resting_on_a_slope, sliding_distance};
+    let stop = 1.0 / (2.0 * 0.5 * heft_node_sdk::STANDARD_GRAVITY);
+    for (name, slid) in [
+        ("strand.euler", sliding_distance::<Euler>(0.0, 0.5, 1.0)),
+        ("strand.verlet", sliding_distance::<Verlet>(0.0, 0.5, 1.0)),
+    ] {
+        assert!(
+            (slid / stop - 1.0).abs() < 1e-3,
+            "{name}: slid {slid} m, Coulomb {stop} m"
+        );
+    }
+    for (name, hold, slide) in [
+        (
+            "strand.euler",
+            resting_on_a_slope::<Euler>(0.5, 0.4, Some(800)),
+            resting_on_a_slope::<Euler>(0.2, 0.2, Some(800)),
+        ),
+        (
+            "strand.verlet",
+            resting_on_a_slope::<Verlet>(0.5, 0.4, None),
+            resting_on_a_slope::<Verlet>(0.2, 0.2, None),
+        ),
+    ] {
+        assert!(hold < 1e-4, "{name}: crept {hold} m");
+        assert!(slide > 0.5, "{name}: slid only {slide} m");
+    }
 }

@@ -66,7 +66,7 @@ the colliders (pinned ones excepted) to their nearest surface point and remove t
 to the surface there; v = (x - x_prev) / h. A collider is a sphere on `collider_k`, or, with `collider_k_end` \
 connected, a capsule from `collider_k` to `collider_k_end`, straight or tapered (radius from \
 `collider_k_radius` to `collider_k_end_radius`), moving with its two ends; with `ground` on, the plane \
-z = `ground_height` is a collider too. Wind is sampled at \
+z = `ground_height` is a collider too. Contacts have Coulomb friction (`friction`, `static_friction`; Bridson, Fedkiw & Anderson 2002): the sliding velocity is slowed by mu_k times the push out, or stopped within mu_s times it, and the step's displacement with it. Wind is sampled at \
 each particle every substep.\n\
 Bending: the vector constraint (x_{i-1} - 2 x_i + x_{i+1}) / l0 with compliance l0 / (E I), i.e. the energy \
 E I / (2 l0^3) |x_{i-1} - 2 x_i + x_{i+1}|^2 per interior particle: the Euler-Bernoulli energy 1/2 int E I |x''|^2 \

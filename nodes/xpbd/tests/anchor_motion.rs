@@ -1,6 +1,5 @@
-//! The anchor's motion inside a frame reaches the strand as the anchor moves, not as a kick
-//! once a frame: pins follow the cubic through the frame samples (exact for a parabola), and
-//! the lanes start at second order.
+//! What reaches a strand from its anchor and its surroundings: the anchor's motion inside a
+//! frame, a settled start, the ground and friction, and a glitch in the motion data named as such.
 use heft_strand_common::testing::free_fall_drift;
 
 /// A 30 cm strand at 45 degrees on an anchor falling freely from rest, at 24 fps with the
@@ -107,5 +106,36 @@ fn settled_strands_start_calm_at_their_rest_length() {
             (length / 0.42 - 1.0).abs() < 1e-2,
             "{name}: the necklace is {length} m long"
         );
+    }
+}
+
+/// Coulomb friction on the ground: a strand sliding flat at 1 m/s with mu_k = 0.5 stops after
+/// v^2 / (2 mu_k g) = 0.10197 m (a block sliding to rest; measured to 2e-6), and on a sphere 20
+/// degrees from its top (tan 20 deg = 0.364) a resting strand holds with mu_s = 0.5 (it creeps
+/// less than 0.1 mm in a second) and slides off with mu_s = mu_k = 0.2.
+#[test]
+fn friction_stops_a_slide_where_coulomb_says_and_holds_on_a_gentle_slope() {
+    use heft_strand_common::testing::{resting_on_a_slope, sliding_distance};
+    let stop = 1.0 / (2.0 * 0.5 * heft_node_sdk::STANDARD_GRAVITY);
+    for (name, slid, hold, slide) in [
+        (
+            "xpbd.strand",
+            sliding_distance::<heft_xpbd::XpbdStrand>(0.0, 0.5, 1.0),
+            resting_on_a_slope::<heft_xpbd::XpbdStrand>(0.5, 0.4, None),
+            resting_on_a_slope::<heft_xpbd::XpbdStrand>(0.2, 0.2, None),
+        ),
+        (
+            "xpbd.strand_f32",
+            sliding_distance::<heft_xpbd::XpbdStrandF32>(0.0, 0.5, 1.0),
+            resting_on_a_slope::<heft_xpbd::XpbdStrandF32>(0.5, 0.4, None),
+            resting_on_a_slope::<heft_xpbd::XpbdStrandF32>(0.2, 0.2, None),
+        ),
+    ] {
+        assert!(
+            (slid / stop - 1.0).abs() < 1e-3,
+            "{name}: slid {slid} m, Coulomb {stop} m"
+        );
+        assert!(hold < 1e-4, "{name}: crept {hold} m");
+        assert!(slide > 0.5, "{name}: slid only {slide} m");
     }
 }
