@@ -80,6 +80,44 @@ pub mod proportions {
     /// Head centre height, fraction of H: about 0.936 (from memory, approximate: the
     /// figure's level between chin and crown that is closest to the middle of the head).
     pub const HEAD_CENTRE: f64 = 0.936;
+    /// Ankle height, fraction of H (from memory of the same figure).
+    pub const ANKLE: f64 = 0.039;
+    /// Shoulder width (between the two glenohumeral joints), fraction of H (from memory of
+    /// the same figure).
+    pub const SHOULDER_WIDTH: f64 = 0.259;
+    /// Hip width (between the two hip joints), fraction of H (from memory of the same figure).
+    pub const HIP_WIDTH: f64 = 0.191;
+}
+
+/// The pose of a limb segment pointing from `from` to `to` in the x-z plane: its rotation
+/// about +Y that turns the local -Z (the segment's axis, pointing away from the body) onto
+/// the segment, as a unit quaternion (x, y, z, w).
+pub fn segment_rotation(from: [f64; 3], to: [f64; 3]) -> [f64; 4] {
+    // R_y(phi) takes (0, 0, -1) to (-sin phi, 0, -cos phi): phi = -atan2(dx, -dz).
+    let phi = -(to[0] - from[0]).atan2(-(to[2] - from[2]));
+    [0.0, (0.5 * phi).sin(), 0.0, (0.5 * phi).cos()]
+}
+
+/// The knee of a two-segment leg in the x-z plane from the hip to the ankle (thigh `l1`,
+/// shank `l2`), bending forward (+x); where the ankle is out of reach the leg is straight
+/// toward it and the ankle moves to its end. Returns (knee, ankle). The law of cosines gives
+/// the angle at the hip.
+pub fn leg(hip: [f64; 3], ankle: [f64; 3], l1: f64, l2: f64) -> ([f64; 3], [f64; 3]) {
+    let d = [ankle[0] - hip[0], 0.0, ankle[2] - hip[2]];
+    let len = (d[0] * d[0] + d[2] * d[2]).sqrt().max(1e-12);
+    let u = [d[0] / len, 0.0, d[2] / len];
+    let reach = len.min(l1 + l2);
+    let cos_a = ((l1 * l1 + reach * reach - l2 * l2) / (2.0 * l1 * reach)).clamp(-1.0, 1.0);
+    let sin_a = (1.0 - cos_a * cos_a).sqrt();
+    // Forward of the hip-to-ankle line, in the x-z plane.
+    let f = [-u[2], 0.0, u[0]];
+    let knee = [
+        hip[0] + l1 * (cos_a * u[0] + sin_a * f[0]),
+        hip[1],
+        hip[2] + l1 * (cos_a * u[2] + sin_a * f[2]),
+    ];
+    let ankle = [hip[0] + reach * u[0], hip[1], hip[2] + reach * u[2]];
+    (knee, ankle)
 }
 
 /// The two-part body of the jump planner, in its standing pose: both arms (each one rigid

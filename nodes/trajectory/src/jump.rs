@@ -9,7 +9,7 @@ use heft_node_sdk::{
     Timeline,
 };
 
-use crate::body::{Body, proportions};
+use crate::body::{Body, leg, proportions, segment_rotation};
 use crate::profile::{Quintic, smoothstep};
 
 const G: f64 = STANDARD_GRAVITY;
@@ -759,7 +759,13 @@ impl Node for Jump {
                     by forces; in `speed` mode the arms add their momentum on top of the trunk speed (no reaction of \
                     the swing on the legs). The crouch is a rest point, so the ground force passes one body weight \
                     at the bottom (measured jumps typically push hardest near there). Vertical jumps only. Landmarks (head, chest, \
-                    hips) ride rigidly on the trunk COM. The arms stay at `arm_swing_to` after the swing, so \
+                    hips, neck, shoulders, hip joints) ride rigidly on the trunk COM; each arm is one straight \
+                    segment at the arm angle (upper_arm at the shoulder, forearm at the elbow 0.186 H along it, hand \
+                    at the wrist 0.332 H along it), and each leg a thigh (0.245 H) and a shank (0.246 H) bent forward \
+                    at the knee to an ankle under the centre of mass at the feet's height (straight where out of \
+                    reach); each segment's transform points its local -Z along it, so a capsule collider from one \
+                    joint to the next is the limb (shoulder and hip widths 0.259 H and 0.191 H, ankle height \
+                    0.039 H: from memory of Winter's Fig. 4.1). The arms stay at `arm_swing_to` after the swing, so \
                     the COM stands higher after the recovery than before the jump when they end up raised. `body_mass` scales forces only: every output here depends \
                     on mass fractions, not on the mass. Errors: a ground that would have to pull (force below zero \
                     in contact), a crouch or landing deeper than hips at knee height, an apex below the take-off \
@@ -802,6 +808,27 @@ impl Node for Jump {
                     "hips",
                     "Hips (greater trochanter level) riding on the trunk (identity rotation).",
                 ),
+                transform("neck", "Base of the neck, at shoulder height on the trunk (identity rotation)."),
+                transform("shoulder_l", "Left shoulder joint (+Y side) on the trunk (identity rotation)."),
+                transform("shoulder_r", "Right shoulder joint (-Y side) on the trunk (identity rotation)."),
+                transform(
+                    "upper_arm_l",
+                    "Left upper arm: at the shoulder joint, local -Z along the arm to the elbow.",
+                ),
+                transform(
+                    "upper_arm_r",
+                    "Right upper arm: at the shoulder joint, local -Z along the arm to the elbow.",
+                ),
+                transform("forearm_l", "Left forearm: at the elbow, local -Z along the arm to the wrist."),
+                transform("forearm_r", "Right forearm: at the elbow, local -Z along the arm to the wrist."),
+                transform("hand_l", "Left hand: at the wrist, local -Z along the arm."),
+                transform("hand_r", "Right hand: at the wrist, local -Z along the arm."),
+                transform("thigh_l", "Left thigh: at the hip joint, local -Z along the thigh to the knee."),
+                transform("thigh_r", "Right thigh: at the hip joint, local -Z along the thigh to the knee."),
+                transform("shin_l", "Left shank: at the knee, local -Z along the shank to the ankle."),
+                transform("shin_r", "Right shank: at the knee, local -Z along the shank to the ankle."),
+                transform("foot_l", "Left ankle (identity rotation)."),
+                transform("foot_r", "Right ankle (identity rotation)."),
                 PortSpec::new(
                     "arm_angle",
                     PortKind::Scalar,
@@ -985,6 +1012,110 @@ impl Node for Jump {
                 out.copy_from_slice(&[p[0], p[1], p[2] + dz, 0.0, 0.0, 0.0, 1.0]);
             })?;
         }
+        let limbs: Vec<Limbs> = states.iter().map(|s| limbs(&plan.body, s)).collect();
+        let put = |out: &mut [f64], p: [f64; 3], q: [f64; 4]| {
+            out.copy_from_slice(&[p[0], p[1], p[2], q[0], q[1], q[2], q[3]]);
+        };
+        let identity = [0.0, 0.0, 0.0, 1.0];
+        io.fill("neck", |i, out| put(out, limbs[i].neck, identity))?;
+        for (side, k) in [("l", 0), ("r", 1)] {
+            io.fill(&format!("shoulder_{side}"), |i, out| {
+                put(out, limbs[i].shoulder[k], identity)
+            })?;
+            io.fill(&format!("upper_arm_{side}"), |i, out| {
+                put(out, limbs[i].shoulder[k], limbs[i].arm_rotation)
+            })?;
+            io.fill(&format!("forearm_{side}"), |i, out| {
+                put(out, limbs[i].elbow[k], limbs[i].arm_rotation)
+            })?;
+            io.fill(&format!("hand_{side}"), |i, out| {
+                put(out, limbs[i].wrist[k], limbs[i].arm_rotation)
+            })?;
+            io.fill(&format!("thigh_{side}"), |i, out| {
+                put(
+                    out,
+                    limbs[i].hip[k],
+                    segment_rotation(limbs[i].hip[k], limbs[i].knee[k]),
+                )
+            })?;
+            io.fill(&format!("shin_{side}"), |i, out| {
+                put(
+                    out,
+                    limbs[i].knee[k],
+                    segment_rotation(limbs[i].knee[k], limbs[i].ankle[k]),
+                )
+            })?;
+            io.fill(&format!("foot_{side}"), |i, out| put(out, limbs[i].ankle[k], identity))?;
+        }
         Ok(())
+    }
+}
+
+/// The body's joints at one state, world space (x forward, y to the left, z up): both sides,
+/// left (+y) first.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Limbs {
+    /// Base of the neck: the mid-point of the shoulders.
+    pub neck: [f64; 3],
+    /// Shoulder joints.
+    pub shoulder: [[f64; 3]; 2],
+    /// Elbows: the upper arm's length along the arm.
+    pub elbow: [[f64; 3]; 2],
+    /// Wrists: the whole arm's length along the arm.
+    pub wrist: [[f64; 3]; 2],
+    /// The arms' rotation (both swing together): local -Z along the arm.
+    pub arm_rotation: [f64; 4],
+    /// Hip joints.
+    pub hip: [[f64; 3]; 2],
+    /// Knees, bending forward.
+    pub knee: [[f64; 3]; 2],
+    /// Ankles: under the centre of mass (x = 0) at the feet's height above ankle height, or
+    /// at the end of a straight leg where that is out of reach.
+    pub ankle: [[f64; 3]; 2],
+}
+
+/// The joints of `body` at `state`: shoulders and hips ride on the trunk at their heights
+/// and half their widths (Drillis & Contini 1966, as drawn in Winter 2009, Fig. 4.1; the
+/// widths and the ankle height from memory), each arm is one straight segment at the arm
+/// angle (0 hanging down, forward and up positive) with the elbow at the upper arm's length,
+/// and each leg is a thigh (hip to knee height) and a shank (knee to ankle height) bent
+/// forward at the knee to reach the ankle.
+pub fn limbs(body: &Body, state: &State) -> Limbs {
+    let h = body.height;
+    let t = state.trunk.position;
+    let at = |fraction: f64, side: f64, half_width: f64| {
+        [
+            t[0],
+            t[1] + side * half_width * h,
+            t[2] + body.landmark_offset(fraction),
+        ]
+    };
+    let sides = [1.0, -1.0];
+    let shoulder = sides.map(|s| at(proportions::SHOULDER, s, 0.5 * proportions::SHOULDER_WIDTH));
+    let (sin, cos) = state.arm_angle.sin_cos();
+    let along = |p: [f64; 3], length: f64| [p[0] + length * sin, p[1], p[2] - length * cos];
+    let elbow = shoulder.map(|p| along(p, proportions::UPPER_ARM * h));
+    let wrist = shoulder.map(|p| along(p, (proportions::UPPER_ARM + proportions::FOREARM) * h));
+    let arm_rotation = segment_rotation([0.0; 3], along([0.0; 3], 1.0));
+    let hip = sides.map(|s| at(proportions::HIP, s, 0.5 * proportions::HIP_WIDTH));
+    let (l1, l2) = (
+        (proportions::HIP - proportions::KNEE) * h,
+        (proportions::KNEE - proportions::ANKLE) * h,
+    );
+    let mut knee = [[0.0; 3]; 2];
+    let mut ankle = [[0.0; 3]; 2];
+    for k in 0..2 {
+        let foot = [0.0, hip[k][1], state.foot_height + proportions::ANKLE * h];
+        (knee[k], ankle[k]) = leg(hip[k], foot, l1, l2);
+    }
+    Limbs {
+        neck: [t[0], t[1], t[2] + body.landmark_offset(proportions::SHOULDER)],
+        shoulder,
+        elbow,
+        wrist,
+        arm_rotation,
+        hip,
+        knee,
+        ankle,
     }
 }

@@ -750,3 +750,70 @@ proptest! {
         }
     }
 }
+
+/// The body's joints: rigid limb segments of the lengths of Drillis & Contini's proportions
+/// (Winter 2009, Fig. 4.1: upper arm 0.186 H, forearm 0.146 H, thigh hip to knee 0.530 - 0.285 H,
+/// shank knee to ankle 0.285 - 0.039 H) at every frame of the default jump; each segment's
+/// transform points its local -Z along the segment; the arms hang at the planner's arm angle;
+/// standing, the legs are straight; in the crouch the knees bend forward; left and right
+/// mirror each other across y = 0.
+#[test]
+fn the_bodys_joints_are_rigid_segments_that_follow_the_plan() {
+    let r = run_at(24, &[]).expect("runs");
+    let h = 1.65;
+    let p = |name: &str, i: usize| -> [f64; 3] {
+        let f = r.frame(name, i);
+        [f[0], f[1], f[2]]
+    };
+    let q = |name: &str, i: usize| -> [f64; 4] {
+        let f = r.frame(name, i);
+        [f[3], f[4], f[5], f[6]]
+    };
+    let dist =
+        |a: [f64; 3], b: [f64; 3]| ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2) + (a[2] - b[2]).powi(2)).sqrt();
+    // Rotates (0, 0, -1) by a unit quaternion (x, y, z, w): the third column of its matrix, negated.
+    let minus_z = |q: [f64; 4]| {
+        let [x, y, z, w] = q;
+        [
+            -2.0 * (x * z + y * w),
+            -2.0 * (y * z - x * w),
+            -(1.0 - 2.0 * (x * x + y * y)),
+        ]
+    };
+    let mut bent = false;
+    for i in 0..r.frames() {
+        for side in ["l", "r"] {
+            let (sh, el, wr) = (
+                p(&format!("upper_arm_{side}"), i),
+                p(&format!("forearm_{side}"), i),
+                p(&format!("hand_{side}"), i),
+            );
+            let (hip, knee, ankle) = (
+                p(&format!("thigh_{side}"), i),
+                p(&format!("shin_{side}"), i),
+                p(&format!("foot_{side}"), i),
+            );
+            assert!((dist(sh, el) - 0.186 * h).abs() < 1e-12 && (dist(el, wr) - 0.146 * h).abs() < 1e-12);
+            assert!((dist(hip, knee) - 0.245 * h).abs() < 1e-12 && (dist(knee, ankle) - 0.246 * h).abs() < 1e-12);
+            let theta = r.frame("arm_angle", i)[0];
+            assert!((wr[2] - sh[2] + 0.332 * h * theta.cos()).abs() < 1e-12, "frame {i}");
+            for (joint, from, to) in [("upper_arm", sh, el), ("thigh", hip, knee), ("shin", knee, ankle)] {
+                let d = minus_z(q(&format!("{joint}_{side}"), i));
+                let len = dist(from, to);
+                for k in 0..3 {
+                    assert!(
+                        (d[k] - (to[k] - from[k]) / len).abs() < 1e-12,
+                        "{joint}_{side} frame {i}"
+                    );
+                }
+            }
+            bent |= knee[0] - 0.5 * (hip[0] + ankle[0]) > 0.05;
+        }
+        let (l, rr) = (p("shoulder_l", i), p("shoulder_r", i));
+        assert!((l[1] + rr[1]).abs() < 1e-12 && (l[1] - rr[1] - 0.259 * h).abs() < 1e-12);
+    }
+    // Standing at frame 0: the leg straight (hip to ankle the whole leg, 0.491 H).
+    let (hip, ankle) = (p("thigh_l", 0), p("foot_l", 0));
+    assert!((dist(hip, ankle) - 0.491 * h).abs() < 1e-9, "{}", dist(hip, ankle) / h);
+    assert!(bent, "the knees bend forward in the crouch");
+}
