@@ -157,9 +157,29 @@ fn run(graph: &Path, out: &Path) {
 /// head bone lands on `juno.head`; every chain hangs under the bone its strand is pinned to.
 #[test]
 fn juno_bake_hangs_under_her_bones_and_matches_the_run() {
+    juno_bake_matches_the_run(&[]);
+}
+
+/// The same with her file read as if it were Z up already (`axes = z_up`): the bake turns her
+/// scene by the opposite of the usual quarter turn, and everything still lands where the run
+/// says.
+#[test]
+fn a_z_up_character_bakes_where_the_run_says() {
+    juno_bake_matches_the_run(&["--set", "juno.axes=z_up"]);
+}
+
+fn juno_bake_matches_the_run(extra: &[&str]) {
     let tmp = tempfile::tempdir().expect("temp");
     let out = tmp.path();
-    run(&workspace_root().join("graphs/juno.graph"), out);
+    let o = heft()
+        .arg("run")
+        .arg(workspace_root().join("graphs/juno.graph"))
+        .arg("--out")
+        .arg(out)
+        .args(extra)
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let bake = read_bake(&out.join("juno_hair.glb"));
     assert_eq!(bake.skins, 2, "a skin per chain");
     for name in &bake.names {

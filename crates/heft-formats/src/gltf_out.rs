@@ -344,6 +344,24 @@ impl Bake<'_> {
         n
     }
 
+    /// The turn of a character's whole scene from its file's axes into the bake's: a Y-up file
+    /// turns into heft's Z up by a quarter turn about +X ((X, Y, Z) -> (X, -Z, Y)), and heft's
+    /// Z up into the bake's Y up by the opposite quarter turn ((x, y, z) -> (x, z, -y)); a Y-up
+    /// file in a Y-up bake needs no turn at all.
+    fn scene_turn(&self, ch: &Character) -> Quat {
+        let h = std::f64::consts::FRAC_1_SQRT_2;
+        let to_heft = match ch.axes {
+            crate::character::Axes::YUp => [h, 0.0, 0.0, h],
+            crate::character::Axes::ZUp => [0.0, 0.0, 0.0, 1.0],
+        };
+        let to_bake = if self.y_up {
+            [0.0, 0.0, 0.0, 1.0]
+        } else {
+            [-h, 0.0, 0.0, h]
+        };
+        normalise(mul(to_bake, to_heft))
+    }
+
     /// The bake's node of character node `joint` of plan node `node` (made with its ancestors,
     /// under one root that turns the file's axes into the bake's).
     fn character_node(&mut self, node: usize, ch: &Character, joint: usize) -> usize {
@@ -354,18 +372,7 @@ impl Bake<'_> {
         if !self.characters.contains_key(&node) {
             let name = format!("{}_scene", self.plan.nodes[node].name);
             let root = self.b.node(&name, None, None);
-            // file -> heft -> bake: identity for a Y-up file in a Y-up bake.
-            let file_to_heft = ch.axes.rotation([0.0, 0.0, 0.0, 1.0]);
-            let to_heft = match ch.axes {
-                crate::character::Axes::YUp => [-(0.5f64.sqrt()), 0.0, 0.0, 0.5f64.sqrt()],
-                crate::character::Axes::ZUp => file_to_heft,
-            };
-            let to_bake = if self.y_up {
-                [0.0, 0.0, 0.0, 1.0]
-            } else {
-                [0.5f64.sqrt(), 0.0, 0.0, 0.5f64.sqrt()]
-            };
-            let r = normalise(mul(to_bake, to_heft));
+            let r = self.scene_turn(ch);
             let r = if (r[3].abs() - 1.0).abs() < 1e-12 {
                 [0.0, 0.0, 0.0, 1.0]
             } else {
@@ -415,7 +422,17 @@ impl Bake<'_> {
         let parent = match &item.anchor {
             BakeAnchor::Series { node, output } => {
                 let (node, output) = (*node, *output);
-                parent_world = self.frames.clone().map(|i| self.rigid(node, output, i)).collect();
+                parent_world = self
+                    .frames
+                    .clone()
+                    .map(|i| {
+                        let w = self.rigid(node, output, i);
+                        Rigid {
+                            r: self.rot(w.r),
+                            t: self.pos(w.t),
+                        }
+                    })
+                    .collect();
                 self.series_node(node, output)
             }
             BakeAnchor::Joint { node, output } => {
@@ -427,7 +444,19 @@ impl Bake<'_> {
                     ch.nodes.iter().position(|n| &n.port == port).ok_or_else(|| {
                         format!("`{}` hangs on `{port}`, which its character does not hold", item.name)
                     })?;
-                parent_world = self.frames.clone().map(|i| self.rigid(node, output, i)).collect();
+                // The bone's own frame in the bake: the character's scene turned into the bake's
+                // axes, then the bone's world transform in its file (rotation and position).
+                let turn = self.scene_turn(&ch);
+                let mut bone_world = Vec::with_capacity(self.frames.len());
+                for i in self.frames.clone() {
+                    let w = &ch.world[joint][i];
+                    let q = w.rotation_scale().map_or([0.0, 0.0, 0.0, 1.0], |(q, _)| q);
+                    bone_world.push(Rigid {
+                        r: normalise(mul(turn, q)),
+                        t: rotate(turn, w.t),
+                    });
+                }
+                parent_world = bone_world;
                 let bone = self.character_node(node, &ch, joint);
                 // A node under the bone that cancels its scale: its world is the bone's rotation
                 // and position only.
@@ -455,14 +484,7 @@ impl Bake<'_> {
                 self.b.node(&name, Some(json!({"name": name})), None)
             }
         };
-        // Everything below is in the bake's axes, where each joint aims its +Y.
-        let parent_world: Vec<Rigid> = parent_world
-            .iter()
-            .map(|w| Rigid {
-                r: self.rot(w.r),
-                t: self.pos(w.t),
-            })
-            .collect();
+        // Everything below is in the bake's axes (`parent_world` too), where each joint aims its +Y.
         let nf = self.frames.len();
         let mut pts = vec![[0.0; 3]; c];
         for s in 0..strands {
