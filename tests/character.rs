@@ -180,6 +180,8 @@ fn juno_bake_matches_the_run(extra: &[&str]) {
         .output()
         .expect("runs");
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    // The example is clean: no warning (a pin inside a collider, a settled shape inside one).
+    assert!(o.stderr.is_empty(), "{}", String::from_utf8_lossy(&o.stderr));
     let bake = read_bake(&out.join("juno_hair.glb"));
     assert_eq!(bake.skins, 2, "a skin per chain");
     for name in &bake.names {
