@@ -121,27 +121,7 @@ fn cross(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
     ]
 }
 
-/// The rotation matrix of a unit quaternion, `m[row][col]`.
-pub fn rotation_matrix(q: Quat) -> [[f64; 3]; 3] {
-    let [x, y, z, w] = q;
-    [
-        [
-            1.0 - 2.0 * (y * y + z * z),
-            2.0 * (x * y - z * w),
-            2.0 * (x * z + y * w),
-        ],
-        [
-            2.0 * (x * y + z * w),
-            1.0 - 2.0 * (x * x + z * z),
-            2.0 * (y * z - x * w),
-        ],
-        [
-            2.0 * (x * z - y * w),
-            2.0 * (y * z + x * w),
-            1.0 - 2.0 * (x * x + y * y),
-        ],
-    ]
-}
+pub use heft_node_sdk::rotation::{matrix as rotation_matrix, slerp};
 
 /// The unit quaternion (w >= 0) of a rotation matrix (Shepperd 1978, "Quaternion from rotation
 /// matrix", J. Guidance and Control 1(3): the largest of the four candidates is taken).
@@ -183,26 +163,6 @@ pub fn quat_from_matrix(m: [[f64; 3]; 3]) -> Quat {
     let n = dot(q, q).sqrt();
     let q = q.map(|c| c / n);
     if q[3] < 0.0 { q.map(|c| -c) } else { q }
-}
-
-/// Spherical linear interpolation along the shorter arc, exact for every angle: the angle
-/// between the two is taken as 2 atan2(|a - b|, |a + b|), which keeps its precision near zero
-/// (so no switch to a linear blend is needed), and the blend is linear only where the angle
-/// is below 1e-9 rad, where both agree to rounding.
-pub fn slerp(a: Quat, b: Quat, u: f64) -> Quat {
-    let b = if dot(a, b) < 0.0 { b.map(|c| -c) } else { b };
-    let diff = [0, 1, 2, 3].map(|k| a[k] - b[k]);
-    let sum = [0, 1, 2, 3].map(|k| a[k] + b[k]);
-    let half = 2.0 * dot(diff, diff).sqrt().atan2(dot(sum, sum).sqrt()); // the angle between a and b in 4D
-    let (wa, wb) = if half < 1e-9 {
-        (1.0 - u, u)
-    } else {
-        let s = half.sin();
-        (((1.0 - u) * half).sin() / s, (u * half).sin() / s)
-    };
-    let q = [0, 1, 2, 3].map(|k| wa * a[k] + wb * b[k]);
-    let n = dot(q, q).sqrt();
-    q.map(|c| c / n)
 }
 
 /// Which way the file's world is turned into heft's.
@@ -919,24 +879,6 @@ mod tests {
         }
     }
 
-    /// Slerp keeps a constant angular speed (Shoemake 1985): a third of the way from the identity
-    /// to 170 deg about an axis is 170/3 deg, also for two rotations 1e-6 rad apart.
-    #[test]
-    fn slerp_constant_speed() {
-        for angle in [170f64.to_radians(), 1e-6] {
-            let a = [0.0, 0.0, 0.0, 1.0];
-            let b = [0.0, (angle / 2.0).sin(), 0.0, (angle / 2.0).cos()];
-            let m = slerp(a, b, 1.0 / 3.0);
-            let got = 2.0 * m[1].atan2(m[3]);
-            assert!(
-                (got - angle / 3.0).abs() < 1e-15_f64.max(angle * 1e-13),
-                "{angle}: {got}"
-            );
-        }
-    }
-
-    /// Shear from a non-uniform parent scale under a rotated child is detected; a uniform scale
-    /// and a non-uniform scale on the node's own axes are not shear.
     #[test]
     fn shear_is_detected() {
         let parent = Affine::from_trs(&Trs {

@@ -19,6 +19,7 @@ pub mod field;
 pub mod guest;
 #[cfg(feature = "host")]
 pub mod host;
+pub mod rotation;
 pub mod units;
 
 pub use abi::Timeline;

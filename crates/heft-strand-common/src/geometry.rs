@@ -65,24 +65,7 @@ impl Pose {
 
     /// A pose from a translation and a unit quaternion (x, y, z, w).
     pub fn new(t: V3, q: [f64; 4]) -> Pose {
-        let [x, y, z, w] = q;
-        let r = [
-            [
-                1.0 - 2.0 * (y * y + z * z),
-                2.0 * (x * y - z * w),
-                2.0 * (x * z + y * w),
-            ],
-            [
-                2.0 * (x * y + z * w),
-                1.0 - 2.0 * (x * x + z * z),
-                2.0 * (y * z - x * w),
-            ],
-            [
-                2.0 * (x * z - y * w),
-                2.0 * (y * z + x * w),
-                1.0 - 2.0 * (x * x + y * y),
-            ],
-        ];
+        let r = heft_node_sdk::rotation::matrix(q);
         Pose { t, q, r }
     }
 
@@ -204,21 +187,7 @@ impl Track {
     /// The rotation at fraction `frac`: the start orientation turned by `angular` for
     /// `frac` of the frame.
     fn rotation(&self, frac: f64) -> [f64; 4] {
-        let (q0, q1) = (self.q0, self.q1);
-        let diff = [0, 1, 2, 3].map(|k| q1[k] - q0[k]);
-        let sum = [0, 1, 2, 3].map(|k| q1[k] + q0[k]);
-        let n4 = |v: [f64; 4]| (v[0] * v[0] + v[1] * v[1] + v[2] * v[2] + v[3] * v[3]).sqrt();
-        // The angle between q0 and q1 in 4D, accurate near zero.
-        let half = 2.0 * n4(diff).atan2(n4(sum));
-        let (wa, wb) = if half < 1e-9 {
-            (1.0 - frac, frac)
-        } else {
-            let s = half.sin();
-            (((1.0 - frac) * half).sin() / s, (frac * half).sin() / s)
-        };
-        let q = [0, 1, 2, 3].map(|k| wa * q0[k] + wb * q1[k]);
-        let n = n4(q);
-        [q[0] / n, q[1] / n, q[2] / n, q[3] / n]
+        heft_node_sdk::rotation::slerp(self.q0, self.q1, frac)
     }
 
     /// The translation at fraction `frac` (the curve extended outside 0..=1).
