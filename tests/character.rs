@@ -450,3 +450,33 @@ fn a_bake_into_the_characters_own_file_keeps_everything_of_hers() {
 fn json_index(i: usize) -> serde_json::Value {
     serde_json::Value::from(i)
 }
+
+/// A joint whose world transform has shear (a non-uniform scale above a rotated child) cannot
+/// be carried as a transform: wiring it is an error at its place naming the node and the frame;
+/// the other joints of the file still wire.
+#[test]
+fn a_sheared_joint_is_refused_where_the_graph_uses_it() {
+    let tmp = tempfile::tempdir().expect("temp");
+    let graph = tmp.path().join("shear.graph");
+    let file = workspace_root().join("tests/fixtures/character/shear.gltf");
+    std::fs::write(
+        &graph,
+        format!(
+            "format 1\nrate 24 fps\nframes 0..10\nrig = track.character\n    file = \"{}\"\n\
+             a = strand.verlet\nb = strand.verlet\nrig.child -> a.anchor\nrig.parent -> b.anchor\n",
+            file.display()
+        ),
+    )
+    .expect("write");
+    let o = heft().arg("check").arg(&graph).output().expect("runs");
+    assert_eq!(o.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("shear.graph:8:5")
+            && err.contains("`child` (`nodes[1]`")
+            && err.contains("has shear in its world transform at frame 0"),
+        "{err}"
+    );
+    // One problem only: `parent` itself (scaled along its own axes, no shear) wires.
+    assert_eq!(err.matches("× ").count(), 1, "{err}");
+}
