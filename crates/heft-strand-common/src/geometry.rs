@@ -120,8 +120,6 @@ pub struct Track {
     m1: V3,
     /// The frame's duration, s.
     dt: f64,
-    /// Mean velocity of the translation over the frame (the chord), m/s.
-    pub linear: V3,
     /// Angular velocity over the frame (world axes), rad/s: the rotation from the start to the
     /// end orientation divided by the frame duration.
     pub angular: V3,
@@ -138,7 +136,6 @@ impl Track {
             m0: [0.0; 3],
             m1: [0.0; 3],
             dt: 1.0,
-            linear: [0.0; 3],
             angular: [0.0; 3],
         }
     }
@@ -168,7 +165,6 @@ impl Track {
             m0: linear,
             m1: linear,
             dt,
-            linear,
             angular,
         }
     }

@@ -163,9 +163,9 @@ pub struct FrameEnv<'a> {
     /// Gravity vector, m/s^2.
     pub gravity: V3,
     anchor: Option<Track>,
-    /// The anchor's (linear, angular) velocity at the start and end of the frame (central
-    /// differences of the frames around each).
-    anchor_velocity_ends: [(V3, V3); 2],
+    /// The anchor's angular velocity at the start and end of the frame (central differences
+    /// of the frames around each).
+    anchor_angular_ends: [V3; 2],
     end: Option<Track>,
     collider_tracks: [Option<Track>; 3],
     collider_end_tracks: [Option<Track>; 3],
@@ -238,7 +238,7 @@ impl<'a> FrameEnv<'a> {
         match &self.anchor {
             None => RigidVelocity::default(),
             Some(t) => {
-                let [(_, w0), (_, w1)] = self.anchor_velocity_ends;
+                let [w0, w1] = self.anchor_angular_ends;
                 RigidVelocity {
                     origin: t.translation(frac),
                     linear: t.linear_at(frac),
@@ -393,11 +393,18 @@ fn transform_at(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Res
     })
 }
 
-fn track(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<Track, NodeError> {
+/// The motion of a transform over frame i (from frame i - 1): the straight line between the
+/// two samples (used for its angular velocity).
+fn chord(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<Track, NodeError> {
     let (t0, q0) = transform_at(series, name, tl, i - 1)?;
     let (t1, q1) = transform_at(series, name, tl, i)?;
-    let chord = Track::between(t0, q0, t1, q1, tl.dt());
-    Ok(chord.with_end_velocities(
+    Ok(Track::between(t0, q0, t1, q1, tl.dt()))
+}
+
+/// The motion of a transform over frame i, as pins and colliders follow it: the cubic through
+/// the two samples with the velocities the samples give at both ends.
+fn track(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<Track, NodeError> {
+    Ok(chord(series, name, tl, i)?.with_end_velocities(
         translation_velocity(series, name, tl, i - 1)?,
         translation_velocity(series, name, tl, i)?,
     ))
@@ -425,26 +432,23 @@ fn translation_velocity(series: &Series<'_>, name: &str, tl: &Timeline, j: usize
     })
 }
 
-/// The (linear, angular) velocity of a transform at frame i: the mean of the velocities over
+/// The angular velocity of a transform at frame i: the mean of the angular velocities over
 /// the frames before and after it (a central difference), one-sided at the ends.
-fn frame_velocity(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<(V3, V3), NodeError> {
+fn angular_velocity(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<V3, NodeError> {
     let frames = tl.frames();
     if frames < 2 {
-        return Ok(([0.0; 3], [0.0; 3]));
+        return Ok([0.0; 3]);
     }
-    let before = if i > 0 { Some(track(series, name, tl, i)?) } else { None };
+    let before = if i > 0 { Some(chord(series, name, tl, i)?) } else { None };
     let after = if i + 1 < frames {
-        Some(track(series, name, tl, i + 1)?)
+        Some(chord(series, name, tl, i + 1)?)
     } else {
         None
     };
     Ok(match (before, after) {
-        (Some(a), Some(b)) => (
-            scale(add(a.linear, b.linear), 0.5),
-            scale(add(a.angular, b.angular), 0.5),
-        ),
-        (Some(a), None) | (None, Some(a)) => (a.linear, a.angular),
-        (None, None) => ([0.0; 3], [0.0; 3]),
+        (Some(a), Some(b)) => scale(add(a.angular, b.angular), 0.5),
+        (Some(a), None) | (None, Some(a)) => a.angular,
+        (None, None) => [0.0; 3],
     })
 }
 
@@ -624,12 +628,12 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             Some(s) => Some(track(s, "anchor", &tl, i)?),
             None => None,
         };
-        let anchor_velocity_ends = match &inputs.anchor {
+        let anchor_angular_ends = match &inputs.anchor {
             Some(s) => [
-                frame_velocity(s, "anchor", &tl, i - 1)?,
-                frame_velocity(s, "anchor", &tl, i)?,
+                angular_velocity(s, "anchor", &tl, i - 1)?,
+                angular_velocity(s, "anchor", &tl, i)?,
             ],
-            None => [([0.0; 3], [0.0; 3]); 2],
+            None => [[0.0; 3]; 2],
         };
         let end = match (&inputs.anchor_b, end_on_b) {
             (Some(s), true) => Some(track(s, "anchor_b", &tl, i)?),
@@ -678,7 +682,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             frame: i,
             gravity: setup.gravity,
             anchor,
-            anchor_velocity_ends,
+            anchor_angular_ends,
             end,
             collider_tracks: tracks_c,
             collider_end_tracks: tracks_e,
@@ -1036,7 +1040,7 @@ fn settle<M: Method>(
         frame: 1,
         gravity: setup.gravity,
         anchor: still_a,
-        anchor_velocity_ends: [([0.0; 3], [0.0; 3]); 2],
+        anchor_angular_ends: [[0.0; 3]; 2],
         end: still_b.or(still_a),
         collider_tracks: *tracks_c,
         collider_end_tracks: *tracks_e,
@@ -1092,7 +1096,7 @@ fn settle<M: Method>(
     let (linear, angular) = match &inputs.anchor {
         Some(s) => (
             translation_velocity(s, "anchor", tl, 0)?,
-            frame_velocity(s, "anchor", tl, 0)?.1,
+            angular_velocity(s, "anchor", tl, 0)?,
         ),
         None => ([0.0; 3], [0.0; 3]),
     };
