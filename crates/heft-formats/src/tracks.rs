@@ -373,19 +373,11 @@ fn lerp(col: &[f64], (k, u): (usize, f64)) -> f64 {
 /// Spherical linear interpolation along the shorter arc (Shoemake 1985, "Animating rotation
 /// with quaternion curves", SIGGRAPH), or normalised linear interpolation.
 pub fn interpolate(a: Quat, b: Quat, u: f64, slerp: bool) -> Quat {
-    let mut b = b;
-    let mut d = dot(a, b);
-    if d < 0.0 {
-        b = b.map(|c| -c);
-        d = -d;
+    if slerp {
+        return heft_node_sdk::rotation::slerp(a, b, u);
     }
-    if !slerp || d > 0.9995 {
-        return normalised([0, 1, 2, 3].map(|k| a[k] + u * (b[k] - a[k])));
-    }
-    let theta = d.clamp(-1.0, 1.0).acos();
-    let s = theta.sin();
-    let (wa, wb) = (((1.0 - u) * theta).sin() / s, (u * theta).sin() / s);
-    normalised([0, 1, 2, 3].map(|k| wa * a[k] + wb * b[k]))
+    let b = if dot(a, b) < 0.0 { b.map(|c| -c) } else { b };
+    normalised([0, 1, 2, 3].map(|k| a[k] + u * (b[k] - a[k])))
 }
 
 /// The rotation of Euler angles about the fixed world axes, applied in `order`.
