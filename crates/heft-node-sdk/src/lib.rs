@@ -14,6 +14,7 @@
 
 pub mod abi;
 pub mod codec;
+pub mod colliders;
 pub mod descriptor;
 pub mod field;
 pub mod guest;

@@ -9,6 +9,7 @@ use crate::geometry::{
     scale, sub,
 };
 use crate::setup::{Pin, Setup};
+use heft_node_sdk::colliders::{self as collider_list, Capsule as ListedCapsule};
 use heft_node_sdk::field::FieldView;
 
 /// The simulated state: positions and velocities of every particle, strand-major (strand s,
@@ -167,8 +168,7 @@ pub struct FrameEnv<'a> {
     /// of the frames around each).
     anchor_angular_ends: [V3; 2],
     end: Option<Track>,
-    collider_tracks: [Option<Track>; 3],
-    collider_end_tracks: [Option<Track>; 3],
+    moving: &'a [Moving],
     wind: Option<(FieldView<'a>, FieldView<'a>)>,
     tables: &'a Tables,
 }
@@ -261,7 +261,7 @@ impl<'a> FrameEnv<'a> {
     /// True when any collider is connected or the ground is on.
     #[inline(always)]
     pub fn has_colliders(&self) -> bool {
-        self.setup.ground.is_some() || self.collider_tracks.iter().any(Option::is_some)
+        self.setup.ground.is_some() || !self.moving.is_empty()
     }
 
     /// The colliders at boundary k.
@@ -274,11 +274,6 @@ impl<'a> FrameEnv<'a> {
     #[inline(always)]
     pub fn project(&self, k: usize, x: &mut V3, v: &mut V3) -> bool {
         self.tables.colliders[k].project(x, v)
-    }
-
-    /// Projects a particle out of the colliders at an arbitrary fraction of the frame.
-    pub fn project_at(&self, frac: f64, x: &mut V3, v: &mut V3) -> bool {
-        colliders_at(self.setup, &self.collider_tracks, &self.collider_end_tracks, frac).project(x, v)
     }
 
     /// True when a wind field is connected.
@@ -306,39 +301,139 @@ impl<'a> FrameEnv<'a> {
     }
 }
 
-/// The colliders at fraction `frac` of the frame: collider k is a sphere on `tracks[k]`, or,
-/// when `ends[k]` is connected too, a capsule from the start point on `tracks[k]` to the end
-/// point on `ends[k]`. Each point moves with its transform's rigid velocity over the frame.
-fn colliders_at(setup: &Setup, tracks: &[Option<Track>; 3], ends: &[Option<Track>; 3], frac: f64) -> Colliders {
-    let mut c = Colliders::default();
-    for (k, t) in tracks.iter().enumerate() {
-        if let Some(t) = t {
-            let p = t.pose(frac);
-            let params = &setup.colliders[k];
-            let centre = p.apply(params.offset);
-            let velocity = t.velocity(frac).at(centre);
-            c.shapes[c.count] = match &ends[k] {
-                None => Collider::Sphere(Sphere {
-                    centre,
-                    radius: params.radius,
-                    velocity,
-                }),
-                Some(e) => {
-                    let pe = e.pose(frac);
-                    let end = pe.apply(params.end_offset);
-                    let end_velocity = e.velocity(frac).at(end);
-                    Collider::capsule(centre, end, params.radius, params.end_radius, velocity, end_velocity)
-                }
-            };
-            c.count += 1;
+/// One collider's motion over the current frame.
+#[derive(Debug, Clone, Copy)]
+enum Moving {
+    /// Numbered collider k (from 0): a sphere on the transform `start`, or, when its end
+    /// input is connected, a capsule from a point on `start` to a point on `end`. Each point
+    /// moves with its transform.
+    Slot { k: usize, start: Track, end: Option<Track> },
+    /// Collider k (from 0) of the `colliders` list: the paths of its start and end points (no
+    /// rotation), and its radii at the frame's two ends (linear between them).
+    Listed {
+        k: usize,
+        start: Track,
+        end: Track,
+        radii: [[f64; 2]; 2],
+    },
+}
+
+impl Moving {
+    /// Where warnings name this collider.
+    fn name(&self) -> String {
+        match self {
+            Moving::Slot { k, .. } => format!("collider {}", k + 1),
+            Moving::Listed { k, .. } => format!("collider {k} of `colliders`"),
         }
     }
-    if let Some(height) = setup.ground {
-        c.shapes[c.count] = Collider::Ground(Ground { height });
-        c.count += 1;
+
+    /// The collider at fraction `frac` of the frame.
+    fn at(&self, setup: &Setup, frac: f64) -> Collider {
+        match self {
+            Moving::Slot { k, start, end } => {
+                let params = &setup.colliders[*k];
+                let centre = start.pose(frac).apply(params.offset);
+                let velocity = start.velocity(frac).at(centre);
+                match end {
+                    None => Collider::Sphere(Sphere {
+                        centre,
+                        radius: params.radius,
+                        velocity,
+                    }),
+                    Some(e) => {
+                        let end = e.pose(frac).apply(params.end_offset);
+                        let end_velocity = e.velocity(frac).at(end);
+                        Collider::capsule(centre, end, params.radius, params.end_radius, velocity, end_velocity)
+                    }
+                }
+            }
+            Moving::Listed { start, end, radii, .. } => {
+                let [[a0, b0], [a1, b1]] = *radii;
+                Collider::capsule(
+                    start.translation(frac),
+                    end.translation(frac),
+                    a0 + frac * (a1 - a0),
+                    b0 + frac * (b1 - b0),
+                    start.linear_at(frac),
+                    end.linear_at(frac),
+                )
+            }
+        }
     }
-    c.friction = setup.friction;
-    c
+}
+
+/// The colliders at fraction `frac` of the frame, into `out` (its list reused): every moving
+/// collider, then the ground.
+fn colliders_at(setup: &Setup, moving: &[Moving], frac: f64, out: &mut Colliders) {
+    out.shapes.clear();
+    out.shapes.extend(moving.iter().map(|m| m.at(setup, frac)));
+    if let Some(height) = setup.ground {
+        out.shapes.push(Collider::Ground(Ground { height }));
+    }
+    out.friction = setup.friction;
+}
+
+/// Every collider's motion over frame i (from frame i - 1), or held still at frame 0 when `i`
+/// is 0, into `out`.
+fn moving_over(inputs: &Inputs<'_>, tl: &Timeline, i: usize, out: &mut Vec<Moving>) -> Result<(), NodeError> {
+    out.clear();
+    let over = |s: &Series<'_>, name: &str| {
+        if i == 0 {
+            still(s, name, tl)
+        } else {
+            track(s, name, tl, i)
+        }
+    };
+    for (k, s) in inputs.colliders.iter().enumerate() {
+        if let Some(s) = s {
+            let end = match &inputs.collider_ends[k] {
+                Some(e) => Some(over(e, COLLIDER_END_INPUTS[k])?),
+                None => None,
+            };
+            out.push(Moving::Slot {
+                k,
+                start: over(s, COLLIDER_INPUTS[k])?,
+                end,
+            });
+        }
+    }
+    if let Some(list) = &inputs.list {
+        let prev = i.saturating_sub(1);
+        for (k, (a, b)) in list[prev].iter().zip(&list[i]).enumerate() {
+            let path = |end: bool| -> Result<Track, NodeError> {
+                let at = |f: usize| -> Result<V3, NodeError> {
+                    let c = &list[f][k];
+                    Ok(if end { c.end } else { c.start })
+                };
+                if i == 0 {
+                    return Ok(Track::still(at(0)?, IDENTITY));
+                }
+                Ok(Track::between(at(prev)?, IDENTITY, at(i)?, IDENTITY, tl.dt())
+                    .with_end_velocities(path_velocity(&at, tl, prev)?, path_velocity(&at, tl, i)?))
+            };
+            out.push(Moving::Listed {
+                k,
+                start: path(false)?,
+                end: path(true)?,
+                radii: [[a.start_radius, a.end_radius], [b.start_radius, b.end_radius]],
+            });
+        }
+    }
+    Ok(())
+}
+
+/// The identity rotation (x, y, z, w).
+const IDENTITY: [f64; 4] = [0.0, 0.0, 0.0, 1.0];
+
+/// Every frame of the `colliders` list, checked: the same number of colliders in every frame
+/// (a points port keeps its N), each with finite places and radii.
+fn read_list(list: &Series<'_>, tl: &Timeline) -> Result<Vec<Vec<ListedCapsule>>, NodeError> {
+    (0..tl.frames())
+        .map(|f| {
+            collider_list::read_frame(list.frame(f))
+                .map_err(|e| NodeError::new(format!("input `colliders` at frame {}: {e}", tl.frame_number(f))))
+        })
+        .collect()
 }
 
 /// The collider input names, in order.
@@ -353,6 +448,8 @@ struct Inputs<'a> {
     wind: Option<Series<'a>>,
     colliders: [Option<Series<'a>>; 3],
     collider_ends: [Option<Series<'a>>; 3],
+    /// The `colliders` list, every frame read.
+    list: Option<Vec<Vec<ListedCapsule>>>,
     initial_positions: Option<Series<'a>>,
     initial_velocities: Option<Series<'a>>,
 }
@@ -410,12 +507,18 @@ fn track(series: &Series<'_>, name: &str, tl: &Timeline, i: usize) -> Result<Tra
     ))
 }
 
-/// The velocity of a transform's translation at frame j, from the frame samples: the central
-/// difference inside the timeline, the second-order one-sided difference at its ends (both
-/// exact for a path quadratic in time, such as free fall), the chord with only two frames.
+/// The velocity of a transform's translation at frame j, from the frame samples (see
+/// [`path_velocity`]).
 fn translation_velocity(series: &Series<'_>, name: &str, tl: &Timeline, j: usize) -> Result<V3, NodeError> {
+    path_velocity(&|f: usize| transform_at(series, name, tl, f).map(|(t, _)| t), tl, j)
+}
+
+/// The velocity at frame j of a path sampled at the frames (`at(f)` is the place at frame f):
+/// the central difference inside the timeline, the second-order one-sided difference at its
+/// ends (both exact for a path quadratic in time, such as free fall), the chord with only two
+/// frames.
+fn path_velocity(at: &dyn Fn(usize) -> Result<V3, NodeError>, tl: &Timeline, j: usize) -> Result<V3, NodeError> {
     let frames = tl.frames();
-    let at = |f: usize| transform_at(series, name, tl, f).map(|(t, _)| t);
     let dt = tl.dt();
     Ok(if frames < 2 {
         [0.0; 3]
@@ -486,6 +589,10 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             connected(io, "collider_2_end", frames, Some(7))?,
             connected(io, "collider_3_end", frames, Some(7))?,
         ],
+        list: match connected(io, "colliders", frames, None)? {
+            Some(s) => Some(read_list(&s, &tl)?),
+            None => None,
+        },
         initial_positions: connected(io, "initial_positions", 1, Some(3 * n))?,
         initial_velocities: connected(io, "initial_velocities", 1, Some(3 * n))?,
     };
@@ -563,19 +670,10 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             state.v[s * setup.particles + i] = [0.0; 3];
         }
     }
-    let mut tracks_c: [Option<Track>; 3] = [None; 3];
-    let mut tracks_e: [Option<Track>; 3] = [None; 3];
-    for (k, s) in inputs.colliders.iter().enumerate() {
-        if let Some(s) = s {
-            tracks_c[k] = Some(still(s, COLLIDER_INPUTS[k], &tl)?);
-        }
-    }
-    for (k, s) in inputs.collider_ends.iter().enumerate() {
-        if let Some(s) = s {
-            tracks_e[k] = Some(still(s, COLLIDER_END_INPUTS[k], &tl)?);
-        }
-    }
-    let c0 = colliders_at(setup, &tracks_c, &tracks_e, 0.0);
+    let mut moving = Vec::new();
+    moving_over(&inputs, &tl, 0, &mut moving)?;
+    let mut c0 = Colliders::default();
+    colliders_at(setup, &moving, 0.0, &mut c0);
     let mut pinned_inside: Option<i64> = None;
     if !c0.is_empty() {
         for (idx, (x, v)) in state.x.iter_mut().zip(state.v.iter_mut()).enumerate() {
@@ -591,16 +689,15 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
 
     let mut warnings = Vec::new();
     if setup.settled_start {
-        settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &tracks_c, &tracks_e)?;
+        settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &moving)?;
         // A rest shape inside a collider: said, with the place and the depth.
-        let c0 = colliders_at(setup, &tracks_c, &tracks_e, 0.0);
         for (idx, x) in state.x.iter().enumerate() {
-            for (k, shape) in c0.shapes[..c0.count].iter().enumerate() {
+            for (k, shape) in c0.shapes.iter().enumerate() {
                 let (mut p, mut v) = (*x, [0.0; 3]);
                 if shape.contains(*x) && shape.project(&mut p, &mut v) {
-                    let what = match shape {
-                        Collider::Ground(_) => "the ground".to_owned(),
-                        _ => format!("collider {}", k + 1),
+                    let what = match moving.get(k) {
+                        Some(m) => m.name(),
+                        None => "the ground".to_owned(),
                     };
                     warnings.push(format!(
                         "strand {} particle {} starts {:.3e} m inside {what} even settled (pinned there, or held \
@@ -639,18 +736,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             (Some(s), true) => Some(track(s, "anchor_b", &tl, i)?),
             _ => anchor,
         };
-        for (k, s) in inputs.colliders.iter().enumerate() {
-            tracks_c[k] = match s {
-                Some(s) => Some(track(s, COLLIDER_INPUTS[k], &tl, i)?),
-                None => None,
-            };
-        }
-        for (k, s) in inputs.collider_ends.iter().enumerate() {
-            tracks_e[k] = match s {
-                Some(s) => Some(track(s, COLLIDER_END_INPUTS[k], &tl, i)?),
-                None => None,
-            };
-        }
+        moving_over(&inputs, &tl, i, &mut moving)?;
         let wind = match &inputs.wind {
             Some(s) => {
                 let view = |f: usize| {
@@ -671,7 +757,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                     tables.pose_a[k]
                 };
             }
-            tables.colliders[k] = colliders_at(setup, &tracks_c, &tracks_e, frac);
+            colliders_at(setup, &moving, frac, &mut tables.colliders[k]);
             tables.colliders[k].friction.step = h;
         }
         let env = FrameEnv {
@@ -684,8 +770,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             anchor,
             anchor_angular_ends,
             end,
-            collider_tracks: tracks_c,
-            collider_end_tracks: tracks_e,
+            moving: &moving,
             wind,
             tables: &tables,
         };
@@ -1017,8 +1102,7 @@ fn settle<M: Method>(
     inputs: &Inputs<'_>,
     tl: &Timeline,
     poses: [Pose; 2],
-    tracks_c: &[Option<Track>; 3],
-    tracks_e: &[Option<Track>; 3],
+    moving: &[Moving],
 ) -> Result<(), NodeError> {
     let substeps = setup.substeps;
     let dt = tl.dt();
@@ -1027,7 +1111,7 @@ fn settle<M: Method>(
     for k in 0..=substeps {
         tables.pose_a[k] = poses[0];
         tables.pose_b[k] = poses[1];
-        tables.colliders[k] = colliders_at(setup, tracks_c, tracks_e, 0.0);
+        colliders_at(setup, moving, 0.0, &mut tables.colliders[k]);
         tables.colliders[k].friction.step = h;
     }
     let still_a = inputs.anchor.as_ref().map(|_| Track::still(poses[0].t, poses[0].q));
@@ -1042,8 +1126,7 @@ fn settle<M: Method>(
         anchor: still_a,
         anchor_angular_ends: [[0.0; 3]; 2],
         end: still_b.or(still_a),
-        collider_tracks: *tracks_c,
-        collider_end_tracks: *tracks_e,
+        moving,
         wind: None,
         tables: &tables,
     };

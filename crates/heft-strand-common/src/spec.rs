@@ -4,7 +4,7 @@ use heft_node_sdk::{Dimension, NodeError, NodeSpec, ParamSpec, Params, PortKind,
 
 /// Input port names, in spec order. The collider end inputs come last, after the `initial_*`
 /// inputs, so that the input widths [`output_points`] reads keep their places.
-pub const INPUTS: [&str; 11] = [
+pub const INPUTS: [&str; 12] = [
     "anchor",
     "anchor_b",
     "wind",
@@ -16,6 +16,7 @@ pub const INPUTS: [&str; 11] = [
     "collider_1_end",
     "collider_2_end",
     "collider_3_end",
+    "colliders",
 ];
 
 /// Output port names, in spec order.
@@ -276,6 +277,17 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             ),
         ));
     }
+    inputs.push(
+        PortSpec::new(
+            "colliders",
+            PortKind::Points,
+            len,
+            "Any number of colliders, three points each (heft_node_sdk::colliders layout: start, end, then the \
+             start and end radii as x and y): a body to collide with, such as trajectory.jump's `colliders` or a \
+             chain of collider.add nodes. Each end moves on the cubic through its frame samples.",
+        )
+        .optional(),
+    );
     let outputs = vec![
         PortSpec::new(
             "positions",

@@ -75,6 +75,9 @@ impl Run {
     }
 }
 
+/// Parameter changes: (name, value).
+pub type Changes = Vec<(&'static str, ParamValue)>;
+
 /// Connected inputs by name: (name, values frame-major).
 pub type Inputs<'a> = &'a [(&'static str, Vec<f64>)];
 
@@ -103,10 +106,13 @@ fn call_raw(
         .iter()
         .map(|port| {
             let width = match port.kind {
-                PortKind::Points => inputs
-                    .iter()
-                    .find(|(name, _)| *name == port.name)
-                    .map_or(0, |(_, v)| if port.name == "wind" { v.len() / frames } else { 3 * n }),
+                PortKind::Points => inputs.iter().find(|(name, _)| *name == port.name).map_or(0, |(_, v)| {
+                    if port.name == "wind" || port.name == "colliders" {
+                        v.len() / frames
+                    } else {
+                        3 * n
+                    }
+                }),
                 k => k.width(0),
             };
             match inputs.iter().find(|(name, _)| *name == port.name) {
@@ -314,6 +320,56 @@ impl CapsuleScene {
         }
         worst
     }
+}
+
+impl CapsuleScene {
+    /// The same scene with its capsule given as the one entry of the `colliders` list input
+    /// (its ends and radii sampled from `capsule` at the frames) instead of the numbered
+    /// collider inputs.
+    pub fn as_list(&self) -> CapsuleScene {
+        let mut scene = self.clone();
+        scene.inputs.retain(|(name, _)| !name.starts_with("collider_"));
+        let list = (0..self.tl.frames())
+            .flat_map(|i| {
+                let (a, b, r0, r1) = (self.capsule)(self.tl.time(i));
+                [a[0], a[1], a[2], b[0], b[1], b[2], r0, r1, 0.0]
+            })
+            .collect();
+        scene.inputs.push(("colliders", list));
+        scene
+    }
+}
+
+/// The spheres of [`fence_scene`]: (centre, radius), m.
+pub fn fence() -> Vec<([f64; 3], f64)> {
+    (0..12)
+        .map(|k| {
+            let x = 0.04 + 0.05 * k as f64;
+            ([x, 0.0, -0.12 - 0.02 * (k % 3) as f64], 0.02 + 0.004 * (k % 4) as f64)
+        })
+        .collect()
+}
+
+/// A 0.6 m chain of 48 segments (no bending stiffness) pinned at the origin, laid out
+/// horizontally along +X, falls onto a fence of twelve still spheres of three heights and four
+/// radii below it ([`fence`]), given as a `colliders` list, and drapes over them; damped at
+/// 2 + 2 1/s, 3 s at 24 fps.
+pub fn fence_scene() -> (Timeline, Changes, Vec<(&'static str, Vec<f64>)>) {
+    let tl = timeline(24, 72);
+    let changes = vec![
+        num("length", 0.6),
+        int("segments", 48),
+        num("bending_stiffness", 0.0),
+        num("damping", 2.0),
+        vec3("rest_direction", [1.0, 0.0, 0.0]),
+    ];
+    let frame: Vec<f64> = fence()
+        .iter()
+        .flat_map(|&(c, r)| [c[0], c[1], c[2], c[0], c[1], c[2], r, r, 0.0])
+        .collect();
+    let list = frame.repeat(tl.frames());
+    let inputs = vec![("anchor", fixed_anchor(tl, [0.0; 3])), ("colliders", list)];
+    (tl, changes, inputs)
 }
 
 /// Where the limb of [`limb_scene`] runs: along Y at x = 0.03 m, z = -0.15 m, from y = -0.15 m

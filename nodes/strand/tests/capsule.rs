@@ -252,3 +252,83 @@ fn an_end_radius_of_zero_means_the_start_radius() {
     assert_eq!(bits(same(0.0)), bits(same(0.04)));
     assert_ne!(bits(same(0.0)), bits(same(0.03)));
 }
+
+/// Largest difference between two runs' positions, m.
+fn largest_difference(a: &Run, b: &Run) -> f64 {
+    a.positions
+        .iter()
+        .zip(&b.positions)
+        .map(|(x, y)| (x - y).abs())
+        .fold(0.0, f64::max)
+}
+
+/// A collider given in the `colliders` list is the same collider as on the numbered inputs:
+/// the tapered limb, the pushing capsule and the sweeping forearm, each sampled at the frames
+/// into a list, give the runs of the numbered scenes (whose transforms carry no rotation, so
+/// both move each end on the same cubic through the frame samples) to rounding.
+fn a_listed_capsule_is_the_numbered_one<N: Node>(name: &str) {
+    for (scene, extra) in [
+        (limb_scene(true), vec![int("substeps", LIMB_SUBSTEPS)]),
+        (pushed_scene(), vec![]),
+        (forearm_scene(), vec![]),
+    ] {
+        let numbered = scene.run::<N>(&extra).expect("runs");
+        let listed = scene.as_list().run::<N>(&extra).expect("runs");
+        let d = largest_difference(&numbered, &listed);
+        assert!(
+            d <= 1e-12,
+            "{name}: the listed capsule's run is {d:e} m off the numbered one's"
+        );
+    }
+}
+
+#[test]
+fn euler_listed_capsules_are_the_numbered_ones() {
+    a_listed_capsule_is_the_numbered_one::<Euler>("strand.euler");
+}
+
+#[test]
+fn verlet_listed_capsules_are_the_numbered_ones() {
+    a_listed_capsule_is_the_numbered_one::<Verlet>("strand.verlet");
+}
+
+/// Twelve colliders in one list (`fence_scene`, more than the three numbered slots): a chain
+/// falling onto them drapes over the fence and ends no frame inside any sphere (distances from
+/// `round_cone_distance`, independent of the node's projection), and it rests on several.
+fn drapes_over_a_fence<N: Node>(name: &str, substeps: i64) {
+    let (tl, mut changes, inputs) = fence_scene();
+    changes.push(int("substeps", substeps));
+    let run = run::<N>(&changes, tl, &inputs).expect("runs");
+    let spheres = fence();
+    let mut deepest = f64::INFINITY;
+    for f in 0..run.frames() {
+        for i in 1..run.n {
+            for &(c, r) in &spheres {
+                deepest = deepest.min(round_cone_distance(run.x(f, i), c, c, r, r));
+            }
+        }
+    }
+    assert!(
+        deepest >= -INSIDE_TOLERANCE,
+        "{name}: a particle is {deepest:e} m inside a sphere"
+    );
+    let last = run.frames() - 1;
+    let touched = spheres
+        .iter()
+        .filter(|&&(c, r)| (1..run.n).any(|i| round_cone_distance(run.x(last, i), c, c, r, r) < 1e-6))
+        .count();
+    assert!(touched >= 2, "{name}: the chain rests on {touched} spheres");
+    eprintln!("{name}, fence of 12: least distance {deepest:e} m, resting on {touched} spheres");
+}
+
+/// LIMB_SUBSTEPS for `strand.euler`: the fence chain's segments (12.5 mm) are longer than the
+/// limb strand's (10 mm), so its explicit limit is longer too (omega_max scales as 1 / l0).
+#[test]
+fn euler_drapes_over_a_fence_of_twelve() {
+    drapes_over_a_fence::<Euler>("strand.euler", LIMB_SUBSTEPS);
+}
+
+#[test]
+fn verlet_drapes_over_a_fence_of_twelve() {
+    drapes_over_a_fence::<Verlet>("strand.verlet", 100);
+}

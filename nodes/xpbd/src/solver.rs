@@ -432,33 +432,30 @@ fn collide<T: Real, const N: usize>(h: f64, col: &LaneColliders<'_, T, N>, p: &m
         let rel = [x[0][l].wide(), x[1][l].wide(), x[2][l].wide()];
         let mut p = [0, 1, 2].map(|k| o[k] + rel[k]);
         let mut v = [0, 1, 2].map(|k| step[k][l].wide() / h);
-        let mut grown = *col.world;
         let reach = rel.iter().fold(0.0f64, |m, c| m.max(c.abs()));
-        for s in grown.shapes[..grown.count].iter_mut() {
-            *s = match *s {
-                Collider::Sphere(mut b) => {
-                    b.radius += 2.0 * T::EPSILON * (reach + b.radius + b.radius);
-                    Collider::Sphere(b)
-                }
-                Collider::Ground(mut g) => {
-                    g.height += 2.0 * T::EPSILON * (reach + g.height.abs());
-                    Collider::Ground(g)
-                }
-                Collider::Capsule(c) => {
-                    let m = c.max_radius();
-                    let by = 2.0 * T::EPSILON * (reach + m + m);
-                    Collider::capsule(
-                        c.start,
-                        c.end,
-                        c.start_radius + by,
-                        c.end_radius + by,
-                        c.start_velocity,
-                        c.end_velocity,
-                    )
-                }
-            };
-        }
-        if grown.project(&mut p, &mut v) {
+        let grow = |s: Collider| match s {
+            Collider::Sphere(mut b) => {
+                b.radius += 2.0 * T::EPSILON * (reach + b.radius + b.radius);
+                Collider::Sphere(b)
+            }
+            Collider::Ground(mut g) => {
+                g.height += 2.0 * T::EPSILON * (reach + g.height.abs());
+                Collider::Ground(g)
+            }
+            Collider::Capsule(c) => {
+                let m = c.max_radius();
+                let by = 2.0 * T::EPSILON * (reach + m + m);
+                Collider::capsule(
+                    c.start,
+                    c.end,
+                    c.start_radius + by,
+                    c.end_radius + by,
+                    c.start_velocity,
+                    c.end_velocity,
+                )
+            }
+        };
+        if col.world.project_mapped(&mut p, &mut v, grow) {
             for k in 0..3 {
                 x[k][l] = T::of(p[k] - o[k]);
                 step[k][l] = T::of(h * v[k]);

@@ -363,7 +363,7 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
             let colliders = env.has_colliders().then(|| {
                 let world = env.colliders(k + 1);
                 near.clear();
-                near.extend(world.shapes[..world.count].iter().map(|s| near_lanes(s, origin)));
+                near.extend(world.shapes.iter().map(|s| near_lanes(s, origin)));
                 LaneColliders {
                     world,
                     origin,

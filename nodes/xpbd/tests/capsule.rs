@@ -205,3 +205,67 @@ fn a_forearm_through_many_strands_in_f64_and_f32() {
     forearm_through_many_strands::<XpbdStrand>("xpbd.strand");
     forearm_through_many_strands::<XpbdStrandF32>("xpbd.strand_f32");
 }
+
+/// As in nodes/strand/tests/capsule.rs: the tapered limb, the pushing capsule and the sweeping
+/// forearm given as one-entry `colliders` lists give the runs of the numbered scenes, to
+/// rounding (f64) or to the lanes' rounding of positions of about 1 m (f32: 1e-6 m).
+fn a_listed_capsule_is_the_numbered_one<N: Node>(name: &str, tolerance: f64) {
+    for (scene, extra) in [
+        (limb_scene(true), vec![int("substeps", LIMB_SUBSTEPS)]),
+        (pushed_scene(), vec![]),
+        (forearm_scene(), vec![]),
+    ] {
+        let numbered = scene.run::<N>(&extra).expect("runs");
+        let listed = scene.as_list().run::<N>(&extra).expect("runs");
+        let d = numbered
+            .positions
+            .iter()
+            .zip(&listed.positions)
+            .map(|(x, y)| (x - y).abs())
+            .fold(0.0, f64::max);
+        assert!(
+            d <= tolerance,
+            "{name}: the listed capsule's run is {d:e} m off the numbered one's"
+        );
+    }
+}
+
+#[test]
+fn listed_capsules_are_the_numbered_ones_in_f64_and_f32() {
+    a_listed_capsule_is_the_numbered_one::<XpbdStrand>("xpbd.strand", 1e-12);
+    a_listed_capsule_is_the_numbered_one::<XpbdStrandF32>("xpbd.strand_f32", 1e-6);
+}
+
+/// Twelve colliders in one list (`fence_scene`): the chain drapes over the fence, no frame
+/// inside any sphere (distances from `round_cone_distance`), resting on several.
+fn drapes_over_a_fence<N: Node>(name: &str) {
+    let (tl, mut changes, inputs) = fence_scene();
+    changes.push(int("substeps", LIMB_SUBSTEPS));
+    let run = heft_strand_common::testing::run::<N>(&changes, tl, &inputs).expect("runs");
+    let spheres = fence();
+    let mut deepest = f64::INFINITY;
+    for f in 0..run.frames() {
+        for i in 1..run.n {
+            for &(c, r) in &spheres {
+                deepest = deepest.min(round_cone_distance(run.x(f, i), c, c, r, r));
+            }
+        }
+    }
+    assert!(
+        deepest >= -INSIDE_TOLERANCE,
+        "{name}: a particle is {deepest:e} m inside a sphere"
+    );
+    let last = run.frames() - 1;
+    let touched = spheres
+        .iter()
+        .filter(|&&(c, r)| (1..run.n).any(|i| round_cone_distance(run.x(last, i), c, c, r, r) < 1e-6))
+        .count();
+    assert!(touched >= 2, "{name}: the chain rests on {touched} spheres");
+    eprintln!("{name}, fence of 12: least distance {deepest:e} m, resting on {touched} spheres");
+}
+
+#[test]
+fn drapes_over_a_fence_of_twelve_in_f64_and_f32() {
+    drapes_over_a_fence::<XpbdStrand>("xpbd.strand");
+    drapes_over_a_fence::<XpbdStrandF32>("xpbd.strand_f32");
+}
