@@ -114,6 +114,7 @@ pub const REAL_PLUGINS: &[&str] = &[
     "heft_noise",
     "heft_strand",
     "heft_xpbd",
+    "heft_collider",
 ];
 
 /// The real plugins plus the test plugin `probe`.

@@ -1,0 +1,12 @@
+//! heft node plugin `collider`: a body to collide with, as a list.
+//!
+//! - `collider.add`: a sphere or tapered capsule riding on one or two transforms (a joint, or
+//!   a joint and its child), appended to a collider list. Chained, any number of them make a
+//!   body for a strand node's `colliders` input (the list layout is
+//!   `heft_node_sdk::colliders`).
+
+mod add;
+
+pub use add::Add;
+
+heft_node_sdk::export_plugin!(name: "collider", nodes: [Add]);
