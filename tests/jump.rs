@@ -279,3 +279,71 @@ fn skirt_and_sash_stay_outside_the_thighs_and_above_the_ground() {
     assert!(lowest_sash < 1e-3, "the sash reaches the floor: {lowest_sash}");
     assert!(nearest < 0.075, "the strands do touch the thighs: {nearest}");
 }
+
+/// The whole body to collide with, through the real plugins: Odile jumps with the fringe skirt
+/// and the 110 cm sash of the test above, but now with her every limb and her trunk, head and
+/// feet from trajectory.jump's `colliders` (twelve colliders on one input, overlapping at the
+/// hips, knees and elbows) and the ground. At every frame no free particle is inside any of
+/// the twelve (distances by `round_cone_distance`, the capsules' definition as a union of
+/// balls, independent of the nodes' projection) or below the ground, the strands do rest on
+/// the body, and the sash lies on the floor.
+#[test]
+fn skirt_and_sash_stay_outside_the_whole_body() {
+    use heft_node_sdk::colliders::read_frame;
+    use heft_strand_common::testing::round_cone_distance;
+    let text = "format 1\nrate 24 fps\nframes 0..72\n\
+        odile = trajectory.jump\n    takeoff_frame = 36\n\
+        skirt = strand.euler\n    count = 12\n    placement = ring\n    radius = 16 cm\n    length = 30 cm\n\
+        \x20   segments = 8\n    start = settled\n    substeps = 100\n    ground = on\n    start_offset = (0, 0, 10) cm\n\
+        sash = xpbd.strand\n    length = 110 cm\n    segments = 22\n    start = settled\n    ground = on\n\
+        \x20   start_offset = (-18, 0, 10) cm\n\
+        odile.hips -> skirt.anchor\nodile.hips -> sash.anchor\n\
+        odile.colliders -> skirt.colliders\nodile.colliders -> sash.colliders\n";
+    let plan = plan_text("body.graph", text, &registry(), &Overrides::default()).expect("checks");
+    let e = evaluate(&plan, Some(2)).expect("evaluates");
+    let node = |name: &str| plan.nodes.iter().position(|n| n.name == name).expect(name);
+    let output = |n: usize, port: &str| {
+        let k = plan.nodes[n]
+            .ty
+            .spec()
+            .outputs
+            .iter()
+            .position(|o| o.name == port)
+            .expect(port);
+        (&e.values[n][k], plan.nodes[n].outputs[k].width())
+    };
+    let (body, bw) = output(node("odile"), "colliders");
+    let frames = plan.timeline.frames();
+    let mut lowest_sash = f64::INFINITY;
+    let mut nearest = f64::INFINITY;
+    for strand in ["skirt", "sash"] {
+        let (v, w) = output(node(strand), "positions");
+        let per_strand = if strand == "skirt" { 9 } else { 23 };
+        for f in 0..frames {
+            let list = read_frame(&body[f * bw..(f + 1) * bw]).expect("a whole list");
+            assert_eq!(list.len(), 12);
+            for p in (0..w / 3).filter(|p| p % per_strand != 0) {
+                let x = [v[f * w + 3 * p], v[f * w + 3 * p + 1], v[f * w + 3 * p + 2]];
+                for (k, c) in list.iter().enumerate() {
+                    let d = round_cone_distance(x, c.start, c.end, c.start_radius, c.end_radius);
+                    nearest = nearest.min(d);
+                    assert!(
+                        d >= -1e-9,
+                        "{strand} particle {p} at frame {f} is {d:e} m inside collider {k}"
+                    );
+                }
+                assert!(
+                    x[2] >= -1e-12,
+                    "{strand} particle {p} at frame {f} is below the ground: {}",
+                    x[2]
+                );
+                if strand == "sash" {
+                    lowest_sash = lowest_sash.min(x[2]);
+                }
+            }
+        }
+    }
+    eprintln!("least distance from the body {nearest:.2e} m; lowest sash particle {lowest_sash:.2e} m");
+    assert!(nearest < 1e-6, "the strands do rest on the body: {nearest}");
+    assert!(lowest_sash < 1e-3, "the sash reaches the floor: {lowest_sash}");
+}

@@ -89,6 +89,26 @@ pub mod proportions {
     pub const HIP_WIDTH: f64 = 0.191;
 }
 
+/// Radii of the body's colliders (trajectory.jump's `colliders`), fractions of H, each at the
+/// segment's proximal then distal end. From memory, approximate: adult segment girths read as
+/// circles, rounded; not from a published table. They shape only what strands collide with.
+pub mod collider_radii {
+    /// Head (a sphere at the head centre): about 9.6 cm at H = 1.65 m.
+    pub const HEAD: f64 = 0.058;
+    /// Trunk (a capsule from the hips to the base of the neck): about 14 cm at H = 1.65 m.
+    pub const TRUNK: f64 = 0.085;
+    /// Upper arm, at the shoulder and at the elbow.
+    pub const UPPER_ARM: [f64; 2] = [0.026, 0.021];
+    /// Forearm, at the elbow and at the wrist.
+    pub const FOREARM: [f64; 2] = [0.021, 0.016];
+    /// Thigh, at the hip joint and at the knee.
+    pub const THIGH: [f64; 2] = [0.042, 0.030];
+    /// Shank, at the knee and at the ankle.
+    pub const SHIN: [f64; 2] = [0.032, 0.022];
+    /// Foot (a sphere at the ankle).
+    pub const FOOT: f64 = 0.030;
+}
+
 /// The pose of a limb segment pointing from `from` to `to` in the x-z plane: its rotation
 /// about +Y that turns the local -Z (the segment's axis, pointing away from the body) onto
 /// the segment, as a unit quaternion (x, y, z, w).

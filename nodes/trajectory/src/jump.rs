@@ -9,8 +9,9 @@ use heft_node_sdk::{
     Timeline,
 };
 
-use crate::body::{Body, leg, proportions, segment_rotation};
+use crate::body::{Body, collider_radii, leg, proportions, segment_rotation};
 use crate::profile::{Quintic, smoothstep};
+use heft_node_sdk::colliders::{self, Capsule};
 
 const G: f64 = STANDARD_GRAVITY;
 
@@ -830,6 +831,17 @@ impl Node for Jump {
                 transform("foot_l", "Left ankle (identity rotation)."),
                 transform("foot_r", "Right ankle (identity rotation)."),
                 PortSpec::new(
+                    "colliders",
+                    PortKind::Points,
+                    Dimension::Length,
+                    "The body to collide with, 12 colliders in the heft_node_sdk::colliders layout, for a strand's \
+                     `colliders` input, in this order: head (a sphere at `head`), trunk (hips to neck), upper arms \
+                     (shoulder to elbow) left and right, forearms (elbow to wrist), thighs (hip joint to knee), \
+                     shanks (knee to ankle), feet (spheres at the ankles). Radii scale with `body_height` (from \
+                     memory, approximate girths; trajectory::body::collider_radii).",
+                )
+                .with_points(BODY_COLLIDERS * colliders::POINTS_PER_COLLIDER),
+                PortSpec::new(
                     "arm_angle",
                     PortKind::Scalar,
                     Dimension::Angle,
@@ -1047,8 +1059,52 @@ impl Node for Jump {
             })?;
             io.fill(&format!("foot_{side}"), |i, out| put(out, limbs[i].ankle[k], identity))?;
         }
+        let head = plan.body.landmark_offset(proportions::HEAD_CENTRE);
+        let hips = plan.body.landmark_offset(proportions::HIP);
+        io.fill("colliders", |i, out| {
+            let t = states[i].trunk.position;
+            colliders::write_frame(
+                out,
+                &body_colliders(
+                    &limbs[i],
+                    [t[0], t[1], t[2] + head],
+                    [t[0], t[1], t[2] + hips],
+                    plan.body.height,
+                ),
+            );
+        })?;
         Ok(())
     }
+}
+
+/// How many colliders make the body (trajectory.jump's `colliders`).
+pub const BODY_COLLIDERS: usize = 12;
+
+/// The body's colliders at one state, in the order of the `colliders` output: head, trunk,
+/// upper arms, forearms, thighs, shanks, feet (left before right), radii in
+/// [`collider_radii`] times the body height `h`.
+pub fn body_colliders(l: &Limbs, head: [f64; 3], hips: [f64; 3], h: f64) -> [Capsule; BODY_COLLIDERS] {
+    use collider_radii as r;
+    let limb = |a: [f64; 3], b: [f64; 3], radii: [f64; 2]| Capsule {
+        start: a,
+        end: b,
+        start_radius: radii[0] * h,
+        end_radius: radii[1] * h,
+    };
+    [
+        Capsule::sphere(head, r::HEAD * h),
+        limb(hips, l.neck, [r::TRUNK; 2]),
+        limb(l.shoulder[0], l.elbow[0], r::UPPER_ARM),
+        limb(l.shoulder[1], l.elbow[1], r::UPPER_ARM),
+        limb(l.elbow[0], l.wrist[0], r::FOREARM),
+        limb(l.elbow[1], l.wrist[1], r::FOREARM),
+        limb(l.hip[0], l.knee[0], r::THIGH),
+        limb(l.hip[1], l.knee[1], r::THIGH),
+        limb(l.knee[0], l.ankle[0], r::SHIN),
+        limb(l.knee[1], l.ankle[1], r::SHIN),
+        Capsule::sphere(l.ankle[0], r::FOOT * h),
+        Capsule::sphere(l.ankle[1], r::FOOT * h),
+    ]
 }
 
 /// The body's joints at one state, world space (x forward, y to the left, z up): both sides,

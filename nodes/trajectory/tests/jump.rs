@@ -79,7 +79,11 @@ impl Run {
 fn run(p: &Params, tl: Timeline) -> Result<Run, NodeError> {
     let spec = Jump::spec();
     let n = tl.frames();
-    let widths: Vec<usize> = spec.outputs.iter().map(|o| o.kind.width(0)).collect();
+    let widths: Vec<usize> = spec
+        .outputs
+        .iter()
+        .map(|o| o.kind.width(o.points.unwrap_or(0)))
+        .collect();
     let mut bufs: Vec<Vec<f64>> = widths.iter().map(|w| vec![f64::NAN; n * w]).collect();
     let (summaries, warnings) = {
         let outs: Vec<&mut [f64]> = bufs.iter_mut().map(Vec::as_mut_slice).collect();
@@ -816,4 +820,49 @@ fn the_bodys_joints_are_rigid_segments_that_follow_the_plan() {
     let (hip, ankle) = (p("thigh_l", 0), p("foot_l", 0));
     assert!((dist(hip, ankle) - 0.491 * h).abs() < 1e-9, "{}", dist(hip, ankle) / h);
     assert!(bent, "the knees bend forward in the crouch");
+}
+
+/// The body's colliders ride on its joints: at every frame of the default jump, the twelve
+/// colliders' ends are the joint outputs (head; hips to neck; shoulder to elbow to wrist; hip
+/// joint to knee to ankle; the ankles), in the documented order, and the radii are the
+/// documented fractions of the body height (trajectory::body::collider_radii, from memory), the
+/// same at every frame.
+#[test]
+fn the_bodys_colliders_ride_on_its_joints() {
+    use heft_node_sdk::colliders::read_frame;
+    use heft_trajectory::body::collider_radii as radii;
+    let r = run_at(24, &[]).expect("runs");
+    let h = 1.65;
+    let p = |name: &str, i: usize| -> [f64; 3] {
+        let f = r.frame(name, i);
+        [f[0], f[1], f[2]]
+    };
+    for i in 0..r.frames() {
+        let list = read_frame(r.frame("colliders", i)).expect("a whole list");
+        let want = [
+            (p("head", i), p("head", i), [radii::HEAD; 2]),
+            (p("hips", i), p("neck", i), [radii::TRUNK; 2]),
+            (p("upper_arm_l", i), p("forearm_l", i), radii::UPPER_ARM),
+            (p("upper_arm_r", i), p("forearm_r", i), radii::UPPER_ARM),
+            (p("forearm_l", i), p("hand_l", i), radii::FOREARM),
+            (p("forearm_r", i), p("hand_r", i), radii::FOREARM),
+            (p("thigh_l", i), p("shin_l", i), radii::THIGH),
+            (p("thigh_r", i), p("shin_r", i), radii::THIGH),
+            (p("shin_l", i), p("foot_l", i), radii::SHIN),
+            (p("shin_r", i), p("foot_r", i), radii::SHIN),
+            (p("foot_l", i), p("foot_l", i), [radii::FOOT; 2]),
+            (p("foot_r", i), p("foot_r", i), [radii::FOOT; 2]),
+        ];
+        assert_eq!(list.len(), want.len());
+        for (k, (c, (a, b, rr))) in list.iter().zip(want).enumerate() {
+            assert!(
+                close3(c.start, a, 1e-12) && close3(c.end, b, 1e-12),
+                "collider {k} at frame {i}: {c:?}"
+            );
+            assert!(
+                (c.start_radius - rr[0] * h).abs() < 1e-15 && (c.end_radius - rr[1] * h).abs() < 1e-15,
+                "collider {k} at frame {i}: {c:?}"
+            );
+        }
+    }
 }
