@@ -128,7 +128,7 @@ impl Node for Euler {
              and the error says so. \
              Limits: no self-collision or strand-strand contact; no twist; colliders are spheres and capsules \
              and act on particles only (a segment may cut through a collider thinner than it is long); a \
-             particle squeezed between overlapping colliders may stay inside one; pins are not pushed out of \
+             particle squeezed between collider surfaces that face each other may stay inside one; pins are not pushed out of \
              colliders (a warning says so).",
         );
         for p in &mut spec.params {
