@@ -208,6 +208,15 @@ impl Track {
         [0, 1, 2].map(|k| (d00 * self.t0[k] + d01 * self.t1[k]) / self.dt + d10 * self.m0[k] + d11 * self.m1[k])
     }
 
+    /// The acceleration of the translation at fraction `frac`, m/s^2 (the cubic's second
+    /// derivative: the parabola's own acceleration for a free fall).
+    pub fn acceleration_at(&self, frac: f64) -> V3 {
+        let u = frac;
+        let (a00, a10, a01, a11) = (12.0 * u - 6.0, 6.0 * u - 4.0, 6.0 - 12.0 * u, 6.0 * u - 2.0);
+        let inv = 1.0 / self.dt;
+        [0, 1, 2].map(|k| ((a00 * self.t0[k] + a01 * self.t1[k]) * inv + a10 * self.m0[k] + a11 * self.m1[k]) * inv)
+    }
+
     /// The rigid-body velocity field of the transform at fraction `frac`: the translation's
     /// velocity there and the frame's constant angular velocity.
     pub fn velocity(&self, frac: f64) -> RigidVelocity {

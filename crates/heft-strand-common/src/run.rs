@@ -248,6 +248,13 @@ impl<'a> FrameEnv<'a> {
         }
     }
 
+    /// The acceleration of the anchor's translation at fraction `frac` of the frame (zero
+    /// without an anchor): what a settled strand, in equilibrium under the apparent gravity
+    /// g - a of its anchor, accelerates at as a whole at the start.
+    pub fn anchor_acceleration_at(&self, frac: f64) -> V3 {
+        self.anchor.map_or([0.0; 3], |t| t.acceleration_at(frac))
+    }
+
     /// The anchor's rigid velocity field that goes with the velocities a method holds at
     /// boundary k: a symplectic-Euler velocity or a backward difference (x_k - x_{k-1}) / h is
     /// centred half a step back, at (k - 1/2) h, so the field is taken there. This keeps
@@ -532,6 +539,31 @@ fn path_velocity(at: &dyn Fn(usize) -> Result<V3, NodeError>, tl: &Timeline, j: 
         [0, 1, 2].map(|k| (a[k] - 4.0 * b[k] + 3.0 * c[k]) / (2.0 * dt))
     } else {
         scale(sub(at(j + 1)?, at(j - 1)?), 0.5 / dt)
+    })
+}
+
+/// The least damping rate while settling, 1/s: a fast mode (36 Hz, say) loses e^-5 of its
+/// amplitude in a second of settling; the slow swings are stopped by the kinetic damping (common
+/// practice, no source).
+const SETTLE_DAMPING: f64 = 10.0;
+
+/// The acceleration at the first frame of a path sampled at the frames: the second-order
+/// one-sided second difference (2 x0 - 5 x1 + 4 x2 - x3) / dt^2 (Fornberg 1988, "Generation of
+/// finite difference formulas on arbitrarily spaced grids", Math. Comp. 51(184), table 1), or
+/// (x0 - 2 x1 + x2) / dt^2 with three frames; both exact for a path quadratic in time. Zero
+/// with fewer frames.
+fn start_acceleration(at: &dyn Fn(usize) -> Result<V3, NodeError>, tl: &Timeline) -> Result<V3, NodeError> {
+    let inv = 1.0 / (tl.dt() * tl.dt());
+    Ok(match tl.frames() {
+        0..=2 => [0.0; 3],
+        3 => {
+            let (a, b, c) = (at(0)?, at(1)?, at(2)?);
+            [0, 1, 2].map(|k| (a[k] - 2.0 * b[k] + c[k]) * inv)
+        }
+        _ => {
+            let (a, b, c, d) = (at(0)?, at(1)?, at(2)?, at(3)?);
+            [0, 1, 2].map(|k| (2.0 * a[k] - 5.0 * b[k] + 4.0 * c[k] - d[k]) * inv)
+        }
     })
 }
 
@@ -1091,11 +1123,17 @@ fn check_blow_up<M: Method>(
 
 /// Settles the strands for `start = settled`: their dynamics, with the anchors and colliders
 /// held still at their first-frame pose and no wind, are run from the laid-out state, and the
-/// velocities are set to zero each time the kinetic energy has passed a peak (kinetic damping,
-/// the dynamic relaxation of Cundall 1976 and Day 1965: every swing is stopped at the bottom of
-/// its path, so the energy drains away without a damping force), until the particles move by
-/// less than 1e-4 of a segment in a frame or 40 s of settling have passed. Then every particle
-/// takes the first frame's anchor velocity (the rigid motion of the anchor at frame 0).
+/// velocities are set to zero each time the kinetic energy, watched once a frame, has passed a
+/// peak (kinetic damping, the dynamic relaxation of Day 1965 and Cundall 1976: every swing is
+/// stopped at the bottom of its path, so the energy drains away without a damping force), until
+/// the particles move by less than 1e-6 of a segment in a frame or 40 s of settling have
+/// passed. Modes too fast to be watched once a frame (a string mode of tens of hertz seen at
+/// 24 fps) are drained by a damping of at least [`SETTLE_DAMPING`] while settling (damping
+/// changes no equilibrium). The strands settle under the apparent gravity g - a0 of the
+/// anchor's first frame (a0 its translation's acceleration there, [`start_acceleration`]), so a
+/// shot that begins with the anchor already accelerating (an elevator, a run-up) starts in the
+/// equilibrium it keeps. Then every particle takes the first frame's anchor velocity (the rigid
+/// motion of the anchor at frame 0).
 fn settle<M: Method>(
     setup: &Setup,
     state: &mut State,
@@ -1104,6 +1142,9 @@ fn settle<M: Method>(
     poses: [Pose; 2],
     moving: &[Moving],
 ) -> Result<(), NodeError> {
+    let mut damped = setup.clone();
+    damped.damping = setup.damping.max(SETTLE_DAMPING);
+    let setup = &damped;
     let substeps = setup.substeps;
     let dt = tl.dt();
     let h = dt / substeps as f64;
@@ -1116,13 +1157,17 @@ fn settle<M: Method>(
     }
     let still_a = inputs.anchor.as_ref().map(|_| Track::still(poses[0].t, poses[0].q));
     let still_b = inputs.anchor_b.as_ref().map(|_| Track::still(poses[1].t, poses[1].q));
+    let a0 = match &inputs.anchor {
+        Some(s) => start_acceleration(&|f: usize| transform_at(s, "anchor", tl, f).map(|(t, _)| t), tl)?,
+        None => [0.0; 3],
+    };
     let env = FrameEnv {
         setup,
         h,
         substeps,
         frame_dt: dt,
         frame: 1,
-        gravity: setup.gravity,
+        gravity: sub(setup.gravity, a0),
         anchor: still_a,
         anchor_angular_ends: [[0.0; 3]; 2],
         end: still_b.or(still_a),
@@ -1141,9 +1186,9 @@ fn settle<M: Method>(
     let limit = 1.0e-6 * setup.rest_length;
     let most = (40.0 / dt).ceil() as usize;
     let mut method = M::new(setup);
-    let mut last = f64::INFINITY;
+    let mut last = 0.0;
+    let mut before = state.x.clone();
     for _ in 0..most {
-        let before = state.x.clone();
         method.frame(setup, state, &env);
         if !method.fills_state() {
             method.store(state.x.as_flattened_mut(), state.v.as_flattened_mut());
@@ -1163,6 +1208,7 @@ fn settle<M: Method>(
         if moved < limit {
             break;
         }
+        before.copy_from_slice(&state.x);
         let e = kinetic(state);
         if e < last {
             // Past the peak: stop every particle, and start the method afresh from this state.
@@ -1170,7 +1216,7 @@ fn settle<M: Method>(
                 *v = [0.0; 3];
             }
             method = M::new(setup);
-            last = f64::INFINITY;
+            last = 0.0;
         } else {
             last = e;
         }

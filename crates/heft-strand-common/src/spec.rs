@@ -195,8 +195,9 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
         "start",
         &["as_laid", "settled"],
         "How the strands start: as laid out (straight along `rest_direction`, or between the pins), or settled: at \
-         rest in their hanging equilibrium for the first frame's pose of the anchors and colliders, so that the \
-         first frames are calm (a strand pinned at both ends hangs at its rest length).",
+         rest in their hanging equilibrium for the first frame's pose of the anchors and colliders, under the \
+         apparent gravity g - a of an anchor already accelerating there, so that the first frames are calm (a \
+         strand pinned at both ends hangs at its rest length).",
     ));
     params.push(ParamSpec::number(
         "friction",

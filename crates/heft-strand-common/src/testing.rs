@@ -668,6 +668,56 @@ pub fn settled_start<N: Node>(both_ends: bool, substeps: Option<i64>) -> (f64, f
     (moved, length, run.x(0, run.n - 1)[2])
 }
 
+/// The sideways acceleration of the anchor of [`settled_under_acceleration`], m/s^2.
+pub const SIDEWAYS: f64 = 3.0;
+
+/// A 45 cm braid of 20 segments started settled (`start = settled`) on an anchor that
+/// accelerates sideways at [`SIDEWAYS`] along +X from rest at frame 0 (x = a t^2 / 2, sampled
+/// at the frames), at 24 fps for 1 s, undamped. In the anchor's frame the apparent gravity
+/// g - a is constant, tilted back from the vertical by atan(a / g) (the equivalence principle;
+/// a hanging chain lines up with the gravity it feels), so a strand settled in that
+/// equilibrium stays put relative to the anchor. Returns the largest distance any particle
+/// moves relative to the anchor from frame 0 over the run, and the angle of the chord from the
+/// pin to the tip from straight down at frame 0, rad (towards -X positive).
+pub fn settled_under_acceleration<N: Node>(substeps: Option<i64>) -> (f64, f64) {
+    let tl = timeline(24, 25);
+    let at = |t: f64| [0.5 * SIDEWAYS * t * t, 0.0, 1.5];
+    let anchor = transform(tl, |t| (at(t), [0.0, 0.0, 0.0, 1.0]));
+    let mut changes = vec![
+        int("segments", 20),
+        num("length", 0.45),
+        num("damping", 0.0),
+        num("relative_damping", 0.0),
+        choice("start", "settled"),
+    ];
+    if let Some(s) = substeps {
+        changes.push(int("substeps", s));
+    }
+    let run = run::<N>(&changes, tl, &[("anchor", anchor)]).expect("runs");
+    let rel = |f: usize, i: usize| {
+        let (x, o) = (run.x(f, i), at(run.time(f)));
+        [x[0] - o[0], x[1] - o[1], x[2] - o[2]]
+    };
+    let mut moved: f64 = 0.0;
+    for f in 0..run.frames() {
+        for i in 0..run.n {
+            let (a, b) = (rel(f, i), rel(0, i));
+            moved = moved.max(((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2) + (a[2] - b[2]).powi(2)).sqrt());
+        }
+    }
+    for f in 0..4 {
+        eprintln!(
+            "f{f} pin {:?} p1 {:?} p10 {:?} v1 {:?}",
+            rel(f, 0),
+            rel(f, 1),
+            rel(f, 10),
+            run.v(f, 1)
+        );
+    }
+    let tip = rel(0, run.n - 1);
+    (moved, (-tip[0]).atan2(-tip[2]))
+}
+
 /// A free 30 cm strand lying flat on the ground (z = 0) along x, all of it sliding along x at
 /// `v0` m/s, with these friction coefficients, at 24 fps for 2 s: returns how far its centre
 /// of mass slides.

@@ -271,10 +271,13 @@ impl Method for VerletMethod {
                     f.fill([0.0; 3]);
                     add_bending_forces(x, c_b, f);
                     for i in 0..p {
-                        // A settled strand starts in equilibrium: the constraints' forces, which
-                        // a(x0, v0) leaves out, balance the rest, so its acceleration is zero.
-                        let a = if setup.pinned[i] || setup.settled_start {
+                        // A settled strand starts in equilibrium under the apparent gravity g - a
+                        // of its anchor: the constraints' forces, which a(x0, v0) leaves out,
+                        // balance it, so it accelerates with the anchor.
+                        let a = if setup.pinned[i] {
                             [0.0; 3]
+                        } else if setup.settled_start {
+                            env.anchor_acceleration_at(0.0)
                         } else {
                             axpy(ambient.accel(x[i], v[i]), setup.inv_mass[i], f[i])
                         };

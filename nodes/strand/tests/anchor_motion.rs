@@ -164,3 +164,32 @@ fn friction_stops_a_slide_where_coulomb_says_and_holds_on_a_gentle_slope() {
         assert!(slide > 0.5, "{name}: slid only {slide} m");
     }
 }
+
+/// A strand settled on an anchor that is already accelerating sideways at frame 0
+/// (`settled_under_acceleration`: 3 m/s^2 along +X) starts in the equilibrium it keeps: its
+/// chord hangs back from the vertical by atan(a / g) = 17.0 degrees (a chain with a free end
+/// in a uniform field hangs straight along it, here the apparent gravity g - a; equivalence
+/// principle), within 0.01 degree (the settling's own tolerance), and no particle moves by more
+/// than 1e-5 m relative to the anchor over a second. Before the settling watched every substep
+/// and took the anchor's acceleration, such a strand swung by 0.28 m.
+#[test]
+fn a_strand_settled_on_an_accelerating_anchor_starts_calm() {
+    use heft_strand_common::testing::{G, SIDEWAYS, settled_under_acceleration};
+    let want = (SIDEWAYS / G).atan();
+    for (name, (moved, tilt)) in [
+        ("strand.euler", settled_under_acceleration::<Euler>(Some(400))),
+        ("strand.verlet", settled_under_acceleration::<Verlet>(None)),
+    ] {
+        eprintln!(
+            "{name}: tilt {:.3} deg (want {:.3}), moved {moved:e} m",
+            tilt.to_degrees(),
+            want.to_degrees()
+        );
+        assert!(
+            (tilt - want).abs() < 0.01f64.to_radians(),
+            "{name}: tilt {} deg",
+            tilt.to_degrees()
+        );
+        assert!(moved < 1e-5, "{name}: moved {moved} m relative to the anchor");
+    }
+}

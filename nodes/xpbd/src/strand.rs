@@ -143,8 +143,8 @@ impl<T: Precision> Node for XpbdNode<T> {
 pub struct Xpbd<T: Real> {
     model: Model,
     coeffs: Coeffs<T>,
-    /// (h, wind connected) the coefficients were made for.
-    made_for: (f64, bool),
+    /// (h, wind connected, gravity) the coefficients were made for.
+    made_for: (f64, bool, [f64; 3]),
     /// Per substep k of a frame: the prediction's base and spin in f64 (see [`SubstepInput`]).
     shared: Vec<([f64; 3], Option<[f64; 3]>)>,
     engine: Engine<T>,
@@ -218,8 +218,13 @@ impl<T: Real, const N: usize> Group<T, N> {
         if !self.loaded {
             // The first step is taken from half a step back on the path of the particles'
             // acceleration at the start: gravity for a strand as laid out (exact for a free
-            // fall), none for a settled one (in equilibrium the constraints balance gravity).
-            let start_accel = if setup.settled_start { [0.0; 3] } else { setup.gravity };
+            // fall); the anchor's for a settled one (in equilibrium under the apparent gravity
+            // g - a of its anchor, it moves with the anchor).
+            let start_accel = if setup.settled_start {
+                env.anchor_acceleration_at(0.0)
+            } else {
+                setup.gravity
+            };
             self.lanes.load(&state.x, &state.v, h, start_accel);
             self.loaded = true;
         }
@@ -524,7 +529,7 @@ impl<T: Real> Method for Xpbd<T> {
         Xpbd {
             model,
             coeffs,
-            made_for: (f64::NAN, false),
+            made_for: (f64::NAN, false, [f64::NAN; 3]),
             shared: vec![([0.0; 3], None); setup.substeps],
             engine,
             arch: instruction_set(),
@@ -533,10 +538,11 @@ impl<T: Real> Method for Xpbd<T> {
 
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>) {
         let wind = env.has_wind();
-        if self.made_for != (env.h, wind) {
+        if self.made_for != (env.h, wind, env.gravity) {
             self.model.damping_rate = setup.damping_rate(wind);
+            self.model.gravity = env.gravity;
             self.coeffs.update(&self.model, env.h);
-            self.made_for = (env.h, wind);
+            self.made_for = (env.h, wind, env.gravity);
         }
         let c = &self.coeffs;
         let cr = setup.relative_damping;

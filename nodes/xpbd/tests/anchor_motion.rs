@@ -139,3 +139,36 @@ fn friction_stops_a_slide_where_coulomb_says_and_holds_on_a_gentle_slope() {
         assert!(slide > 0.5, "{name}: slid only {slide} m");
     }
 }
+
+/// As in nodes/strand/tests/anchor_motion.rs: settled on an anchor already accelerating
+/// sideways at 3 m/s^2, the strand hangs back by atan(a / g) (within 0.01 degree) and stays put
+/// relative to the anchor (1e-5 m; 5e-5 m in single precision).
+#[test]
+fn a_strand_settled_on_an_accelerating_anchor_starts_calm() {
+    use heft_strand_common::testing::{G, SIDEWAYS, settled_under_acceleration};
+    let want = (SIDEWAYS / G).atan();
+    for (name, (moved, tilt), limit) in [
+        (
+            "xpbd.strand",
+            settled_under_acceleration::<heft_xpbd::XpbdStrand>(None),
+            1e-5,
+        ),
+        (
+            "xpbd.strand_f32",
+            settled_under_acceleration::<heft_xpbd::XpbdStrandF32>(None),
+            5e-5,
+        ),
+    ] {
+        eprintln!(
+            "{name}: tilt {:.3} deg (want {:.3}), moved {moved:e} m",
+            tilt.to_degrees(),
+            want.to_degrees()
+        );
+        assert!(
+            (tilt - want).abs() < 0.01f64.to_radians(),
+            "{name}: tilt {} deg",
+            tilt.to_degrees()
+        );
+        assert!(moved < limit, "{name}: moved {moved} m relative to the anchor");
+    }
+}
