@@ -215,8 +215,10 @@ fn a_failed_run_leaves_previous_outputs_untouched() {
 fn listing(dir: &std::path::Path) -> Vec<(String, Vec<u8>)> {
     let mut v: Vec<(String, Vec<u8>)> = std::fs::read_dir(dir)
         .expect("dir")
-        .map(|e| {
-            let p = e.expect("entry").path();
+        .map(|e| e.expect("entry").path())
+        // The folder's lock holds the last run's process number.
+        .filter(|p| !p.ends_with(heft_formats::commit::LOCK_FILE))
+        .map(|p| {
             (
                 p.file_name().expect("name").to_string_lossy().into_owned(),
                 std::fs::read(&p).expect("read"),
@@ -247,4 +249,50 @@ fn the_run_summary_names_graph_plugins_timeline_and_outputs() {
     assert_eq!(s["outputs"][0]["file"], "parcel.position.csv");
     assert!(s["wall_seconds"].as_f64().is_some_and(|w| w > 0.0));
     assert_eq!(s["nodes"][1]["type"], "trajectory.keyed");
+}
+
+/// Two runs into one output folder never mix their files: while one run holds the folder (its
+/// lock taken here, as a run takes it before evaluating), a second is refused before it
+/// evaluates, naming the other process, and writes nothing; once the folder is free, a run
+/// clears the temporary files a killed run left (41 MB each in the field) and says so.
+#[test]
+fn runs_never_share_an_output_folder_and_clear_what_a_killed_run_left() {
+    let out = tempfile::tempdir().expect("temp dir");
+    let held = heft_formats::commit::OutputDir::open(out.path()).expect("lock");
+    let o = heft()
+        .args(["run", "graphs/toss.graph", "--out"])
+        .arg(out.path())
+        .output()
+        .expect("runs");
+    assert_eq!(o.status.code(), Some(1));
+    let (stdout, err) = text(&o);
+    assert!(
+        err.contains(&format!(
+            "another heft run (process {}) is writing into this folder",
+            std::process::id()
+        )),
+        "{err}"
+    );
+    assert!(!stdout.contains("evaluated"), "{stdout}");
+    assert!(listing(out.path()).is_empty(), "nothing written");
+    drop(held);
+
+    std::fs::write(out.path().join(".heft-AbC123.partial"), vec![0u8; 1024]).expect("write");
+    std::fs::write(out.path().join(".heft-XyZ789.partial.svg"), b"<svg").expect("write");
+    let o = heft()
+        .args(["run", "graphs/toss.graph", "--out"])
+        .arg(out.path())
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", text(&o).1);
+    assert!(
+        text(&o).1.contains("removed 2 temporary files a stopped run left"),
+        "{}",
+        text(&o).1
+    );
+    assert!(
+        listing(out.path()).iter().all(|(name, _)| !name.starts_with(".heft-")),
+        "{:?}",
+        listing(out.path()).iter().map(|(n, _)| n).collect::<Vec<_>>()
+    );
 }

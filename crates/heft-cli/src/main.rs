@@ -222,6 +222,20 @@ struct Say {
 
 fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: Instant, say: Say) -> ExitCode {
     let quiet = say.quiet;
+    // The output folder is made ready and locked before the evaluation: an unusable folder, or
+    // one another run is writing into, is found before any work is done.
+    let out = match output::OutputDir::open(out) {
+        Ok(o) => o,
+        Err(e) => {
+            eprintln!("error: cannot use the output folder {e}");
+            return ExitCode::from(FAILED);
+        }
+    };
+    if !quiet {
+        for c in out.cleared() {
+            eprintln!("note: {}: {c}", out.path().display());
+        }
+    }
     if say.verbose {
         for (k, level) in plan.levels.iter().enumerate() {
             let names: Vec<&str> = level.iter().map(|&i| plan.nodes[i].name.as_str()).collect();
@@ -265,7 +279,7 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
             eprintln!("warning: node `{node}`: {w}");
         }
     }
-    match output::write_all(plan, &evaluation, graph, out, started.elapsed()) {
+    match output::write_all(plan, &evaluation, graph, &out, started.elapsed()) {
         Ok(paths) => {
             if !quiet {
                 println!(
@@ -274,7 +288,7 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
                     plan.timeline.frame_count,
                     evaluation.wall.as_secs_f64(),
                     paths.len(),
-                    out.display()
+                    out.path().display()
                 );
             }
             ExitCode::SUCCESS

@@ -79,6 +79,13 @@ fn run_point(
     };
     result.axis_values = axes.iter().map(|a| si_value(&plan, &a.target)).collect();
     let started = Instant::now();
+    let folder = match output::OutputDir::open(&out.join(format!("point-{index:04}"))) {
+        Ok(f) => f,
+        Err(err) => {
+            result.error = Some(format!("cannot use the output folder {err}"));
+            return result;
+        }
+    };
     let e = match eval::evaluate(&plan, Some(1)) {
         Ok(e) => e,
         Err(e) => {
@@ -98,7 +105,6 @@ fn run_point(
             }
         }
     }
-    let folder = out.join(format!("point-{index:04}"));
     if let Err(err) = output::write_all(&plan, &e, &graph.graph, &folder, started.elapsed()) {
         result.error = Some(err.to_string());
     }

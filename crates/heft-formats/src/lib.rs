@@ -7,6 +7,7 @@
 #![warn(missing_docs)]
 
 pub mod character;
+pub mod commit;
 pub mod gltf_out;
 pub mod output;
 pub mod plots;

@@ -1,6 +1,6 @@
-//! Writing results: one CSV per output and a JSON run summary, each written to a temporary
-//! file in the output folder and renamed into place, so a failed run leaves no half-written
-//! or mismatched files.
+//! Writing results: one CSV per output, the bakes and plots, and a JSON run summary, each
+//! written in full to a temporary file and committed together ([`crate::commit`]), so a failed
+//! or killed run leaves no half-written or mismatched files.
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -8,6 +8,7 @@ use std::time::Duration;
 
 use serde::Serialize;
 
+pub use crate::commit::OutputDir;
 use heft_runtime::check::Plan;
 use heft_runtime::eval::{Evaluation, columns};
 
@@ -113,28 +114,6 @@ struct Summary {
     wall_seconds: f64,
 }
 
-type Staged = Vec<(tempfile::NamedTempFile, PathBuf)>;
-
-/// Writes `bytes` to a temporary file in `dir`, to be renamed to `path` when all is written.
-fn stage(staged: &mut Staged, dir: &Path, bytes: &[u8], path: PathBuf) -> Result<(), WriteError> {
-    stage_parts(staged, dir, &[bytes], path)
-}
-
-/// [`stage`] for a file given as consecutive parts.
-fn stage_parts(staged: &mut Staged, dir: &Path, parts: &[&[u8]], path: PathBuf) -> Result<(), WriteError> {
-    let mut tmp = tempfile::Builder::new()
-        .prefix(".heft-")
-        .suffix(".partial")
-        .tempfile_in(dir)
-        .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
-    for bytes in parts {
-        tmp.write_all(bytes).map_err(|e| werr(&path, e))?;
-    }
-    tmp.as_file().sync_all().map_err(|e| werr(&path, e))?;
-    staged.push((tmp, path));
-    Ok(())
-}
-
 /// Writes one file atomically: a temporary file beside it, then a rename.
 pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
     let dir = path
@@ -142,48 +121,43 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
         .filter(|d| !d.as_os_str().is_empty())
         .unwrap_or(Path::new("."));
     std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the folder: {e}")))?;
-    let mut staged = Vec::new();
-    stage(&mut staged, dir, bytes, path.to_path_buf())?;
-    commit(staged).map(|_| ())
-}
-
-/// Renames every staged file into place, with the usual permissions (temporary files are
-/// private, 0600). Returns the paths written.
-fn commit(staged: Staged) -> Result<Vec<PathBuf>, WriteError> {
-    let mut written = Vec::with_capacity(staged.len());
-    for (tmp, path) in staged {
-        #[cfg(unix)]
-        {
-            use std::os::unix::fs::PermissionsExt;
-            tmp.as_file()
-                .set_permissions(std::fs::Permissions::from_mode(0o644))
-                .map_err(|e| werr(&path, e))?;
-        }
-        tmp.persist(&path).map_err(|e| werr(&path, e.error))?;
-        written.push(path);
+    let mut tmp = tempfile::Builder::new()
+        .prefix(".heft-")
+        .suffix(".partial")
+        .tempfile_in(dir)
+        .map_err(|e| werr(dir, format!("cannot create a file in the folder: {e}")))?;
+    tmp.write_all(bytes).map_err(|e| werr(path, e))?;
+    tmp.as_file().sync_all().map_err(|e| werr(path, e))?;
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        tmp.as_file()
+            .set_permissions(std::fs::Permissions::from_mode(0o644))
+            .map_err(|e| werr(path, e))?;
     }
-    Ok(written)
+    tmp.persist(path).map_err(|e| werr(path, e.error))?;
+    Ok(())
 }
 
 /// The file name of the run summary in the output folder.
 pub const SUMMARY_FILE: &str = "run.json";
 
-/// Writes every planned output and the run summary into `dir` (created if missing).
-/// Either every file is replaced or none is. Returns the paths written.
+/// Writes every planned output and the run summary into the locked output folder `out`.
+/// Either every file is replaced or none is ([`crate::commit`]). Returns the paths written.
 pub fn write_all(
     plan: &Plan,
     eval: &Evaluation,
     graph_path: &Path,
-    dir: &Path,
+    out: &OutputDir,
     wall: Duration,
 ) -> Result<Vec<PathBuf>, WriteError> {
-    std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the output folder: {e}")))?;
-    let mut staged: Staged = Vec::new();
+    let dir = out.path();
+    let mut staged = out.transaction();
     let mut outputs = Vec::new();
     for w in &plan.writes {
         let path = dir.join(format!("{}.csv", w.stem));
         let text = csv_text(plan, eval, w.node, w.output).map_err(|e| werr(&path, e))?;
-        stage(&mut staged, dir, &text, path.clone())?;
+        staged.stage(&path, &[&text])?;
         let pn = &plan.nodes[w.node];
         let port = &pn.ty.spec().outputs[w.output];
         outputs.push(OutputEntry {
@@ -198,11 +172,8 @@ pub fn write_all(
         let files = crate::gltf_out::bake_files(plan, eval, bake).map_err(|e| werr(&dir.join(&bake.file), e))?;
         for (name, parts) in files {
             let path = dir.join(&name);
-            if let Some(parent) = path.parent() {
-                std::fs::create_dir_all(parent).map_err(|e| werr(parent, e))?;
-            }
             let parts: Vec<&[u8]> = parts.iter().map(Vec::as_slice).collect();
-            stage_parts(&mut staged, dir, &parts, path)?;
+            staged.stage(&path, &parts)?;
             outputs.push(OutputEntry {
                 file: name,
                 node: String::new(),
@@ -214,18 +185,9 @@ pub fn write_all(
     }
     for plot in &plan.plots {
         let path = dir.join(&plot.file);
-        if let Some(parent) = path.parent() {
-            std::fs::create_dir_all(parent).map_err(|e| werr(parent, e))?;
-        }
         let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("svg").to_owned();
-        let tmp = tempfile::Builder::new()
-            .prefix(".heft-")
-            .suffix(&format!(".partial.{ext}"))
-            .tempfile_in(dir)
-            .map_err(|e| werr(dir, format!("cannot create a file in the output folder: {e}")))?;
-        crate::plots::draw(plan, eval, plot, tmp.path())
-            .map_err(|e| werr(&path, format!("cannot draw the plot: {e}")))?;
-        staged.push((tmp, path));
+        let tmp = staged.stage_path(&path, &ext)?;
+        crate::plots::draw(plan, eval, plot, &tmp).map_err(|e| werr(&path, format!("cannot draw the plot: {e}")))?;
         outputs.push(OutputEntry {
             file: plot.file.clone(),
             node: String::new(),
@@ -289,6 +251,6 @@ pub fn write_all(
     };
     let summary_path = dir.join(SUMMARY_FILE);
     let json = serde_json::to_vec_pretty(&summary).map_err(|e| werr(&summary_path, e))?;
-    stage(&mut staged, dir, &json, summary_path)?;
-    commit(staged)
+    staged.stage(&summary_path, &[&json])?;
+    staged.commit()
 }
