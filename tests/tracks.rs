@@ -239,3 +239,31 @@ fn y_up_tracks_are_turned_z_up() {
         assert!((v[3 + k] - want[k]).abs() < 1e-12, "{v:?}");
     }
 }
+
+/// Values that overflow are refused, never written as `inf`: a force column of 1e306 kN is
+/// 1e309 N, past the largest f64 (1.8e308), and the run stops naming the node, the output, the
+/// frame and the value; positions of 1e308 m fit an f64 (the CSV could hold them) but not the
+/// 32-bit floats of a glTF bake (3.4e38), and the bake is refused naming the joint and the frame.
+#[test]
+fn values_that_overflow_are_refused_not_written() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let csv = "time,Fz\n0.00,0.5\n0.01,1e306\n0.02,0.5\n0.03,0.5\n";
+    let body = "plate = track.force\n    file = \"plate.csv\"\n    column = \"Fz\"\n    unit = kN\nwrite plate.value\n";
+    let plan = plan_in(dir.path(), csv, body).expect("checks");
+    let e = evaluate(&plan, Some(1)).expect_err("inf");
+    assert!(
+        e.to_string()
+            .contains("node `plate` wrote inf to output `value` (column `value [N]`) at frame 1"),
+        "{e}"
+    );
+
+    let csv = "time,x,y,z\n0,0,0,1e308\n0.01,0,0,-1e308\n0.02,0,0,1\n0.03,0,0,1\n";
+    let body = "hips = track.position\n    file = \"plate.csv\"\nwrite hips.value\nbake \"b.glb\"\n    hips.value\n";
+    let plan = plan_in(dir.path(), csv, body).expect("checks");
+    let e = evaluate(&plan, Some(1)).expect("evaluates: the values are finite");
+    let err = heft_formats::gltf_out::bake_files(&plan, &e, &plan.bakes[0]).expect_err("beyond f32");
+    assert!(
+        err.contains("the translation of `hips_value` at frame 0 is 1e308, beyond what glTF's 32-bit floats hold"),
+        "{err}"
+    );
+}

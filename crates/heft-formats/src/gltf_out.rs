@@ -124,11 +124,25 @@ struct Builder {
     skins: Vec<Value>,
     time_accessor: usize,
     names: BTreeSet<String>,
+    /// The first value that did not fit a 32-bit float: (what, key, value).
+    overflow: Option<(String, usize, f64)>,
 }
 
 impl Builder {
     fn floats(&mut self, data: &[f32], ty: &str, count: usize, min_max: Option<(Vec<f32>, Vec<f32>)>) -> usize {
         self.floats_of(data.iter().copied(), data.len(), ty, count, min_max)
+    }
+
+    /// Notes the first value of `what` that does not fit a 32-bit float (glTF's component
+    /// type): `values[k]` of a channel of `width` values per key.
+    fn fits(&mut self, what: &str, node: usize, values: impl Iterator<Item = f64>, width: usize) {
+        if self.overflow.is_some() {
+            return;
+        }
+        if let Some((k, v)) = values.enumerate().find(|(_, v)| !(*v as f32).is_finite()) {
+            let name = self.nodes[node]["name"].as_str().unwrap_or("?");
+            self.overflow = Some((format!("the {what} of `{name}`"), k / width.max(1), v));
+        }
     }
 
     /// `len` floats from `data` into the buffer, little-endian, as one accessor.
@@ -216,6 +230,7 @@ impl Builder {
     }
 
     fn animate_t(&mut self, node: usize, t: &[[f64; 3]]) {
+        self.fits("translation", node, t.iter().flatten().copied(), 3);
         self.rest(node, t.first().copied(), None, None);
         let data = t.iter().flat_map(|p| p.map(|c| c as f32));
         self.channel_of(node, "translation", data, 3, t.len());
@@ -229,6 +244,7 @@ impl Builder {
     }
 
     fn animate_s(&mut self, node: usize, s: &[[f64; 3]]) {
+        self.fits("scale", node, s.iter().flatten().copied(), 3);
         self.rest(node, None, None, s.first().copied());
         let data = s.iter().flat_map(|p| p.map(|c| c as f32));
         self.channel_of(node, "scale", data, 3, s.len());
@@ -739,6 +755,7 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
         skins: Vec::new(),
         time_accessor: 0,
         names: BTreeSet::new(),
+        overflow: None,
     };
     if let Some(base) = &base {
         let list = |key: &str| base.doc.get(key).and_then(Value::as_array).cloned().unwrap_or_default();
@@ -808,6 +825,13 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
             },
             PortKind::Scalar | PortKind::Flag => return Err(format!("`{}` cannot be baked", item.name)),
         }
+    }
+    if let Some((what, key, value)) = &bk.b.overflow {
+        return Err(format!(
+            "{what} at frame {} is {value:e}, beyond what glTF's 32-bit floats hold (3.4e38): check the data \
+             that drives it",
+            tl.frame_number(frames.start + key)
+        ));
     }
     let stem = std::path::Path::new(&bake.file)
         .file_stem()

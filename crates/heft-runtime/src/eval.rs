@@ -83,6 +83,28 @@ struct NodeResult {
     warnings: Vec<String>,
 }
 
+/// Every value of node `i`'s outputs is finite, or the error names the node, the port, the
+/// frame, the column and the value.
+fn check_finite(plan: &Plan, i: usize, outputs: &[Vec<f64>]) -> Result<(), EvalError> {
+    let node = &plan.nodes[i];
+    let spec = node.ty.spec();
+    for (k, (values, shape)) in outputs.iter().zip(&node.outputs).enumerate() {
+        if let Some(bad) = values.iter().position(|v| !v.is_finite()) {
+            let w = shape.width().max(1);
+            let port = &spec.outputs[k];
+            let cols = columns(&port.name, *shape, port.dimension);
+            return Err(EvalError::NonFinite {
+                node: node.name.clone(),
+                port: port.name.clone(),
+                frame: plan.timeline.frame_number(bad / w),
+                column: cols.get(bad % w).cloned().unwrap_or_default(),
+                value: format!("{}", values[bad]),
+            });
+        }
+    }
+    Ok(())
+}
+
 fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeResult, EvalError> {
     let node = &plan.nodes[i];
     let spec = node.ty.spec();
@@ -100,6 +122,9 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
         })
         .collect();
     if let Some(data) = &node.host_data {
+        // A host node's data (a track read from a file) is checked like any node's outputs:
+        // a value that overflowed on reading (1e306 kN is 1e309 N) is refused here.
+        check_finite(plan, i, data)?;
         return Ok(NodeResult {
             outputs: data.clone(),
             summaries: Vec::new(),
@@ -140,20 +165,7 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             })?
     };
     let time = started.elapsed();
-    for (k, (values, shape)) in outputs.iter().zip(&node.outputs).enumerate() {
-        if let Some(bad) = values.iter().position(|v| !v.is_finite()) {
-            let w = shape.width().max(1);
-            let port = &spec.outputs[k];
-            let cols = columns(&port.name, *shape, port.dimension);
-            return Err(EvalError::NonFinite {
-                node: node.name.clone(),
-                port: port.name.clone(),
-                frame: plan.timeline.frame_number(bad / w),
-                column: cols.get(bad % w).cloned().unwrap_or_default(),
-                value: format!("{}", values[bad]),
-            });
-        }
-    }
+    check_finite(plan, i, &outputs)?;
     if let Some((k, v)) = summaries.iter().enumerate().find(|(_, v)| !v.is_finite()) {
         let name = &spec.summaries[k].name;
         return Err(EvalError::Node {
