@@ -806,3 +806,50 @@ fn vector_components_with_their_own_units() {
         ])
     );
 }
+
+/// Problems far into a very long line (a generated file) render without fault, showing their
+/// neighbourhood of the line with the file's own line and column: a unit typo at column
+/// 70 019 (the renderer once panicked past column 65 536).
+#[test]
+fn a_problem_deep_in_a_long_line_renders_with_its_place() {
+    let body = format!(
+        "b = trajectory.ballistic\n    launch_time = {}x s\n",
+        "1".repeat(70_000)
+    );
+    let p = plan_with(&body, &[], None).expect_err("a bad unit");
+    assert_eq!(p.len(), 1, "{p:?}");
+    assert_eq!(p[0].location(), "t.graph:5:70019");
+    let text = render(&p, false);
+    assert!(text.contains("[t.graph:5:70019]") && text.contains("… 1111"), "{text}");
+    assert!(
+        text.len() < 2_000,
+        "only the neighbourhood is shown: {} bytes",
+        text.len()
+    );
+}
+
+/// A file of many bad lines is reported at once: every problem is found, the first 20 are
+/// drawn and the rest counted, so the report stays small (it was quadratic in the file: 7 s
+/// for 176 KB of bad lines). And a name of 100 000 characters gets no "did you mean" (the
+/// edit distance is quadratic in the names' lengths: 26 s), just the problem.
+#[test]
+fn many_problems_and_huge_names_are_reported_at_once() {
+    let bad: String = (0..5_000).map(|i| format!("n{i} = no_such.type\n")).collect();
+    let p = plan_with(&bad, &[], None).expect_err("bad types");
+    assert_eq!(p.len(), 5_000);
+    let text = render(&p, false);
+    assert!(
+        text.ends_with("5000 problems found; the first 20 are shown\n"),
+        "{}",
+        &text[text.len() - 200..]
+    );
+    assert!(text.len() < 20 * 1_000, "20 problems drawn: {} bytes", text.len());
+
+    let long = "x".repeat(100_000);
+    let p = plan_with("", &[&format!("b.{long}=1")], None).expect_err("an unknown node");
+    assert!(
+        p.iter()
+            .all(|p| p.help.as_deref().is_none_or(|h| !h.contains("did you mean"))),
+        "{p:?}"
+    );
+}

@@ -4,7 +4,7 @@
 use std::fmt;
 use std::sync::Arc;
 
-use miette::{Diagnostic, GraphicalReportHandler, GraphicalTheme, LabeledSpan, NamedSource, SourceCode};
+use miette::{Diagnostic, GraphicalReportHandler, GraphicalTheme, LabeledSpan, SourceCode};
 
 /// A text that problems can point into: a graph file or a command-line value.
 #[derive(Debug)]
@@ -148,11 +148,12 @@ impl fmt::Display for Problem {
     }
 }
 
-/// The miette view of one problem (or of a related place in another source).
+/// The miette view of one problem (or of a related place).
 #[derive(Debug)]
 struct Rendered {
     message: String,
-    source: NamedSource<String>,
+    source: Excerpt,
+    /// Spans in the excerpt's own offsets.
     labels: Vec<(Span, String)>,
     help: Option<String>,
     related: Vec<Rendered>,
@@ -189,11 +190,139 @@ impl Diagnostic for Rendered {
     }
 }
 
-fn named(place: &Place) -> NamedSource<String> {
-    NamedSource::new(place.source.name.clone(), place.source.text.clone())
+/// Bytes of a line kept on each side of a problem's span; longer lines are cut, so that a
+/// problem deep in a very long line (a generated file) shows only its neighbourhood.
+const WINDOW: usize = 60;
+
+/// The few lines around one place of a source, cut to a window around the place when they are
+/// long: what the renderer reads instead of the whole text, so that rendering a problem costs
+/// the size of its neighbourhood (plus one count of the lines before it), not of the file. Line
+/// numbers are the file's own.
+#[derive(Debug)]
+struct Excerpt {
+    name: String,
+    text: String,
+    /// The file's line number (0-based) of the excerpt's first line.
+    first_line: usize,
+    /// The original byte range the excerpt's current line shows, and where it starts in `text`.
+    shown: std::ops::Range<usize>,
+    shown_at: usize,
+    /// The excerpt's line (0-based) that holds the place, and the characters of the file's
+    /// line cut from its start (less the cut mark), so that columns are the file's own.
+    main_line: usize,
+    column_shift: usize,
+    cut_mark: usize,
 }
 
-/// Keeps a span inside its text, so a caret at the very end of a file still shows.
+impl Excerpt {
+    /// The excerpt around `span` of `source`, and the span in the excerpt's offsets.
+    fn around(source: &Source, span: Span) -> (Excerpt, Span) {
+        let text = source.text.as_str();
+        let start = floor(text, span.start.min(text.len()));
+        let end = floor(text, span.end().min(text.len()).max(start));
+        let line_start = text[..start].rfind('\n').map_or(0, |i| i + 1);
+        let line_end = text[start..].find('\n').map_or(text.len(), |i| start + i);
+        // The window on this line, in offsets from its start, and the same on its neighbours.
+        let lo = (start - line_start).saturating_sub(WINDOW);
+        let hi = (end.min(start + 2 * WINDOW) - line_start) + WINDOW;
+        // The part of the line from..to inside the window, marked where it is cut.
+        let cut = |from: usize, to: usize| -> String {
+            let a = floor(text, (from + lo).min(to));
+            let b = floor(text, (from + hi).min(to)).max(a);
+            let mut piece = String::new();
+            if a > from {
+                piece.push_str("… ");
+            }
+            piece.push_str(&text[a..b]);
+            if b < to {
+                piece.push_str(" …");
+            }
+            piece
+        };
+        let mut out = String::new();
+        let mut first = line_start;
+        let main_line = usize::from(line_start > 0);
+        if line_start > 0 {
+            let prev_end = line_start - 1;
+            let prev_start = text[..prev_end].rfind('\n').map_or(0, |i| i + 1);
+            first = prev_start;
+            out.push_str(&cut(prev_start, prev_end));
+            out.push('\n');
+        }
+        let line = cut(line_start, line_end);
+        let a = floor(text, (line_start + lo).min(line_end));
+        let shown_at = out.len() + if a > line_start { "… ".len() } else { 0 };
+        out.push_str(&line);
+        if line_end < text.len() {
+            let next_start = line_end + 1;
+            let next_end = text[next_start..].find('\n').map_or(text.len(), |i| next_start + i);
+            out.push('\n');
+            out.push_str(&cut(next_start, next_end));
+        }
+        let first_line = text[..first].matches('\n').count();
+        let b = floor(text, (line_start + hi).min(line_end)).max(a);
+        let local_start = shown_at + (start - a);
+        let local_end = shown_at + (end.min(b) - a);
+        let excerpt = Excerpt {
+            name: source.name.clone(),
+            text: out,
+            first_line,
+            shown: a..b,
+            shown_at,
+            main_line,
+            column_shift: text[line_start..a].chars().count(),
+            cut_mark: if a > line_start { "… ".chars().count() } else { 0 },
+        };
+        let local = inside(Span::new(local_start, local_end.max(local_start)), &excerpt.text);
+        (excerpt, local)
+    }
+
+    /// `span` of the same source in the excerpt's offsets, when the excerpt shows it.
+    fn map(&self, span: Span) -> Option<Span> {
+        (self.shown.contains(&span.start) && span.end() <= self.shown.end).then(|| {
+            let s = self.shown_at + (span.start - self.shown.start);
+            Span::new(s, s + span.len)
+        })
+    }
+}
+
+impl SourceCode for Excerpt {
+    fn read_span<'a>(
+        &'a self,
+        span: &miette::SourceSpan,
+        context_lines_before: usize,
+        context_lines_after: usize,
+    ) -> Result<Box<dyn miette::SpanContents<'a> + 'a>, miette::MietteError> {
+        let c = self.text.read_span(span, context_lines_before, context_lines_after)?;
+        // The line and column of the span's start in the excerpt, turned into the file's.
+        let before = &self.text[..span.offset().min(self.text.len())];
+        let line = before.matches('\n').count();
+        let column = before[before.rfind('\n').map_or(0, |i| i + 1)..].chars().count();
+        let column = match line == self.main_line {
+            true => column.saturating_sub(self.cut_mark) + self.column_shift,
+            false => column,
+        };
+        Ok(Box::new(miette::MietteSpanContents::new_named(
+            self.name.clone(),
+            c.data(),
+            *c.span(),
+            c.line() + self.first_line,
+            column,
+            c.line_count(),
+        )))
+    }
+}
+
+/// The largest char boundary of `text` at or below `i`.
+fn floor(text: &str, mut i: usize) -> usize {
+    i = i.min(text.len());
+    while !text.is_char_boundary(i) {
+        i -= 1;
+    }
+    i
+}
+
+/// Keeps a span inside its text, so a caret at the very end of a text still shows.
 fn inside(span: Span, text: &str) -> Span {
     let start = span.start.min(text.len().saturating_sub(1));
     Span::new(
@@ -203,31 +332,42 @@ fn inside(span: Span, text: &str) -> Span {
 }
 
 fn rendered(p: &Problem) -> Rendered {
-    let mut labels = vec![(inside(p.place.span, &p.place.source.text), p.label.clone())];
+    let (source, main) = Excerpt::around(&p.place.source, p.place.span);
+    let mut labels = vec![(main, p.label.clone())];
     let mut related = Vec::new();
     for (place, label) in &p.related {
-        if Arc::ptr_eq(&place.source, &p.place.source) {
-            labels.push((place.span, label.clone()));
-        } else {
-            related.push(Rendered {
-                message: format!("{}: {label}", place.location()),
-                source: named(place),
-                labels: vec![(place.span, label.clone())],
-                help: None,
-                related: Vec::new(),
-            });
+        let here = Arc::ptr_eq(&place.source, &p.place.source)
+            .then(|| source.map(place.span))
+            .flatten();
+        match here {
+            Some(span) => labels.push((span, label.clone())),
+            None => {
+                let (excerpt, span) = Excerpt::around(&place.source, place.span);
+                related.push(Rendered {
+                    message: format!("{}: {label}", place.location()),
+                    source: excerpt,
+                    labels: vec![(span, label.clone())],
+                    help: None,
+                    related: Vec::new(),
+                });
+            }
         }
     }
     Rendered {
         message: format!("{}: {}", p.location(), p.message),
-        source: named(&p.place),
+        source,
         labels,
         help: p.help.as_deref().map(str::to_owned),
         related,
     }
 }
 
-/// Renders problems with source lines and carets; `color` for a terminal.
+/// At most this many problems are shown in full; the rest are counted.
+pub const SHOWN: usize = 20;
+
+/// Renders problems with source lines and carets; `color` for a terminal. The first
+/// [`SHOWN`] are drawn, the rest counted, so a file of a million bad lines is reported at
+/// once.
 pub fn render(problems: &[Problem], color: bool) -> String {
     let theme = if color {
         GraphicalTheme::unicode()
@@ -236,7 +376,7 @@ pub fn render(problems: &[Problem], color: bool) -> String {
     };
     let handler = GraphicalReportHandler::new_themed(theme).with_context_lines(1);
     let mut out = String::new();
-    for p in problems {
+    for p in problems.iter().take(SHOWN) {
         let r = rendered(p);
         if handler.render_report(&mut out, &r).is_err() {
             out.push_str(&format!("error: {p}\n"));
@@ -244,6 +384,10 @@ pub fn render(problems: &[Problem], color: bool) -> String {
         out.push('\n');
     }
     let n = problems.len();
-    out.push_str(&format!("{n} problem{} found\n", if n == 1 { "" } else { "s" }));
+    if n > SHOWN {
+        out.push_str(&format!("{n} problems found; the first {SHOWN} are shown\n"));
+    } else {
+        out.push_str(&format!("{n} problem{} found\n", if n == 1 { "" } else { "s" }));
+    }
     out
 }

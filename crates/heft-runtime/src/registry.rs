@@ -236,9 +236,22 @@ impl Registry {
     }
 }
 
-/// The candidate closest to `name` by edit distance, if close enough to suggest.
+/// Names longer than this get no suggestion: the edit distance takes time in the product of
+/// the two lengths, and a name this long is not a typo.
+const LONGEST_SUGGESTED: usize = 256;
+
+/// The candidate closest to `name` by edit distance, if close enough to suggest. Candidates
+/// whose length alone puts them too far are skipped before the distance is computed.
 pub fn closest<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Option<&'a str> {
+    let n = name.chars().count();
+    if n > LONGEST_SUGGESTED {
+        return None;
+    }
     candidates
+        .filter(|c| {
+            let m = c.chars().count();
+            m <= LONGEST_SUGGESTED && n.abs_diff(m) <= (m.max(n) / 3).max(1)
+        })
         .map(|c| (strsim::damerau_levenshtein(name, c), c))
         .filter(|(d, c)| *d < name.len().max(2) && *d <= (c.len().max(name.len()) / 3).max(1))
         .min_by_key(|(d, _)| *d)
