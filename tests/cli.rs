@@ -296,3 +296,64 @@ fn runs_never_share_an_output_folder_and_clear_what_a_killed_run_left() {
         listing(out.path()).iter().map(|(n, _)| n).collect::<Vec<_>>()
     );
 }
+
+/// Impossible requests are refused before any work, never run, panicked on or aborted: a frame
+/// range of 2^63 frames; a run whose outputs cannot fit in memory (4096 strands of 255
+/// segments over ten million frames, 480 TB); a "graph" that never ends (/dev/zero); 65 535
+/// threads. A range starting at a negative frame is read as one (not as an option).
+#[test]
+fn impossible_requests_are_refused_before_any_work() {
+    let o = heft()
+        .args(["check", "graphs/toss.graph", "--frames", "0..9223372036854775807"])
+        .output()
+        .expect("runs");
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        text(&o).1.contains(
+            "`--frames` 0..9223372036854775807 holds 9223372036854775808 frames, more than one run evaluates"
+        ),
+        "{}",
+        text(&o).1
+    );
+    let o = heft()
+        .args(["check", "graphs/toss.graph", "--frames", "-48..96"])
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", text(&o).1);
+
+    let dir = tempfile::tempdir().expect("temp dir");
+    let graph = dir.path().join("huge.graph");
+    std::fs::write(
+        &graph,
+        "format 1\nrate 1000 fps\nframes 1..10000000\nhair = xpbd.strand\n    count = 4096\n    segments = 255\nwrite hair.positions\n",
+    )
+    .expect("write");
+    let o = heft()
+        .arg("run")
+        .arg(&graph)
+        .arg("--out")
+        .arg(dir.path().join("out"))
+        .output()
+        .expect("runs");
+    assert_eq!(o.status.code(), Some(1));
+    let err = text(&o).1;
+    assert!(
+        err.contains("this run's outputs need")
+            && err.contains("(the largest, `hair.positions`")
+            && err.contains("--frames"),
+        "{err}"
+    );
+
+    if std::path::Path::new("/dev/zero").exists() {
+        let o = heft().args(["check", "/dev/zero"]).output().expect("runs");
+        assert_eq!(o.status.code(), Some(1));
+        assert!(text(&o).1.contains("larger than 64 MiB"), "{}", text(&o).1);
+    }
+
+    let o = heft()
+        .args(["run", "graphs/toss.graph", "--threads", "65535"])
+        .output()
+        .expect("runs");
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o).1.contains("65535 is not in 1..=1024"), "{}", text(&o).1);
+}

@@ -853,3 +853,25 @@ fn many_problems_and_huge_names_are_reported_at_once() {
         "{p:?}"
     );
 }
+
+/// Output file names are checked where they are written: a bake path ending in `/` (a folder,
+/// not a file) and a name in heft's own `.heft-` space are refused at check time.
+#[test]
+fn output_names_that_are_folders_or_heft_s_own_are_refused() {
+    let p = body_problems(
+        "b = trajectory.ballistic\nbake \"bakes/odile.glb/\"\n    b.position\nbake \".heft-lock.glb\"\n    b.position\n",
+    );
+    assert_eq!(
+        located(&p),
+        expect(&[
+            (
+                "t.graph:5:6",
+                "`bakes/odile.glb/` is not a file name inside the output folder"
+            ),
+            (
+                "t.graph:7:6",
+                "`.heft-lock.glb`: names starting with `.heft-` are heft's own in the output folder"
+            ),
+        ])
+    );
+}

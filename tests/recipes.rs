@@ -147,3 +147,26 @@ fn a_name_clash_and_a_recipe_problem_point_into_both_files() {
         format!("{}:4:1", dir.path().join("main.graph").display())
     );
 }
+
+/// A chain of 10 000 recipes, each including the next (which once overflowed the stack), stops
+/// at the 64th level with a problem at the include that goes one level too deep.
+#[test]
+fn a_chain_of_recipes_too_deep_is_refused_at_its_place() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let files: Vec<(String, String)> = (0..10_000)
+        .map(|i| {
+            (
+                format!("r{i}.graph"),
+                format!("format 1\ninclude \"r{}.graph\" as n\n", i + 1),
+            )
+        })
+        .collect();
+    let files: Vec<(&str, &str)> = files.iter().map(|(a, b)| (a.as_str(), b.as_str())).collect();
+    let p = plan(dir.path(), &files, "include \"r0.graph\" as top\n").expect_err("too deep");
+    let at = located(&p, dir.path());
+    assert_eq!(at.len(), 1, "{at:?}");
+    assert!(
+        at[0].starts_with("r63.graph:2:9: including") && at[0].ends_with("makes recipes nested more than 64 deep"),
+        "{at:?}"
+    );
+}

@@ -47,8 +47,8 @@ enum Command {
         /// Folder for the outputs (created if missing).
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
-        /// Worker threads (default: one per core). Results do not depend on it.
-        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+        /// Worker threads, 1 to 1024 (default: one per core). Results do not depend on it.
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..=1024))]
         threads: Option<u16>,
     },
     /// Evaluate a graph at every point of a parameter grid, each point into its own folder,
@@ -69,8 +69,8 @@ enum Command {
         /// A summary value for the table, `node.name` (repeatable; default: all).
         #[arg(long = "summary", value_name = "NODE.NAME")]
         summary: Vec<String>,
-        /// Points evaluated at once (default: one per core).
-        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+        /// Points evaluated at once, 1 to 1024 (default: one per core).
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..=1024))]
         threads: Option<u16>,
     },
     /// Check a graph against the plugins without evaluating it.
@@ -95,7 +95,7 @@ pub(crate) struct GraphArgs {
     #[arg(long = "set", value_name = "NODE.PARAM=VALUE")]
     pub(crate) set: Vec<String>,
     /// Evaluate these frames instead of the graph's range: `A..B`, inclusive.
-    #[arg(long, value_name = "A..B", value_parser = parse_frames)]
+    #[arg(long, value_name = "A..B", value_parser = parse_frames, allow_hyphen_values = true)]
     pub(crate) frames: Option<(i64, i64)>,
 }
 
@@ -242,6 +242,10 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
             eprintln!("level {k}: {}", names.join(", "));
         }
     }
+    if let Err(e) = fits_in_memory(plan) {
+        eprintln!("error: {e}");
+        return ExitCode::from(FAILED);
+    }
     // A progress bar only on a terminal, and not when quiet.
     let bar = (!quiet && std::io::stderr().is_terminal()).then(|| {
         let bar = indicatif::ProgressBar::new(plan.nodes.len() as u64);
@@ -298,4 +302,45 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
             ExitCode::from(FAILED)
         }
     }
+}
+
+/// The memory the system has free for a new process, bytes (`MemAvailable` of
+/// /proc/meminfo), where the system says.
+fn available_memory() -> Option<u128> {
+    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
+    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+    let kib: u128 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib * 1024)
+}
+
+/// Refuses a run whose outputs alone would not fit in the memory the system has free, before
+/// anything is allocated, naming the largest output.
+fn fits_in_memory(plan: &Plan) -> Result<(), String> {
+    let need = plan.footprint();
+    let Some(free) = available_memory() else {
+        return Ok(());
+    };
+    if need.total <= free {
+        return Ok(());
+    }
+    let gib = |b: u128| b as f64 / (1u128 << 30) as f64;
+    let largest = need
+        .largest
+        .map(|(n, k, b)| {
+            let node = &plan.nodes[n];
+            format!(
+                " (the largest, `{}.{}`, {:.1} GiB)",
+                node.name,
+                node.ty.spec().outputs[k].name,
+                gib(b)
+            )
+        })
+        .unwrap_or_default();
+    Err(format!(
+        "this run's outputs need {:.1} GiB{largest} over {} frames, more than the {:.1} GiB this machine has \
+         free: evaluate fewer frames at a time (`--frames`), or fewer strands per node",
+        gib(need.total),
+        plan.timeline.frame_count,
+        gib(free)
+    ))
 }

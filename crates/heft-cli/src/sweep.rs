@@ -142,7 +142,15 @@ pub(crate) fn run(
             return ExitCode::from(1);
         }
     };
-    let points: Vec<(usize, Vec<String>)> = grid(axes)
+    let all = match grid(axes) {
+        Ok(g) => g,
+        Err(e) => {
+            eprintln!("error: {e}");
+            return ExitCode::from(1);
+        }
+    };
+    let total = all.len();
+    let points: Vec<(usize, Vec<String>)> = all
         .into_iter()
         .filter(|(i, _)| shard.is_none_or(|(k, n)| i % n == k))
         .collect();
@@ -231,7 +239,7 @@ pub(crate) fn run(
         println!(
             "swept {} of {} points ({} failed); table {}",
             results.len(),
-            grid(axes).len(),
+            total,
             failed,
             table.display()
         );

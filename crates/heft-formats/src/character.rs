@@ -468,7 +468,8 @@ pub fn load(path: &Path, req: &Request<'_>, times: &[f64]) -> Result<Character, 
 }
 
 fn read(path: &Path, shown: &str, req: &Request<'_>, times: &[f64]) -> Result<Character, CharacterError> {
-    let bytes = std::fs::read(path).map_err(|e| cerr("file", format!("cannot read {shown}: {e}"), None))?;
+    let bytes = heft_runtime::read_limited(path, heft_runtime::DATA_FILE_LIMIT)
+        .map_err(|e| cerr("file", format!("cannot read {shown}: {e}"), None))?;
     let gltf = gltf::Gltf::from_slice(&bytes).map_err(|e| read_error(shown, e))?;
     let base = path.parent().unwrap_or(Path::new("."));
     let buffers = gltf::import_buffers(&gltf.document, Some(base), gltf.blob.clone()).map_err(|e| match e {

@@ -602,7 +602,8 @@ struct Base {
 fn load_base(ch: &Character) -> Result<Base, String> {
     let path = &ch.path;
     let shown = path.display();
-    let bytes = std::fs::read(path).map_err(|e| format!("cannot read {shown} again to write into it: {e}"))?;
+    let bytes = heft_runtime::read_limited(path, heft_runtime::DATA_FILE_LIMIT)
+        .map_err(|e| format!("cannot read {shown} again to write into it: {e}"))?;
     let (mut doc, blob): (Value, Option<Vec<u8>>) = if bytes.starts_with(b"glTF") {
         let glb = gltf::binary::Glb::from_slice(&bytes).map_err(|e| format!("{shown}: {e}"))?;
         (

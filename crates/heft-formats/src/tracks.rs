@@ -243,10 +243,17 @@ fn read_columns(
     wanted: &[(&'static str, &str)],
 ) -> Result<Table, TrackError> {
     let shown = path.display();
-    let mut reader = csv::ReaderBuilder::new()
-        .trim(csv::Trim::All)
-        .from_path(path)
+    let bytes = heft_runtime::read_limited(path, heft_runtime::DATA_FILE_LIMIT)
         .map_err(|e| err("file", format!("cannot read {shown}: {e}")))?;
+    if bytes.starts_with(b"glTF")
+        || (bytes.first() == Some(&b'{') && bytes.windows(7).take(4096).any(|w| w == b"\"asset\""))
+    {
+        return Err(err(
+            "file",
+            format!("{shown} is a glTF file, not a CSV table: read it with `track.character`"),
+        ));
+    }
+    let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(&bytes[..]);
     let headers = reader
         .headers()
         .map_err(|e| err("file", format!("{shown}: cannot read the header row: {e}")))?

@@ -99,8 +99,12 @@ fn word_option(src: &Arc<Source>, line: &ParamLine, options: &[&str]) -> Result<
 pub fn check_file_name(src: &Arc<Source>, block: &OutputBlock, extensions: &[&str]) -> Result<(), Problem> {
     let f = &block.file.value;
     let path = std::path::Path::new(f);
-    let bad_place =
-        f.is_empty() || path.is_absolute() || path.components().any(|c| matches!(c, std::path::Component::ParentDir));
+    let bad_place = f.is_empty()
+        || path.is_absolute()
+        || f.ends_with('/')
+        || f.ends_with('\\')
+        || path.file_name().is_none()
+        || path.components().any(|c| matches!(c, std::path::Component::ParentDir));
     if bad_place {
         return Err(Problem::new(
             src,
@@ -109,6 +113,19 @@ pub fn check_file_name(src: &Arc<Source>, block: &OutputBlock, extensions: &[&st
         )
         .label("not a relative file name")
         .help("outputs are written into the `--out` folder; give a name such as \"odile.glb\""));
+    }
+    if path
+        .file_name()
+        .and_then(|n| n.to_str())
+        .is_some_and(|n| n.starts_with(".heft-"))
+    {
+        return Err(Problem::new(
+            src,
+            block.file.span,
+            format!("`{f}`: names starting with `.heft-` are heft's own in the output folder"),
+        )
+        .label("reserved name")
+        .help("give another name, such as \"odile.glb\""));
     }
     let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
     if !extensions.contains(&ext) {

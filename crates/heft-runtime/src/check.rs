@@ -75,6 +75,37 @@ pub struct Plan {
     pub plots: Vec<PlannedPlot>,
 }
 
+/// The memory an evaluation of a plan holds: every node output over every frame.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Footprint {
+    /// Bytes of all outputs together.
+    pub total: u128,
+    /// The largest single output: (node, output, bytes).
+    pub largest: Option<(usize, usize, u128)>,
+}
+
+impl Plan {
+    /// The bytes the evaluation's outputs take (8 per value), known before anything is
+    /// allocated, so that a run that cannot fit is refused before it starts.
+    pub fn footprint(&self) -> Footprint {
+        let frames = u128::from(self.timeline.frame_count);
+        let mut f = Footprint {
+            total: 0,
+            largest: None,
+        };
+        for (i, n) in self.nodes.iter().enumerate() {
+            for (k, shape) in n.outputs.iter().enumerate() {
+                let bytes = frames * shape.width() as u128 * 8;
+                f.total += bytes;
+                if f.largest.is_none_or(|(_, _, b)| bytes > b) {
+                    f.largest = Some((i, k, bytes));
+                }
+            }
+        }
+        f
+    }
+}
+
 fn si_text(v: f64, d: Dimension) -> String {
     let s = d.si_symbol();
     if s.is_empty() {
@@ -339,6 +370,9 @@ fn parse_overrides(set: &[String], problems: &mut Vec<Problem>) -> Vec<(Arc<Sour
     out
 }
 
+/// The most frames one run evaluates.
+pub const MAX_FRAMES: u64 = 10_000_000;
+
 struct NodeState {
     ty: Option<NodeType>,
     params: Vec<ParamValue>,
@@ -366,9 +400,28 @@ pub fn check(
         .frames
         .or(graph.frames.as_ref().map(|f| f.value))
         .unwrap_or((1, 1));
+    // The frame count in i128: any two i64 frames give a count without overflow.
+    let count = (i128::from(last) - i128::from(first) + 1).max(0);
+    if count > i128::from(MAX_FRAMES) {
+        let (source, at, whose) = match (&overrides.frames, &graph.frames) {
+            (None, Some(f)) => (Arc::clone(src), f.span, "the frame range"),
+            _ => {
+                let text = format!("{first}..{last}");
+                let len = text.len();
+                (Source::new("--frames", text), Span::new(0, len), "`--frames`")
+            }
+        };
+        problems.push(
+            Problem::new(&source, at, format!("{whose} {first}..{last} holds {count} frames, more than one run evaluates"))
+                .label("too many frames")
+                .help(format!(
+                    "a run evaluates at most {MAX_FRAMES} frames (about 2.8 hours at 1000 fps); split the range over several runs"
+                )),
+        );
+    }
     let timeline = Timeline {
         start_frame: first,
-        frame_count: (last - first + 1).max(0) as u64,
+        frame_count: count.clamp(0, i128::from(MAX_FRAMES)) as u64,
         rate_num,
         rate_den,
     };

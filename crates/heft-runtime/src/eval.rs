@@ -139,7 +139,24 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             message: "a host node without its data".to_owned(),
         });
     };
-    let mut outputs: Vec<Vec<f64>> = node.outputs.iter().map(|s| vec![0.0; frames * s.width()]).collect();
+    let mut outputs: Vec<Vec<f64>> = Vec::with_capacity(node.outputs.len());
+    for (k, shape) in node.outputs.iter().enumerate() {
+        // Allocated fallibly: a buffer the system cannot give is an error naming the output,
+        // not an abort.
+        let len = frames.saturating_mul(shape.width());
+        let mut v = Vec::new();
+        v.try_reserve_exact(len).map_err(|_| EvalError::Node {
+            node: node.name.clone(),
+            ty: node.ty.full_name.clone(),
+            message: format!(
+                "cannot get {:.1} GiB of memory for its output `{}` over {frames} frames: evaluate fewer frames",
+                len as f64 * 8.0 / (1u64 << 30) as f64,
+                spec.outputs[k].name
+            ),
+        })?;
+        v.resize(len, 0.0);
+        outputs.push(v);
+    }
     let mut summaries = vec![f64::NAN; spec.summaries.len()];
     let started = Instant::now();
     let warnings = {

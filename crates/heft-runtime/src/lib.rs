@@ -19,10 +19,45 @@ pub mod units;
 use std::path::Path;
 use std::sync::Arc;
 
+/// The largest graph or recipe file heft reads, bytes.
+pub const GRAPH_FILE_LIMIT: u64 = 64 << 20;
+/// The largest data file (a CSV track, a glTF character) heft reads, bytes.
+pub const DATA_FILE_LIMIT: u64 = 4 << 30;
+
+/// Reads a whole file, but no more than `limit` bytes: a larger file (or an endless one, such
+/// as a device) is an error saying so, before it can fill the memory.
+pub fn read_limited(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
+    use std::io::Read;
+    let file = std::fs::File::open(path)?;
+    if file.metadata()?.is_dir() {
+        return Err(std::io::Error::other("it is a folder"));
+    }
+    let mut bytes = Vec::new();
+    file.take(limit + 1).read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > limit {
+        return Err(std::io::Error::other(format!(
+            "it is larger than {} MiB, the most heft reads from a file of this kind",
+            limit >> 20
+        )));
+    }
+    Ok(bytes)
+}
+
+/// Reads a text file with [`read_limited`]: UTF-8, a leading byte-order mark dropped.
+pub fn read_text(path: &Path, limit: u64) -> std::io::Result<String> {
+    let bytes = read_limited(path, limit)?;
+    let mut text = String::from_utf8(bytes)
+        .map_err(|e| std::io::Error::other(format!("it is not UTF-8 text (byte {})", e.utf8_error().valid_up_to())))?;
+    if text.starts_with('\u{feff}') {
+        text.drain(..'\u{feff}'.len_utf8());
+    }
+    Ok(text)
+}
+
 /// Reads and parses a graph file. `Err` only when the file cannot be read; syntax
 /// problems come back with what could be parsed.
 pub fn read_graph(path: &Path) -> Result<(graph::GraphFile, Vec<diag::Problem>), std::io::Error> {
-    let text = std::fs::read_to_string(path)?;
+    let text = read_text(path, GRAPH_FILE_LIMIT)?;
     let source: Arc<diag::Source> = diag::Source::new(path.display().to_string(), text);
     let (mut graph, mut problems) = graph::parse(&source);
     recipes::expand(&mut graph, &mut problems);

@@ -127,8 +127,14 @@ fn rename(g: &mut GraphFile, prefix: &str) {
     }
 }
 
+/// How deep recipes may include recipes.
+pub const MAX_DEPTH: usize = 64;
+/// How many files (the graph and its recipes) one graph may read.
+pub const MAX_SOURCES: usize = 4096;
+
 /// Expands every `include` of a parsed graph into it, recursively. Problems (a missing file, a
-/// cycle, an override of a node the recipe lacks, the recipe's own problems) are added.
+/// cycle, too deep a chain, an override of a node the recipe lacks, the recipe's own
+/// problems) are added.
 pub fn expand(graph: &mut GraphFile, problems: &mut Vec<Problem>) {
     let root_dir = Path::new(&graph.source.name)
         .parent()
@@ -171,6 +177,23 @@ fn include(
             return;
         }
     };
+    if stack.len() > MAX_DEPTH || root.sources.len() >= MAX_SOURCES {
+        let what = if stack.len() > MAX_DEPTH {
+            format!("recipes nested more than {MAX_DEPTH} deep")
+        } else {
+            format!("more than {MAX_SOURCES} recipe files in one graph")
+        };
+        problems.push(
+            Problem::at(
+                &srcs,
+                inc.file.span,
+                format!("including {} here makes {what}", path.display()),
+            )
+            .label("one include too many")
+            .help("a graph's recipes may include recipes, but not without end: flatten the chain"),
+        );
+        return;
+    }
     if let Some(pos) = stack.iter().position(|(p, _)| *p == canonical) {
         let mut p = Problem::at(
             &srcs,
@@ -185,7 +208,7 @@ fn include(
         problems.push(p);
         return;
     }
-    let text = match std::fs::read_to_string(&canonical) {
+    let text = match crate::read_text(&canonical, crate::GRAPH_FILE_LIMIT) {
         Ok(t) => t,
         Err(e) => {
             problems.push(Problem::at(

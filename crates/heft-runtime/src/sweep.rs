@@ -29,6 +29,9 @@ pub fn parse_axis(text: &str) -> Result<Axis, String> {
     if n < 1 {
         return Err("a sweep axis needs at least 1 value".into());
     }
+    if n > MAX_POINTS {
+        return Err(format!("{n} values: a sweep runs at most {MAX_POINTS} points"));
+    }
     let (a, b) = span.split_once("..").ok_or("expected a range `A..B`")?;
     let split = |s: &str| -> Result<(f64, String), String> {
         let s = s.trim();
@@ -84,10 +87,28 @@ pub fn parse_shard(text: &str) -> Result<(usize, usize), String> {
     Ok((i, n))
 }
 
-/// Every grid point (the last axis varies fastest), as (index, one value per axis).
-pub fn grid(axes: &[Axis]) -> Vec<(usize, Vec<String>)> {
-    let total: usize = axes.iter().map(|a| a.values.len()).product();
-    (0..total)
+/// The most points one sweep runs.
+pub const MAX_POINTS: usize = 100_000;
+
+/// The number of grid points, or why the grid is too large ([`MAX_POINTS`]).
+pub fn grid_size(axes: &[Axis]) -> Result<usize, String> {
+    let total = axes.iter().try_fold(1usize, |t, a| {
+        t.checked_mul(a.values.len()).filter(|&t| t <= MAX_POINTS)
+    });
+    total.ok_or_else(|| {
+        let sizes: Vec<String> = axes.iter().map(|a| a.values.len().to_string()).collect();
+        format!(
+            "the grid of {} points is larger than the {MAX_POINTS} a sweep runs: vary fewer values, or split the sweep",
+            sizes.join(" x ")
+        )
+    })
+}
+
+/// Every grid point (the last axis varies fastest), as (index, one value per axis); the grid
+/// is at most [`MAX_POINTS`] ([`grid_size`]).
+pub fn grid(axes: &[Axis]) -> Result<Vec<(usize, Vec<String>)>, String> {
+    let total = grid_size(axes)?;
+    Ok((0..total)
         .map(|index| {
             let mut rest = index;
             let mut point = vec![String::new(); axes.len()];
@@ -97,7 +118,7 @@ pub fn grid(axes: &[Axis]) -> Vec<(usize, Vec<String>)> {
             }
             (index, point)
         })
-        .collect()
+        .collect())
 }
 
 #[cfg(test)]
@@ -118,13 +139,28 @@ mod tests {
         assert!(parse_axis("b.g=1..2:0").is_err());
     }
 
+    /// A sweep too large to run is refused with the sizes, never wrapped round to an empty
+    /// grid ("swept 0 of 0 points") or allocated until the memory runs out.
+    #[test]
+    fn grids_too_large_are_refused() {
+        let e = parse_axis("a.x=1..2:1000000000000").unwrap_err();
+        assert!(e.contains("at most 100000 points"), "{e}");
+        let big = parse_axis("a.x=1..2:100000").expect("axis");
+        let e = grid(&[big.clone(), big.clone(), big]).unwrap_err();
+        assert!(
+            e.contains("100000 x 100000 x 100000 points is larger than the 100000"),
+            "{e}"
+        );
+        assert_eq!(grid_size(&[parse_axis("a.x=1..2:100000").expect("axis")]), Ok(100_000));
+    }
+
     #[test]
     fn grid_is_row_major_and_shards_partition_it() {
         let axes = [
             parse_axis("a.x=1..2:2").expect("axis"),
             parse_axis("b.y=10..30:3").expect("axis"),
         ];
-        let g = grid(&axes);
+        let g = grid(&axes).expect("a small grid");
         assert_eq!(g.len(), 6);
         assert_eq!(g[1].1, ["1", "20"]);
         assert_eq!(g[3].1, ["2", "10"]);
