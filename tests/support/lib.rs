@@ -73,14 +73,33 @@ pub fn fixture_dir() -> &'static Path {
     DIR.get_or_init(|| {
         let profile = profile_dir();
         let target = profile.parent().expect("target folder").join("fixture-plugins");
-        build(
-            &[
-                "heft-test-plugin-wrong-abi",
-                "heft-test-plugin-probe",
-                "heft-test-plugin-no-entry",
-            ],
-            &target,
-        );
+        // The fixtures are rlibs in the workspace (so a workspace build never puts them beside
+        // `heft`); their loadable libraries are built here, as cdylibs, one crate at a time.
+        let release = profile.file_name().is_some_and(|n| n == "release");
+        for p in [
+            "heft-test-plugin-wrong-abi",
+            "heft-test-plugin-probe",
+            "heft-test-plugin-no-entry",
+        ] {
+            let mut cmd = Command::new(cargo());
+            cmd.current_dir(workspace_root())
+                .args([
+                    "rustc",
+                    "--quiet",
+                    "--lib",
+                    "--crate-type",
+                    "cdylib",
+                    "-p",
+                    p,
+                    "--target-dir",
+                ])
+                .arg(&target);
+            if release {
+                cmd.arg("--release");
+            }
+            let status = cmd.status().expect("cargo runs");
+            assert!(status.success(), "building {p} failed");
+        }
         target.join(profile.file_name().expect("profile name"))
     })
 }

@@ -419,16 +419,51 @@ fn send(sink: ByteSink, bytes: &[u8]) {
     unsafe { (sink.write)(sink.ctx, bytes.as_ptr(), bytes.len()) }
 }
 
-/// Runs `f`, turning a panic into [`Status::Panic`] with its message sent to `sink`.
+thread_local! {
+    /// True while this thread runs a node's code inside [`guarded`].
+    static GUARDED: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+    /// The message and place of the last panic caught inside [`guarded`] on this thread.
+    static CAUGHT: std::cell::RefCell<Option<String>> = const { std::cell::RefCell::new(None) };
+}
+
+/// Installs (once) a panic hook that, for a panic inside [`guarded`], keeps the message and
+/// its place for the error instead of printing it with a backtrace: the host reports it,
+/// naming the node. Any other panic goes to the hook that was there before (a plugin linked
+/// into a test binary shares that binary's hook).
+fn quiet_hook() {
+    static ONCE: std::sync::Once = std::sync::Once::new();
+    ONCE.call_once(|| {
+        let before = std::panic::take_hook();
+        std::panic::set_hook(Box::new(move |info| {
+            if GUARDED.with(std::cell::Cell::get) {
+                let place = info.location().map(|l| format!(" (at {}:{})", l.file(), l.line()));
+                let text = format!("{}{}", panic_text(info.payload()), place.unwrap_or_default());
+                CAUGHT.with(|c| *c.borrow_mut() = Some(text));
+            } else {
+                before(info);
+            }
+        }));
+    });
+}
+
+/// Runs `f`, turning a panic into [`Status::Panic`] with its message (and place) sent to
+/// `sink`; the panic prints nothing of its own.
 fn guarded(sink: ByteSink, f: impl FnOnce() -> Result<(), (Status, String)>) -> i32 {
-    match catch_unwind(AssertUnwindSafe(f)) {
+    quiet_hook();
+    let outer = GUARDED.with(|g| g.replace(true));
+    let result = catch_unwind(AssertUnwindSafe(f));
+    GUARDED.with(|g| g.set(outer));
+    match result {
         Ok(Ok(())) => Status::Ok as i32,
         Ok(Err((status, msg))) => {
             send(sink, msg.as_bytes());
             status as i32
         }
         Err(payload) => {
-            send(sink, format!("panicked: {}", panic_text(payload.as_ref())).as_bytes());
+            let text = CAUGHT
+                .with(|c| c.borrow_mut().take())
+                .unwrap_or_else(|| panic_text(payload.as_ref()));
+            send(sink, text.as_bytes());
             Status::Panic as i32
         }
     }
