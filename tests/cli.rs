@@ -357,3 +357,51 @@ fn impossible_requests_are_refused_before_any_work() {
     assert_eq!(o.status.code(), Some(2));
     assert!(text(&o).1.contains("65535 is not in 1..=1024"), "{}", text(&o).1);
 }
+
+/// Plugins pinned for a farm: the first run with `--plugin-lock` writes the lock (the graph's
+/// plugin and the SHA-256 of its file, checked against coreutils' `sha256sum`, a hasher heft did
+/// not write), later runs with it succeed while the plugin is the same, and are refused, before
+/// anything is loaded from it, once its file has other contents.
+#[test]
+fn a_plugin_lock_pins_the_plugins_of_a_run() {
+    let inst = install(&[library(plugin_dir(), "heft_trajectory")]);
+    let dir = tempfile::tempdir().expect("temp dir");
+    let lock = dir.path().join("plugins.lock");
+    let run = |out: &str| {
+        heft_in(inst.path())
+            .args(["run", "graphs/toss.graph", "--plugin-lock"])
+            .arg(&lock)
+            .arg("--out")
+            .arg(dir.path().join(out))
+            .output()
+            .expect("runs")
+    };
+    let o = run("a");
+    assert!(o.status.success(), "{}", text(&o).1);
+    assert!(text(&o).1.contains("wrote the plugin lock"), "{}", text(&o).1);
+    let written: serde_json::Value = serde_json::from_slice(&std::fs::read(&lock).expect("lock")).expect("json");
+    let file = library(inst.path(), "heft_trajectory");
+    let sum = std::process::Command::new("sha256sum")
+        .arg(&file)
+        .output()
+        .expect("sha256sum runs");
+    let sum = String::from_utf8_lossy(&sum.stdout);
+    assert_eq!(written["plugins"][0]["name"], "trajectory");
+    assert_eq!(written["plugins"][0]["sha256"].as_str(), sum.split_whitespace().next());
+    assert_eq!(written["plugins"].as_array().map(Vec::len), Some(1));
+
+    let o = run("b");
+    assert!(o.status.success(), "{}", text(&o).1);
+    assert!(!text(&o).1.contains("wrote the plugin lock"), "{}", text(&o).1);
+
+    // Another library under the pinned file name.
+    std::fs::copy(library(plugin_dir(), "heft_weight"), &file).expect("copy");
+    let o = run("c");
+    assert_eq!(o.status.code(), Some(1));
+    let err = text(&o).1;
+    assert!(
+        err.contains("plugin `trajectory` (") && err.contains("has changed since") && err.contains("it was not loaded"),
+        "{err}"
+    );
+    assert!(!dir.path().join("c").exists(), "nothing written");
+}

@@ -8,6 +8,7 @@ use std::time::Instant;
 
 use clap::{Args, Parser, Subcommand};
 use heft_formats::output;
+use heft_formats::plugin_lock::PluginLock;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::render;
 use heft_runtime::registry::{Registry, search_path};
@@ -94,6 +95,10 @@ pub(crate) struct GraphArgs {
     /// Override a parameter: `node.param=VALUE`, with units (`jump.mass=58 kg`). Repeatable.
     #[arg(long = "set", value_name = "NODE.PARAM=VALUE")]
     pub(crate) set: Vec<String>,
+    /// Pin the plugins: the first run writes FILE (the SHA-256 of each plugin the graph
+    /// uses); later runs load only those files and are refused when one has changed.
+    #[arg(long = "plugin-lock", value_name = "FILE")]
+    pub(crate) plugin_lock: Option<PathBuf>,
     /// Evaluate these frames instead of the graph's range: `A..B`, inclusive.
     #[arg(long, value_name = "A..B", value_parser = parse_frames, allow_hyphen_values = true)]
     pub(crate) frames: Option<(i64, i64)>,
@@ -122,7 +127,26 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let color = std::io::stderr().is_terminal();
     let dirs = search_path(&cli.plugins);
-    let registry = heft_formats::discover(&dirs);
+    let lock_path = match &cli.command {
+        Command::Run { graph, .. } | Command::Sweep { graph, .. } | Command::Check { graph } => {
+            graph.plugin_lock.clone()
+        }
+        Command::Nodes { .. } => None,
+    };
+    let mut lock = match lock_path.as_deref().map(PluginLock::read).transpose() {
+        Ok(l) => l,
+        Err(e) => {
+            eprintln!("error: {e}");
+            return ExitCode::from(FAILED);
+        }
+    };
+    let registry = heft_formats::with_sources(Registry::discover_admitting(&dirs, &mut |path, sha| {
+        lock.as_mut().is_none_or(|l| l.admit(path, sha))
+    }));
+    if let Some(Err(e)) = lock.as_ref().map(|l| l.verify(&registry)) {
+        eprintln!("error: {e}");
+        return ExitCode::from(FAILED);
+    }
     if cli.verbose {
         eprintln!("plugin folders searched, in order:");
         for d in &dirs {
@@ -137,6 +161,9 @@ fn main() -> ExitCode {
         Command::Nodes { node_type } => describe::nodes(&registry, node_type.as_deref()),
         Command::Check { graph } => match plan(&registry, graph, color, cli.quiet) {
             Some(plan) => {
+                if !pin(lock.as_ref(), &plan, cli.quiet) {
+                    return ExitCode::from(FAILED);
+                }
                 if !cli.quiet {
                     println!(
                         "{}: ok ({} nodes, {} frames, {} outputs)",
@@ -173,11 +200,31 @@ fn main() -> ExitCode {
             let Some(plan) = plan(&registry, graph, color, cli.quiet) else {
                 return ExitCode::from(FAILED);
             };
+            if !pin(lock.as_ref(), &plan, cli.quiet) {
+                return ExitCode::from(FAILED);
+            }
             let say = Say {
                 quiet: cli.quiet,
                 verbose: cli.verbose,
             };
             run(&plan, &graph.graph, out, threads.map(usize::from), started, say)
+        }
+    }
+}
+
+/// Writes the plugin lock when it is new; false (with the error said) when it cannot be written.
+fn pin(lock: Option<&PluginLock>, plan: &Plan, quiet: bool) -> bool {
+    let Some(lock) = lock else { return true };
+    match lock.write_if_new(plan) {
+        Ok(wrote) => {
+            if wrote && !quiet {
+                eprintln!("note: wrote the plugin lock: later runs with it load only these plugin files");
+            }
+            true
+        }
+        Err(e) => {
+            eprintln!("error: {e}");
+            false
         }
     }
 }

@@ -11,6 +11,7 @@ pub mod commit;
 pub mod gltf_out;
 pub mod output;
 pub mod plots;
+pub mod plugin_lock;
 pub mod quat;
 pub mod tracks;
 

@@ -141,6 +141,13 @@ impl Registry {
     /// Loads every plugin in the folders, in order. Missing folders are skipped; the same
     /// file reached twice is loaded once.
     pub fn discover(dirs: &[PathBuf]) -> Registry {
+        Registry::discover_admitting(dirs, &mut |_, _| true)
+    }
+
+    /// [`Registry::discover`], loading only the files `admit` accepts, given each file's path
+    /// and SHA-256 (hex) read before the file is loaded: loading a library runs its start-up
+    /// code, so a file is judged by its contents first (plugins pinned by a lock file).
+    pub fn discover_admitting(dirs: &[PathBuf], admit: &mut dyn FnMut(&Path, &str) -> bool) -> Registry {
         let mut reg = Registry::new();
         let mut seen = std::collections::BTreeSet::new();
         for dir in dirs {
@@ -153,7 +160,10 @@ impl Registry {
             for file in files {
                 let key = std::fs::canonicalize(&file).unwrap_or_else(|_| file.clone());
                 if seen.insert(key) {
-                    reg.load_file(&file);
+                    let sha = sha256_hex(&file);
+                    if admit(&file, &sha) {
+                        reg.load_file_with(&file, sha);
+                    }
                 }
             }
         }
@@ -162,11 +172,13 @@ impl Registry {
 
     /// Loads one library file; a failure is recorded, not returned.
     pub fn load_file(&mut self, path: &Path) {
+        let sha = sha256_hex(path);
+        self.load_file_with(path, sha);
+    }
+
+    fn load_file_with(&mut self, path: &Path, sha256: String) {
         match Plugin::load(path) {
-            Ok(plugin) => self.add(LoadedPlugin {
-                sha256: sha256_hex(path),
-                plugin,
-            }),
+            Ok(plugin) => self.add(LoadedPlugin { sha256, plugin }),
             Err(e) => self.failures.push(e),
         }
     }
