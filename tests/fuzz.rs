@@ -14,11 +14,11 @@ use std::time::Duration;
 use std::sync::LazyLock;
 
 use heft_integration_tests::{registry, workspace_root};
-use heft_runtime::registry::Registry;
 use heft_runtime::check::{Overrides, check};
 use heft_runtime::diag::render;
 use heft_runtime::eval::evaluate;
 use heft_runtime::read_graph;
+use heft_runtime::registry::Registry;
 
 /// splitmix64 (Steele, Lea & Flood 2014): a small, well-mixed seeded generator.
 struct Mix(u64);
@@ -41,9 +41,45 @@ static REGISTRY: LazyLock<Registry> = LazyLock::new(registry);
 
 /// Pieces a mutation may insert: the graph language's own tokens and some troublemakers.
 const PIECES: &[&str] = &[
-    "->", ".", "=", "..", "\n", "    ", "#", "\"", "(", ")", ",", ":", "1e308", "-1e308", "nan", "inf", "0", "-0",
-    "9223372036854775807", "cm", "kg", "m/s", "deg", "fps", "frames", "rate", "write", "bake", "plot", "include",
-    "as", "format 1", "\u{feff}", "é", "\t", "\r\n", "count = 4096", "segments = 255", "key = 0 s: (0, 0, 1) m",
+    "->",
+    ".",
+    "=",
+    "..",
+    "\n",
+    "    ",
+    "#",
+    "\"",
+    "(",
+    ")",
+    ",",
+    ":",
+    "1e308",
+    "-1e308",
+    "nan",
+    "inf",
+    "0",
+    "-0",
+    "9223372036854775807",
+    "cm",
+    "kg",
+    "m/s",
+    "deg",
+    "fps",
+    "frames",
+    "rate",
+    "write",
+    "bake",
+    "plot",
+    "include",
+    "as",
+    "format 1",
+    "\u{feff}",
+    "é",
+    "\t",
+    "\r\n",
+    "count = 4096",
+    "segments = 255",
+    "key = 0 s: (0, 0, 1) m",
 ];
 
 /// One mutation of `bytes`: a byte changed, a piece inserted, a run deleted or repeated, or
@@ -179,10 +215,7 @@ fn mutated_graphs_never_panic_or_hang() {
         }
         let path = graphs.join(format!("case{case}.graph"));
         std::fs::write(&path, &bytes).expect("write");
-        let what = format!(
-            "case {case} (from {name}.graph):\n{}",
-            String::from_utf8_lossy(&bytes)
-        );
+        let what = format!("case {case} (from {name}.graph):\n{}", String::from_utf8_lossy(&bytes));
         bounded(what, Duration::from_secs(60), move || exercise(&path));
     }
 }
@@ -214,7 +247,11 @@ fn mutated_tracks_and_characters_never_panic_or_hang() {
         let mut bytes = original.clone();
         for _ in 0..1 + r.below(8) {
             // Most mutations where the structure is (the CSV's header, the glb's JSON chunk).
-            let cut = if r.below(4) == 0 { bytes.len() } else { bytes.len().min(2048) };
+            let cut = if r.below(4) == 0 {
+                bytes.len()
+            } else {
+                bytes.len().min(2048)
+            };
             let tail = bytes.split_off(cut);
             mutate(&mut bytes, &mut r);
             bytes.extend(tail);
