@@ -164,23 +164,39 @@ fn a_missing_file_is_an_error_at_the_file_line() {
     );
 }
 
+/// A file given on the command line is found as a shell user expects: relative to the folder
+/// heft runs in, not to the graph's folder (`graphs/other.csv` is a decoy with other values).
+/// In the graph itself, the path is the graph's own (`plate.csv` beside it).
 #[test]
-fn the_file_can_be_set_from_the_command_line_without_quotes() {
+fn a_file_set_on_the_command_line_is_relative_to_where_heft_runs() {
     let dir = tempfile::tempdir().expect("temp dir");
+    let graphs = dir.path().join("graphs");
+    std::fs::create_dir_all(&graphs).expect("mkdir");
     std::fs::write(dir.path().join("other.csv"), "time,Fz\n0,7\n0.01,8\n0.02,9\n0.03,10\n").expect("write");
-    std::fs::write(dir.path().join("plate.csv"), "time,Fz\n0,1\n0.01,2\n0.02,3\n0.03,4\n").expect("write");
-    let graph = dir.path().join("g.graph");
-    std::fs::write(&graph, format!("format 1\nrate 100 fps\nframes 0..3\n{NODE}")).expect("write graph");
-    let (g, p) = read_graph(&graph).expect("readable");
-    let set = Overrides {
-        set: vec!["plate.file=other.csv".into()],
-        frames: None,
+    std::fs::write(graphs.join("other.csv"), "time,Fz\n0,-1\n0.01,-1\n0.02,-1\n0.03,-1\n").expect("write");
+    std::fs::write(graphs.join("plate.csv"), "time,Fz\n0,1\n0.01,2\n0.02,3\n0.03,4\n").expect("write");
+    std::fs::write(
+        graphs.join("g.graph"),
+        format!("format 1\nrate 100 fps\nframes 0..3\n{NODE}"),
+    )
+    .expect("write graph");
+    let force = |set: Option<&str>| -> Vec<f64> {
+        let mut cmd = heft_integration_tests::heft();
+        cmd.current_dir(dir.path())
+            .args(["run", "graphs/g.graph", "--quiet", "--out", "out"]);
+        if let Some(s) = set {
+            cmd.args(["--set", s]);
+        }
+        let o = cmd.output().expect("runs");
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let text = std::fs::read_to_string(dir.path().join("out/plate.value.csv")).expect("csv");
+        text.lines()
+            .skip(1)
+            .map(|l| l.rsplit(',').next().unwrap().parse().unwrap())
+            .collect()
     };
-    let plan = check(&g, p, &registry(), &set).expect("checks");
-    assert_eq!(
-        evaluate(&plan, None).expect("evaluates").values[0][0],
-        [7.0, 8.0, 9.0, 10.0]
-    );
+    assert_eq!(force(None), [1.0, 2.0, 3.0, 4.0]);
+    assert_eq!(force(Some("plate.file=other.csv")), [7.0, 8.0, 9.0, 10.0]);
 }
 
 /// Time controls: a take whose shot starts 10 s in reads with `time_offset = 10 s`; `hold`

@@ -62,6 +62,9 @@ impl OutputDir {
     /// the other process, when another run holds the folder.
     pub fn open(dir: &Path) -> Result<OutputDir, WriteError> {
         std::fs::create_dir_all(dir).map_err(|e| werr(dir, format!("cannot create the output folder: {e}")))?;
+        // Absolute, so that every path of a commit compares the same way (temporary files
+        // come back absolute).
+        let dir = &std::path::absolute(dir).map_err(|e| werr(dir, e))?;
         if !dir.is_dir() {
             return Err(werr(dir, "the output path is not a folder"));
         }

@@ -654,7 +654,23 @@ pub fn check(
             continue;
         };
         let Provider::Host(h) = &ty.provider else { continue };
-        match h.load(&states[i].params, &dir_of(decl.name.span), timeline) {
+        // A file given on the command line (`--set plate.file=x.csv`) is relative to the
+        // folder heft runs in, as any path typed in a shell; one in a graph to that graph.
+        let mut params = states[i].params.clone();
+        let from_shell = written[i]
+            .iter()
+            .rev()
+            .find(|w| w.line.name.value == "file")
+            .is_some_and(|w| w.source.name.starts_with("--set"));
+        if from_shell
+            && let Some(k) = ty.spec().params.iter().position(|p| p.name == "file")
+            && let ParamValue::Text(t) = &params[k]
+            && std::path::Path::new(t).is_relative()
+            && let Ok(here) = std::env::current_dir()
+        {
+            params[k] = ParamValue::Text(here.join(t).display().to_string());
+        }
+        match h.load(&params, &dir_of(decl.name.span), timeline) {
             Ok(loaded) => {
                 if let Some(instance) = loaded.instance {
                     states[i].ty = Some(NodeType {
