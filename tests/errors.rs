@@ -812,15 +812,16 @@ fn vector_components_with_their_own_units() {
 /// 70 019 (the renderer once panicked past column 65 536).
 #[test]
 fn a_problem_deep_in_a_long_line_renders_with_its_place() {
+    // 1.000...0 with 69 998 zeros: a long but finite number, then a unit typo.
     let body = format!(
-        "b = trajectory.ballistic\n    launch_time = {}x s\n",
-        "1".repeat(70_000)
+        "b = trajectory.ballistic\n    launch_time = 1.{}x s\n",
+        "0".repeat(69_998)
     );
     let p = plan_with(&body, &[], None).expect_err("a bad unit");
     assert_eq!(p.len(), 1, "{p:?}");
     assert_eq!(p[0].location(), "t.graph:5:70019");
     let text = render(&p, false);
-    assert!(text.contains("[t.graph:5:70019]") && text.contains("… 1111"), "{text}");
+    assert!(text.contains("[t.graph:5:70019]") && text.contains("… 0000"), "{text}");
     assert!(
         text.len() < 2_000,
         "only the neighbourhood is shown: {} bytes",
@@ -873,5 +874,43 @@ fn output_names_that_are_folders_or_heft_s_own_are_refused() {
                 "`.heft-lock.glb`: names starting with `.heft-` are heft's own in the output folder"
             ),
         ])
+    );
+}
+
+/// Edges the fuzzing found, each said for what it is: a rate of 0, a number past the largest
+/// f64 (which read as infinity, in a key time, a key vector and a number), a wire from a node
+/// with no output named, and frame numbers past 2^53 (which saturated to i64's limit).
+#[test]
+fn edges_are_named_for_what_they_are() {
+    let p = problems("format 1\nrate 0 fps\nframes 1..10\n");
+    assert_eq!(
+        located(&p),
+        expect(&[(
+            "t.graph:2:1",
+            "a frame rate of 0 has no frames: give frames per second above 0"
+        )])
+    );
+    let p = body_problems(
+        "p = trajectory.keyed\n    key = 0 s: (0, 0, 1) m\n    key = 1e309 s: (0, 0, 1) m\n    key = 2 s: (0, 1e400, 1) m\n\
+         b = trajectory.ballistic\n    launch_time = 1e999 s\nb -> p.anchor\n",
+    );
+    let too_large = |n: &str| format!("`{n}` holds a number beyond the largest heft can hold (about 1.8e308)");
+    assert_eq!(
+        located(&p)[..3],
+        expect(&[
+            ("t.graph:10:1", "a wire starts at an output, `b.OUTPUT`, not at a node"),
+            ("t.graph:6:11", &too_large("key")),
+            ("t.graph:7:11", &too_large("key")),
+        ])[..]
+    );
+    assert!(
+        located(&p).contains(&("t.graph:9:19".to_owned(), too_large("launch_time"))),
+        "{:?}",
+        located(&p)
+    );
+    let p = problems("format 1\nrate 24 fps\nframes -24..492233720368547758078\n");
+    assert_eq!(
+        located(&p),
+        expect(&[("t.graph:3:1", "frame numbers run from -2^53 to 2^53 (9007199254740992)")])
     );
 }

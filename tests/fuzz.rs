@@ -215,6 +215,10 @@ fn mutated_graphs_never_panic_or_hang() {
         }
         let path = graphs.join(format!("case{case}.graph"));
         std::fs::write(&path, &bytes).expect("write");
+        if let Ok(keep) = std::env::var("HEFT_FUZZ_LAST") {
+            // For a case that kills the process (out of memory): the last one started.
+            std::fs::write(keep, &bytes).expect("write");
+        }
         let what = format!("case {case} (from {name}.graph):\n{}", String::from_utf8_lossy(&bytes));
         bounded(what, Duration::from_secs(60), move || exercise(&path));
     }

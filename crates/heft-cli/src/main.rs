@@ -351,20 +351,11 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
     }
 }
 
-/// The memory the system has free for a new process, bytes (`MemAvailable` of
-/// /proc/meminfo), where the system says.
-fn available_memory() -> Option<u128> {
-    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
-    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
-    let kib: u128 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kib * 1024)
-}
-
 /// Refuses a run whose outputs alone would not fit in the memory the system has free, before
 /// anything is allocated, naming the largest output.
 fn fits_in_memory(plan: &Plan) -> Result<(), String> {
     let need = plan.footprint();
-    let Some(free) = available_memory() else {
+    let Some(free) = heft_runtime::free_memory() else {
         return Ok(());
     };
     if need.total <= free {

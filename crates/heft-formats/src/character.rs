@@ -790,8 +790,17 @@ fn read(path: &Path, shown: &str, req: &Request<'_>, times: &[f64]) -> Result<Ch
         }
     }
 
-    // Local TRS per node per frame.
+    // Local TRS per node per frame: first, whether that fits.
     let frames = times.len();
+    let per = (std::mem::size_of::<Trs>() + std::mem::size_of::<Affine>() + 7 * 8) as u128;
+    heft_runtime::check_memory(frames as u128 * nodes.len() as u128 * per).map_err(|e| CharacterError {
+        param: "file",
+        message: format!(
+            "{shown}: reading its {} nodes at {frames} frames needs {e}",
+            nodes.len()
+        ),
+        help: Some("evaluate fewer frames (`frames`, `--frames`)".to_owned()),
+    })?;
     let mut local: Vec<Vec<Trs>> = nodes.iter().map(|n| vec![n.rest; frames]).collect();
     for c in &curves {
         for (f, &t) in clip_times.iter().enumerate() {

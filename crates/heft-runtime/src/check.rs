@@ -199,6 +199,16 @@ fn vector_si(
     Ok(si)
 }
 
+/// A number too large to hold, at its place.
+fn too_large(source: &Arc<Source>, span: Span, name: &str) -> Problem {
+    Problem::new(
+        source,
+        span,
+        format!("`{name}` holds a number beyond the largest heft can hold (about 1.8e308)"),
+    )
+    .label("too large")
+}
+
 /// Converts a written value to the parameter's SI value, checking type, unit and range.
 pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -> Result<ParamValue, Problem> {
     let name = &spec.name;
@@ -207,6 +217,30 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
         Problem::new(source, span, format!("`{name}` takes {want}"))
             .label(format!("not {want}"))
             .help(format!("{name}: {}", spec.doc))
+    };
+    // A literal past the largest f64 (`1e309`) reads as infinity: refused, never carried on.
+    let numbers: &[f64] = match &value.value {
+        Value::Number { value, .. } => std::slice::from_ref(value),
+        Value::Vector { values, .. } => values,
+        Value::Key { time, values, .. } => {
+            if !time.is_finite() {
+                return Err(too_large(source, span, name));
+            }
+            values
+        }
+        Value::Word(_) | Value::Text(_) => &[],
+    };
+    if numbers.iter().any(|v| !v.is_finite()) {
+        return Err(too_large(source, span, name));
+    }
+    let finite = |p: ParamValue| -> Result<ParamValue, Problem> {
+        let ok = match &p {
+            ParamValue::Number(v) => v.is_finite(),
+            ParamValue::Vec3(v) => v.iter().all(|c| c.is_finite()),
+            ParamValue::Keys(k) => k.iter().all(|(t, v)| t.is_finite() && v.iter().all(|c| c.is_finite())),
+            _ => true,
+        };
+        if ok { Ok(p) } else { Err(too_large(source, span, name)) }
     };
     match (&spec.ty, &value.value) {
         (ParamType::Number { dimension, min, max }, Value::Number { value: v, unit, .. }) => {
@@ -299,7 +333,7 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
                 span,
             )?;
             let si = vector_si(source, values, unit, units, *dimension, name, span)?;
-            Ok(ParamValue::Keys(vec![(time * tf, si)]))
+            finite(ParamValue::Keys(vec![(time * tf, si)]))
         }
         (ParamType::Text, Value::Text(t) | Value::Word(t)) => Ok(ParamValue::Text(t.clone())),
         (ParamType::Text, _) => Err(mismatch("a quoted text")),

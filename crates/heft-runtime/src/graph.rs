@@ -25,6 +25,10 @@ use crate::diag::{Problem, Source, Span};
 /// The graph format version this heft reads.
 pub const FORMAT_VERSION: u32 = 1;
 
+/// The statements of the language, for help texts.
+const STATEMENTS: &str = "statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in`, \
+                          `write node.port`, `bake \"file.glb\"`, `plot \"file.svg\"` and `include \"recipe.graph\" as name`";
+
 /// Words that start a statement and cannot name a node.
 pub const KEYWORDS: &[&str] = &["format", "rate", "frames", "write", "as", "bake", "plot", "include"];
 
@@ -543,7 +547,7 @@ fn statement(
     let Some(word) = line.ident() else {
         return Err(problem(source, Span::new(start, start + 1), "expected a statement")
             .label("not a statement")
-            .help("statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in` and `write node.port`"));
+            .help(STATEMENTS));
     };
     let end_check = |line: &mut Line<'_>| -> Result<(), Problem> {
         if line.done() {
@@ -597,6 +601,14 @@ fn statement(
                 )
                 .label("not a frame rate"));
             };
+            if num.value.0 == 0.0 || den.as_ref().is_some_and(|d| d.value.0 == 0.0) {
+                return Err(problem(
+                    source,
+                    span,
+                    "a frame rate of 0 has no frames: give frames per second above 0",
+                )
+                .help("for example `rate 24 fps`"));
+            }
             if !ok_int(&num) || den.as_ref().is_some_and(|d| !ok_int(d)) {
                 return Err(problem(
                     source,
@@ -624,6 +636,14 @@ fn statement(
             end_check(line)?;
             if !a.value.1 || !b.value.1 {
                 return Err(problem(source, span, "frame numbers are whole numbers"));
+            }
+            // Whole numbers are read as f64: beyond 2^53 they are no longer exact.
+            const EXACT: f64 = 9_007_199_254_740_992.0;
+            if a.value.0.abs() > EXACT || b.value.0.abs() > EXACT {
+                return Err(
+                    problem(source, span, "frame numbers run from -2^53 to 2^53 (9007199254740992)")
+                        .help("a run evaluates at most ten million frames: `frames 1..96`"),
+                );
             }
             if b.value.0 < a.value.0 {
                 return Err(problem(source, span, "the frame range ends before it starts")
@@ -784,10 +804,24 @@ fn statement(
                     ty,
                     params: Vec::new(),
                 }));
+            } else if line.rest().trim_start().starts_with("->") {
+                // `head -> tail.anchor`: a wire whose start names a node but not its output.
+                return Err(problem(
+                    source,
+                    word.span,
+                    format!("a wire starts at an output, `{}.OUTPUT`, not at a node", word.value),
+                )
+                .label("no output named")
+                .help(format!(
+                    "write `{}.<output> -> ...`; `heft nodes TYPE` lists a node type's outputs",
+                    word.value
+                )));
             } else {
-                return Err(problem(source, word.span, format!("unknown statement `{}`", word.value))
-                    .label("not a statement")
-                    .help("statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in` and `write node.port`"));
+                return Err(
+                    problem(source, word.span, format!("unknown statement `{}`", word.value))
+                        .label("not a statement")
+                        .help(STATEMENTS),
+                );
             }
         }
     }

@@ -24,6 +24,30 @@ pub const GRAPH_FILE_LIMIT: u64 = 64 << 20;
 /// The largest data file (a CSV track, a glTF character) heft reads, bytes.
 pub const DATA_FILE_LIMIT: u64 = 4 << 30;
 
+/// The memory the system has free for a new allocation, bytes (`MemAvailable` of
+/// /proc/meminfo), where the system says; `None` elsewhere.
+pub fn free_memory() -> Option<u128> {
+    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
+    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+    let kib: u128 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib * 1024)
+}
+
+/// Whether `bytes` more can be held, or why not (for a message that goes on "needs ...").
+pub fn check_memory(bytes: u128) -> Result<(), String> {
+    match free_memory() {
+        Some(free) if bytes > free => {
+            let gib = |b: u128| b as f64 / (1u128 << 30) as f64;
+            Err(format!(
+                "{:.1} GiB, more than the {:.1} GiB this machine has free",
+                gib(bytes),
+                gib(free)
+            ))
+        }
+        _ => Ok(()),
+    }
+}
+
 /// Reads a whole file, but no more than `limit` bytes: a larger file (or an endless one, such
 /// as a device) is an error saying so, before it can fill the memory.
 pub fn read_limited(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
