@@ -237,7 +237,7 @@ fn mutated_tracks_and_characters_never_panic_or_hang() {
             (
                 "plate.csv",
                 "format 1\nrate 1000 fps\nframes 0..99\nplate = track.force\n    file = \"plate.csv\"\n    \
-                 time_column = \"time [s]\"\n    column = \"force [N]\"\nwrite plate.value\n",
+                 time_column = \"time [s]\"\n    column = \"weight.force [N]\"\nwrite plate.value\n",
                 &csv,
             )
         } else {

@@ -50,9 +50,9 @@ fn ballistic_apex_and_flight_time_match_closed_form() {
         [
             "frame",
             "time [s]",
-            "position.x [m]",
-            "position.y [m]",
-            "position.z [m]"
+            "tamsin.position.x [m]",
+            "tamsin.position.y [m]",
+            "tamsin.position.z [m]"
         ]
     );
     let (_, vel) = read_csv(&out.path().join("tamsin.velocity.csv"));

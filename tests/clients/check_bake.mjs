@@ -33,7 +33,7 @@
 //   that animation holds heft's channels and is played (the character's other clips are its own);
 //   a node showing a series heft computed has
 //   extras.heft = {"name": "braid.positions.s0.j3", "series": "braid.positions", "point": 3}
-//   ("point": the index k of the CSV columns `<port>.p<k>.x [m]`; absent for a vec3 or a
+//   ("point": the index k of the CSV columns `<node>.<port>.p<k>.x [m]`; absent for a vec3 or a
 //   transform series). A CSV output of run.json has "node" and "port" (its series is
 //   node + "." + port) and "file"; its header is `frame,time [s],<columns>` and its first
 //   column is the frame number.
@@ -250,7 +250,12 @@ function csvSeries(dir, run) {
   for (const o of run.outputs ?? []) {
     if (o.kind === 'glTF 2.0' || typeof o.file !== 'string' || !o.file.endsWith('.csv')) continue;
     if (!o.node || !o.port) continue;
-    series.set(`${o.node}.${o.port}`, { port: o.port, file: o.file, path: path.join(dir, o.file), csv: null });
+    series.set(`${o.node}.${o.port}`, {
+      port: `${o.node}.${o.port}`,
+      file: o.file,
+      path: path.join(dir, o.file),
+      csv: null,
+    });
   }
   return series;
 }

@@ -36,7 +36,8 @@ fn werr(path: &Path, e: impl std::fmt::Display) -> WriteError {
     }
 }
 
-/// The CSV text of one output.
+/// The CSV text of one output. Its columns carry the node's name and the output's
+/// (`braid.positions.p0.x [m]`), so that files merged by a data tool keep apart.
 pub fn csv_text(plan: &Plan, eval: &Evaluation, node: usize, output: usize) -> Result<Vec<u8>, String> {
     let pn = &plan.nodes[node];
     let port = &pn.ty.spec().outputs[output];
@@ -44,7 +45,7 @@ pub fn csv_text(plan: &Plan, eval: &Evaluation, node: usize, output: usize) -> R
     let values = &eval.values[node][output];
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut header = vec!["frame".to_owned(), "time [s]".to_owned()];
-    header.extend(columns(&port.name, shape, port.dimension));
+    header.extend(columns(&format!("{}.{}", pn.name, port.name), shape, port.dimension));
     w.write_record(&header).map_err(|e| e.to_string())?;
     let width = shape.width();
     let mut row: Vec<String> = Vec::with_capacity(width + 2);
@@ -165,7 +166,11 @@ pub fn write_all(
             node: pn.name.clone(),
             port: port.name.clone(),
             kind: pn.outputs[w.output].to_string(),
-            columns: columns(&port.name, pn.outputs[w.output], port.dimension),
+            columns: columns(
+                &format!("{}.{}", pn.name, port.name),
+                pn.outputs[w.output],
+                port.dimension,
+            ),
         });
     }
     for bake in &plan.bakes {
