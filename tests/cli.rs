@@ -405,3 +405,42 @@ fn a_plugin_lock_pins_the_plugins_of_a_run() {
     );
     assert!(!dir.path().join("c").exists(), "nothing written");
 }
+
+/// The install step: install.sh puts heft and its plugins in PREFIX/lib/heft and links
+/// PREFIX/bin/heft to it; run through the link, from another folder, heft finds every plugin
+/// (it follows the link to its own folder) and runs a graph.
+#[test]
+fn the_install_script_puts_heft_where_a_shell_finds_it_with_its_plugins() {
+    let prefix = tempfile::tempdir().expect("temp dir");
+    let o = std::process::Command::new("sh")
+        .arg(heft_integration_tests::workspace_root().join("install.sh"))
+        .arg(prefix.path())
+        .env("HEFT_BUILD_DIR", plugin_dir())
+        .output()
+        .expect("sh runs");
+    assert!(o.status.success(), "{}", text(&o).1);
+    assert!(text(&o).0.contains("installed heft and"), "{}", text(&o).0);
+    let exe = prefix.path().join("bin/heft");
+    assert!(std::fs::symlink_metadata(&exe).expect("bin/heft").file_type().is_symlink());
+    let o = std::process::Command::new(&exe)
+        .arg("nodes")
+        .current_dir(prefix.path())
+        .env_remove("HEFT_PLUGIN_PATH")
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", text(&o).1);
+    for plugin in ["trajectory", "strand", "xpbd", "collider"] {
+        assert!(text(&o).0.contains(&format!("{plugin} 0.1.0")), "{plugin}: {}", text(&o).0);
+    }
+    let graph = heft_integration_tests::workspace_root().join("graphs/toss.graph");
+    let o = std::process::Command::new(&exe)
+        .arg("run")
+        .arg(graph)
+        .args(["--quiet", "--out", "out"])
+        .current_dir(prefix.path())
+        .env_remove("HEFT_PLUGIN_PATH")
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", text(&o).1);
+    assert!(prefix.path().join("out/run.json").exists());
+}
