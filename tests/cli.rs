@@ -421,7 +421,12 @@ fn the_install_script_puts_heft_where_a_shell_finds_it_with_its_plugins() {
     assert!(o.status.success(), "{}", text(&o).1);
     assert!(text(&o).0.contains("installed heft and"), "{}", text(&o).0);
     let exe = prefix.path().join("bin/heft");
-    assert!(std::fs::symlink_metadata(&exe).expect("bin/heft").file_type().is_symlink());
+    assert!(
+        std::fs::symlink_metadata(&exe)
+            .expect("bin/heft")
+            .file_type()
+            .is_symlink()
+    );
     let o = std::process::Command::new(&exe)
         .arg("nodes")
         .current_dir(prefix.path())
@@ -430,7 +435,11 @@ fn the_install_script_puts_heft_where_a_shell_finds_it_with_its_plugins() {
         .expect("runs");
     assert!(o.status.success(), "{}", text(&o).1);
     for plugin in ["trajectory", "strand", "xpbd", "collider"] {
-        assert!(text(&o).0.contains(&format!("{plugin} 0.1.0")), "{plugin}: {}", text(&o).0);
+        assert!(
+            text(&o).0.contains(&format!("{plugin} 0.1.0")),
+            "{plugin}: {}",
+            text(&o).0
+        );
     }
     let graph = heft_integration_tests::workspace_root().join("graphs/toss.graph");
     let o = std::process::Command::new(&exe)

@@ -301,13 +301,13 @@ fn shape_mismatch() {
     };
     // Three points fit.
     let plan = plan_with(&graph(3), &[], None).unwrap_or_else(|p| panic!("{}", render(&p, false)));
-    assert_eq!(plan.nodes[0].outputs[0].to_string(), "points[3]");
+    assert_eq!(plan.nodes[0].outputs[0].to_string(), "3 points");
     let p = body_problems(&graph(4));
     assert_eq!(
         located(&p),
         expect(&[(
             "t.graph:7:1",
-            "`c.points` carries points[4] but `t.corners` takes points[3]"
+            "`c.points` carries 4 points but `t.corners` takes 3 points"
         )])
     );
     assert_eq!(p[0].label, "shape mismatch");

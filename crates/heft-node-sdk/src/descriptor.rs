@@ -74,7 +74,7 @@ impl Shape {
 impl std::fmt::Display for Shape {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self.kind {
-            PortKind::Points => write!(f, "points[{}]", self.points),
+            PortKind::Points => write!(f, "{} points", self.points),
             k => f.write_str(k.name()),
         }
     }

@@ -976,7 +976,7 @@ pub fn check(
                                         srcs,
                                         graph.wires[w].from.span().to(graph.wires[w].to.span()),
                                         format!(
-                                            "`{}` carries {} but `{}` takes points[{need}]",
+                                            "`{}` carries {} but `{}` takes {need} points",
                                             graph.wires[w].from.text(),
                                             shape,
                                             graph.wires[w].to.text()

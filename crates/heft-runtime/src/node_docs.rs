@@ -58,8 +58,8 @@ fn type_text(ty: &ParamType) -> String {
 
 fn port_line(out: &mut String, p: &PortSpec, width: usize) {
     let shape = match (p.kind.name(), p.points) {
-        ("points", Some(n)) => format!("points[{n}]"),
-        ("points", None) => "points[N]".to_owned(),
+        ("points", Some(n)) => format!("{n} points"),
+        ("points", None) => "points".to_owned(),
         (k, _) => k.to_owned(),
     };
     let unit = match p.dimension.si_symbol() {

@@ -239,7 +239,7 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             "wind",
             PortKind::Points,
             Dimension::Velocity,
-            "Wind field (heft_node_sdk::field layout) sampled at the particles.",
+            "A wind field (from noise.wind), sampled at the particles.",
         )
         .optional(),
         tr(
@@ -258,7 +258,7 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             "initial_positions",
             PortKind::Points,
             len,
-            "Frame 0 replaces the rest shape (N = count x (segments + 1), strand-major).",
+            "Frame 0 replaces the rest shape: count x (segments + 1) points, strand by strand.",
         )
         .optional(),
         PortSpec::new(
@@ -283,9 +283,9 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             "colliders",
             PortKind::Points,
             len,
-            "Any number of colliders, three points each (heft_node_sdk::colliders layout: start, end, then the \
-             start and end radii as x and y): a body to collide with, such as trajectory.jump's `colliders` or a \
-             chain of collider.add nodes. Each end moves on the cubic through its frame samples.",
+            "A body to collide with: any number of spheres and capsules in one list, such as trajectory.jump's \
+             `colliders` or the last of a chain of collider.add nodes. Each end moves on the cubic through its \
+             frame samples.",
         )
         .optional(),
     );

@@ -31,8 +31,7 @@ impl Node for Add {
                   added to the end of a collider list."
                 .into(),
             notes: "The output is the input `list` (empty when it is not connected) with one collider after it, \
-                    in the heft_node_sdk::colliders layout: three points per collider, its start, its end and \
-                    (start radius, end radius, 0). The start is `offset` in the frame of `start` (t + R(q) offset, \
+                    as a list of three points per collider: its start, its end, and (start radius, end radius, 0). The start is `offset` in the frame of `start` (t + R(q) offset, \
                     the quaternion normalised). With `end` connected the collider is a capsule to `end_offset` \
                     in the frame of `end` (wire the same joint to both for a capsule along one bone); without it, \
                     a sphere of `radius` at the start. The radius runs linearly from `radius` \
@@ -47,7 +46,7 @@ impl Node for Add {
                     "list",
                     PortKind::Points,
                     len,
-                    "The colliders so far (heft_node_sdk::colliders layout); not connected: none.",
+                    "The colliders so far, a list from another collider.add or a body; not connected: none.",
                 )
                 .optional(),
                 PortSpec::new(

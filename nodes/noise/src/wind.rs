@@ -144,7 +144,7 @@ impl Node for Wind {
                     direct field but has no hard bound. The noise is evaluated at world positions: the grid \
                     (cells^3 samples, spacing apart, axis-aligned in world space, centred on the origin \
                     transform's translation; its rotation is ignored) samples a wind that stays put while the \
-                    grid moves. Output in the heft_node_sdk::field layout. No obstacles or boundaries (Bridson's \
+                    grid moves. Output: a wind field strand nodes read on their `wind` input. No obstacles or boundaries (Bridson's \
                     boundary ramp is not applied) and no advection by the mean wind. The pattern repeats every \
                     256 scale in space and 256/frequency in time. Warnings: the finest octave faster than half the \
                     frame rate, or finer than two grid spacings (the grid cannot resolve it)."
@@ -162,7 +162,7 @@ impl Node for Wind {
                 "field",
                 PortKind::Points,
                 Dimension::Velocity,
-                "The wind field, heft_node_sdk::field layout: 3 header points then cells^3 velocities.",
+                "The wind field for a strand node's `wind` input: a header of 3 points, then the velocity at each sample.",
             )],
             params: vec![
                 common::seed_param(),

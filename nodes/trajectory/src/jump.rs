@@ -834,7 +834,7 @@ impl Node for Jump {
                     "colliders",
                     PortKind::Points,
                     Dimension::Length,
-                    "The body to collide with, 12 colliders in the heft_node_sdk::colliders layout, for a strand's \
+                    "The body to collide with, a list of 12 colliders for a strand's \
                      `colliders` input, in this order: head (a sphere at `head`), trunk (hips to neck), upper arms \
                      (shoulder to elbow) left and right, forearms (elbow to wrist), thighs (hip joint to knee), \
                      shanks (knee to ankle), feet (spheres at the ankles). Radii scale with `body_height` (from \
