@@ -105,7 +105,7 @@ fn write_glb(c: &mut Criterion) {
     reg.add_static(heft_xpbd::plugin_table(), "xpbd (linked)")
         .expect("xpbd");
     let text = "format 1\nrate 24 fps\nframes 0..719\n\
-                hair = xpbd.strand_f32\n    count = 1000\n    segments = 16\n    placement = line\n\
+                hair = xpbd.strand_fast\n    count = 1000\n    segments = 16\n    placement = line\n\
                 bake \"hair.glb\"\n    hair.positions\n";
     let plan = heft_runtime::plan_text("bench.graph", text, &reg, &Overrides::default()).expect("plans");
     // Strands swaying in the plane of their line: the writer's work does not depend on the

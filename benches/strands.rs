@@ -1,4 +1,4 @@
-//! Strand throughput: `xpbd.strand`, `xpbd.strand_f32`, `strand.verlet` and `strand.euler` called through their
+//! Strand throughput: `xpbd.strand`, `xpbd.strand_fast`, `strand.verlet` and `strand.euler` called through their
 //! plugin function tables, against the same chains built in rapier3d (a general-purpose
 //! rigid-body engine from crates.io) with spherical impulse joints. Before the benches it prints
 //! the first-mode frequency of a hanging chain measured in `xpbd.strand` and in rapier3d, with
@@ -104,7 +104,7 @@ impl Kind {
                 if matches!(self, Kind::Xpbd) {
                     "strand"
                 } else {
-                    "strand_f32"
+                    "strand_fast"
                 },
             ),
             Kind::Euler | Kind::Verlet => {

@@ -26,7 +26,7 @@ fn round_trip(threshold_newtons: f64, arms: bool) -> (Plan, Evaluation) {
     let swing = if arms { "160 deg" } else { "-40 deg" };
     let text = format!(
         "format 1\nrate 1000 fps\nframes 0..3499\n\
-         odile = trajectory.jump\n    body_mass = 58 kg\n    drive = speed\n    takeoff_speed = 2.4 m/s\n\
+         odile = trajectory.jump\n    body_mass = 58 kg\n    plan_by = takeoff_speed\n    takeoff_speed = 2.4 m/s\n\
          \x20   landing_depth = 20 cm\n    takeoff_frame = 2000\n    arm_swing_to = {swing}\n\
          weight = weight.apparent\n    mass = 58 kg\n\
          plate = forceplate.analyse\n    flight_threshold = {threshold_newtons} N\n\

@@ -52,7 +52,7 @@ fn bad_plot_blocks_are_reported_in_place() {
     std::fs::write(
         &g,
         "format 1\nrate 24 fps\nframes 0..10\nb = trajectory.ballistic\n\
-plot \"a.svg\"\n    b.position\n    style = weight\n\
+plot \"a.svg\"\n    b.position\n    style = body_weights\n\
 plot \"c.jpg\"\n    b.position\n\
 plot \"d.svg\"\n    b.position\n    b.velocity\n",
     )
@@ -62,8 +62,8 @@ plot \"d.svg\"\n    b.position\n    b.velocity\n",
     let err = String::from_utf8_lossy(&o.stderr);
     for want in [
         "p.graph:6:5: `b.position` (vec3) cannot be drawn in this plot style",
-        "p.graph:5:6: a weight plot takes one force series (N) and at most one contact flag",
-        "p.graph:5:6: a weight plot needs the body mass",
+        "p.graph:5:6: a body_weights plot takes one force series (N) and at most one contact flag",
+        "p.graph:5:6: a body_weights plot needs the body mass",
         "p.graph:8:6: `c.jpg` should end in .svg or .png",
         "p.graph:10:6: the series of one plot must share a unit",
     ] {

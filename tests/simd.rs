@@ -2,7 +2,7 @@
 //! or on the target's portable baseline when `HEFT_SIMD=portable`. Rust neither reassociates
 //! nor contracts floating-point arithmetic, so the two paths must give the same bits: the demo
 //! jump graph (a braid with a wind field and a head collider) run both ways, with the braid on
-//! `xpbd.strand` and on `xpbd.strand_f32`, writes byte-identical files.
+//! `xpbd.strand` and on `xpbd.strand_fast`, writes byte-identical files.
 use heft_integration_tests::{heft, workspace_root};
 use std::path::Path;
 
@@ -45,7 +45,7 @@ fn the_widest_and_the_portable_instruction_set_give_the_same_bits() {
     let f32_graph = dir.path().join("jump_f32.graph");
     std::fs::write(
         &f32_graph,
-        demo.replace("braid = xpbd.strand ", "braid = xpbd.strand_f32 "),
+        demo.replace("braid = xpbd.strand ", "braid = xpbd.strand_fast "),
     )
     .unwrap();
     for (name, graph) in [("f64", workspace_root().join("graphs/jump.graph")), ("f32", f32_graph)] {

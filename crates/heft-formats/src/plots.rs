@@ -4,13 +4,13 @@
 //! plot "weight.svg"              # .svg or .png, in the output folder
 //!     weight.force               # the series to draw
 //!     odile.contact              # (weight style) shades the contact phases
-//!     style = weight             # lines (default) | weight | path
+//!     style = body_weights       # lines (default) | body_weights | path
 //!     mass = 58 kg               # (weight style) the quiet-standing weight line and the BW axis
 //!     title = "Odile's jump"
 //! ```
 //!
 //! - `lines`: every scalar and vec3 series against time; all series share one dimension.
-//! - `weight`: one force series in newtons with a second axis in body weights, contact
+//! - `body_weights`: one force series in newtons with a second axis in body weights, contact
 //!   phases shaded, take-off and touch-down marked, body weight as a reference line.
 //! - `path`: points (with `chains N`, the tip of each chain) or vec3 series projected on
 //!   `plane = xz` (default), `xy` or `yz`.

@@ -325,7 +325,7 @@ pub struct PlannedPlot {
     pub style: Style,
     /// The series.
     pub items: Vec<PlotItem>,
-    /// Body mass for the weight style (kg).
+    /// Body mass for the body_weights style (kg).
     pub mass: Option<f64>,
     /// The two axes of the path style (0 = x, 1 = y, 2 = z).
     pub plane: [usize; 2],
@@ -350,7 +350,7 @@ pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
         match (opt.name.value.as_str(), &v.value) {
             ("style", Value::Word(w)) => match w.as_str() {
                 "lines" => style = Style::Lines,
-                "weight" => style = Style::Weight,
+                "body_weights" => style = Style::Weight,
                 "path" => style = Style::Path,
                 _ => problems.push(bad("lines, weight or path")),
             },
@@ -365,14 +365,14 @@ pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
                 _ => problems.push(bad("xz, xy or yz")),
             },
             ("title", Value::Text(t)) => title = t.clone(),
-            ("style", _) => problems.push(bad("lines, weight or path")),
+            ("style", _) => problems.push(bad("lines, body_weights or path")),
             ("mass", _) => problems.push(bad("a positive mass with its unit, such as `58 kg`")),
             ("plane", _) => problems.push(bad("xz, xy or yz")),
             ("title", _) => problems.push(bad("a quoted text")),
             (other, _) => problems.push(
                 Problem::new(src, opt.name.span, format!("`plot` has no option `{other}`"))
                     .label("unknown option")
-                    .help("options: style = lines | weight | path, mass = .. kg, plane = xz | xy | yz, title = \"..\""),
+                    .help("options: style = lines | body_weights | path, mass = .. kg, plane = xz | xy | yz, title = \"..\""),
             ),
         }
     }
@@ -426,15 +426,15 @@ pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
                     Problem::new(
                         src,
                         block.file.span,
-                        "a weight plot takes one force series (N) and at most one contact flag",
+                        "a body_weights plot takes one force series (N) and at most one contact flag",
                     )
-                    .label("weight plot"),
+                    .label("body_weights plot"),
                 );
             }
             if mass.is_none() {
                 problems.push(
-                    Problem::new(src, block.file.span, "a weight plot needs the body mass")
-                        .label("weight plot")
+                    Problem::new(src, block.file.span, "a body_weights plot needs the body mass")
+                        .label("body_weights plot")
                         .help("add `mass = 58 kg` under the plot"),
                 );
             }

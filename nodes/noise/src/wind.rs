@@ -6,7 +6,7 @@ use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params,
 use crate::common::{self, FIXED_GAIN, OFFSETS, STREAM_WIND};
 use crate::gradient::{NOISE4_BOUND, NoiseTable, fractal4, gain_sum};
 
-/// Largest `cells`: 32^3 samples are 0.8 MB per frame.
+/// Largest `samples`: 32^3 samples are 0.8 MB per frame.
 pub const CELLS_MAX: i64 = 32;
 
 /// The curl of one octave of 4D noise, per component, has this many times the RMS of one
@@ -115,9 +115,9 @@ impl WindModel {
 pub struct Wind;
 
 fn cells(params: &Params) -> Result<usize, NodeError> {
-    let c = params.integer("cells")?;
+    let c = params.integer("samples")?;
     if !(2..=CELLS_MAX).contains(&c) {
-        return Err(NodeError::new(format!("`cells` = {c} is outside 2 to {CELLS_MAX}")));
+        return Err(NodeError::new(format!("`samples` = {c} is outside 2 to {CELLS_MAX}")));
     }
     Ok(c as usize)
 }
@@ -142,7 +142,7 @@ impl Node for Wind {
                     components are the three channels, computed from the noise's analytic derivatives, so its \
                     divergence is zero (air at low speed is incompressible); it is scaled to the same RMS as the \
                     direct field but has no hard bound. The noise is evaluated at world positions: the grid \
-                    (cells^3 samples, spacing apart, axis-aligned in world space, centred on the origin \
+                    (samples^3 of them, spacing apart, axis-aligned in world space, centred on the origin \
                     transform's translation; its rotation is ignored) samples a wind that stays put while the \
                     grid moves. Output: a wind field strand nodes read on their `wind` input. No obstacles or boundaries (Bridson's \
                     boundary ramp is not applied) and no advection by the mean wind. The pattern repeats every \
@@ -166,7 +166,7 @@ impl Node for Wind {
             )],
             params: vec![
                 common::seed_param(),
-                ParamSpec::integer("cells", 8, (2, CELLS_MAX), "Samples along each axis of the grid."),
+                ParamSpec::integer("samples", 8, (2, CELLS_MAX), "Samples along each axis of the grid."),
                 ParamSpec::number(
                     "spacing",
                     Dimension::Length,

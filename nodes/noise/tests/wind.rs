@@ -159,7 +159,7 @@ fn the_node_writes_the_model_on_a_grid_centred_on_the_origin() {
     ]
     .concat();
     let set = [
-        ("cells", ParamValue::Integer(4)),
+        ("samples", ParamValue::Integer(4)),
         ("spacing", ParamValue::Number(0.2)),
         ("seed", ParamValue::Integer(5)),
         ("mean", ParamValue::Vec3(MEAN)),
@@ -202,7 +202,7 @@ fn an_unconnected_origin_centres_the_grid_on_the_world_origin() {
     let n = points_for(8, 8, 8);
     for frame in frames_of(&out.outputs[0], n) {
         let view = FieldView::from_frame(frame).expect("valid header");
-        // Default 8 cells 0.1 m apart: corner at -3.5 spacings.
+        // Default 8 samples 0.1 m apart: corner at -3.5 spacings.
         assert_eq!(view.origin(), [-0.35000000000000003; 3]);
         assert_eq!(view.dims(), [8, 8, 8]);
     }
@@ -216,7 +216,7 @@ fn the_node_grid_is_divergence_free_when_curl_is_on() {
     // direct field's RMS is about 0.9.
     let set = |div_free: bool| {
         [
-            ("cells", ParamValue::Integer(12)),
+            ("samples", ParamValue::Integer(12)),
             ("spacing", ParamValue::Number(SCALE / 100.0)),
             ("scale", ParamValue::Number(SCALE)),
             ("amplitude", ParamValue::Number(AMPLITUDE)),
@@ -258,14 +258,14 @@ fn output_points_follow_cells_and_bad_values_are_errors() {
     let spec = Wind::spec();
     let p = Params::defaults(&spec).expect("defaults");
     assert_eq!(Wind::output_points(&p, &[7]).expect("points"), [515]);
-    let p = p.with("cells", ParamValue::Integer(CELLS_MAX)).expect("set");
+    let p = p.with("samples", ParamValue::Integer(CELLS_MAX)).expect("set");
     assert_eq!(Wind::output_points(&p, &[7]).expect("points"), [3 + 32 * 32 * 32]);
-    let p = p.with("cells", ParamValue::Integer(1)).expect("set");
+    let p = p.with("samples", ParamValue::Integer(1)).expect("set");
     assert!(
         Wind::output_points(&p, &[7])
             .expect_err("too few")
             .0
-            .contains("`cells`")
+            .contains("`samples`")
     );
     // A connected origin must cover the frames and be finite; the error names the frame.
     let short = still([0.0; 3], [0.0, 0.0, 0.0, 1.0], 1);

@@ -108,11 +108,13 @@ pub struct JumpSpec {
 impl JumpSpec {
     /// Reads the node's parameters; the take-off time is frame `takeoff_frame` of `timeline`'s rate.
     pub fn from_params(params: &Params, timeline: Timeline) -> Result<JumpSpec, NodeError> {
-        let drive = match params.choice("drive")? {
+        let drive = match params.choice("plan_by")? {
             "rise" => Drive::Rise(params.number("rise")?),
-            "speed" => Drive::Speed(params.number("takeoff_speed")?),
+            "takeoff_speed" => Drive::Speed(params.number("takeoff_speed")?),
             other => {
-                return Err(NodeError::new(format!("`drive` is `{other}`; use `rise` or `speed`")));
+                return Err(NodeError::new(format!(
+                    "`plan_by` is `{other}`; use `rise` or `takeoff_speed`"
+                )));
             }
         };
         // The same arithmetic as Timeline::time, so the take-off frame's time is the take-off
@@ -743,7 +745,7 @@ impl Node for Jump {
                     is made of quintic segments that fix position, velocity and acceleration at both ends: standing \
                     to the crouch (unweighting, braking), crouch to take-off (propulsion), touch-down to the lowest \
                     point (landing), lowest point to standing (recovery). At take-off the trunk is \
-                    `takeoff_extension` above standing, at the speed `drive` sets, with the acceleration that makes \
+                    `takeoff_extension` above standing, at the speed `plan_by` sets, with the acceleration that makes \
                     the whole-body acceleration exactly -g, so the ground force falls to zero there; in `rise` mode \
                     the take-off speed is solved in closed form from apex = take-off height + v^2 / (2 g) given the \
                     arms' contribution. Flight: the whole-body COM follows the exact parabola; the trunk is what \
@@ -869,22 +871,23 @@ impl Node for Jump {
                     "How far the trunk COM goes down in the countermovement (at most 0.245 H).",
                 ),
                 ParamSpec::choice(
-                    "drive",
-                    &["rise", "speed"],
-                    "`rise`: reach the apex `rise`; `speed`: the legs give the trunk `takeoff_speed`.",
+                    "plan_by",
+                    &["rise", "takeoff_speed"],
+                    "What the jump is planned by: `rise`, the apex reached; `takeoff_speed`, the speed the legs give \
+                     the trunk.",
                 ),
                 length(
                     "rise",
                     0.35,
                     (0.01, 2.0),
-                    "With drive = rise: whole-body COM apex above `standing_com_height`.",
+                    "With plan_by = rise: whole-body COM apex above `standing_com_height`.",
                 ),
                 ParamSpec::number(
                     "takeoff_speed",
                     Dimension::Velocity,
                     2.6,
                     (0.1, 8.0),
-                    "With drive = speed: vertical speed of the trunk (body without arms) at take-off; arms add theirs.",
+                    "With plan_by = takeoff_speed: vertical speed of the trunk (body without arms) at take-off; arms add theirs.",
                 ),
                 length(
                     "takeoff_extension",
@@ -934,7 +937,7 @@ impl Node for Jump {
                 ),
                 // Swing timing defaults: starting 0.30 s before take-off and lasting 0.45 s puts
                 // the arms at about 118 deg and still rising at take-off, so the swing adds both
-                // take-off height and speed (with drive = speed: 27 % of the no-swing rise, 30 % of
+                // take-off height and speed (with plan_by = takeoff_speed: 27 % of the no-swing rise, 30 % of
                 // the gain from height; Lees, Vanrenterghem & De Clercq 2004, J Biomech
                 // 37:1929-40, report 28 % from height). A 0.30 s swing would end at take-off with
                 // the arms at rest, adding height only.

@@ -36,7 +36,7 @@ fn num(name: &'static str, v: f64) -> (&'static str, ParamValue) {
 }
 
 fn speed_mode() -> (&'static str, ParamValue) {
-    ("drive", ParamValue::Choice("speed".into()))
+    ("plan_by", ParamValue::Choice("takeoff_speed".into()))
 }
 
 fn no_swing() -> (&'static str, ParamValue) {
@@ -159,7 +159,7 @@ fn jump_changes() -> impl Strategy<Value = Changes> {
             num("crouch_depth", b.3),
             num("takeoff_extension", b.4),
             if d.0 {
-                ("drive", ParamValue::Choice("rise".into()))
+                ("plan_by", ParamValue::Choice("rise".into()))
             } else {
                 speed_mode()
             },
@@ -274,13 +274,13 @@ proptest! {
         prop_assert!(rel(impulse, momentum) < 1e-6, "impulse {impulse} vs m v {momentum}");
     }
 
-    /// drive = rise: the apex of the whole-body COM (found by golden-section search on the
+    /// plan_by = rise: the apex of the whole-body COM (found by golden-section search on the
     /// evaluated path, not from the take-off formula) is the standing height plus `rise`, to
     /// 1e-9 relative, whatever the arms do.
     #[test]
     fn rise_drive_reaches_the_requested_rise(c in jump_changes(), rise in 0.3..0.6f64) {
         let mut c = c;
-        c.push(("drive", ParamValue::Choice("rise".into())));
+        c.push(("plan_by", ParamValue::Choice("rise".into())));
         c.push(num("rise", rise));
         let plan = plan(&c);
         prop_assume!(plan.is_ok());
@@ -432,7 +432,7 @@ fn velocities_and_accelerations_are_derivatives() {
 
 /// Arm swing during the push (Lees, Vanrenterghem & De Clercq 2004, J Biomech 37:1929-40:
 /// swinging the arms raised jump height by 0.086 m, 28 % of it from a higher COM at
-/// take-off). drive = speed, the same trunk take-off speed, swing against no swing: higher
+/// take-off). plan_by = takeoff_speed, the same trunk take-off speed, swing against no swing: higher
 /// peak ground force in the push, higher COM and faster COM at take-off, higher apex, and a
 /// gain of 10 to 40 % of the no-swing rise. Forces from the node's output at 1000 fps,
 /// F = m (g + a_z) in contact (Newton's second law).
@@ -471,7 +471,7 @@ fn arm_swing_in_the_push_raises_the_jump() {
     assert!(with.s("takeoff_height") > without.s("takeoff_height"));
     assert!(with.s("takeoff_speed") > without.s("takeoff_speed"));
     assert!(with.s("apex_height") > without.s("apex_height"));
-    // Without arm motion at take-off the speed is exactly the trunk's (drive = speed, 2.6 m/s).
+    // Without arm motion at take-off the speed is exactly the trunk's (plan_by = takeoff_speed, 2.6 m/s).
     assert!((without.s("takeoff_speed") - 2.6).abs() < 1e-12);
     assert!(gain > 0.0);
     let share = gain / without.s("rise");
@@ -566,7 +566,7 @@ fn standing_weighs_one_body_weight_and_a_stiff_landing_several() {
     assert!(r.s("peak_landing_force") < peak, "a softer landing peaks lower");
 }
 
-/// drive = rise with the defaults (arm swing during the push and into the flight) and with no
+/// plan_by = rise with the defaults (arm swing during the push and into the flight) and with no
 /// swing: the apex found by search is the standing height plus `rise` (1e-9 relative), and the
 /// node's summaries report it.
 #[test]
@@ -579,7 +579,7 @@ fn rise_drive_with_and_without_swing() {
         let p = plan(&changes).expect("valid");
         let want = match p.spec.drive {
             heft_trajectory::jump::Drive::Rise(r) => r,
-            heft_trajectory::jump::Drive::Speed(_) => unreachable!("drive = rise is the default"),
+            heft_trajectory::jump::Drive::Speed(_) => unreachable!("plan_by = rise is the default"),
         };
         let got = apex_by_search(&p) - p.spec.standing_com_height;
         println!("{changes:?}: rise {got:.12} m");
@@ -709,7 +709,10 @@ fn any_changes() -> impl Strategy<Value = Changes> {
             num("standing_com_height", (b.2 * b.1).clamp(0.3, 1.5)),
             num("crouch_depth", b.3 * b.1),
             num("takeoff_extension", b.4),
-            ("drive", ParamValue::Choice(if d.0 { "rise" } else { "speed" }.into())),
+            (
+                "plan_by",
+                ParamValue::Choice(if d.0 { "rise" } else { "takeoff_speed" }.into()),
+            ),
             num("rise", d.1),
             num("takeoff_speed", d.2),
             ("takeoff_frame", ParamValue::Integer(d.3)),

@@ -3,7 +3,7 @@
 //! - `xpbd.strand`: the strand contract (shared with `strand.euler` and `strand.verlet`, see
 //!   `heft_strand_common`) solved with XPBD: compliant distance and bending constraints, one
 //!   Gauss-Seidel sweep per substep (Macklin et al. 2016, 2019), strands across SIMD lanes.
-//! - `xpbd.strand_f32`: the same with f32 lanes (twice the lanes per SIMD register).
+//! - `xpbd.strand_fast`: the same with f32 lanes (twice the lanes per SIMD register).
 //!
 //! [`solver`] is the method core (plain functions over a lane layout); [`strand`] the node.
 //! World space is right-handed, Z up, SI units.

@@ -43,7 +43,7 @@
 //! path is `#[inline(always)]` so that it is compiled inside that choice.
 //!
 //! Precision: the lanes hold [`Real`] numbers, f64 (`xpbd.strand`) or f32
-//! (`xpbd.strand_f32`), as positions relative to a per-strand origin: the strand's particle 0 at
+//! (`xpbd.strand_fast`), as positions relative to a per-strand origin: the strand's particle 0 at
 //! the start of the frame, kept in f64 (see [`Lanes::load`]). Relative positions stay within a
 //! strand length (plus a frame's travel) of zero whatever the world coordinates, so f32 keeps
 //! a resolution of 3e-8 m on a 0.5 m strand where world positions 10 m from the origin would

@@ -1,4 +1,4 @@
-//! `xpbd.strand` and `xpbd.strand_f32`: the strand contract solved with XPBD, one constraint
+//! `xpbd.strand` and `xpbd.strand_fast`: the strand contract solved with XPBD, one constraint
 //! sweep per substep, strands across SIMD lanes in f64 or f32.
 
 use std::marker::PhantomData;
@@ -18,7 +18,7 @@ pub struct XpbdNode<T>(PhantomData<T>);
 /// The node type `xpbd.strand` (f64 lanes).
 pub type XpbdStrand = XpbdNode<f64>;
 
-/// The node type `xpbd.strand_f32` (f32 lanes: twice the lanes per SIMD register).
+/// The node type `xpbd.strand_fast` (f32 lanes: twice the lanes per SIMD register).
 pub type XpbdStrandF32 = XpbdNode<f32>;
 
 /// A lane number type with the name and texts of its node type.
@@ -38,7 +38,7 @@ impl Precision for f64 {
 }
 
 impl Precision for f32 {
-    const NAME: &'static str = "strand_f32";
+    const NAME: &'static str = "strand_fast";
     const DOC: &'static str = DOC_F32;
     const NOTES: &'static str = NOTES_F32;
 }
@@ -108,7 +108,7 @@ stiff strands the stretch term mostly measures the sweep's residual stretch.\n"
 
 const NOTES: &str = concat!(
     shared_notes!(),
-    "Precision: f64 lanes. `xpbd.strand_f32` is the same method with f32 lanes, 1.5 to 1.9 times as fast."
+    "Precision: f64 lanes. `xpbd.strand_fast` is the same method with f32 lanes, 1.5 to 1.9 times as fast."
 );
 
 const NOTES_F32: &str = concat!(

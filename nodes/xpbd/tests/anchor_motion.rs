@@ -11,7 +11,7 @@ use heft_strand_common::testing::free_fall_drift;
 fn a_strand_on_a_falling_anchor_keeps_its_shape_at_24_fps() {
     let f64_drift = free_fall_drift::<heft_xpbd::XpbdStrand>(24, None);
     let f32_drift = free_fall_drift::<heft_xpbd::XpbdStrandF32>(24, None);
-    eprintln!("xpbd.strand {f64_drift:.2e} m, xpbd.strand_f32 {f32_drift:.2e} m");
+    eprintln!("xpbd.strand {f64_drift:.2e} m, xpbd.strand_fast {f32_drift:.2e} m");
     assert!(f64_drift < 1e-5, "{f64_drift}");
     assert!(f32_drift < 5e-5, "{f32_drift}");
 }
@@ -43,7 +43,7 @@ fn a_glitch_in_the_anchor_is_named_not_blamed_on_the_substeps() {
     use heft_strand_common::testing::glitched_anchor;
     for (name, err) in [
         ("xpbd.strand", glitched_anchor::<heft_xpbd::XpbdStrand>()),
-        ("xpbd.strand_f32", glitched_anchor::<heft_xpbd::XpbdStrandF32>()),
+        ("xpbd.strand_fast", glitched_anchor::<heft_xpbd::XpbdStrandF32>()),
     ] {
         let err = err.unwrap_or_else(|| panic!("{name}: no error"));
         assert!(
@@ -63,7 +63,7 @@ fn a_sash_rests_on_the_ground_and_never_passes_below_it() {
     use heft_strand_common::testing::sash_over_the_ground;
     for (name, (lowest, unconstrained)) in [
         ("xpbd.strand", sash_over_the_ground::<heft_xpbd::XpbdStrand>()),
-        ("xpbd.strand_f32", sash_over_the_ground::<heft_xpbd::XpbdStrandF32>()),
+        ("xpbd.strand_fast", sash_over_the_ground::<heft_xpbd::XpbdStrandF32>()),
     ] {
         assert!(unconstrained < -0.3);
         assert!((0.0..1e-3).contains(&lowest), "{name}: lowest particle at {lowest} m");
@@ -85,7 +85,7 @@ fn settled_strands_start_calm_at_their_rest_length() {
             settled_start::<heft_xpbd::XpbdStrand>(true, None),
         ),
         (
-            "xpbd.strand_f32",
+            "xpbd.strand_fast",
             settled_start::<heft_xpbd::XpbdStrandF32>(false, None),
             settled_start::<heft_xpbd::XpbdStrandF32>(true, None),
         ),
@@ -125,7 +125,7 @@ fn friction_stops_a_slide_where_coulomb_says_and_holds_on_a_gentle_slope() {
             resting_on_a_slope::<heft_xpbd::XpbdStrand>(0.2, 0.2, None),
         ),
         (
-            "xpbd.strand_f32",
+            "xpbd.strand_fast",
             sliding_distance::<heft_xpbd::XpbdStrandF32>(0.0, 0.5, 1.0),
             resting_on_a_slope::<heft_xpbd::XpbdStrandF32>(0.5, 0.4, None),
             resting_on_a_slope::<heft_xpbd::XpbdStrandF32>(0.2, 0.2, None),
@@ -154,7 +154,7 @@ fn a_strand_settled_on_an_accelerating_anchor_starts_calm() {
             1e-5,
         ),
         (
-            "xpbd.strand_f32",
+            "xpbd.strand_fast",
             settled_under_acceleration::<heft_xpbd::XpbdStrandF32>(None),
             5e-5,
         ),

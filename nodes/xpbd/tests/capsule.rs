@@ -1,5 +1,5 @@
 //! Capsule colliders (a limb from one transform to another) in `xpbd.strand` and
-//! `xpbd.strand_f32`: the scenes of `heft_strand_common::testing` that the `strand.euler` and
+//! `xpbd.strand_fast`: the scenes of `heft_strand_common::testing` that the `strand.euler` and
 //! `strand.verlet` tests run too, and the lanes' cheap collider test with many strands.
 mod support;
 
@@ -71,7 +71,7 @@ const AT_REST_F32: f64 = 1e-3;
 #[test]
 fn rests_on_a_straight_limb_in_f64_and_f32() {
     rests_on_a_straight_limb::<XpbdStrand>("xpbd.strand", AT_REST);
-    rests_on_a_straight_limb::<XpbdStrandF32>("xpbd.strand_f32", AT_REST_F32);
+    rests_on_a_straight_limb::<XpbdStrandF32>("xpbd.strand_fast", AT_REST_F32);
 }
 
 /// As in nodes/strand/tests/capsule.rs: on a tapered limb the frictionless contact pushes the
@@ -104,7 +104,7 @@ fn rests_on_a_tapered_limb<N: Node>(name: &str, at_rest: f64) {
 #[test]
 fn rests_on_a_tapered_limb_in_f64_and_f32() {
     rests_on_a_tapered_limb::<XpbdStrand>("xpbd.strand", AT_REST);
-    rests_on_a_tapered_limb::<XpbdStrandF32>("xpbd.strand_f32", AT_REST_F32);
+    rests_on_a_tapered_limb::<XpbdStrandF32>("xpbd.strand_fast", AT_REST_F32);
 }
 
 /// As in nodes/strand/tests/capsule.rs: a capsule on two transforms moving at PUSH_SPEED pushes
@@ -152,7 +152,7 @@ fn pushed_by_a_moving_capsule<N: Node>(name: &str, tolerance: f64) {
 #[test]
 fn pushed_by_a_moving_capsule_in_f64_and_f32() {
     pushed_by_a_moving_capsule::<XpbdStrand>("xpbd.strand", 1e-9);
-    pushed_by_a_moving_capsule::<XpbdStrandF32>("xpbd.strand_f32", 1e-5);
+    pushed_by_a_moving_capsule::<XpbdStrandF32>("xpbd.strand_fast", 1e-5);
 }
 
 /// A forearm sweeping through 20 strands side by side (`forearm_scene` with a line of strands
@@ -203,7 +203,7 @@ fn forearm_through_many_strands<N: Node>(name: &str) {
 #[test]
 fn a_forearm_through_many_strands_in_f64_and_f32() {
     forearm_through_many_strands::<XpbdStrand>("xpbd.strand");
-    forearm_through_many_strands::<XpbdStrandF32>("xpbd.strand_f32");
+    forearm_through_many_strands::<XpbdStrandF32>("xpbd.strand_fast");
 }
 
 /// As in nodes/strand/tests/capsule.rs: the tapered limb, the pushing capsule and the sweeping
@@ -233,7 +233,7 @@ fn a_listed_capsule_is_the_numbered_one<N: Node>(name: &str, tolerance: f64) {
 #[test]
 fn listed_capsules_are_the_numbered_ones_in_f64_and_f32() {
     a_listed_capsule_is_the_numbered_one::<XpbdStrand>("xpbd.strand", 1e-12);
-    a_listed_capsule_is_the_numbered_one::<XpbdStrandF32>("xpbd.strand_f32", 1e-6);
+    a_listed_capsule_is_the_numbered_one::<XpbdStrandF32>("xpbd.strand_fast", 1e-6);
 }
 
 /// Twelve colliders in one list (`fence_scene`): the chain drapes over the fence, no frame
@@ -267,5 +267,5 @@ fn drapes_over_a_fence<N: Node>(name: &str) {
 #[test]
 fn drapes_over_a_fence_of_twelve_in_f64_and_f32() {
     drapes_over_a_fence::<XpbdStrand>("xpbd.strand");
-    drapes_over_a_fence::<XpbdStrandF32>("xpbd.strand_f32");
+    drapes_over_a_fence::<XpbdStrandF32>("xpbd.strand_fast");
 }

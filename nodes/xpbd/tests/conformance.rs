@@ -42,7 +42,7 @@ fn kit(node: &str, momentum: f64) {
     check_all(&subject, &tolerances).unwrap();
 }
 
-/// `xpbd.strand_f32`: the same method in f32 lanes, so the same energy and order claims. Momentum
+/// `xpbd.strand_fast`: the same method in f32 lanes, so the same energy and order claims. Momentum
 /// is conserved only to the rounding of the f32 positions: the constraints correct the rounding
 /// of the relative positions (6e-8 of their size) as if it were stretch, and the corrections go
 /// into the steps, about ulp(x) / h of velocity per particle per substep (tests/invariants.rs).
@@ -50,5 +50,5 @@ fn kit(node: &str, momentum: f64) {
 /// translation at 0.62 m/s comes out 6e-6 slow after a frame).
 #[test]
 fn xpbd_f32_passes_the_conformance_kit() {
-    kit("xpbd.strand_f32", 1.0e-4);
+    kit("xpbd.strand_fast", 1.0e-4);
 }

@@ -1,4 +1,4 @@
-//! What f32 lanes (`xpbd.strand_f32`) keep and what they lose, against closed forms and against
+//! What f32 lanes (`xpbd.strand_fast`) keep and what they lose, against closed forms and against
 //! the f64 node (`xpbd.strand`): steps far below the spacing of the positions, strands far from
 //! the world origin, and a busy scene side by side.
 mod support;
@@ -40,7 +40,7 @@ fn free_fall(substeps: i64, tol_f32: f64) {
     ];
     for (name, run, tol_rel) in [
         ("xpbd.strand", run as Runner, None),
-        ("xpbd.strand_f32", run_f32, Some(tol_f32)),
+        ("xpbd.strand_fast", run_f32, Some(tol_f32)),
     ] {
         let r = run(&changes, tl, &[("initial_positions", points_input(tl, &x0))]).expect("runs");
         let last = r.frames() - 1;
@@ -121,7 +121,10 @@ fn largest_gap(a: &Run, b: &Run, offset: [f64; 3]) -> f64 {
 #[test]
 fn a_strand_far_from_the_origin_moves_as_it_does_at_the_origin() {
     let offset = [5000.0, -3000.0, 800.0];
-    for (name, run, tol) in [("xpbd.strand", run as Runner, 1e-9), ("xpbd.strand_f32", run_f32, 1e-6)] {
+    for (name, run, tol) in [
+        ("xpbd.strand", run as Runner, 1e-9),
+        ("xpbd.strand_fast", run_f32, 1e-6),
+    ] {
         let (near, far) = (scene(run, [0.0; 3]), scene(run, offset));
         let gap = largest_gap(&near, &far, offset);
         eprintln!("{name}: largest gap {gap:e} m");

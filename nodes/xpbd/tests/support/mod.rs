@@ -11,14 +11,14 @@ use heft_xpbd::{XpbdStrand, XpbdStrandF32};
 pub type Runner = fn(&[(&'static str, ParamValue)], Timeline, Inputs<'_>) -> Result<Run, NodeError>;
 
 /// Both node types: (name, runner).
-pub const BOTH: [(&str, Runner); 2] = [("xpbd.strand", run), ("xpbd.strand_f32", run_f32)];
+pub const BOTH: [(&str, Runner); 2] = [("xpbd.strand", run), ("xpbd.strand_fast", run_f32)];
 
 /// Runs `xpbd.strand` (f64 lanes) with these parameter changes and inputs.
 pub fn run(changes: &[(&'static str, ParamValue)], tl: Timeline, inputs: Inputs<'_>) -> Result<Run, NodeError> {
     heft_strand_common::testing::run::<XpbdStrand>(changes, tl, inputs)
 }
 
-/// Runs `xpbd.strand_f32` (f32 lanes) with these parameter changes and inputs.
+/// Runs `xpbd.strand_fast` (f32 lanes) with these parameter changes and inputs.
 pub fn run_f32(changes: &[(&'static str, ParamValue)], tl: Timeline, inputs: Inputs<'_>) -> Result<Run, NodeError> {
     heft_strand_common::testing::run::<XpbdStrandF32>(changes, tl, inputs)
 }
