@@ -914,3 +914,20 @@ fn edges_are_named_for_what_they_are() {
         expect(&[("t.graph:3:1", "frame numbers run from -2^53 to 2^53 (9007199254740992)")])
     );
 }
+
+/// A bake no package could open, and that heft would need tens of gigabytes to build (4096
+/// strands of 255 segments: a million joints), is refused at check time with its size.
+#[test]
+fn a_bake_too_large_is_refused_with_its_size() {
+    let p = body_problems(
+        "hair = xpbd.strand\n    count = 4096\n    segments = 255\nbake \"hair.glb\"\n    hair.positions\n",
+    );
+    assert_eq!(
+        located(&p),
+        expect(&[(
+            "t.graph:7:6",
+            "this bake would hold 1048576 joints keyed at 10 frames: more than a bake file takes (65536 joints, \
+             32000000 keys in all)"
+        )])
+    );
+}

@@ -404,6 +404,11 @@ fn parse_overrides(set: &[String], problems: &mut Vec<Problem>) -> Vec<(Arc<Sour
     out
 }
 
+/// The most joints one bake file holds: far more than any hair or cloth rig a package plays.
+pub const MAX_BAKE_JOINTS: u64 = 65_536;
+/// The most keys (joints times frames) one bake file holds: about 1 GiB of glTF data.
+pub const MAX_BAKE_KEYS: u64 = 32_000_000;
+
 /// The most frames one run evaluates.
 pub const MAX_FRAMES: u64 = 10_000_000;
 
@@ -1124,6 +1129,40 @@ pub fn check(
                         if item.chain.is_some() {
                             item.anchor = anchor_of(&states, &inputs, item.node);
                         }
+                    }
+                    // A bake a package can open, and heft can build without running out of
+                    // memory (each joint's keys, and its node, sampler and channel).
+                    let joints: u64 = b
+                        .items
+                        .iter()
+                        .map(|i| {
+                            if i.shape.kind == PortKind::Points {
+                                i.shape.points as u64
+                            } else {
+                                1
+                            }
+                        })
+                        .sum();
+                    let baked = match b.range {
+                        Some((a, z)) => (z - a + 1).max(0) as u64,
+                        None => timeline.frame_count,
+                    };
+                    if joints > MAX_BAKE_JOINTS || joints.saturating_mul(baked) > MAX_BAKE_KEYS {
+                        problems.push(
+                            Problem::at(
+                                srcs,
+                                block.file.span,
+                                format!(
+                                    "this bake would hold {joints} joints keyed at {baked} frames: more than a bake file \
+                                     takes ({MAX_BAKE_JOINTS} joints, {MAX_BAKE_KEYS} keys in all)"
+                                ),
+                            )
+                            .label("too large to bake")
+                            .help(
+                                "bake fewer strands or frames per file (`frames = A..B`, several bake blocks), or \
+                                 write the positions as CSV",
+                            ),
+                        );
                     }
                     if let Some((a, z)) = b.range {
                         let last = timeline.start_frame + timeline.frame_count as i64 - 1;
