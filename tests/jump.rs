@@ -204,6 +204,25 @@ fn demo_plate_record_is_reproducible_and_analysed() {
         [0.0, 1.0, 2.0, 3.0, 4.0, 5.0],
         "weighing, unweighting, braking, propulsion, flight, landing"
     );
+    // The phase file names its codes in its header, so it reads without the node's docs.
+    let w = plan
+        .writes
+        .iter()
+        .find(|w| w.stem == "analysis.phase")
+        .expect("phase written");
+    let text = heft_formats::output::csv_text(&plan, &e, w.node, w.output).expect("csv");
+    let header = String::from_utf8(text)
+        .expect("utf-8")
+        .lines()
+        .next()
+        .map(str::to_owned);
+    assert_eq!(
+        header.as_deref(),
+        Some(
+            "frame,time [s],analysis.phase [code: 0 weighing; 1 unweighting; 2 braking; 3 propulsion; 4 flight; \
+             5 landing]"
+        )
+    );
 }
 
 /// A body to collide with, through the real plugins: Odile jumps with a fringe skirt of twelve

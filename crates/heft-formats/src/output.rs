@@ -45,7 +45,12 @@ pub fn csv_text(plan: &Plan, eval: &Evaluation, node: usize, output: usize) -> R
     let values = &eval.values[node][output];
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut header = vec!["frame".to_owned(), "time [s]".to_owned()];
-    header.extend(columns(&format!("{}.{}", pn.name, port.name), shape, port.dimension));
+    header.extend(columns(
+        &format!("{}.{}", pn.name, port.name),
+        shape,
+        port.dimension,
+        &port.codes,
+    ));
     w.write_record(&header).map_err(|e| e.to_string())?;
     let width = shape.width();
     let mut row: Vec<String> = Vec::with_capacity(width + 2);
@@ -170,6 +175,7 @@ pub fn write_all(
                 &format!("{}.{}", pn.name, port.name),
                 pn.outputs[w.output],
                 port.dimension,
+                &port.codes,
             ),
         });
     }

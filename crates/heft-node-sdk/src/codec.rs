@@ -8,6 +8,11 @@ pub fn encode<T: Serialize>(value: &T) -> Result<Vec<u8>, String> {
     bincode::serde::encode_to_vec(value, bincode::config::standard()).map_err(|e| e.to_string())
 }
 
+/// Decodes a value from the front of `bytes`; returns it and the bytes it took.
+pub fn decode_prefix<T: DeserializeOwned>(bytes: &[u8]) -> Result<(T, usize), String> {
+    bincode::serde::decode_from_slice(bytes, bincode::config::standard()).map_err(|e| e.to_string())
+}
+
 /// Decodes a value from the plugin boundary; trailing bytes are an error.
 pub fn decode<T: DeserializeOwned>(bytes: &[u8]) -> Result<T, String> {
     let (value, used) =
@@ -64,6 +69,21 @@ mod tests {
         let back: Vec<ParamValue> = decode(&encode(&v).expect("encodes")).expect("decodes");
         assert_eq!(back, v);
         assert!(matches!(back[0], ParamValue::Number(x) if x.to_bits() == (-0.0f64).to_bits()));
+    }
+
+    /// Code names cross after the descriptor: they come back on their port, and the bytes of a
+    /// plugin built before them (the descriptor alone) still read, with no codes.
+    #[test]
+    fn code_names_cross_after_the_descriptor_and_old_descriptors_still_read() {
+        use crate::descriptor::{decode_descriptor, encode_descriptor};
+        let mut d = sample();
+        d.nodes[0].outputs[0] = d.nodes[0].outputs[0].clone().with_codes(&["still", "moving"]);
+        let back = decode_descriptor(&encode_descriptor(&d).expect("encodes")).expect("decodes");
+        assert_eq!(back.nodes[0].outputs[0].codes, ["still", "moving"]);
+        assert_eq!(back, d);
+        let old = decode_descriptor(&encode(&sample()).expect("encodes")).expect("decodes");
+        assert_eq!(old, sample());
+        assert!(old.nodes[0].outputs[0].codes.is_empty());
     }
 
     #[test]

@@ -97,6 +97,12 @@ pub struct PortSpec {
     pub optional: bool,
     /// One line of documentation.
     pub doc: String,
+    /// For a port whose values are whole-number codes: the name of each code (value k means
+    /// `codes[k]`), written with the values (a CSV header names them). Not part of the
+    /// port's own encoding: it crosses the boundary after the descriptor ([`encode_descriptor`]),
+    /// so that the descriptors of plugins built before it still read.
+    #[serde(skip)]
+    pub codes: Vec<String>,
 }
 
 impl PortSpec {
@@ -109,7 +115,13 @@ impl PortSpec {
             dimension,
             optional: false,
             doc: doc.to_owned(),
+            codes: Vec::new(),
         }
+    }
+    /// Names the whole-number codes the port's values take: value k means `names[k]`.
+    pub fn with_codes(mut self, names: &[&str]) -> PortSpec {
+        self.codes = names.iter().map(|n| (*n).to_owned()).collect();
+        self
     }
     /// Marks an input optional.
     pub fn optional(mut self) -> PortSpec {
@@ -351,4 +363,46 @@ pub struct PluginDescriptor {
     pub version: String,
     /// The node types, in order; a call names a node type by its index here.
     pub nodes: Vec<NodeSpec>,
+}
+
+/// What follows the descriptor on the wire: additions made after the descriptor's layout was
+/// fixed, read only when present (a plugin built before them sends none).
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+struct Additions {
+    /// (node index, output index, code names) of every output port with codes.
+    output_codes: Vec<(u32, u32, Vec<String>)>,
+}
+
+/// The bytes of a descriptor at the boundary: the descriptor, then its additions.
+pub fn encode_descriptor(d: &PluginDescriptor) -> Result<Vec<u8>, String> {
+    let mut bytes = crate::codec::encode(d)?;
+    let mut add = Additions::default();
+    for (i, n) in d.nodes.iter().enumerate() {
+        for (k, p) in n.outputs.iter().enumerate() {
+            if !p.codes.is_empty() {
+                add.output_codes.push((i as u32, k as u32, p.codes.clone()));
+            }
+        }
+    }
+    bytes.extend(crate::codec::encode(&add)?);
+    Ok(bytes)
+}
+
+/// Reads [`encode_descriptor`]'s bytes, or a descriptor alone (a plugin built before the
+/// additions); additions that name no port are an error.
+pub fn decode_descriptor(bytes: &[u8]) -> Result<PluginDescriptor, String> {
+    let (mut d, used): (PluginDescriptor, usize) = crate::codec::decode_prefix(bytes)?;
+    if used == bytes.len() {
+        return Ok(d);
+    }
+    let add: Additions = crate::codec::decode(&bytes[used..])?;
+    for (i, k, names) in add.output_codes {
+        let port = d
+            .nodes
+            .get_mut(i as usize)
+            .and_then(|n| n.outputs.get_mut(k as usize))
+            .ok_or_else(|| format!("codes for output {k} of node type {i}, which the descriptor does not have"))?;
+        port.codes = names;
+    }
+    Ok(d)
 }

@@ -471,7 +471,7 @@ fn guarded(sink: ByteSink, f: impl FnOnce() -> Result<(), (Status, String)>) -> 
 
 unsafe extern "C" fn describe<E: Exports>(sink: ByteSink) -> i32 {
     guarded(sink, || {
-        let bytes = codec::encode(&descriptor::<E>()).map_err(|e| (Status::BadCall, e))?;
+        let bytes = crate::descriptor::encode_descriptor(&descriptor::<E>()).map_err(|e| (Status::BadCall, e))?;
         send(sink, &bytes);
         Ok(())
     })

@@ -10,7 +10,7 @@ use crate::abi::{
     Status, Timeline,
 };
 use crate::codec;
-use crate::descriptor::{ParamValue, PluginDescriptor};
+use crate::descriptor::{ParamValue, PluginDescriptor, decode_descriptor};
 
 /// Why a plugin could not be loaded. Every variant names the file.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -219,7 +219,7 @@ impl Plugin {
                 reason: String::from_utf8_lossy(&bytes).into_owned(),
             });
         }
-        let descriptor: PluginDescriptor = codec::decode(&bytes).map_err(|reason| LoadError::Describe {
+        let descriptor: PluginDescriptor = decode_descriptor(&bytes).map_err(|reason| LoadError::Describe {
             path: path.clone(),
             reason,
         })?;

@@ -92,7 +92,7 @@ fn check_finite(plan: &Plan, i: usize, outputs: &[Vec<f64>]) -> Result<(), EvalE
         if let Some(bad) = values.iter().position(|v| !v.is_finite()) {
             let w = shape.width().max(1);
             let port = &spec.outputs[k];
-            let cols = columns(&port.name, *shape, port.dimension);
+            let cols = columns(&port.name, *shape, port.dimension, &port.codes);
             return Err(EvalError::NonFinite {
                 node: node.name.clone(),
                 port: port.name.clone(),
@@ -270,8 +270,13 @@ pub fn evaluate_observed(
 
 /// The names of a port's values, with units (used in messages, and as CSV headers by the
 /// writers): `position.x [m]`, `hips.qw`, `tips.p3.z [m]`.
-pub fn columns(port: &str, shape: Shape, dimension: Dimension) -> Vec<String> {
+pub fn columns(port: &str, shape: Shape, dimension: Dimension, codes: &[String]) -> Vec<String> {
     let unit = match dimension.si_symbol() {
+        "" if !codes.is_empty() => {
+            // Whole-number codes: their names in the header, so the file says what 3 means.
+            let named: Vec<String> = codes.iter().enumerate().map(|(k, n)| format!("{k} {n}")).collect();
+            format!(" [code: {}]", named.join("; "))
+        }
         "" => String::new(),
         s => format!(" [{s}]"),
     };

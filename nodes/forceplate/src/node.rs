@@ -79,7 +79,8 @@ impl Node for Analyse {
                     PortKind::Scalar,
                     Dimension::Dimensionless,
                     "0 weighing, 1 unweighting, 2 braking, 3 propulsion, 4 flight, 5 landing.",
-                ),
+                )
+                .with_codes(&["weighing", "unweighting", "braking", "propulsion", "flight", "landing"]),
                 PortSpec::new(
                     "body_weights",
                     PortKind::Scalar,
