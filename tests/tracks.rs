@@ -3,7 +3,7 @@
 
 use std::path::Path;
 
-use heft_integration_tests::registry;
+use heft_integration_tests::{registry, workspace_root};
 use heft_runtime::check::{Overrides, check};
 use heft_runtime::diag::Problem;
 use heft_runtime::eval::evaluate;
@@ -281,5 +281,34 @@ fn values_that_overflow_are_refused_not_written() {
     assert!(
         err.contains("the translation of `hips_value` at frame 0 is 1e308, beyond what glTF's 32-bit floats hold"),
         "{err}"
+    );
+}
+
+/// A graph file that starts with a UTF-8 byte-order mark (as some editors save) reads like
+/// any other, and a glTF file given to a CSV track is named for what it is, not "invalid
+/// UTF-8".
+#[test]
+fn a_byte_order_mark_is_read_and_a_gltf_file_is_not_taken_for_csv() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    std::fs::write(dir.path().join("plate.csv"), "time,Fz\n0,1\n0.01,2\n0.02,3\n0.03,4\n").expect("write");
+    let graph = dir.path().join("g.graph");
+    std::fs::write(&graph, format!("\u{feff}format 1\nrate 100 fps\nframes 0..3\n{NODE}")).expect("write graph");
+    let (g, p) = read_graph(&graph).expect("readable");
+    let plan = check(&g, p, &registry(), &Overrides::default()).expect("checks with a BOM");
+    assert_eq!(
+        evaluate(&plan, None).expect("evaluates").values[0][0],
+        [1.0, 2.0, 3.0, 4.0]
+    );
+
+    std::fs::copy(workspace_root().join("data/juno.glb"), dir.path().join("plate.csv")).expect("copy");
+    let (g, p) = read_graph(&graph).expect("readable");
+    let problems = check(&g, p, &registry(), &Overrides::default()).expect_err("a glTF file");
+    assert_eq!(problems.len(), 1, "{problems:?}");
+    assert!(
+        problems[0]
+            .message
+            .contains("is a glTF file, not a CSV table: read it with `track.character`"),
+        "{}",
+        problems[0].message
     );
 }
