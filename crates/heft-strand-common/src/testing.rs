@@ -372,6 +372,31 @@ pub fn fence_scene() -> (Timeline, Changes, Vec<(&'static str, Vec<f64>)>) {
     (tl, changes, inputs)
 }
 
+/// Runs node type `N` on [`fence_scene`] with `substeps`: the least signed distance of any free
+/// particle from any of the fence's spheres over every frame (by [`round_cone_distance`],
+/// independent of the node's projection), and how many spheres the chain rests on at the end
+/// (a particle within 1e-6 m of the surface).
+pub fn fence_drape<N: Node>(substeps: i64) -> (f64, usize) {
+    let (tl, mut changes, inputs) = fence_scene();
+    changes.push(int("substeps", substeps));
+    let run = run::<N>(&changes, tl, &inputs).expect("runs");
+    let spheres = fence();
+    let mut deepest = f64::INFINITY;
+    for f in 0..run.frames() {
+        for i in 1..run.n {
+            for &(c, r) in &spheres {
+                deepest = deepest.min(round_cone_distance(run.x(f, i), c, c, r, r));
+            }
+        }
+    }
+    let last = run.frames() - 1;
+    let touched = spheres
+        .iter()
+        .filter(|&&(c, r)| (1..run.n).any(|i| round_cone_distance(run.x(last, i), c, c, r, r) < 1e-6))
+        .count();
+    (deepest, touched)
+}
+
 /// Where the limb of [`limb_scene`] runs: along Y at x = 0.03 m, z = -0.15 m, from y = -0.15 m
 /// to 0.15 m.
 pub const LIMB_X: f64 = 0.03;

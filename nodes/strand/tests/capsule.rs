@@ -296,27 +296,11 @@ fn verlet_listed_capsules_are_the_numbered_ones() {
 /// falling onto them drapes over the fence and ends no frame inside any sphere (distances from
 /// `round_cone_distance`, independent of the node's projection), and it rests on several.
 fn drapes_over_a_fence<N: Node>(name: &str, substeps: i64) {
-    let (tl, mut changes, inputs) = fence_scene();
-    changes.push(int("substeps", substeps));
-    let run = run::<N>(&changes, tl, &inputs).expect("runs");
-    let spheres = fence();
-    let mut deepest = f64::INFINITY;
-    for f in 0..run.frames() {
-        for i in 1..run.n {
-            for &(c, r) in &spheres {
-                deepest = deepest.min(round_cone_distance(run.x(f, i), c, c, r, r));
-            }
-        }
-    }
+    let (deepest, touched) = fence_drape::<N>(substeps);
     assert!(
         deepest >= -INSIDE_TOLERANCE,
         "{name}: a particle is {deepest:e} m inside a sphere"
     );
-    let last = run.frames() - 1;
-    let touched = spheres
-        .iter()
-        .filter(|&&(c, r)| (1..run.n).any(|i| round_cone_distance(run.x(last, i), c, c, r, r) < 1e-6))
-        .count();
     assert!(touched >= 2, "{name}: the chain rests on {touched} spheres");
     eprintln!("{name}, fence of 12: least distance {deepest:e} m, resting on {touched} spheres");
 }
