@@ -162,6 +162,20 @@ fn two_plugins_offering_one_node_type_is_an_error_naming_both_files() {
     let help = p.help.clone().unwrap_or_default();
     assert!(help.contains(&copy.display().to_string()), "{help}");
     assert!(help.contains(&original.display().to_string()), "{help}");
+    // Seven nodes of the ambiguous type: one problem, at the first, counting the others.
+    let g: String = "format 1\nrate 24 fps\nframes 1..3\n".to_owned()
+        + &(0..7)
+            .map(|i| format!("b{i} = trajectory.ballistic\n"))
+            .collect::<String>();
+    let problems = plan_text("d.graph", &g, &reg, &Overrides::default()).expect_err("ambiguous");
+    assert_eq!(problems.len(), 1, "{problems:?}");
+    assert!(
+        problems[0]
+            .message
+            .ends_with("is offered by more than one plugin (and 6 more nodes of this type)"),
+        "{}",
+        problems[0].message
+    );
 }
 
 #[test]
@@ -176,4 +190,102 @@ fn the_same_file_reached_twice_is_loaded_once() {
     let reg = heft_formats::discover(&[d.clone(), d.join("."), d]);
     assert_eq!(reg.plugins().len(), 1);
     assert!(matches!(reg.lookup("trajectory.ballistic"), Ok(Some(_))));
+}
+
+/// An output a node leaves unwritten is an error naming the node, the output, the column and
+/// the first frame it left, not a silent zero.
+#[test]
+fn an_output_left_unwritten_is_an_error_naming_node_and_port() {
+    let reg = with_probe();
+    let text = "format 1\nrate 24 fps\nframes 1..10\nlazy = probe.forget\n    frames = 3\nwrite lazy.value\n";
+    let plan = plan_text("f.graph", text, &reg, &Overrides::default()).expect("checks");
+    match evaluate(&plan, Some(1)).expect_err("unwritten") {
+        EvalError::Node { node, message, .. } => {
+            assert_eq!(node, "lazy");
+            assert!(
+                message.contains("did not write its output `value` (column `value.x [m]` at frame 4"),
+                "{message}"
+            );
+        }
+        other => panic!("expected a node error, got {other:?}"),
+    }
+    let plan = plan_text(
+        "f.graph",
+        &text.replace("frames = 3", "frames = 10"),
+        &reg,
+        &Overrides::default(),
+    )
+    .expect("checks");
+    evaluate(&plan, Some(1)).expect("all written");
+}
+
+/// A plugin built with panic = "abort" does not build: a panic in it would end heft unnamed.
+#[test]
+fn a_plugin_built_to_abort_on_panic_does_not_build() {
+    let target = fixture_dir().parent().expect("fixture target").to_path_buf();
+    let o = std::process::Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()))
+        .current_dir(heft_integration_tests::workspace_root())
+        .args([
+            "rustc",
+            "--quiet",
+            "--lib",
+            "--crate-type",
+            "cdylib",
+            "-p",
+            "heft-test-plugin-probe",
+            "--target-dir",
+        ])
+        .arg(&target)
+        .args(["--", "-C", "panic=abort"])
+        .output()
+        .expect("cargo runs");
+    assert!(!o.status.success());
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("a heft plugin must be built with panic = \"unwind\""),
+        "{err}"
+    );
+}
+
+/// Two node types of one plugin under one name.
+struct First;
+struct Second;
+fn twin() -> heft_node_sdk::NodeSpec {
+    heft_node_sdk::NodeSpec {
+        name: "twin".into(),
+        doc: "d".into(),
+        notes: String::new(),
+        inputs: vec![],
+        outputs: vec![],
+        params: vec![],
+        summaries: vec![],
+    }
+}
+impl heft_node_sdk::Node for First {
+    fn spec() -> heft_node_sdk::NodeSpec {
+        twin()
+    }
+    fn evaluate(_: &heft_node_sdk::Params, _: &mut heft_node_sdk::Io<'_>) -> Result<(), heft_node_sdk::NodeError> {
+        Ok(())
+    }
+}
+impl heft_node_sdk::Node for Second {
+    fn spec() -> heft_node_sdk::NodeSpec {
+        twin()
+    }
+    fn evaluate(_: &heft_node_sdk::Params, _: &mut heft_node_sdk::Io<'_>) -> Result<(), heft_node_sdk::NodeError> {
+        Ok(())
+    }
+}
+heft_node_sdk::export_plugin!(name: "dup", nodes: [First, Second]);
+
+/// A plugin listing one node type twice is refused, with the type named once.
+#[test]
+fn a_plugin_listing_a_node_type_twice_is_refused_once() {
+    let mut reg = Registry::new();
+    reg.add_static(plugin_table(), "dup (linked)").expect("describes");
+    assert!(reg.plugins().is_empty());
+    assert_eq!(reg.failures().len(), 1);
+    let e = reg.failures()[0].to_string();
+    assert!(e.contains("plugin `dup` lists the node type `twin` twice"), "{e}");
 }

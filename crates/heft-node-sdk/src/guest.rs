@@ -611,6 +611,14 @@ unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
 #[macro_export]
 macro_rules! export_plugin {
     (name: $name:expr, nodes: [$($node:ty),+ $(,)?] $(,)?) => {
+        // The host catches a node's panic and names the node; with panic = "abort" a panic
+        // would end heft unnamed, so such a plugin does not build.
+        #[cfg(not(panic = "unwind"))]
+        compile_error!(
+            "a heft plugin must be built with panic = \"unwind\" (set it in the [profile] sections of Cargo.toml): \
+             with \"abort\", a panic in a node would end heft without naming it"
+        );
+
         #[doc(hidden)]
         #[derive(Debug)]
         pub struct __HeftExports;

@@ -468,6 +468,8 @@ pub fn check(
     // Node names and types.
     let mut by_name: BTreeMap<&str, usize> = BTreeMap::new();
     let mut states: Vec<NodeState> = Vec::with_capacity(graph.nodes.len());
+    // An ambiguous type is said once, at its first use, with the count of the others.
+    let mut ambiguous: BTreeMap<&str, (usize, usize)> = BTreeMap::new();
     for (i, decl) in graph.nodes.iter().enumerate() {
         let mut state = NodeState {
             ty: None,
@@ -506,8 +508,15 @@ pub fn check(
                 problems.push(p);
                 state.ok = false;
             }
+            Err(_) if ambiguous.contains_key(decl.ty.value.as_str()) => {
+                if let Some(e) = ambiguous.get_mut(decl.ty.value.as_str()) {
+                    e.1 += 1;
+                }
+                state.ok = false;
+            }
             Err(many) => {
                 let files: Vec<String> = many.iter().map(NodeType::origin).collect();
+                ambiguous.insert(&decl.ty.value, (problems.len(), 0));
                 problems.push(
                     Problem::at(
                         srcs,
@@ -524,6 +533,11 @@ pub fn check(
             }
         }
         states.push(state);
+    }
+    for (k, others) in ambiguous.into_values() {
+        if others > 0 {
+            problems[k].message += &format!(" (and {others} more nodes of this type)");
+        }
     }
 
     // Parameters: the graph's lines, then the overrides.

@@ -93,6 +93,19 @@ fn check_finite(plan: &Plan, i: usize, outputs: &[Vec<f64>]) -> Result<(), EvalE
             let w = shape.width().max(1);
             let port = &spec.outputs[k];
             let cols = columns(&port.name, *shape, port.dimension, &port.codes);
+            if values[bad].to_bits() == UNWRITTEN.to_bits() {
+                return Err(EvalError::Node {
+                    node: node.name.clone(),
+                    ty: node.ty.full_name.clone(),
+                    message: format!(
+                        "it did not write its output `{}` (column `{}` at frame {}, and maybe more): a node \
+                         writes every value of every output",
+                        port.name,
+                        cols.get(bad % w).cloned().unwrap_or_default(),
+                        plan.timeline.frame_number(bad / w)
+                    ),
+                });
+            }
             return Err(EvalError::NonFinite {
                 node: node.name.clone(),
                 port: port.name.clone(),
@@ -104,6 +117,10 @@ fn check_finite(plan: &Plan, i: usize, outputs: &[Vec<f64>]) -> Result<(), EvalE
     }
     Ok(())
 }
+
+/// What output buffers hold before a node writes them: a NaN of its own bits, so that a value
+/// the node left unwritten is told from a NaN it computed.
+const UNWRITTEN: f64 = f64::from_bits(0x7ff8_0000_dead_beef);
 
 fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeResult, EvalError> {
     let node = &plan.nodes[i];
@@ -154,7 +171,7 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
                 spec.outputs[k].name
             ),
         })?;
-        v.resize(len, 0.0);
+        v.resize(len, UNWRITTEN);
         outputs.push(v);
     }
     let mut summaries = vec![f64::NAN; spec.summaries.len()];

@@ -203,6 +203,18 @@ impl Registry {
             });
             return;
         }
+        // A plugin that lists one node type twice is refused, the type named once.
+        let mut names = std::collections::BTreeSet::new();
+        if let Some(twice) = d.nodes.iter().find(|n| !names.insert(n.name.as_str())) {
+            self.failures.push(LoadError::Describe {
+                path: loaded.plugin.origin().to_path_buf(),
+                reason: format!(
+                    "plugin `{}` lists the node type `{}` twice; each node type must be listed once",
+                    d.name, twice.name
+                ),
+            });
+            return;
+        }
         for (i, n) in d.nodes.iter().enumerate() {
             let full_name = format!("{}.{}", d.name, n.name);
             self.types.entry(full_name.clone()).or_default().push(NodeType {
