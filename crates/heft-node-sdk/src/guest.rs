@@ -698,6 +698,32 @@ mod tests {
 
     crate::export_plugin!(name: "unit", nodes: [Ramp]);
 
+    /// A table whose description is bytes no SDK wrote (a plugin of another SDK that kept the
+    /// ABI number): its functions other than `describe` are never called.
+    unsafe extern "C" fn garbled(sink: ByteSink) -> i32 {
+        let junk = [0xffu8, 0x00, 0x07];
+        // SAFETY: the host built `sink` for this call; `junk` is valid for its length.
+        unsafe { (sink.write)(sink.ctx, junk.as_ptr(), junk.len()) };
+        Status::Ok as i32
+    }
+    static GARBLED: PluginTable = PluginTable {
+        describe: garbled,
+        ..table::<__HeftExports>()
+    };
+
+    /// A description heft cannot read is refused with a plain message that says what to do,
+    /// not a decoder's internals alone.
+    #[test]
+    fn an_unreadable_description_is_refused_plainly() {
+        let e = Plugin::from_static(&GARBLED, "garbled").expect_err("unreadable");
+        let text = e.to_string();
+        assert!(
+            text.contains("its description of itself cannot be read by this heft")
+                && text.contains("rebuild it against this heft's heft-node-sdk"),
+            "{text}"
+        );
+    }
+
     fn tl(n: u64) -> Timeline {
         Timeline {
             start_frame: 0,

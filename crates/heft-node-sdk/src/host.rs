@@ -219,9 +219,12 @@ impl Plugin {
                 reason: String::from_utf8_lossy(&bytes).into_owned(),
             });
         }
-        let descriptor: PluginDescriptor = decode_descriptor(&bytes).map_err(|reason| LoadError::Describe {
+        let descriptor: PluginDescriptor = decode_descriptor(&bytes).map_err(|raw| LoadError::Describe {
             path: path.clone(),
-            reason,
+            reason: format!(
+                "its description of itself cannot be read by this heft (its SDK and this heft's differ): rebuild it \
+                 against this heft's heft-node-sdk ({raw})"
+            ),
         })?;
         Ok(Plugin {
             origin: path,
