@@ -648,7 +648,7 @@ macro_rules! export_plugin {
         // SAFETY: exporting an unmangled symbol is unsafe only if another symbol of the same
         // name exists in the library; the SDK's versioned name is reserved for this macro,
         // which a crate can invoke once.
-        #[allow(unsafe_code)]
+        // (no allow(unsafe_code) here: lints do not fire in an external macro, and an allow would clash with a forbid)
         #[unsafe(no_mangle)]
         pub extern "C" fn heft_plugin_entry_v1() -> *const $crate::abi::PluginTable {
             &__HEFT_TABLE

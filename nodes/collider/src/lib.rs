@@ -5,6 +5,9 @@
 //!   body for a strand node's `colliders` input (the list layout is
 //!   `heft_node_sdk::colliders`).
 
+// Safe Rust only, and the export macro works under it.
+#![forbid(unsafe_code)]
+
 mod add;
 
 pub use add::Add;

@@ -8,6 +8,7 @@
 //! Both report the first flight's take-off, touch-down and flight time, interpolated inside
 //! the frames where the signal crosses the threshold. The detection itself lives in
 //! [`detect`] as plain functions so other crates can reuse it.
+#![forbid(unsafe_code)]
 
 pub mod detect;
 mod force;

@@ -6,6 +6,7 @@
 //!
 //! The analysis itself is the plain function [`analyse`], shared by the node, the tests and any
 //! host. SI units; up is +Z.
+#![forbid(unsafe_code)]
 
 pub mod analysis;
 mod node;

@@ -8,6 +8,7 @@
 //!
 //! The noise is improved Perlin noise (Perlin 2002) with a permutation table shuffled from
 //! the seed; see [`gradient`]. World axes: right-handed, Z up, SI units.
+#![forbid(unsafe_code)]
 
 mod common;
 pub mod gradient;

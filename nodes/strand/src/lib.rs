@@ -9,6 +9,7 @@
 //!
 //! Both share ports, parameters, pins, colliders, wind and the frame loop with `xpbd.strand`;
 //! a graph swaps the method by changing the node type's name.
+#![forbid(unsafe_code)]
 
 pub mod euler;
 pub mod verlet;

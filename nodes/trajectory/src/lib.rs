@@ -8,6 +8,7 @@
 //!   swing with a timing relative to take-off; attachments for head, chest and hips.
 //!
 //! World axes: right-handed, Z up, SI units (m, s). Gravity acts along -Z.
+#![forbid(unsafe_code)]
 
 mod ballistic;
 pub mod body;

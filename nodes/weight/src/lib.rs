@@ -5,6 +5,7 @@
 //!   gravity g - a felt by the body or by a point a passive element hangs from.
 //!
 //! The arithmetic lives in [`physics`] as plain functions.
+#![forbid(unsafe_code)]
 
 mod apparent;
 pub mod physics;

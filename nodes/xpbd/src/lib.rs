@@ -7,6 +7,7 @@
 //!
 //! [`solver`] is the method core (plain functions over a lane layout); [`strand`] the node.
 //! World space is right-handed, Z up, SI units.
+#![forbid(unsafe_code)]
 
 pub mod solver;
 pub mod strand;
