@@ -280,6 +280,36 @@ impl<'a> Io<'a> {
         Ok(if i < k { (first, second) } else { (second, first) })
     }
 
+    /// Any number of different output buffers at once, in the order named, each with its
+    /// width (for a node that writes several outputs in one pass over its state). A name
+    /// asked for twice, or not an output, is an error.
+    pub fn outputs<const N: usize>(&mut self, names: [&str; N]) -> Result<[(&mut [f64], usize); N], NodeError> {
+        let mut index = [0usize; N];
+        for (k, name) in names.iter().enumerate() {
+            let i = self
+                .spec
+                .outputs
+                .iter()
+                .position(|p| p.name == *name)
+                .ok_or_else(|| NodeError::new(format!("no output port `{name}`")))?;
+            if index[..k].contains(&i) {
+                return Err(NodeError::new(format!("`{name}` asked for twice")));
+            }
+            if i >= self.outputs.len() {
+                return Err(NodeError::new(format!("output `{name}` was not passed")));
+            }
+            index[k] = i;
+        }
+        // Each buffer taken once, by its own index: disjoint borrows of one vector.
+        let mut taken: Vec<Option<&mut [f64]>> = self.outputs.iter_mut().map(|s| Some(&mut **s)).collect();
+        let widths = &self.widths;
+        let mut out: [Option<(&mut [f64], usize)>; N] = std::array::from_fn(|_| None);
+        for (slot, &i) in out.iter_mut().zip(&index) {
+            *slot = taken[i].take().map(|b| (b, widths.get(i).copied().unwrap_or(0)));
+        }
+        Ok(out.map(|o| o.unwrap_or((&mut [], 0))))
+    }
+
     /// An output by name, as a frame-major slice; also returns its width.
     pub fn output(&mut self, name: &str) -> Result<(&mut [f64], usize), NodeError> {
         let i = self
@@ -710,6 +740,35 @@ mod tests {
         describe: garbled,
         ..table::<__HeftExports>()
     };
+
+    /// Three outputs borrowed at once, in any order, each written through its own slice; a
+    /// name twice or an unknown name is an error.
+    #[test]
+    fn any_number_of_outputs_can_be_borrowed_at_once() {
+        let spec = NodeSpec {
+            name: "three".into(),
+            doc: String::new(),
+            notes: String::new(),
+            summaries: vec![],
+            inputs: vec![],
+            outputs: ["a", "b", "c"]
+                .iter()
+                .map(|n| PortSpec::new(n, PortKind::Vec3, Dimension::Length, "out"))
+                .collect(),
+            params: vec![],
+        };
+        let (mut a, mut b, mut c) = (vec![0.0; 6], vec![0.0; 6], vec![0.0; 6]);
+        let mut io = Io::new(tl(2), &spec, vec![], vec![&mut a, &mut b, &mut c], vec![3, 3, 3]);
+        let [(c_out, wc), (a_out, wa), (b_out, _)] = io.outputs(["c", "a", "b"]).expect("three at once");
+        assert_eq!((wc, wa), (3, 3));
+        c_out.fill(3.0);
+        a_out.fill(1.0);
+        b_out.fill(2.0);
+        assert!(io.outputs(["a", "a"]).unwrap_err().0.contains("`a` asked for twice"));
+        assert!(io.outputs(["d"]).unwrap_err().0.contains("no output port `d`"));
+        drop(io);
+        assert_eq!((a[5], b[5], c[5]), (1.0, 2.0, 3.0));
+    }
 
     /// A description heft cannot read is refused with a plain message that says what to do,
     /// not a decoder's internals alone.
