@@ -159,7 +159,7 @@ fn plugins_are_found_by_flag_environment_and_executable_folder() {
 }
 
 /// A run that fails leaves the output folder as it was: no partial files, the previous
-/// run's files untouched.
+/// run's files untouched; the error names the line the failing node is declared on.
 #[test]
 fn a_failed_run_leaves_previous_outputs_untouched() {
     let inst = install(&[
@@ -195,7 +195,7 @@ fn a_failed_run_leaves_previous_outputs_untouched() {
     assert_eq!(bad.status.code(), Some(1));
     let (_, err) = text(&bad);
     assert!(
-        err.contains("node `s` wrote NaN to output `value` (column `value.z [m]`) at frame 7"),
+        err.contains("spoil.graph:5:1: node `s` wrote NaN to output `value` (column `value.z [m]`) at frame 7"),
         "{err}"
     );
     assert_eq!(listing(out.path()), before, "nothing changed, nothing left over");

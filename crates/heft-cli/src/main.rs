@@ -316,7 +316,7 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
     let evaluation = match evaluation {
         Ok(e) => e,
         Err(e) => {
-            eprintln!("error: {e}");
+            eprintln!("error: {}", e.located(plan));
             return ExitCode::from(FAILED);
         }
     };

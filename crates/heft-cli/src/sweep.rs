@@ -89,7 +89,7 @@ fn run_point(
     let e = match eval::evaluate(&plan, Some(1)) {
         Ok(e) => e,
         Err(e) => {
-            result.error = Some(e.to_string());
+            result.error = Some(e.located(&plan));
             return result;
         }
     };

@@ -42,6 +42,8 @@ pub struct PlannedNode {
     pub outputs: Vec<Shape>,
     /// For a host-side node, its outputs, read when the graph was checked.
     pub host_data: Option<Vec<Vec<f64>>>,
+    /// Where the node is declared, `file:line:column` (a graph or a recipe).
+    pub at: String,
 }
 
 /// An output to write.
@@ -1279,6 +1281,7 @@ pub fn check(
             inputs: std::mem::take(&mut inputs[i]),
             outputs,
             host_data: host_data[i].take(),
+            at: place(d.name.span).location(),
         });
     }
     Ok(Plan {

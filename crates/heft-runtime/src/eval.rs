@@ -61,6 +61,21 @@ impl std::fmt::Display for EvalError {
 
 impl std::error::Error for EvalError {}
 
+impl EvalError {
+    /// The error with the place its node is declared in front (`jump.graph:12:1: node ...`),
+    /// so that a failure at run time points at the graph's line as a check problem does.
+    pub fn located(&self, plan: &Plan) -> String {
+        let node = match self {
+            EvalError::Node { node, .. } | EvalError::NonFinite { node, .. } => Some(node),
+            EvalError::Threads(_) => None,
+        };
+        match node.and_then(|n| plan.nodes.iter().find(|p| &p.name == n)) {
+            Some(p) => format!("{}: {self}", p.at),
+            None => self.to_string(),
+        }
+    }
+}
+
 /// The results of an evaluation.
 #[derive(Debug, Clone)]
 pub struct Evaluation {
