@@ -931,3 +931,36 @@ fn a_bake_too_large_is_refused_with_its_size() {
         )])
     );
 }
+
+/// Nodes check their own parameters when the graph is checked (`Node::check`), and the
+/// problems point at the lines to change: a crouch deeper than the body allows, at
+/// `crouch_depth`; a substep count that cannot be stable for the stiffness, at `substeps`,
+/// with the count that is; and, with `substeps` left at its default, at the node.
+#[test]
+fn nodes_report_their_own_problems_at_check_time_where_they_are() {
+    let p = body_problems("odile = trajectory.jump\n    takeoff_frame = 5\n    crouch_depth = 60 cm\n");
+    assert_eq!(p.len(), 1, "{p:?}");
+    assert_eq!(p[0].location(), "t.graph:6:20");
+    assert!(
+        p[0].message
+            .contains("`crouch_depth` 0.600 m is deeper than a 1.65 m tall body allows"),
+        "{}",
+        p[0].message
+    );
+
+    let p = body_problems("braid = strand.euler\n    segments = 40\n    substeps = 4\n");
+    assert_eq!(p.len(), 1, "{p:?}");
+    assert_eq!(p[0].location(), "t.graph:6:16");
+    assert!(
+        p[0].message
+            .starts_with("4 substeps make a step of 1.042e-2 s, not below the explicit stability limit"),
+        "{}",
+        p[0].message
+    );
+    assert!(help(&p[0]).contains("set `substeps` to at least"), "{}", help(&p[0]));
+
+    let p = body_problems("braid = strand.euler\n    segments = 200\n");
+    assert_eq!(p.len(), 1, "{p:?}");
+    assert_eq!(p[0].location(), "t.graph:4:1");
+    assert_eq!(p[0].label, "`substeps` of this node (its default)");
+}

@@ -15,8 +15,8 @@ use std::ffi::c_void;
 
 /// Incremented on any change that is not a pure append.
 pub const ABI_MAJOR: u32 = 1;
-/// Incremented when fields are appended to [`PluginTable`] or [`Call`].
-pub const ABI_MINOR: u32 = 0;
+/// Incremented when fields are appended to [`PluginTable`] or [`Call`]. 1: `check`.
+pub const ABI_MINOR: u32 = 1;
 /// The one symbol a plugin exports (the major version is part of the name).
 pub const ENTRY_SYMBOL: &str = "heft_plugin_entry_v1";
 
@@ -179,7 +179,15 @@ pub struct PluginTable {
     pub output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
     /// Evaluates the call, writing every output buffer.
     pub evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
+    /// ABI 1.1: for the call's node type, parameters, input widths and timeline, writes the
+    /// problems it finds (an encoded `Vec<descriptor::CheckProblem>`) to the sink, so that
+    /// `heft check` reports them at the graph's lines. A host reads it only from a table that
+    /// is large enough ([`TABLE_SIZE_1_0`] is the size without it).
+    pub check: unsafe extern "C" fn(call: *const Call, problems: ByteSink) -> i32,
 }
+
+/// The size of a table of ABI 1.0, before `check` was appended: the least a host accepts.
+pub const TABLE_SIZE_1_0: usize = 8 + 4 * std::mem::size_of::<usize>();
 
 #[cfg(test)]
 mod tests {
@@ -195,7 +203,8 @@ mod tests {
         assert_eq!(offset_of!(PluginTable, abi_minor), 4);
         assert_eq!(offset_of!(PluginTable, table_size), 8);
         assert_eq!(offset_of!(PluginTable, describe), 8 + size_of::<usize>());
-        assert_eq!(size_of::<PluginTable>(), 8 + 4 * size_of::<usize>());
+        assert_eq!(offset_of!(PluginTable, check), TABLE_SIZE_1_0);
+        assert_eq!(size_of::<PluginTable>(), 8 + 5 * size_of::<usize>());
     }
 
     /// Status codes are part of the ABI.

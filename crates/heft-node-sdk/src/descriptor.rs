@@ -406,3 +406,40 @@ pub fn decode_descriptor(bytes: &[u8]) -> Result<PluginDescriptor, String> {
     }
     Ok(d)
 }
+
+/// A problem a node type finds with its parameters, input shapes or timeline when a graph is
+/// checked (`Node::check`): `param` names the parameter to change, when one is to blame, so
+/// that the problem points at its line.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CheckProblem {
+    /// The parameter to blame, if one is.
+    pub param: Option<String>,
+    /// What is wrong (one sentence).
+    pub message: String,
+    /// How to fix it.
+    pub help: Option<String>,
+}
+
+impl CheckProblem {
+    /// A problem with parameter `param`.
+    pub fn at(param: &str, message: impl Into<String>) -> CheckProblem {
+        CheckProblem {
+            param: Some(param.to_owned()),
+            message: message.into(),
+            help: None,
+        }
+    }
+    /// A problem with the node as a whole.
+    pub fn node(message: impl Into<String>) -> CheckProblem {
+        CheckProblem {
+            param: None,
+            message: message.into(),
+            help: None,
+        }
+    }
+    /// Adds advice.
+    pub fn help(mut self, help: impl Into<String>) -> CheckProblem {
+        self.help = Some(help.into());
+        self
+    }
+}

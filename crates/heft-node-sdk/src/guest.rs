@@ -7,7 +7,7 @@ use std::sync::Arc;
 
 use crate::abi::{ABI_MAJOR, ABI_MINOR, ByteSink, Call, PluginTable, SeriesView, SeriesViewMut, Status, Timeline};
 use crate::codec;
-use crate::descriptor::{NodeSpec, ParamValue, PluginDescriptor, PortKind};
+use crate::descriptor::{CheckProblem, NodeSpec, ParamValue, PluginDescriptor, PortKind};
 
 /// An error a node returns; the host reports it with the node instance's name.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -44,6 +44,15 @@ pub trait Node: 'static {
 
     /// Computes every output for every frame of the timeline.
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError>;
+
+    /// Problems with the parameters, the input widths (values per frame, 0 for an unconnected
+    /// input) or the timeline that are certain before evaluating: `heft check` reports them at
+    /// the graph's lines (at the parameter a problem names). Cheap, pure and optional: the
+    /// default finds none, and a node still refuses at evaluation what it finds there.
+    fn check(params: &Params, inputs: &[usize], timeline: Timeline) -> Vec<CheckProblem> {
+        let _ = (params, inputs, timeline);
+        Vec::new()
+    }
 }
 
 /// Parameter values of one node instance, complete (defaults filled in by the host),
@@ -369,6 +378,8 @@ pub struct NodeEntry {
     pub output_points: fn(&Params, &[usize]) -> Result<Vec<usize>, NodeError>,
     /// The node's evaluation.
     pub evaluate: fn(&Params, &mut Io<'_>) -> Result<(), NodeError>,
+    /// The node's check-time problems.
+    pub check: fn(&Params, &[usize], Timeline) -> Vec<CheckProblem>,
 }
 
 impl NodeEntry {
@@ -378,6 +389,7 @@ impl NodeEntry {
             spec: N::spec,
             output_points: N::output_points,
             evaluate: N::evaluate,
+            check: N::check,
         }
     }
 }
@@ -430,6 +442,7 @@ pub const fn table<E: Exports>() -> PluginTable {
         describe: describe::<E>,
         output_points: output_points::<E>,
         evaluate: evaluate::<E>,
+        check: check::<E>,
     }
 }
 
@@ -563,6 +576,19 @@ unsafe extern "C" fn output_points<E: Exports>(call: *const Call, points: *mut u
             let out = unsafe { std::slice::from_raw_parts_mut(points, count) };
             out.copy_from_slice(&n);
         }
+        Ok(())
+    })
+}
+
+unsafe extern "C" fn check<E: Exports>(call: *const Call, problems: ByteSink) -> i32 {
+    // SAFETY: the host passes a pointer to a `Call` that lives for the duration of this call.
+    let call = unsafe { &*call };
+    guarded(call.message, || {
+        let d = decode_call::<E>(call)?;
+        let widths: Vec<usize> = input_views(call).iter().map(|v| v.width).collect();
+        let found = (d.entry.check)(&d.params, &widths, call.timeline);
+        let bytes = codec::encode(&found).map_err(bad)?;
+        send(problems, &bytes);
         Ok(())
     })
 }
@@ -714,6 +740,15 @@ mod tests {
                 )],
             }
         }
+        fn check(params: &Params, _: &[usize], _: Timeline) -> Vec<CheckProblem> {
+            match params.number("scale") {
+                Ok(s) if s < 0.0 => vec![
+                    CheckProblem::at("scale", format!("a negative scale {s} m runs the ramp down"))
+                        .help("give a scale of 0 or more"),
+                ],
+                _ => Vec::new(),
+            }
+        }
         fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
             let s = params.number("scale")?;
             assert!(s >= 0.0, "negative scale {s}");
@@ -768,6 +803,47 @@ mod tests {
         assert!(io.outputs(["d"]).unwrap_err().0.contains("no output port `d`"));
         drop(io);
         assert_eq!((a[5], b[5], c[5]), (1.0, 2.0, 3.0));
+    }
+
+    /// A plugin built for ABI 1.0 (a table without `check`) still loads and evaluates; a
+    /// check asks it nothing and finds nothing. The same node with the hook reports its
+    /// problem, naming the parameter.
+    static OLD: crate::host::Table10 = {
+        let t = table::<__HeftExports>();
+        crate::host::Table10 {
+            abi_major: 1,
+            abi_minor: 0,
+            table_size: crate::abi::TABLE_SIZE_1_0,
+            describe: t.describe,
+            output_points: t.output_points,
+            evaluate: t.evaluate,
+        }
+    };
+
+    #[test]
+    fn a_plugin_of_abi_1_0_loads_and_the_check_hook_reports_where_present() {
+        let params = Plugin::encode_params(&[ParamValue::Number(-2.0)]).expect("encodes");
+        // SAFETY: `OLD` is a static with the 1.0 layout, valid for the whole program.
+        let old = unsafe { Plugin::from_raw((&raw const OLD).cast(), "abi 1.0".into()) }.expect("loads");
+        assert!(old.check(0, &params, tl(4), &[]).expect("asks nothing").is_empty());
+        let (out, ..) = call(&old, 2.0, 4).expect("evaluates");
+        assert_eq!(out, [0.0, 2.0, 4.0, 6.0]);
+        let new = Plugin::from_static(plugin_table(), "unit").expect("loads");
+        let found = new.check(0, &params, tl(4), &[]).expect("checks");
+        assert_eq!(
+            found,
+            [CheckProblem::at("scale", "a negative scale -2 m runs the ramp down").help("give a scale of 0 or more")]
+        );
+        assert!(
+            new.check(
+                0,
+                &Plugin::encode_params(&[ParamValue::Number(1.0)]).expect("encodes"),
+                tl(4),
+                &[]
+            )
+            .expect("checks")
+            .is_empty()
+        );
     }
 
     /// A description heft cannot read is refused with a plain message that says what to do,

@@ -7,10 +7,10 @@ use std::path::{Path, PathBuf};
 
 use crate::abi::{
     ABI_MAJOR, ABI_MINOR, ByteSink, ByteView, Call, ENTRY_SYMBOL, EntryFn, PluginTable, SeriesView, SeriesViewMut,
-    Status, Timeline,
+    Status, TABLE_SIZE_1_0, Timeline,
 };
 use crate::codec;
-use crate::descriptor::{ParamValue, PluginDescriptor, decode_descriptor};
+use crate::descriptor::{CheckProblem, ParamValue, PluginDescriptor, decode_descriptor};
 
 /// Why a plugin could not be loaded. Every variant names the file.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -109,8 +109,29 @@ impl std::error::Error for CallError {}
 #[derive(Debug, Clone)]
 pub struct Plugin {
     origin: PathBuf,
-    table: &'static PluginTable,
+    table: Functions,
     descriptor: PluginDescriptor,
+}
+
+/// The functions of a plugin's table, copied out of it: those of ABI 1.0, and those appended
+/// since when the plugin's table has them.
+#[derive(Debug, Clone, Copy)]
+struct Functions {
+    describe: unsafe extern "C" fn(sink: ByteSink) -> i32,
+    output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
+    evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
+    check: Option<unsafe extern "C" fn(call: *const Call, problems: ByteSink) -> i32>,
+}
+
+/// A table of ABI 1.0: the layout every later table starts with.
+#[repr(C)]
+pub(crate) struct Table10 {
+    pub(crate) abi_major: u32,
+    pub(crate) abi_minor: u32,
+    pub(crate) table_size: usize,
+    pub(crate) describe: unsafe extern "C" fn(sink: ByteSink) -> i32,
+    pub(crate) output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
+    pub(crate) evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
 }
 
 /// The fields every table version starts with.
@@ -193,23 +214,36 @@ impl Plugin {
 
     /// # Safety
     /// `table` is null or points to a table that stays valid for the rest of the process.
-    unsafe fn from_raw(table: *const PluginTable, path: PathBuf) -> Result<Plugin, LoadError> {
+    pub(crate) unsafe fn from_raw(table: *const PluginTable, path: PathBuf) -> Result<Plugin, LoadError> {
         if table.is_null() {
             return Err(LoadError::NullTable { path });
         }
         // SAFETY: every table version starts with the header fields; read them alone first.
         let header = unsafe { &*table.cast::<TableHeader>() };
         let ours = std::mem::size_of::<PluginTable>();
-        if header.abi_major != ABI_MAJOR || header.table_size < ours {
+        if header.abi_major != ABI_MAJOR || header.table_size < TABLE_SIZE_1_0 {
             return Err(LoadError::AbiMismatch {
                 path,
                 plugin: (header.abi_major, header.abi_minor, header.table_size),
                 host: (ABI_MAJOR, ABI_MINOR, ours),
             });
         }
-        // SAFETY: same major version and a table at least as large as ours: every field this
-        // host reads exists with the layout it expects (fields are only appended).
-        let table: &'static PluginTable = unsafe { &*table };
+        // SAFETY: same major version and a table at least as large as ABI 1.0's: its first
+        // fields have the 1.0 layout (fields are only appended), and only those are read.
+        let t10 = unsafe { &*table.cast::<Table10>() };
+        let check = if header.table_size >= ours {
+            // SAFETY: the table is as large as this host's: every field of `PluginTable` is
+            // there with the layout it expects.
+            Some(unsafe { (*table).check })
+        } else {
+            None
+        };
+        let table = Functions {
+            describe: t10.describe,
+            output_points: t10.output_points,
+            evaluate: t10.evaluate,
+            check,
+        };
         let mut bytes = Vec::new();
         // SAFETY: the sink's context is `bytes`, alive across the call.
         let code = unsafe { (table.describe)(byte_sink(&mut bytes)) };
@@ -271,6 +305,47 @@ impl Plugin {
             },
             summaries: std::ptr::null_mut(),
             summary_count: 0,
+        }
+    }
+
+    /// Asks the node type for the problems it finds with these parameters, input widths and
+    /// timeline (`Node::check`); none from a plugin built before the hook existed (ABI 1.0).
+    pub fn check(
+        &self,
+        node_index: u32,
+        params: &[u8],
+        timeline: Timeline,
+        input_widths: &[usize],
+    ) -> Result<Vec<CheckProblem>, CallError> {
+        let Some(check) = self.table.check else {
+            return Ok(Vec::new());
+        };
+        let views: Vec<SeriesView> = input_widths
+            .iter()
+            .map(|&width| SeriesView {
+                data: std::ptr::null(),
+                len: 0,
+                width,
+            })
+            .collect();
+        let mut message = Vec::new();
+        let mut found = Vec::new();
+        let mut call = Plugin::call(node_index, params, timeline);
+        call.inputs = views.as_ptr();
+        call.input_count = views.len();
+        call.message = byte_sink(&mut message);
+        // SAFETY: `call` and everything it points to (params, views, the message buffer) and
+        // the problems buffer outlive the call.
+        let code = unsafe { check(&call, byte_sink(&mut found)) };
+        match Status::from_code(code) {
+            Status::Ok => codec::decode(&found).map_err(|e| CallError {
+                status: Status::BadCall,
+                message: format!("the node's check answer cannot be read: {e}"),
+            }),
+            status => Err(CallError {
+                status,
+                message: String::from_utf8_lossy(&message).into_owned(),
+            }),
         }
     }
 

@@ -25,7 +25,7 @@ pub mod units;
 
 pub use abi::Timeline;
 pub use descriptor::{
-    NodeSpec, ParamSpec, ParamType, ParamValue, PluginDescriptor, PortKind, PortSpec, Shape, SummarySpec,
+    CheckProblem, NodeSpec, ParamSpec, ParamType, ParamValue, PluginDescriptor, PortKind, PortSpec, Shape, SummarySpec,
 };
 pub use guest::{Io, Node, NodeError, Params, Series};
 pub use units::Dimension;

@@ -1058,6 +1058,41 @@ pub fn check(
                             .label("this node"),
                         ),
                     }
+                    // The node's own check of its parameters, inputs and timeline: each
+                    // problem at the line of the parameter it names, or at the node.
+                    match plugin.plugin.check(*index, &bytes, timeline, &widths) {
+                        Ok(found) => {
+                            for f in found {
+                                let line = f
+                                    .param
+                                    .as_deref()
+                                    .and_then(|name| written[i].iter().rev().find(|w| w.line.name.value == name));
+                                let mut p = match line {
+                                    Some(w) => Problem::new(&w.source, w.line.value.span, f.message.clone())
+                                        .label(format!("`{}` of this node", w.line.name.value)),
+                                    None => {
+                                        let label = match &f.param {
+                                            Some(name) => format!("`{name}` of this node (its default)"),
+                                            None => "this node".to_owned(),
+                                        };
+                                        Problem::at(srcs, graph.nodes[i].name.span, f.message.clone()).label(label)
+                                    }
+                                };
+                                if let Some(h) = f.help {
+                                    p = p.help(h);
+                                }
+                                problems.push(p);
+                            }
+                        }
+                        Err(e) => problems.push(
+                            Problem::at(
+                                srcs,
+                                graph.nodes[i].name.span,
+                                format!("node `{}` failed its check: {e}", graph.nodes[i].name.value),
+                            )
+                            .label("this node"),
+                        ),
+                    }
                 }
             }
             params_bytes[i] = bytes;

@@ -29,7 +29,7 @@ pub mod testing;
 pub use geometry::{Capsule, CapsuleContact, Collider, Colliders, Ground, Pose, RigidVelocity, Sphere, Track, V3};
 pub use run::{
     Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, FrameEnv, Method, State, blow_up_cause, blow_up_message,
-    blown_strand, evaluate, evaluate_with, hanging_stretch, rest_state,
+    blown_strand, check, evaluate, evaluate_with, hanging_stretch, rest_state,
 };
 pub use setup::{ColliderParams, Pin, Placement, Setup, step_limit};
 pub use spec::{INPUTS, OUTPUTS, PINS, PLACEMENTS, node_spec, output_points, particle_count};

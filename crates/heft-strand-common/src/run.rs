@@ -592,6 +592,43 @@ fn still(series: &Series<'_>, name: &str, tl: &Timeline) -> Result<Track, NodeEr
     Ok(Track::still(t, q))
 }
 
+/// The check-time problems of a strand node with method `M` (its `Node::check`): a step
+/// `frame / substeps` at or above the method's stability limit for these parameters, found
+/// before a run blows up at it, at the `substeps` line with the count that is stable.
+pub fn check<M: Method>(params: &Params, inputs: &[usize], timeline: Timeline) -> Vec<heft_node_sdk::CheckProblem> {
+    let Ok(setup) = Setup::from_params(params) else {
+        // Refused at evaluation with the reason; nothing to say here.
+        return Vec::new();
+    };
+    let wind = crate::spec::INPUTS
+        .iter()
+        .position(|n| *n == "wind")
+        .and_then(|k| inputs.get(k))
+        .is_some_and(|&w| w > 0);
+    let (Some(limit), true) = (M::stability_limit(&setup, wind), timeline.frames() > 1) else {
+        return Vec::new();
+    };
+    let h = timeline.dt() / setup.substeps as f64;
+    if h < limit {
+        return Vec::new();
+    }
+    let need = (timeline.dt() / limit).floor() as u64 + 1;
+    vec![
+        heft_node_sdk::CheckProblem::at(
+            "substeps",
+            format!(
+                "{} substeps make a step of {h:.3e} s, not below {} of {limit:.3e} s for these parameters: the run \
+                 would blow up",
+                setup.substeps,
+                M::LIMIT_NAME
+            ),
+        )
+        .help(format!(
+            "set `substeps` to at least {need}, or soften `stretch_stiffness`"
+        )),
+    ]
+}
+
 /// Evaluates a strand node with method `M`: the whole frame loop.
 pub fn evaluate<M: Method>(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
     let setup = Setup::from_params(params)?;

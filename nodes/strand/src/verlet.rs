@@ -385,6 +385,10 @@ impl Node for Verlet {
         heft_strand_common::output_points(params, inputs)
     }
 
+    fn check(params: &Params, inputs: &[usize], timeline: heft_node_sdk::Timeline) -> Vec<heft_node_sdk::CheckProblem> {
+        heft_strand_common::check::<VerletMethod>(params, inputs, timeline)
+    }
+
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
         heft_strand_common::evaluate::<VerletMethod>(params, io)
     }

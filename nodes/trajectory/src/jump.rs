@@ -5,8 +5,8 @@
 //! the node and the tests share.
 
 use heft_node_sdk::{
-    Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, STANDARD_GRAVITY, SummarySpec,
-    Timeline,
+    CheckProblem, Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, STANDARD_GRAVITY,
+    SummarySpec, Timeline,
 };
 
 use crate::body::{Body, collider_radii, leg, proportions, segment_rotation};
@@ -971,6 +971,25 @@ impl Node for Jump {
                     "Largest ground force over the landing, (g + a_z) / g.",
                 ),
             ],
+        }
+    }
+
+    /// The plan is made at check time too: a jump the body cannot do (a crouch deeper than
+    /// the legs allow, a landing that would need the ground to pull) is a problem at the line
+    /// of the first parameter the planner's message names.
+    fn check(params: &Params, _: &[usize], timeline: Timeline) -> Vec<CheckProblem> {
+        match JumpSpec::from_params(params, timeline).and_then(|s| Plan::new(&s).map(|_| ())) {
+            Ok(()) => Vec::new(),
+            Err(e) => {
+                let names: Vec<String> = Self::spec().params.into_iter().map(|p| p.name).collect();
+                // The first `name` in the message that is a parameter of this node.
+                let blamed = e.0.split('`').skip(1).step_by(2).find(|w| names.iter().any(|n| n == w));
+                vec![CheckProblem {
+                    param: blamed.map(str::to_owned),
+                    message: e.0,
+                    help: None,
+                }]
+            }
         }
     }
 

@@ -133,6 +133,10 @@ impl<T: Precision> Node for XpbdNode<T> {
         heft_strand_common::output_points(params, inputs)
     }
 
+    fn check(params: &Params, inputs: &[usize], timeline: heft_node_sdk::Timeline) -> Vec<heft_node_sdk::CheckProblem> {
+        heft_strand_common::check::<Xpbd<T>>(params, inputs, timeline)
+    }
+
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
         heft_strand_common::evaluate::<Xpbd<T>>(params, io)
     }
