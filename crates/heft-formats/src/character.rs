@@ -105,23 +105,9 @@ impl Affine {
     }
 }
 
-fn norm(v: [f64; 3]) -> f64 {
-    dot3(v, v).sqrt()
-}
+use heft_node_sdk::math::vec3::{cross, dot as dot3, norm};
 
-fn dot3(a: [f64; 3], b: [f64; 3]) -> f64 {
-    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
-}
-
-fn cross(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
-    [
-        a[1] * b[2] - a[2] * b[1],
-        a[2] * b[0] - a[0] * b[2],
-        a[0] * b[1] - a[1] * b[0],
-    ]
-}
-
-pub use heft_node_sdk::rotation::{matrix as rotation_matrix, slerp};
+pub use heft_node_sdk::math::quat::{matrix as rotation_matrix, slerp};
 
 /// The unit quaternion (w >= 0) of a rotation matrix (Shepperd 1978, "Quaternion from rotation
 /// matrix", J. Guidance and Control 1(3): the largest of the four candidates is taken).

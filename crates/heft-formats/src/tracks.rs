@@ -381,7 +381,7 @@ fn lerp(col: &[f64], (k, u): (usize, f64)) -> f64 {
 /// with quaternion curves", SIGGRAPH), or normalised linear interpolation.
 pub fn interpolate(a: Quat, b: Quat, u: f64, slerp: bool) -> Quat {
     if slerp {
-        return heft_node_sdk::rotation::slerp(a, b, u);
+        return heft_node_sdk::math::quat::slerp(a, b, u);
     }
     let b = if dot(a, b) < 0.0 { b.map(|c| -c) } else { b };
     normalised([0, 1, 2, 3].map(|k| a[k] + u * (b[k] - a[k])))

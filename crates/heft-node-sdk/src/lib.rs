@@ -20,6 +20,7 @@ pub mod field;
 pub mod guest;
 #[cfg(feature = "host")]
 pub mod host;
+pub mod math;
 pub mod rotation;
 pub mod units;
 

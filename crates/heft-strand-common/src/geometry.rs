@@ -1,48 +1,7 @@
 //! Small vector helpers, rigid poses interpolated between frames, and the colliders: spheres and
 //! (tapered) capsules.
 
-/// A 3-vector.
-pub type V3 = [f64; 3];
-
-/// a + b
-#[inline(always)]
-pub fn add(a: V3, b: V3) -> V3 {
-    [a[0] + b[0], a[1] + b[1], a[2] + b[2]]
-}
-/// a - b
-#[inline(always)]
-pub fn sub(a: V3, b: V3) -> V3 {
-    [a[0] - b[0], a[1] - b[1], a[2] - b[2]]
-}
-/// s a
-#[inline(always)]
-pub fn scale(a: V3, s: f64) -> V3 {
-    [a[0] * s, a[1] * s, a[2] * s]
-}
-/// a + s b
-#[inline(always)]
-pub fn axpy(a: V3, s: f64, b: V3) -> V3 {
-    [a[0] + s * b[0], a[1] + s * b[1], a[2] + s * b[2]]
-}
-/// a . b
-#[inline(always)]
-pub fn dot(a: V3, b: V3) -> f64 {
-    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
-}
-/// a x b
-#[inline(always)]
-pub fn cross(a: V3, b: V3) -> V3 {
-    [
-        a[1] * b[2] - a[2] * b[1],
-        a[2] * b[0] - a[0] * b[2],
-        a[0] * b[1] - a[1] * b[0],
-    ]
-}
-/// |a|
-#[inline(always)]
-pub fn norm(a: V3) -> f64 {
-    dot(a, a).sqrt()
-}
+pub use heft_node_sdk::math::vec3::{V3, add, axpy, cross, dot, norm, scale, sub};
 
 /// A rigid pose: translation and a unit quaternion (x, y, z, w), with its rotation matrix.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -65,7 +24,7 @@ impl Pose {
 
     /// A pose from a translation and a unit quaternion (x, y, z, w).
     pub fn new(t: V3, q: [f64; 4]) -> Pose {
-        let r = heft_node_sdk::rotation::matrix(q);
+        let r = heft_node_sdk::math::quat::matrix(q);
         Pose { t, q, r }
     }
 
@@ -183,7 +142,7 @@ impl Track {
     /// The rotation at fraction `frac`: the start orientation turned by `angular` for
     /// `frac` of the frame.
     fn rotation(&self, frac: f64) -> [f64; 4] {
-        heft_node_sdk::rotation::slerp(self.q0, self.q1, frac)
+        heft_node_sdk::math::quat::slerp(self.q0, self.q1, frac)
     }
 
     /// The translation at fraction `frac` (the curve extended outside 0..=1).

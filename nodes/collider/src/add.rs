@@ -1,5 +1,5 @@
 use heft_node_sdk::colliders::{self, Capsule};
-use heft_node_sdk::rotation::matrix;
+use heft_node_sdk::math::transform;
 use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, Series};
 
 /// Appends a sphere or a tapered capsule riding on one or two transforms to a collider list.
@@ -7,19 +7,11 @@ use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params,
 pub struct Add;
 
 /// The place of `offset` in the frame of transform `t` (translation, then a quaternion
-/// x, y, z, w): t + R(q) offset, with q normalised. None when the transform is not finite or
+/// x, y, z, w): t + q offset q*, with q normalised. None when the transform is not finite or
 /// its quaternion is zero.
 pub fn place(t: &[f64], offset: [f64; 3]) -> Option<[f64; 3]> {
-    if t.len() != 7 || t.iter().any(|v| !v.is_finite()) {
-        return None;
-    }
-    let q = [t[3], t[4], t[5], t[6]];
-    let n = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]).sqrt();
-    if !(n > 1e-12 && n.is_finite()) {
-        return None;
-    }
-    let m = matrix(q.map(|c| c / n));
-    Some([0, 1, 2].map(|r| t[r] + m[r][0] * offset[0] + m[r][1] * offset[1] + m[r][2] * offset[2]))
+    let (t, q) = transform::read(t)?;
+    Some(transform::apply(t, q, offset))
 }
 
 impl Node for Add {

@@ -8,52 +8,9 @@ use crate::gust::series;
 #[derive(Debug)]
 pub struct Jitter;
 
-/// Hamilton product a b of quaternions stored (x, y, z, w).
-pub(crate) fn quat_mul(a: [f64; 4], b: [f64; 4]) -> [f64; 4] {
-    [
-        a[3] * b[0] + a[0] * b[3] + a[1] * b[2] - a[2] * b[1],
-        a[3] * b[1] - a[0] * b[2] + a[1] * b[3] + a[2] * b[0],
-        a[3] * b[2] + a[0] * b[1] - a[1] * b[0] + a[2] * b[3],
-        a[3] * b[3] - a[0] * b[0] - a[1] * b[1] - a[2] * b[2],
-    ]
-}
-
-/// The unit quaternion of rotation vector `r` (axis times angle, rad): exp(r / 2).
-pub(crate) fn quat_from_rotation_vector(r: [f64; 3]) -> [f64; 4] {
-    let angle = (r[0] * r[0] + r[1] * r[1] + r[2] * r[2]).sqrt();
-    let half = 0.5 * angle;
-    // sin(angle/2)/angle -> 1/2 - angle^2/48 as angle -> 0 (Taylor series).
-    let k = if angle < 1e-6 {
-        0.5 - angle * angle / 48.0
-    } else {
-        half.sin() / angle
-    };
-    [k * r[0], k * r[1], k * r[2], half.cos()]
-}
-
-/// Rotates `v` by the unit quaternion `q`: v + 2 w (u x v) + 2 u x (u x v), u = q.xyz.
-pub(crate) fn rotate(q: [f64; 4], v: [f64; 3]) -> [f64; 3] {
-    let u = [q[0], q[1], q[2]];
-    let cross = |a: [f64; 3], b: [f64; 3]| {
-        [
-            a[1] * b[2] - a[2] * b[1],
-            a[2] * b[0] - a[0] * b[2],
-            a[0] * b[1] - a[1] * b[0],
-        ]
-    };
-    let uv = cross(u, v);
-    let uuv = cross(u, uv);
-    [
-        v[0] + 2.0 * (q[3] * uv[0] + uuv[0]),
-        v[1] + 2.0 * (q[3] * uv[1] + uuv[1]),
-        v[2] + 2.0 * (q[3] * uv[2] + uuv[2]),
-    ]
-}
-
-fn normalised(q: [f64; 4]) -> [f64; 4] {
-    let n = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]).sqrt();
-    q.map(|c| c / n)
-}
+pub(crate) use heft_node_sdk::math::quat::{
+    from_rotation_vector as quat_from_rotation_vector, mul as quat_mul, normalise as normalised, rotate,
+};
 
 /// Quaternions further than this from unit length are reported (then normalised).
 const UNIT_TOLERANCE: f64 = 1e-6;
