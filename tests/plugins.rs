@@ -223,19 +223,7 @@ fn an_output_left_unwritten_is_an_error_naming_node_and_port() {
 #[test]
 fn a_plugin_built_to_abort_on_panic_does_not_build() {
     let target = fixture_dir().parent().expect("fixture target").to_path_buf();
-    let o = std::process::Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()))
-        .current_dir(heft_integration_tests::workspace_root())
-        .args([
-            "rustc",
-            "--quiet",
-            "--lib",
-            "--crate-type",
-            "cdylib",
-            "-p",
-            "heft-test-plugin-probe",
-            "--target-dir",
-        ])
-        .arg(&target)
+    let o = heft_integration_tests::fixture_cdylib("heft-test-plugin-probe", &target)
         .args(["--", "-C", "panic=abort"])
         .output()
         .expect("cargo runs");

@@ -81,19 +81,7 @@ pub fn fixture_dir() -> &'static Path {
             "heft-test-plugin-probe",
             "heft-test-plugin-no-entry",
         ] {
-            let mut cmd = Command::new(cargo());
-            cmd.current_dir(workspace_root())
-                .args([
-                    "rustc",
-                    "--quiet",
-                    "--lib",
-                    "--crate-type",
-                    "cdylib",
-                    "-p",
-                    p,
-                    "--target-dir",
-                ])
-                .arg(&target);
+            let mut cmd = fixture_cdylib(p, &target);
             if release {
                 cmd.arg("--release");
             }
@@ -102,6 +90,25 @@ pub fn fixture_dir() -> &'static Path {
         }
         target.join(profile.file_name().expect("profile name"))
     })
+}
+
+/// The cargo command that builds fixture package `package` as a loadable library into
+/// `target` (append `--release`, or `-- <rustc flags>`).
+pub fn fixture_cdylib(package: &str, target: &Path) -> Command {
+    let mut cmd = Command::new(cargo());
+    cmd.current_dir(workspace_root())
+        .args([
+            "rustc",
+            "--quiet",
+            "--lib",
+            "--crate-type",
+            "cdylib",
+            "-p",
+            package,
+            "--target-dir",
+        ])
+        .arg(target);
+    cmd
 }
 
 /// The path of a plugin library named `name` (crate name with underscores) in `dir`.

@@ -162,6 +162,18 @@ unsafe extern "C" fn push_text(ctx: *mut c_void, data: *const u8, len: usize) {
     list.push(String::from_utf8_lossy(bytes).into_owned());
 }
 
+/// Input views carrying widths only, for the calls that ask about shapes (no data).
+fn width_views(widths: &[usize]) -> Vec<SeriesView> {
+    widths
+        .iter()
+        .map(|&width| SeriesView {
+            data: std::ptr::null(),
+            len: 0,
+            width,
+        })
+        .collect()
+}
+
 fn byte_sink(buf: &mut Vec<u8>) -> ByteSink {
     ByteSink {
         ctx: (buf as *mut Vec<u8>).cast(),
@@ -320,14 +332,7 @@ impl Plugin {
         let Some(check) = self.table.check else {
             return Ok(Vec::new());
         };
-        let views: Vec<SeriesView> = input_widths
-            .iter()
-            .map(|&width| SeriesView {
-                data: std::ptr::null(),
-                len: 0,
-                width,
-            })
-            .collect();
+        let views = width_views(input_widths);
         let mut message = Vec::new();
         let mut found = Vec::new();
         let mut call = Plugin::call(node_index, params, timeline);
@@ -358,14 +363,7 @@ impl Plugin {
         input_widths: &[usize],
         output_count: usize,
     ) -> Result<Vec<usize>, CallError> {
-        let views: Vec<SeriesView> = input_widths
-            .iter()
-            .map(|&width| SeriesView {
-                data: std::ptr::null(),
-                len: 0,
-                width,
-            })
-            .collect();
+        let views = width_views(input_widths);
         let mut message = Vec::new();
         let mut call = Plugin::call(node_index, params, timeline);
         call.inputs = views.as_ptr();
