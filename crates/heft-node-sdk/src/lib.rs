@@ -21,6 +21,7 @@ pub mod guest;
 #[cfg(feature = "host")]
 pub mod host;
 pub mod math;
+pub mod params;
 pub mod rotation;
 pub mod units;
 

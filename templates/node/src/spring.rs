@@ -1,4 +1,17 @@
-use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec};
+use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, Params, PortKind, PortSpec, node_params};
+
+node_params! {
+    /// The parameters of `follow.spring`, declared once: the specs heft shows and checks, and
+    /// typed fields for `evaluate` (a misspelt name does not compile).
+    pub struct SpringParams {
+        /// Natural frequency of the spring, omega / (2 pi).
+        frequency: number(Dimension::Frequency, 2.0, (0.01, 100.0)),
+        /// zeta: 1 is critical damping, below 1 the point overshoots.
+        damping_ratio: number(Dimension::Dimensionless, 0.5, (0.0, 10.0)),
+        /// Steps per frame.
+        substeps: integer(8, (1, 10_000)),
+    }
+}
 
 /// A point mass on a damped spring that follows a moving position.
 #[derive(Debug)]
@@ -61,31 +74,15 @@ impl Node for Spring {
                 Dimension::Length,
                 "The point.",
             )],
-            params: vec![
-                ParamSpec::number(
-                    "frequency",
-                    Dimension::Frequency,
-                    2.0,
-                    (0.01, 100.0),
-                    "Natural frequency of the spring, omega / (2 pi).",
-                ),
-                ParamSpec::number(
-                    "damping_ratio",
-                    Dimension::Dimensionless,
-                    0.5,
-                    (0.0, 10.0),
-                    "zeta: 1 is critical damping, below 1 the point overshoots.",
-                ),
-                ParamSpec::integer("substeps", 8, (1, 10_000), "Steps per frame."),
-            ],
+            params: SpringParams::specs(),
             summaries: vec![],
         }
     }
 
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
-        let omega = 2.0 * std::f64::consts::PI * params.number("frequency")?;
-        let zeta = params.number("damping_ratio")?;
-        let substeps = params.integer("substeps")? as usize;
+        let p = SpringParams::read(params)?;
+        let omega = 2.0 * std::f64::consts::PI * p.frequency;
+        let (zeta, substeps) = (p.damping_ratio, p.substeps as usize);
         let tl = io.timeline();
         let dt = tl.dt();
         if omega * dt / substeps as f64 >= 2.0 {
