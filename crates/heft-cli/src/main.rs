@@ -355,30 +355,23 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
 /// anything is allocated, naming the largest output.
 fn fits_in_memory(plan: &Plan) -> Result<(), String> {
     let need = plan.footprint();
-    let Some(free) = heft_runtime::free_memory() else {
-        return Ok(());
-    };
-    if need.total <= free {
-        return Ok(());
-    }
-    let gib = |b: u128| b as f64 / (1u128 << 30) as f64;
-    let largest = need
-        .largest
-        .map(|(n, k, b)| {
-            let node = &plan.nodes[n];
-            format!(
-                " (the largest, `{}.{}`, {:.1} GiB)",
-                node.name,
-                node.ty.spec().outputs[k].name,
-                gib(b)
-            )
-        })
-        .unwrap_or_default();
-    Err(format!(
-        "this run's outputs need {:.1} GiB{largest} over {} frames, more than the {:.1} GiB this machine has \
-         free: evaluate fewer frames at a time (`--frames`), or fewer strands per node",
-        gib(need.total),
-        plan.timeline.frame_count,
-        gib(free)
-    ))
+    heft_runtime::check_memory(need.total).map_err(|e| {
+        let largest = need
+            .largest
+            .map(|(n, k, b)| {
+                let node = &plan.nodes[n];
+                format!(
+                    " (the largest, `{}.{}`, {:.1} GiB)",
+                    node.name,
+                    node.ty.spec().outputs[k].name,
+                    b as f64 / (1u128 << 30) as f64
+                )
+            })
+            .unwrap_or_default();
+        format!(
+            "this run's outputs need {e}{largest} over {} frames: evaluate fewer frames at a time (`--frames`), \
+             or fewer strands per node",
+            plan.timeline.frame_count
+        )
+    })
 }

@@ -266,27 +266,11 @@ impl<'a> Io<'a> {
             .copied()
             .ok_or_else(|| NodeError::new(format!("input `{name}` was not passed")))
     }
-    /// Two different output buffers at once (for a method that writes both in one pass).
+    /// Two different output buffers at once (for a method that writes both in one pass); see
+    /// [`Io::outputs`] for any number.
     pub fn output_pair(&mut self, a: &str, b: &str) -> Result<(&mut [f64], &mut [f64]), NodeError> {
-        let index = |name: &str| {
-            self.spec
-                .outputs
-                .iter()
-                .position(|p| p.name == name)
-                .ok_or_else(|| NodeError::new(format!("no output port `{name}`")))
-        };
-        let (i, k) = (index(a)?, index(b)?);
-        if i == k {
-            return Err(NodeError::new(format!("`{a}` asked for twice")));
-        }
-        let missing = |name: &str| NodeError::new(format!("output `{name}` was not passed"));
-        let (lo, hi) = (i.min(k), i.max(k));
-        if hi >= self.outputs.len() {
-            return Err(missing(if hi == i { a } else { b }));
-        }
-        let (head, tail) = self.outputs.split_at_mut(hi);
-        let (first, second) = (&mut *head[lo], &mut *tail[0]);
-        Ok(if i < k { (first, second) } else { (second, first) })
+        let [(first, _), (second, _)] = self.outputs([a, b])?;
+        Ok((first, second))
     }
 
     /// Any number of different output buffers at once, in the order named, each with its

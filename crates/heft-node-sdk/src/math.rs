@@ -138,14 +138,15 @@ pub mod transform {
     }
 
     /// One frame of a transform port (tx, ty, tz, qx, qy, qz, qw) as (t, q), the quaternion
-    /// normalised; `None` when a value is not finite or the quaternion has no length.
+    /// normalised; `None` when the frame holds fewer than 7 values, a value is not finite, or
+    /// the quaternion is shorter than 1e-9 (no direction to normalise).
     pub fn read(frame: &[f64]) -> Option<(V3, Quat)> {
-        if frame.len() != 7 || frame.iter().any(|v| !v.is_finite()) {
+        if frame.len() < 7 || frame[..7].iter().any(|v| !v.is_finite()) {
             return None;
         }
         let q = [frame[3], frame[4], frame[5], frame[6]];
-        let n = super::quat::dot(q, q).sqrt();
-        (n > 1e-12).then(|| ([frame[0], frame[1], frame[2]], q.map(|c| c / n)))
+        let n = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]).sqrt();
+        (n >= 1e-9).then(|| ([frame[0], frame[1], frame[2]], [q[0] / n, q[1] / n, q[2] / n, q[3] / n]))
     }
 }
 

@@ -46,19 +46,9 @@ impl Pose {
     }
 }
 
-/// Reads one frame of a transform series (7 values); the quaternion is normalised. `None`
-/// when the values are not finite or the quaternion is (nearly) zero.
-pub fn read_transform(v: &[f64]) -> Option<(V3, [f64; 4])> {
-    if v.len() < 7 || v[..7].iter().any(|x| !x.is_finite()) {
-        return None;
-    }
-    let q = [v[3], v[4], v[5], v[6]];
-    let n = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]).sqrt();
-    if n < 1e-9 {
-        return None;
-    }
-    Some(([v[0], v[1], v[2]], [q[0] / n, q[1] / n, q[2] / n, q[3] / n]))
-}
+/// One frame of a transform input as (translation, unit quaternion); see
+/// [`heft_node_sdk::math::transform::read`].
+pub use heft_node_sdk::math::transform::read as read_transform;
 
 /// The motion of a transform over one frame. The translation follows the cubic Hermite
 /// curve through the two frame samples with the velocities at the two ends (continuous in
