@@ -213,7 +213,10 @@ proptest! {
             let p = r.frame("com_position", i);
             prop_assert!(rel(p[2], want) < 1e-9, "frame {i}: z {} vs {want}", p[2]);
             prop_assert!(p[0].abs() < 1e-12 && p[1] == 0.0, "frame {i}: x {} y {}", p[0], p[1]);
-            prop_assert!(rel(r.frame("com_velocity", i)[2], v0 - G * tau) < 1e-9 || (v0 - G * tau).abs() < 1e-9);
+            // Relative to the take-off speed, the velocity's own scale: near the apex the
+            // velocity itself passes through zero and a relative error of it means nothing.
+            let v = r.frame("com_velocity", i)[2];
+            prop_assert!((v - (v0 - G * tau)).abs() <= 1e-9 * v0.abs(), "frame {i}: vz {v} vs {}", v0 - G * tau);
             prop_assert!(rel(r.z("com_acceleration", i), -G) < 1e-12);
             prop_assert!(r.frame("foot_height", i)[0] >= 0.0);
         }
