@@ -42,17 +42,20 @@ fn the_node_template_builds_out_of_tree_and_runs_its_graph() {
     let dir = tempfile::tempdir().expect("temp dir");
     let crate_dir = dir.path().join("my-follow");
     copy_tree(&workspace_root().join("templates/node"), &crate_dir);
-    let sdk = workspace_root().join("crates/heft-node-sdk");
     let manifest = crate_dir.join("Cargo.toml");
-    let text = std::fs::read_to_string(&manifest).expect("manifest");
-    std::fs::write(
-        &manifest,
-        text.replace(
-            "path = \"../../crates/heft-node-sdk\"",
-            &format!("path = {:?}", sdk.display().to_string()),
-        ),
-    )
-    .expect("write manifest");
+    let mut text = std::fs::read_to_string(&manifest).expect("manifest");
+    for dep in ["crates/heft-node-sdk", "crates/heft-conformance"] {
+        let at = workspace_root().join(dep);
+        text = text.replace(
+            &format!("path = \"../../{dep}\""),
+            &format!("path = {:?}", at.display().to_string()),
+        );
+    }
+    assert!(
+        !text.contains("../../"),
+        "every path of the template points at this checkout"
+    );
+    std::fs::write(&manifest, text).expect("write manifest");
     // The versions heft itself is built with, so no download is needed.
     std::fs::copy(workspace_root().join("Cargo.lock"), crate_dir.join("Cargo.lock")).expect("lock");
     cargo(&crate_dir, &["test", "--offline", "--quiet"]);
@@ -76,8 +79,17 @@ fn the_node_template_builds_out_of_tree_and_runs_its_graph() {
     let (_, hand) = read_csv(&crate_dir.join("out/hand.position.csv"));
     assert_eq!(header[2], "pendant.position.x [m]");
     assert_eq!(rows.len(), 49);
-    // At rest on the hand at the first frame, behind it while the hand moves, never NaN.
-    assert_eq!(rows[0][2..5], hand[0][2..5]);
+    // Behind the hand while it moves, never NaN.
+    // At rest where it hangs at the first frame: g / omega^2 below the hand (2 Hz, standard
+    // gravity: 9.80665 / (4 pi)^2 = 0.0621 m).
+    let sag = 9.80665 / (4.0 * std::f64::consts::PI).powi(2);
+    assert_eq!(rows[0][2..4], hand[0][2..4]);
+    assert!(
+        (rows[0][4] - (hand[0][4] - sag)).abs() < 1e-12,
+        "{} vs {}",
+        rows[0][4],
+        hand[0][4] - sag
+    );
     assert!(rows.iter().flatten().all(|v| v.is_finite()));
     let lag = rows
         .iter()

@@ -13,7 +13,7 @@ use crate::{Failure, Property, Tolerances};
 
 /// The second of the two identical calls gets its output buffers pre-filled with this value (the
 /// host fills with zeros), so a value the node never writes shows up as a difference.
-const SENTINEL: f64 = 7.25e12;
+pub(crate) const SENTINEL: f64 = 7.25e12;
 
 /// Caps on the cost of a case: the kit draws these integer parameters only up to here.
 const COUNT_CAP: i64 = 3;
@@ -38,7 +38,7 @@ pub struct Counts {
 /// A transform input that moves: translation base + velocity t, rotation about a fixed axis by
 /// angle + rate t.
 #[derive(Debug, Clone)]
-struct Motion {
+pub(crate) struct Motion {
     base: V3,
     velocity: V3,
     axis: (f64, f64),
@@ -47,7 +47,7 @@ struct Motion {
 }
 
 impl Motion {
-    fn strategy() -> BoxedStrategy<Motion> {
+    pub(crate) fn strategy() -> BoxedStrategy<Motion> {
         let still = any::<bool>();
         (
             [-0.5f64..=0.5, -0.5f64..=0.5, 0.5f64..=1.5],
@@ -67,7 +67,18 @@ impl Motion {
             .boxed()
     }
 
-    fn series(&self, tl: &Timeline) -> Vec<f64> {
+    /// Resting at `base`, not turned.
+    pub(crate) fn still(base: V3) -> Motion {
+        Motion {
+            base,
+            velocity: [0.0; 3],
+            axis: (0.0, 0.0),
+            angle: 0.0,
+            rate: 0.0,
+        }
+    }
+
+    pub(crate) fn series(&self, tl: &Timeline) -> Vec<f64> {
         let axis = direction(self.axis.0, self.axis.1);
         let mut out = Vec::with_capacity(7 * tl.frames());
         for i in 0..tl.frames() {
@@ -222,7 +233,7 @@ fn tame_integer(name: &str, min: i64, max: i64, default: i64) -> BoxedStrategy<i
     Union::new_weighted(vec![(1, Just(d).boxed()), (2, (lo..=hi).boxed())]).boxed()
 }
 
-fn param_strategy(subject: &Subject, tame: bool) -> Vec<BoxedStrategy<(String, ParamValue)>> {
+pub(crate) fn param_strategy(subject: &Subject, tame: bool) -> Vec<BoxedStrategy<(String, ParamValue)>> {
     subject
         .spec()
         .params
@@ -260,7 +271,7 @@ fn param_strategy(subject: &Subject, tame: bool) -> Vec<BoxedStrategy<(String, P
         .collect()
 }
 
-fn timeline_strategy() -> BoxedStrategy<Timeline> {
+pub(crate) fn timeline_strategy() -> BoxedStrategy<Timeline> {
     (
         -100i64..=2000,
         2u64..=10,
@@ -400,7 +411,7 @@ fn build(subject: &Subject, case: &Wild) -> Setup {
 }
 
 /// Two identical calls compared value by value, bit for bit.
-fn compare(a: &Run, b: &Run) -> Result<(), Verdict> {
+pub(crate) fn compare(a: &Run, b: &Run) -> Result<(), Verdict> {
     let tl = a.timeline;
     for ((name, va, w), (_, vb, _)) in a.outputs().zip(b.outputs()) {
         if let Some(k) = va.iter().zip(vb).position(|(x, y)| x.to_bits() != y.to_bits()) {
@@ -443,7 +454,7 @@ fn compare(a: &Run, b: &Run) -> Result<(), Verdict> {
 }
 
 /// Every output value and summary value finite.
-fn all_finite(run: &Run, subject: &Subject) -> Result<(), Verdict> {
+pub(crate) fn all_finite(run: &Run, subject: &Subject) -> Result<(), Verdict> {
     let tl = run.timeline;
     for (name, values, w) in run.outputs() {
         if let Some(k) = values.iter().position(|v| !v.is_finite()) {

@@ -35,12 +35,14 @@ use std::fmt;
 mod cases;
 mod convergence;
 mod determinism;
+mod dynamics;
 mod energy;
 mod momentum;
 mod subject;
 
 pub use convergence::{OrderMeasurement, check_convergence, measure_order};
 pub use determinism::{Counts, check_deterministic_and_finite, finiteness_counts};
+pub use dynamics::{Dynamics, Mass, check_balance, check_dynamics, check_energy_balance, check_history, check_order};
 pub use energy::check_energy;
 pub use momentum::check_momentum;
 pub use subject::{Run, RunError, Setup, Subject};
@@ -60,6 +62,8 @@ pub enum Property {
     Determinism,
     /// No output value is NaN or infinite, and the node does not panic.
     Finiteness,
+    /// A call's result does not depend on the calls made before it.
+    History,
     /// The error falls with the substep length at the declared order.
     Convergence,
 }
@@ -69,11 +73,12 @@ impl Property {
     pub fn name(self) -> &'static str {
         match self {
             Property::Load => "loading",
-            Property::Contract => "the strand contract",
+            Property::Contract => "the contract",
             Property::Momentum => "momentum",
             Property::Energy => "energy",
             Property::Determinism => "determinism",
             Property::Finiteness => "finiteness",
+            Property::History => "independence of call history",
             Property::Convergence => "convergence",
         }
     }
@@ -221,6 +226,11 @@ pub struct Tolerances {
     pub order: f64,
     /// How far the observed order may be from `order`.
     pub order_tolerance: f64,
+    /// Momentum balance against a declared reaction output ([`check_balance`]): the largest
+    /// difference between a frame's momentum change and the impulse of gravity and the
+    /// reaction, as a fraction of the largest impulse a frame carries (beside the quadrature
+    /// error the kit estimates).
+    pub balance: f64,
     /// How many cases to run.
     pub budget: Budget,
 }
@@ -242,6 +252,7 @@ impl Default for Tolerances {
             drift_growth: 2.0,
             order: 1.0,
             order_tolerance: 0.3,
+            balance: 1.0e-3,
             budget: Budget::default(),
         }
     }

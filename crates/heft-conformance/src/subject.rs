@@ -66,8 +66,33 @@ impl Subject {
         Subject::from_plugin(plugin, node)
     }
 
-    /// A node type of a loaded plugin. Checks that it declares what the kit drives.
+    /// A node type of a loaded plugin. Checks that it declares the strand contract's ports and
+    /// parameters (for any other dynamics node use [`Subject::open_plugin`] and
+    /// [`crate::Dynamics`]).
     pub fn from_plugin(plugin: Plugin, node: &str) -> Result<Subject, Failure> {
+        let subject = Subject::open_plugin(plugin, node)?;
+        let problems = contract_problems(&subject.spec);
+        if !problems.is_empty() {
+            return Err(Failure::new(Property::Contract, &subject.name, problems.join("; ")));
+        }
+        Ok(subject)
+    }
+
+    /// A node type of a plugin linked into the test, without the strand contract: what the kit
+    /// drives is then declared with a [`crate::Dynamics`].
+    pub fn open_static(table: &'static PluginTable, node: &str) -> Result<Subject, Failure> {
+        let plugin = Plugin::from_static(table, node).map_err(|e| Failure::new(Property::Load, node, e.to_string()))?;
+        Subject::open_plugin(plugin, node)
+    }
+
+    /// A node type of a plugin library file, without the strand contract.
+    pub fn open(path: &Path, node: &str) -> Result<Subject, Failure> {
+        let plugin = Plugin::load(path).map_err(|e| Failure::new(Property::Load, node, e.to_string()))?;
+        Subject::open_plugin(plugin, node)
+    }
+
+    /// A node type of a loaded plugin, without the strand contract.
+    pub fn open_plugin(plugin: Plugin, node: &str) -> Result<Subject, Failure> {
         let desc = plugin.descriptor();
         let bare = match node.split_once('.') {
             Some((p, n)) if p == desc.name => n,
@@ -90,10 +115,6 @@ impl Subject {
         };
         let spec = desc.nodes[index].clone();
         let name = format!("{}.{}", desc.name, spec.name);
-        let problems = contract_problems(&spec);
-        if !problems.is_empty() {
-            return Err(Failure::new(Property::Contract, &name, problems.join("; ")));
-        }
         Ok(Subject {
             plugin,
             index: u32::try_from(index).unwrap_or(u32::MAX),
@@ -583,6 +604,25 @@ impl Run {
             .iter()
             .zip(&self.outputs)
             .map(|(n, (v, w))| (n.as_str(), v.as_slice(), *w))
+    }
+
+    /// How many 3-vectors an output holds per frame (1 for a vec3 port, N for a points port, 0
+    /// for a missing output or a narrower one).
+    pub fn vectors(&self, name: &str) -> usize {
+        self.output(name).map_or(0, |(_, w)| w / 3)
+    }
+
+    /// The `i`-th 3-vector of an output at frame `f` (0-based within the run), if there is one.
+    pub fn vector(&self, name: &str, f: usize, i: usize) -> Option<[f64; 3]> {
+        let (v, w) = self.output(name)?;
+        let at = f * w + 3 * i;
+        (3 * i + 3 <= w && at + 3 <= v.len()).then(|| [v[at], v[at + 1], v[at + 2]])
+    }
+
+    /// A scalar output at frame `f`, if there is one.
+    pub fn scalar(&self, name: &str, f: usize) -> Option<f64> {
+        let (v, w) = self.output(name)?;
+        (w >= 1).then(|| v.get(f * w).copied()).flatten()
     }
 
     fn point(&self, name: &str, f: usize, i: usize) -> [f64; 3] {

@@ -6,6 +6,6 @@
 
 mod spring;
 
-pub use spring::{Spring, follow};
+pub use spring::{Spring, State, follow, stable_step};
 
 heft_node_sdk::export_plugin!(name: "follow", nodes: [Spring]);
