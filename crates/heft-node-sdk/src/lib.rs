@@ -22,6 +22,7 @@ pub mod guest;
 pub mod host;
 pub mod math;
 pub mod params;
+pub mod ports;
 pub mod rotation;
 pub mod units;
 

@@ -1,4 +1,4 @@
-use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, Params, PortKind, PortSpec, node_params};
+use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, Params, node_params, node_ports};
 
 node_params! {
     /// The parameters of `follow.spring`, declared once: the specs heft shows and checks, and
@@ -14,6 +14,28 @@ node_params! {
         gravity: number(Dimension::Acceleration, 9.80665, (0.0, 100.0)),
         /// Steps per frame.
         substeps: integer(8, (1, 10_000)),
+    }
+}
+
+node_ports! {
+    /// What `follow.spring` is given: the specs and a typed reader from one declaration.
+    pub inputs SpringInputs {
+        /// The position the point follows.
+        target: vec3(Dimension::Length),
+    }
+}
+
+node_ports! {
+    /// What `follow.spring` gives back.
+    pub outputs SpringOutputs {
+        /// The point.
+        position: vec3(Dimension::Length),
+        /// Its velocity.
+        velocity: vec3(Dimension::Velocity),
+        /// The spring's and damper's pull on the point (every force on it but gravity).
+        force: vec3(Dimension::Force),
+        /// Kinetic, spring and gravity (m g z) energy.
+        energy: scalar(Dimension::Energy),
     }
 }
 
@@ -85,7 +107,6 @@ pub fn stable_step(omega: f64, zeta: f64) -> Option<f64> {
 
 impl Node for Spring {
     fn spec() -> NodeSpec {
-        let port = |name: &str, kind, dimension, doc: &str| PortSpec::new(name, kind, dimension, doc);
         NodeSpec {
             name: "spring".into(),
             doc: "A point mass on a damped spring that follows a moving position.".into(),
@@ -94,28 +115,8 @@ impl Node for Spring {
                     it hangs. Stable while (h omega)^2 + 4 zeta omega h < 4 (h = frame / substeps). A template \
                     for your own node: see templates/node in heft's repository."
                 .into(),
-            inputs: vec![port(
-                "target",
-                PortKind::Vec3,
-                Dimension::Length,
-                "The position the point follows.",
-            )],
-            outputs: vec![
-                port("position", PortKind::Vec3, Dimension::Length, "The point."),
-                port("velocity", PortKind::Vec3, Dimension::Velocity, "Its velocity."),
-                port(
-                    "force",
-                    PortKind::Vec3,
-                    Dimension::Force,
-                    "The spring's and damper's pull on the point (every force on it but gravity).",
-                ),
-                port(
-                    "energy",
-                    PortKind::Scalar,
-                    Dimension::Energy,
-                    "Kinetic, spring and gravity (m g z) energy.",
-                ),
-            ],
+            inputs: SpringInputs::specs(),
+            outputs: SpringOutputs::specs(),
             params: SpringParams::specs(),
             summaries: vec![],
         }
@@ -135,21 +136,20 @@ impl Node for Spring {
                 (dt / h_max).floor() as i64 + 1
             )));
         }
-        let target = io.input("target")?;
+        let target = SpringInputs::read(io)?.target;
         let path = follow(|i| target.vec3(i), tl.frames(), dt, omega, zeta, g, substeps);
-        let [(position, _), (velocity, _), (force, _), (energy, _)] =
-            io.outputs(["position", "velocity", "force", "energy"])?;
+        let out = SpringOutputs::take(io)?;
         for (i, s) in path.iter().enumerate() {
             let t = target.vec3(i);
             let (mut stretch, mut speed) = (0.0, 0.0);
             for c in 0..3 {
-                position[3 * i + c] = s.x[c];
-                velocity[3 * i + c] = s.v[c];
-                force[3 * i + c] = m * (omega * omega * (t[c] - s.x[c]) - 2.0 * zeta * omega * s.v[c]);
+                out.position[3 * i + c] = s.x[c];
+                out.velocity[3 * i + c] = s.v[c];
+                out.force[3 * i + c] = m * (omega * omega * (t[c] - s.x[c]) - 2.0 * zeta * omega * s.v[c]);
                 stretch += (t[c] - s.x[c]).powi(2);
                 speed += s.v[c] * s.v[c];
             }
-            energy[i] = 0.5 * m * speed + 0.5 * m * omega * omega * stretch + m * g * s.x[2];
+            out.energy[i] = 0.5 * m * speed + 0.5 * m * omega * omega * stretch + m * g * s.x[2];
         }
         Ok(())
     }
