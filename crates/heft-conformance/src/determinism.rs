@@ -563,6 +563,11 @@ pub fn finiteness_counts(subject: &Subject, tolerances: &Tolerances) -> Result<C
 /// Fails also when the node refused every case: then nothing was checked.
 pub fn check_deterministic_and_finite(subject: &Subject, tolerances: &Tolerances) -> Result<(), Failure> {
     let counts = finiteness_counts(subject, tolerances)?;
+    something_checked(subject, &counts)
+}
+
+/// A failure when the node refused every case: then nothing was checked.
+pub(crate) fn something_checked(subject: &Subject, counts: &Counts) -> Result<(), Failure> {
     if counts.cases > 0 && counts.errors == counts.cases {
         return Err(Failure::new(
             Property::Finiteness,

@@ -12,7 +12,9 @@ use proptest::prelude::*;
 use proptest::strategy::Union;
 
 use crate::cases::{V3, Verdict, add, beyond, direction, norm, run_property, scale, sub};
-use crate::determinism::{Motion, SENTINEL, all_finite, compare, param_strategy, timeline_strategy};
+use crate::determinism::{
+    Counts, Motion, SENTINEL, all_finite, compare, param_strategy, something_checked, timeline_strategy,
+};
 use crate::momentum::fmt_v3;
 use crate::subject::{Run, RunError, Setup, Subject};
 use crate::{Failure, Failures, Property, Tolerances};
@@ -967,19 +969,14 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
             verdict.map_err(|v| (v, text))
         },
     )?;
-    if ran.get() > 0 && errors.get() == ran.get() {
-        return Err(Failure::new(
-            Property::Finiteness,
-            subject.name(),
-            format!(
-                "the node returned an error in every one of the {} random cases, so no output was checked; the \
-                 first: {}",
-                ran.get(),
-                first_error.into_inner().unwrap_or_default()
-            ),
-        ));
-    }
-    Ok(())
+    something_checked(
+        subject,
+        &Counts {
+            cases: ran.get(),
+            errors: errors.get(),
+            examples: first_error.into_inner().into_iter().collect(),
+        },
+    )
 }
 
 fn outcome(r: &Result<Run, RunError>) -> String {
