@@ -14,6 +14,7 @@ use heft_runtime::diag::render;
 use heft_runtime::registry::{Registry, search_path};
 use heft_runtime::{check, eval, read_graph};
 
+mod audit;
 mod describe;
 mod sweep;
 
@@ -79,6 +80,10 @@ enum Command {
         #[command(flatten)]
         graph: GraphArgs,
     },
+    /// Show where a motion breaks physics: a graph's centre of mass and contact, or a glTF
+    /// character's skeleton. One finding a line; exit status 3 when one reaches --fail-on.
+    #[command(after_long_help = audit::LIMITS_HELP)]
+    Audit(audit::AuditArgs),
     /// List the plugins and node types found, or describe one node type.
     Nodes {
         /// A node type `plugin.node` to describe in full.
@@ -104,7 +109,7 @@ pub(crate) struct GraphArgs {
     pub(crate) frames: Option<(i64, i64)>,
 }
 
-fn parse_frames(s: &str) -> Result<(i64, i64), String> {
+pub(crate) fn parse_frames(s: &str) -> Result<(i64, i64), String> {
     let (a, b) = s.split_once("..").ok_or("expected A..B, e.g. 1..48")?;
     let a: i64 = a
         .trim()
@@ -121,7 +126,7 @@ fn parse_frames(s: &str) -> Result<(i64, i64), String> {
 }
 
 /// Exit code for graph, input and evaluation errors (usage errors exit with 2 through clap).
-const FAILED: u8 = 1;
+pub(crate) const FAILED: u8 = 1;
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
@@ -131,7 +136,7 @@ fn main() -> ExitCode {
         Command::Run { graph, .. } | Command::Sweep { graph, .. } | Command::Check { graph } => {
             graph.plugin_lock.clone()
         }
-        Command::Nodes { .. } => None,
+        Command::Nodes { .. } | Command::Audit(_) => None,
     };
     let mut lock = match lock_path.as_deref().map(PluginLock::read).transpose() {
         Ok(l) => l,
@@ -159,6 +164,7 @@ fn main() -> ExitCode {
     }
     match &cli.command {
         Command::Nodes { node_type } => describe::nodes(&registry, node_type.as_deref()),
+        Command::Audit(args) => audit::run(&registry, args, color, cli.quiet),
         Command::Check { graph } => match plan(&registry, graph, color, cli.quiet) {
             Some(plan) => {
                 if !pin(lock.as_ref(), &plan, cli.quiet) {

@@ -1,0 +1,217 @@
+//! The motion audit: where a character's motion breaks physics.
+//!
+//! Two facts decide whether a jump looks right: in the air nothing but gravity acts on the
+//! body, so its centre of mass follows a parabola at -g; and only the ground can change the
+//! body's momentum, so the feet must push before they leave and the body must gain weight when
+//! it lands. [`audit`] measures a motion (the whole-body centre of mass and the feet's contact,
+//! frame by frame) against those facts and reports each place it breaks them as a [`Finding`]
+//! an animator can act on: severity, kind, frames, the measured value against the physical
+//! expectation, a sentence of explanation and what to change. [`body`] computes the centre of
+//! mass from a skeleton with a published segment table.
+//!
+//! The crate is pure: no files, no threads. `heft audit` (heft-cli) reads the motion from a
+//! graph's outputs or a glTF character, calls [`audit`], and writes the report.
+
+#![forbid(unsafe_code)]
+
+pub mod body;
+mod checks;
+
+pub use checks::{Finding, Flight, G, Kind, Limits, Motion, Report, Severity, audit};
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const RATE: f64 = 24.0;
+
+    /// A jump at 24 fps: standing, a push (constant upward acceleration `push` m/s^2 for 0.25 s
+    /// from rest, the take-off speed v = push x 0.25), a flight along z(t) = z0 + v t - k t^2 / 2
+    /// (k = g for a ballistic body), then a landing that stops the fall at `stop` m/s^2 and
+    /// stands. Contact is off exactly while the path is above the take-off height.
+    fn jump(push: f64, k: f64, stop: f64) -> Motion {
+        let dt = 1.0 / RATE;
+        let z0 = 1.0;
+        let mut com = Vec::new();
+        let mut contact = Vec::new();
+        for _ in 0..12 {
+            com.push([0.0, 0.0, z0 - 0.5 * push * 0.0625]);
+            contact.push(true);
+        }
+        // The push: rises from z0 - 0.5 push 0.25^2 to z0, reaching v at z0.
+        let t_push = 0.25;
+        let v = push * t_push;
+        let base = z0 - 0.5 * push * t_push * t_push;
+        let steps = (t_push * RATE).round() as usize;
+        for i in 1..=steps {
+            let t = i as f64 * dt;
+            com.push([0.0, 0.0, base + 0.5 * push * t * t]);
+            contact.push(true);
+        }
+        // The flight: frames strictly after take-off until the path comes back to z0.
+        let t_flight = 2.0 * v / k;
+        let mut i = 1;
+        while (i as f64) * dt < t_flight {
+            let t = i as f64 * dt;
+            com.push([0.0, 0.0, z0 + v * t - 0.5 * k * t * t]);
+            contact.push(false);
+            i += 1;
+        }
+        // The landing: the first frame on the path's continuation below z0, then decelerating
+        // at `stop` until at rest, then standing.
+        let t = i as f64 * dt;
+        let mut vz = v - k * t;
+        let mut z = z0 + v * t - 0.5 * k * t * t;
+        for _ in 0..60 {
+            com.push([0.0, 0.0, z]);
+            contact.push(true);
+            vz = (vz + stop * dt).min(0.0);
+            z += vz * dt;
+        }
+        Motion {
+            start_frame: 1,
+            rate: RATE,
+            com,
+            contact,
+            mass: 60.0,
+            arms: None,
+        }
+    }
+
+    #[test]
+    fn a_ballistic_jump_has_no_finding() {
+        // Push 2 g for 0.25 s (4.9 m/s), land stopping at 3 g.
+        let m = jump(2.0 * G, G, 3.0 * G);
+        let r = audit(&m, &Limits::default());
+        assert!(r.findings.is_empty(), "{:#?}", r.findings);
+        assert_eq!(r.flights.len(), 1);
+        let f = &r.flights[0];
+        // The flight is an exact parabola at -g: the fitted acceleration recovers it.
+        assert!((f.acceleration + G).abs() < 1e-8, "{}", f.acceleration);
+        assert!(f.off_path < 1e-9, "{}", f.off_path);
+        // Take-off speed v = 2 g x 0.25 s (uniform acceleration, Halliday et al. ch. 2): the
+        // path's speed at the last frame on the ground.
+        assert!(
+            (f.needed_takeoff_speed - 0.5 * G).abs() < 1e-9,
+            "{}",
+            f.needed_takeoff_speed
+        );
+    }
+
+    #[test]
+    fn a_moon_jump_is_not_ballistic_and_the_fit_measures_its_gravity() {
+        // The flight falls at 0.6 g: a quadratic path, so the least-squares fit is exact.
+        let m = jump(2.0 * G, 0.6 * G, 3.0 * G);
+        let r = audit(&m, &Limits::default());
+        let f = r
+            .findings
+            .iter()
+            .find(|f| f.kind == Kind::FlightNotBallistic)
+            .expect("found");
+        assert_eq!(f.severity, Severity::Error);
+        assert!((f.measured + 0.6 * G).abs() < 1e-8, "{}", f.measured);
+        assert_eq!(f.expected, -G);
+        assert!(f.explanation.contains("floats"), "{}", f.explanation);
+        // The longer hang: with 0.6 g the 10 cm below the apex last 1/sqrt(0.6) times longer.
+        assert!(r.flights[0].hang > r.flights[0].ballistic_hang);
+    }
+
+    #[test]
+    fn lifting_off_without_a_push_is_found() {
+        // No push: the body stands still, then is in the air rising at 3 m/s.
+        let mut m = jump(2.0 * G, G, 3.0 * G);
+        let first_air = m.contact.iter().position(|c| !c).expect("flight");
+        let z_to = m.com[first_air - 1][2];
+        for i in 0..first_air {
+            m.com[i] = [0.0, 0.0, z_to];
+        }
+        let r = audit(&m, &Limits::default());
+        let f = r
+            .findings
+            .iter()
+            .find(|f| f.kind == Kind::TakeoffWithoutPush)
+            .expect("found");
+        // The last frame on the ground: (z(air) - z(still)) / 2 dt, against the path's v there.
+        let v = 0.5 * G;
+        let dz = v / RATE - 0.5 * G / (RATE * RATE);
+        assert!((f.measured - dz * RATE / 2.0).abs() < 1e-9, "{}", f.measured);
+        assert!((f.expected - v).abs() < 1e-9, "{}", f.expected);
+        assert_eq!(f.severity, Severity::Error);
+    }
+
+    #[test]
+    fn landings_that_gain_no_weight_or_too_much_are_found() {
+        // Stopping at 0.25 g: the ground pushes with 1.25 body weights (F = m (g + a)).
+        let soft = audit(&jump(2.0 * G, G, 0.25 * G), &Limits::default());
+        let f = soft
+            .findings
+            .iter()
+            .find(|f| f.kind == Kind::LandingTooSoft)
+            .expect("found");
+        assert!((f.measured - 1.25).abs() < 1e-6, "{}", f.measured);
+        // Stopping at 20 g: 21 body weights.
+        let hard = audit(&jump(2.0 * G, G, 20.0 * G), &Limits::default());
+        let f = hard
+            .findings
+            .iter()
+            .find(|f| f.kind == Kind::LandingTooHard)
+            .expect("found");
+        assert!(f.measured > 11.0, "{}", f.measured);
+    }
+
+    /// Arms that rise relative to the centre of mass at a constant relative acceleration c for
+    /// the first 0.3 s in the air: their relative speed grows by 2 c x 0.3 s (central
+    /// differences of a quadratic are exact inside; the first and last frame of the ramp are
+    /// off by up to c dt).
+    #[test]
+    fn an_arm_swing_in_the_air_is_late_and_its_cost_is_momentum() {
+        let mut m = jump(2.0 * G, G, 3.0 * G);
+        let a = m.contact.iter().position(|c| !c).expect("flight");
+        let c = 5.0;
+        let ramp = 0.3;
+        let dt = 1.0 / RATE;
+        let arms: Vec<[f64; 3]> = m
+            .com
+            .iter()
+            .enumerate()
+            .map(|(i, p)| {
+                let t = (i as f64 - a as f64) * dt;
+                let rel = if t <= 0.0 {
+                    0.1
+                } else if t <= ramp {
+                    0.1 + c * t * t
+                } else {
+                    0.1 + c * ramp * ramp + 2.0 * c * ramp * (t - ramp)
+                };
+                [p[0], p[1], p[2] + rel]
+            })
+            .collect();
+        m.arms = Some((arms, 0.1));
+        let r = audit(&m, &Limits::default());
+        let drive = r.flights[0].arm_drive.expect("arms");
+        assert!((drive - 2.0 * c * ramp).abs() <= 2.0 * c * dt, "{drive}");
+        let f = r.findings.iter().find(|f| f.kind == Kind::LateArmSwing).expect("found");
+        // Swung in the push, the whole body would have kept 0.1 x drive of upward speed.
+        let v = 0.5 * G;
+        let dv = 0.1 * drive;
+        assert!((f.measured - ((v + dv).powi(2) - v * v) / (2.0 * G)).abs() < 1e-12);
+        // Without the arms' swing: no finding.
+        m.arms = Some((m.com.iter().map(|p| [p[0], p[1], p[2] + 0.1]).collect(), 0.1));
+        assert!(audit(&m, &Limits::default()).findings.is_empty());
+    }
+
+    #[test]
+    fn a_one_frame_contact_is_chatter() {
+        let mut m = jump(2.0 * G, G, 3.0 * G);
+        let first_air = m.contact.iter().position(|c| !c).expect("flight");
+        m.contact[first_air + 3] = true;
+        let r = audit(&m, &Limits::default());
+        let f = r
+            .findings
+            .iter()
+            .find(|f| f.kind == Kind::ContactChatter)
+            .expect("found");
+        assert_eq!(f.first_frame, m.start_frame + first_air as i64 + 3);
+        assert!((f.measured - 1.0 / RATE).abs() < 1e-12);
+    }
+}

@@ -1,0 +1,531 @@
+//! `heft audit`: where a motion breaks physics, from a graph's outputs or a glTF character.
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use clap::Args;
+use heft_audit::body::{BodyModel, Mapping, Role, Side, arms_centre, centre_of_mass};
+use heft_audit::{Limits, Motion, Report, Severity, audit};
+use heft_formats::character::{self, Axes, Outside, Request};
+use heft_node_sdk::ParamValue;
+use heft_runtime::registry::Registry;
+use heft_runtime::{check, eval, read_graph};
+
+use crate::{FAILED, parse_frames};
+
+/// Exit status when a finding reaches the `--fail-on` severity (1 is a bad input, 2 a usage
+/// error).
+pub(crate) const FINDINGS: u8 = 3;
+
+/// The limits and their sources, for `--help`.
+pub(crate) const LIMITS_HELP: &str = "\
+Findings and their limits (each with its source; `common practice` where none):
+  flight not ballistic   the centre of mass's fitted acceleration in the air differs from -g by
+                         more than 10 % of g (20 %: error). A measurement tolerance, no source.
+  take-off without push  the upward speed on the last frame on the ground falls short of the
+                         flight's need by more than 0.5 m/s (1 m/s: error). A measurement
+                         tolerance: a 24 fps difference across take-off is off by up to 0.3 m/s.
+  landing too soft       peak ground force below 1.5 body weights after a fall faster than
+                         0.5 m/s; landings peak at 3 to 11 body weights (McNitt-Gray 1993,
+                         J Biomech 26(9):1037-1046, from memory).
+  landing too hard       peak ground force above 11 body weights (the top of McNitt-Gray 1993's
+                         range, from memory).
+  contact chatter        a contact or flight shorter than 0.05 s; the shortest ground contacts,
+                         top-speed sprinting, last about 0.08 s (Weyand et al. 2000, J Appl
+                         Physiol 89:1991-1999, from memory).
+The centre of mass of a skeleton: de Leva 1996 (J Biomech 29(9):1223-1230, Table 4) or Winter
+2009 (Table 4.1), by the joint names most rigs share (`--joint NAME=ROLE` maps others).
+
+Exit status: 0 no finding at or above --fail-on; 3 one is; 1 the input cannot be audited;
+2 a usage error.";
+
+/// `heft audit` arguments.
+#[derive(Args, Debug)]
+pub(crate) struct AuditArgs {
+    /// A graph file, or a glTF 2.0 character (.gltf or .glb).
+    #[arg(value_name = "INPUT")]
+    input: PathBuf,
+    /// Graph: the centre of mass, `node.port` (a vec3 in m; default: the output named
+    /// `com_position`).
+    #[arg(long, value_name = "NODE.PORT")]
+    com: Option<String>,
+    /// Graph: the feet's contact, `node.port` (a flag; default: the output named `contact` of
+    /// the centre of mass's node).
+    #[arg(long, value_name = "NODE.PORT")]
+    contact: Option<String>,
+    /// Body mass in kg (graph default: the `body_mass` parameter of the centre of mass's node;
+    /// a glTF character needs it).
+    #[arg(long, value_name = "KG")]
+    mass: Option<f64>,
+    /// The segment table for a skeleton and the arms: de-leva-male, de-leva-female or winter
+    /// (default: de-leva-male for a glTF character, winter for a graph, the table heft's jump
+    /// planner uses).
+    #[arg(long, value_name = "MODEL")]
+    body: Option<String>,
+    /// glTF: a joint's role when its name says nothing (`ponytail_root=head`, `LeftShoulder=`
+    /// to leave a joint out). Roles: neck, head, head_top, and shoulder, elbow, wrist, knuckle,
+    /// hip, knee, ankle, toe with `_l` or `_r`. Repeatable.
+    #[arg(long = "joint", value_name = "NAME=ROLE")]
+    joints: Vec<String>,
+    /// glTF: the animation clip, by name or index (default: the file's only clip).
+    #[arg(long, value_name = "NAME")]
+    clip: Option<String>,
+    /// glTF: frames per second to sample the clip at.
+    #[arg(long, value_name = "FPS", default_value_t = 24.0)]
+    rate: f64,
+    /// glTF: the file is Z up already (glTF is Y up).
+    #[arg(long)]
+    z_up: bool,
+    /// glTF: a foot within this height (m) of its lowest point in the clip is on the ground.
+    #[arg(long, value_name = "M", default_value_t = 0.03)]
+    ground_clearance: f64,
+    /// The severity that fails the audit (exit status 3): warning or error.
+    #[arg(long, value_name = "SEVERITY", default_value = "warning", value_parser = ["warning", "error"])]
+    fail_on: String,
+    /// Also write every figure and finding as JSON to this file.
+    #[arg(long, value_name = "FILE")]
+    json: Option<PathBuf>,
+    /// Graph: override a parameter, `node.param=VALUE` with units. Repeatable.
+    #[arg(long = "set", value_name = "NODE.PARAM=VALUE")]
+    set: Vec<String>,
+    /// Audit only these frames: `A..B`, inclusive.
+    #[arg(long, value_name = "A..B", value_parser = parse_frames, allow_hyphen_values = true)]
+    frames: Option<(i64, i64)>,
+}
+
+/// What the audit read besides the motion.
+#[derive(Debug, Default, serde::Serialize)]
+struct Source {
+    input: String,
+    com: String,
+    contact: String,
+    body_model: Option<&'static str>,
+    unmapped_joints: Vec<String>,
+}
+
+pub(crate) fn run(registry: &Registry, args: &AuditArgs, color: bool, quiet: bool) -> ExitCode {
+    let fail_on = match args.fail_on.as_str() {
+        "warning" => Severity::Warning,
+        "error" => Severity::Error,
+        other => {
+            eprintln!("error: --fail-on takes `warning` or `error`, not `{other}`");
+            return ExitCode::from(FAILED);
+        }
+    };
+    if let Some(m) = args.mass
+        && !(m.is_finite() && m > 0.0 && m <= 1000.0)
+    {
+        eprintln!("error: --mass {m}: a body mass in kg above 0 and at most 1000");
+        return ExitCode::from(FAILED);
+    }
+    let gltf = matches!(
+        args.input
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(str::to_ascii_lowercase)
+            .as_deref(),
+        Some("gltf" | "glb")
+    );
+    let read = if gltf {
+        from_character(args)
+    } else {
+        from_graph(registry, args, color)
+    };
+    let (motion, source) = match read {
+        Ok(x) => x,
+        Err(e) => {
+            eprintln!("error: {e}");
+            return ExitCode::from(FAILED);
+        }
+    };
+    let report = audit(&motion, &Limits::default());
+    if let Some(path) = &args.json
+        && let Err(e) = write_json(path, &report, &source)
+    {
+        eprintln!("error: cannot write {}: {e}", path.display());
+        return ExitCode::from(FAILED);
+    }
+    if !quiet {
+        print!("{}", text(&report, &source));
+    }
+    if report.findings.iter().any(|f| f.severity >= fail_on) {
+        ExitCode::from(FINDINGS)
+    } else {
+        ExitCode::SUCCESS
+    }
+}
+
+fn write_json(path: &Path, report: &Report, source: &Source) -> Result<(), String> {
+    #[derive(serde::Serialize)]
+    struct Out<'a> {
+        source: &'a Source,
+        report: &'a Report,
+    }
+    let text = serde_json::to_string_pretty(&Out { source, report }).map_err(|e| e.to_string())?;
+    // Written beside the target and renamed over it: a reader never sees half a file.
+    let mut partial = path.as_os_str().to_owned();
+    partial.push(".partial");
+    let partial = PathBuf::from(partial);
+    let result = std::fs::write(&partial, text.as_bytes()).and_then(|()| std::fs::rename(&partial, path));
+    if result.is_err() {
+        let _ = std::fs::remove_file(&partial);
+    }
+    result.map_err(|e| e.to_string())
+}
+
+/// The report as an animator reads it: one finding a line, then a summary.
+fn text(report: &Report, source: &Source) -> String {
+    let mut out = String::new();
+    out.push_str(&format!(
+        "audit of {} ({} frames at {} fps, {} kg; centre of mass {}, contact {})\n",
+        source.input, report.frames, report.rate, report.mass, source.com, source.contact
+    ));
+    if !source.unmapped_joints.is_empty() {
+        out.push_str(&format!(
+            "note: joints with no role in the centre of mass (left out): {}\n",
+            source.unmapped_joints.join(", ")
+        ));
+    }
+    for f in &report.findings {
+        out.push_str(&format!(
+            "{:<7} {} at frames {}..{}: {:.3} {} where physics gives {:.3}: {}. Change: {}.\n",
+            f.severity.word(),
+            f.kind.words(),
+            f.first_frame,
+            f.last_frame,
+            f.measured,
+            f.unit,
+            f.expected,
+            f.explanation,
+            f.change
+        ));
+    }
+    let errors = report.findings.iter().filter(|f| f.severity == Severity::Error).count();
+    let warnings = report.findings.len() - errors;
+    out.push_str(&format!(
+        "{} flight{}, {errors} error{}, {warnings} warning{}\n",
+        report.flights.len(),
+        if report.flights.len() == 1 { "" } else { "s" },
+        if errors == 1 { "" } else { "s" },
+        if warnings == 1 { "" } else { "s" },
+    ));
+    out
+}
+
+/// The node and output a `node.port` names, or the only output with the default name.
+fn find_port(plan: &check::Plan, named: Option<&str>, default: &str, what: &str) -> Result<(usize, usize), String> {
+    let found: Vec<(usize, usize)> = match named {
+        Some(np) => {
+            let (n, p) = np
+                .split_once('.')
+                .ok_or_else(|| format!("`{np}` for the {what}: expected node.port"))?;
+            let node = plan
+                .nodes
+                .iter()
+                .position(|x| x.name == n)
+                .ok_or_else(|| format!("the graph has no node `{n}` (for the {what})"))?;
+            let port = plan.nodes[node]
+                .ty
+                .spec()
+                .outputs
+                .iter()
+                .position(|o| o.name == p)
+                .ok_or_else(|| format!("node `{n}` has no output `{p}` (for the {what})"))?;
+            vec![(node, port)]
+        }
+        None => plan
+            .nodes
+            .iter()
+            .enumerate()
+            .flat_map(|(i, n)| {
+                n.ty.spec()
+                    .outputs
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, o)| o.name == default)
+                    .map(move |(k, _)| (i, k))
+                    .collect::<Vec<_>>()
+            })
+            .collect(),
+    };
+    match found.as_slice() {
+        [one] => Ok(*one),
+        [] => Err(format!(
+            "the graph has no output named `{default}`: name the {what} with --{}",
+            if default == "contact" { "contact" } else { "com" }
+        )),
+        many => Err(format!(
+            "the graph has {} outputs named `{default}` ({}): choose the {what} with --{}",
+            many.len(),
+            many.iter()
+                .map(|(n, _)| plan.nodes[*n].name.clone())
+                .collect::<Vec<_>>()
+                .join(", "),
+            if default == "contact" { "contact" } else { "com" }
+        )),
+    }
+}
+
+fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Motion, Source), String> {
+    let (graph, problems) =
+        read_graph(&args.input).map_err(|e| format!("cannot read the graph file {}: {e}", args.input.display()))?;
+    let overrides = check::Overrides {
+        set: args.set.clone(),
+        frames: args.frames,
+    };
+    let plan = check::check(&graph, problems, registry, &overrides).map_err(|problems| {
+        eprint!("{}", heft_runtime::diag::render(&problems, color));
+        "the graph has problems (above)".to_owned()
+    })?;
+    let (cn, cp) = find_port(&plan, args.com.as_deref(), "com_position", "centre of mass")?;
+    let contact_default = if args.contact.is_none() {
+        // The contact flag of the centre of mass's own node first.
+        plan.nodes[cn]
+            .ty
+            .spec()
+            .outputs
+            .iter()
+            .position(|o| o.name == "contact")
+            .map(|k| (cn, k))
+    } else {
+        None
+    };
+    let (fn_, fp) = match contact_default {
+        Some(x) => x,
+        None => find_port(&plan, args.contact.as_deref(), "contact", "contact")?,
+    };
+    let node = &plan.nodes[cn];
+    let spec = node.ty.spec();
+    let (com_spec, flag_spec) = (&spec.outputs[cp], &plan.nodes[fn_].ty.spec().outputs[fp]);
+    if com_spec.kind != heft_node_sdk::PortKind::Vec3 || com_spec.dimension != heft_node_sdk::Dimension::Length {
+        return Err(format!(
+            "`{}.{}` is {} in {}: the centre of mass is a vec3 in m",
+            node.name,
+            com_spec.name,
+            com_spec.kind.name(),
+            com_spec.dimension.si_symbol()
+        ));
+    }
+    if flag_spec.kind != heft_node_sdk::PortKind::Flag {
+        return Err(format!(
+            "`{}.{}` is {}: the contact is a flag",
+            plan.nodes[fn_].name,
+            flag_spec.name,
+            flag_spec.kind.name()
+        ));
+    }
+    let mass = match args.mass {
+        Some(m) => m,
+        None => spec
+            .params
+            .iter()
+            .position(|p| p.name == "body_mass")
+            .and_then(|k| match node.params.get(k) {
+                Some(ParamValue::Number(m)) => Some(*m),
+                _ => None,
+            })
+            .ok_or_else(|| {
+                format!(
+                    "node `{}` has no `body_mass`: give the body mass with --mass",
+                    node.name
+                )
+            })?,
+    };
+    let model = body_model(args.body.as_deref(), BodyModel::Winter)?;
+    let evaluation = eval::evaluate(&plan, None).map_err(|e| e.located(&plan))?;
+    // The arms, from the centre of mass's node's transform outputs when their names say
+    // which joints they are (the jump planner's `upper_arm_l`, `forearm_l`, `hand_l`, ...).
+    let transforms: Vec<(String, usize)> = spec
+        .outputs
+        .iter()
+        .enumerate()
+        .filter(|(_, o)| o.kind == heft_node_sdk::PortKind::Transform)
+        .map(|(k, o)| (o.name.clone(), k))
+        .collect();
+    let names: Vec<String> = transforms.iter().map(|(n, _)| n.clone()).collect();
+    let mapping = Mapping::of(&names, &[]);
+    let frames = plan.timeline.frames();
+    let joint = |j: usize, f: usize| {
+        let v = &evaluation.values[cn][transforms[j].1];
+        [v[7 * f], v[7 * f + 1], v[7 * f + 2]]
+    };
+    let arms = (0..frames)
+        .map(|f| arms_centre(model, &mapping, |j| joint(j, f)))
+        .collect::<Option<Vec<_>>>()
+        .and_then(|v| {
+            let fraction = v.first().map(|(_, m)| *m)?;
+            Some((v.into_iter().map(|(p, _)| p).collect::<Vec<_>>(), fraction))
+        });
+    let com: Vec<[f64; 3]> = evaluation.values[cn][cp]
+        .chunks_exact(3)
+        .map(|c| [c[0], c[1], c[2]])
+        .collect();
+    let contact: Vec<bool> = evaluation.values[fn_][fp].iter().map(|v| *v > 0.5).collect();
+    let tl = plan.timeline;
+    let motion = Motion {
+        start_frame: tl.start_frame,
+        rate: f64::from(tl.rate_num) / f64::from(tl.rate_den),
+        com,
+        contact,
+        mass,
+        arms: arms.clone(),
+    };
+    let source = Source {
+        input: args.input.display().to_string(),
+        body_model: arms.is_some().then_some(model.word()),
+        com: format!("{}.{}", node.name, com_spec.name),
+        contact: format!("{}.{}", plan.nodes[fn_].name, flag_spec.name),
+        ..Source::default()
+    };
+    Ok((motion, source))
+}
+
+fn body_model(word: Option<&str>, default: BodyModel) -> Result<BodyModel, String> {
+    match word {
+        None => Ok(default),
+        Some(w) => {
+            BodyModel::from_word(w).ok_or_else(|| format!("--body `{w}`: one of de-leva-male, de-leva-female, winter"))
+        }
+    }
+}
+
+fn role_word(word: &str) -> Option<Role> {
+    let side = |s: &str| match s {
+        "l" => Some(Side::Left),
+        "r" => Some(Side::Right),
+        _ => None,
+    };
+    match word {
+        "neck" => return Some(Role::Neck),
+        "head" => return Some(Role::Head),
+        "head_top" => return Some(Role::HeadTop),
+        _ => {}
+    }
+    let (part, s) = word.rsplit_once('_')?;
+    let s = side(s)?;
+    Some(match part {
+        "shoulder" => Role::Shoulder(s),
+        "elbow" => Role::Elbow(s),
+        "wrist" => Role::Wrist(s),
+        "knuckle" => Role::Knuckle(s),
+        "hip" => Role::Hip(s),
+        "knee" => Role::Knee(s),
+        "ankle" => Role::Ankle(s),
+        "toe" => Role::Toe(s),
+        _ => return None,
+    })
+}
+
+fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
+    let model = body_model(args.body.as_deref(), BodyModel::DeLevaMale)?;
+    let mass = args
+        .mass
+        .ok_or("a glTF character needs its body mass: give it with --mass (kg)")?;
+    if !(args.rate.is_finite() && args.rate > 0.0 && args.rate <= 1000.0) {
+        return Err(format!(
+            "--rate {}: frames per second above 0 and at most 1000",
+            args.rate
+        ));
+    }
+    let mut overrides: Vec<(String, Option<Role>)> = Vec::new();
+    for j in &args.joints {
+        let (name, role) = j
+            .split_once('=')
+            .ok_or_else(|| format!("--joint `{j}`: expected NAME=ROLE"))?;
+        let role = if role.is_empty() {
+            None
+        } else {
+            Some(role_word(role).ok_or_else(|| format!("--joint `{j}`: `{role}` is not a role (see --help)"))?)
+        };
+        overrides.push((name.to_owned(), role));
+    }
+    let req = Request {
+        clip: args.clip.as_deref().unwrap_or(""),
+        axes: if args.z_up { Axes::ZUp } else { Axes::YUp },
+        offset: 0.0,
+        outside: Outside::Hold,
+    };
+    let shown = args.input.display().to_string();
+    let fail = |e: character::CharacterError| match e.help {
+        Some(h) => format!("{}: {} ({h})", shown, e.message),
+        None => format!("{}: {}", shown, e.message),
+    };
+    let probe = character::load(&args.input, &req, &[0.0]).map_err(fail)?;
+    let (first, last) = probe.clip_range;
+    let count = ((last - first) * args.rate + 1e-9).floor() as usize + 1;
+    let count = match args.frames {
+        Some((a, b)) => {
+            let a = a.max(0) as usize;
+            let b = (b.max(0) as usize).min(count.saturating_sub(1));
+            if a > b {
+                return Err(format!("--frames: the clip has frames 0..{}", count.saturating_sub(1)));
+            }
+            (a, b - a + 1)
+        }
+        None => (0, count),
+    };
+    let times: Vec<f64> = (count.0..count.0 + count.1).map(|i| i as f64 / args.rate).collect();
+    let ch = character::load(&args.input, &req, &times).map_err(fail)?;
+    let names: Vec<String> = ch.nodes.iter().map(|n| n.name.clone()).collect();
+    let given: Vec<(String, Role)> = overrides
+        .iter()
+        .filter_map(|(n, r)| r.map(|r| (n.clone(), r)))
+        .collect();
+    let left_out: Vec<&String> = overrides.iter().filter(|(_, r)| r.is_none()).map(|(n, _)| n).collect();
+    let kept: Vec<String> = names
+        .iter()
+        .map(|n| {
+            if left_out.contains(&n) {
+                String::new()
+            } else {
+                n.clone()
+            }
+        })
+        .collect();
+    let mapping = Mapping::of(&kept, &given);
+    let at = |node: usize, f: usize| ch.axes.point(ch.world[node][f].t);
+    let mut com = Vec::with_capacity(times.len());
+    for f in 0..times.len() {
+        let c = centre_of_mass(model, &mapping, |j| at(j, f)).map_err(|missing| {
+            format!(
+                "{shown}: no joint plays the role of {}: map them with --joint NAME=ROLE",
+                missing.iter().map(|r| format!("{r:?}")).collect::<Vec<_>>().join(", ")
+            )
+        })?;
+        com.push(c);
+    }
+    let arms = (0..times.len())
+        .map(|f| arms_centre(model, &mapping, |j| at(j, f)))
+        .collect::<Option<Vec<_>>>()
+        .and_then(|v| {
+            let fraction = v.first().map(|(_, m)| *m)?;
+            Some((v.into_iter().map(|(p, _)| p).collect::<Vec<_>>(), fraction))
+        });
+    // Contact: a foot (ankle or toe) within the clearance of its lowest point in the clip.
+    let feet: Vec<usize> = [Side::Left, Side::Right]
+        .into_iter()
+        .flat_map(|s| [Role::Ankle(s), Role::Toe(s)])
+        .filter_map(|r| mapping.joint(r))
+        .collect();
+    let low = |f: usize| feet.iter().map(|j| at(*j, f)[2]).fold(f64::INFINITY, f64::min);
+    let ground = (0..times.len()).map(low).fold(f64::INFINITY, f64::min);
+    let contact: Vec<bool> = (0..times.len())
+        .map(|f| low(f) - ground <= args.ground_clearance)
+        .collect();
+    let motion = Motion {
+        start_frame: count.0 as i64,
+        rate: args.rate,
+        com,
+        contact,
+        mass,
+        arms,
+    };
+    let source = Source {
+        input: shown,
+        com: format!("the skeleton, {}", model.word()),
+        contact: format!("feet within {} m of their lowest", args.ground_clearance),
+        body_model: Some(model.word()),
+        unmapped_joints: mapping.unmapped.into_iter().filter(|n| !n.is_empty()).collect(),
+    };
+    Ok((motion, source))
+}
