@@ -39,6 +39,19 @@ fn the_planned_jump_audits_clean_and_its_flight_is_ballistic() {
     assert!(flight["off_path"].as_f64().expect("number") < 1e-9);
     assert_eq!(v["source"]["com"], "odile.com_position");
     assert_eq!(v["report"]["findings"].as_array().map(Vec::len), Some(0));
+    // heft's own strands in the air (braid, necklace, twelve skirt strips, simulated on her
+    // body): their swing follows no gravity (k near 0, where a chain swinging as on the ground
+    // gives 1; the skirt strips brush her thighs). Measured: k from -0.43 to 0.28, the strips
+    // hanging straight not measurable.
+    let chains = flight["chain_gravity"].as_array().expect("chains");
+    assert_eq!(chains.len(), 14);
+    let measured: Vec<f64> = chains.iter().filter_map(|c| c[1].as_f64()).collect();
+    assert!(measured.len() >= 6, "{chains:?}");
+    assert!(measured.iter().all(|k| k.abs() < 0.5), "{measured:?}");
+    // The planner's skeleton through Winter's table against the planner's own centre of mass:
+    // reported for every graph whose node has the joints. Not yet within 1 cm (see the note on
+    // issue 13: the planner lumps the legs with the trunk).
+    assert!(v["source"]["skeleton_com_difference"].as_f64().is_some());
 }
 
 /// The late swing: what the audit says the swing would have added in the push, against what
@@ -137,4 +150,48 @@ fn inputs_that_cannot_be_audited_exit_with_1_and_say_why() {
     // A usage error is clap's 2.
     let o = audit(&["graphs/jump.graph", "--fail-on", "sometimes"]);
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    let o = audit(&["graphs/jump.graph", "--frames", "80..90"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(text(&o).contains("not inside the graph's frames 0..84"), "{}", text(&o));
+}
+
+/// Ines Marlow's jump keyed two ways (tests/fixtures/audit, written by pygltflib from closed
+/// forms in make_audit_jumps.py): the wrong one floats at the apex (a sine arc: the fit finds
+/// -4.9 m/s^2), throws the arms up after take-off and swings the ponytail back in the air under
+/// full gravity (k = 0.8); the right one, ballistic with the arms in the push and the ponytail
+/// drifting, has no finding.
+#[test]
+fn each_mistake_of_a_wrongly_keyed_jump_is_found_and_its_corrected_version_is_clean() {
+    let dir = tempfile::tempdir().expect("temp");
+    let report = dir.path().join("wrong.json");
+    let o = audit(&[
+        "tests/fixtures/audit/ines_wrong.glb",
+        "--mass",
+        "58",
+        "--json",
+        report.to_str().expect("utf-8"),
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o));
+    let v = json(&report);
+    let kinds: Vec<&str> = v["report"]["findings"]
+        .as_array()
+        .expect("findings")
+        .iter()
+        .filter_map(|f| f["kind"].as_str())
+        .collect();
+    for k in ["flight_not_ballistic", "late_arm_swing", "passive_not_weightless"] {
+        assert!(kinds.contains(&k), "{k} missing from {kinds:?}");
+    }
+    let flight = &v["report"]["flights"][0];
+    // The pelvis on a sine arc of 0.8 s rising 0.345 m: the least-squares parabola through the
+    // arc alone accelerates at -4.44 m/s^2 (a continuous fit, numpy); the arms swung in the air
+    // shift the skeleton's centre of mass (measured -4.88). Gravity: -9.81.
+    let a = flight["acceleration"].as_f64().expect("number");
+    assert!((-6.0..-4.0).contains(&a), "{a}");
+    let k = flight["chain_gravity"][0][1].as_f64().expect("measured");
+    assert!(k > 0.5, "{k}");
+
+    let o = audit(&["tests/fixtures/audit/ines_right.glb", "--mass", "58"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(text(&o).contains("1 flight, 0 errors, 0 warnings"), "{}", text(&o));
 }

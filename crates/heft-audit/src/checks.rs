@@ -24,6 +24,19 @@ pub struct Motion {
     /// The arms, when known: their centre of mass at each frame and their mass as a fraction
     /// of the body's.
     pub arms: Option<(Vec<V3>, f64)>,
+    /// Passive chains (hair, braids, necklaces, skirt strips), each hanging from an anchor.
+    pub chains: Vec<Chain>,
+}
+
+/// A passive chain: where it hangs from and its points (equal masses), frame by frame.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Chain {
+    /// Its name in messages (`braid`, `ponytail_1`).
+    pub name: String,
+    /// The anchor's position at each frame, m.
+    pub anchor: Vec<V3>,
+    /// The chain's points at each frame (`points[frame][k]`), m.
+    pub points: Vec<Vec<V3>>,
 }
 
 impl Motion {
@@ -72,6 +85,8 @@ pub enum Kind {
     LandingTooHard,
     /// The arms drive upward in the air, where they cannot raise the jump.
     LateArmSwing,
+    /// A passive chain swings in the air as if gravity still pulled it.
+    PassiveNotWeightless,
     /// A contact or flight phase shorter than any real one.
     ContactChatter,
 }
@@ -85,6 +100,7 @@ impl Kind {
             Kind::LandingTooSoft => "landing too soft",
             Kind::LandingTooHard => "landing too hard",
             Kind::LateArmSwing => "arm swing after take-off",
+            Kind::PassiveNotWeightless => "passive element not weightless",
             Kind::ContactChatter => "contact chatter",
         }
     }
@@ -121,11 +137,15 @@ pub struct Limits {
     /// (a least-squares parabola through a keyed path at 24 fps recovers -g to 1e-12 for an
     /// exact parabola; sub-frame keying and rounding stay within a few percent).
     pub flight_acceleration: f64,
-    /// Take-off: the centre of mass's upward speed at the last frame on the ground may fall
-    /// short of the speed the flight needs by this much (m/s) before a warning (twice it: an
-    /// error). No source: a 24 fps central difference across the take-off's kink in
-    /// acceleration is off by up to (a_push + g) dt / 4, about 0.3 m/s for a 2 g push.
+    /// Take-off: the centre of mass's upward speed over the last interval on the ground may
+    /// fall short of the least the flight allows by this much (m/s) before a warning (twice
+    /// it: an error). No source: a measurement tolerance.
     pub takeoff_speed: f64,
+    /// Take-off: the strongest upward acceleration a push gives the centre of mass (m/s^2).
+    /// Peak ground forces of standing jumps are 2 to 3 body weights (a = 1 to 2 g); 3 g bounds
+    /// them (Linthorne NP 2001, "Analysis of standing vertical jumps using a force platform",
+    /// Am J Phys 69(11):1198-1204, from memory).
+    pub push_acceleration: f64,
     /// Landing: below this peak ground force (body weights) a landing from a flight gains no
     /// weight worth the name. Landings from jumps and drops peak at 3 to 11 body weights
     /// (McNitt-Gray JL 1993, "Kinetics of the lower extremities during drop landings from
@@ -139,6 +159,13 @@ pub struct Limits {
     /// timing is wasted). No source: a swing well below any deliberate one (a full overhead swing
     /// reaches 3 to 5 m/s at the hands).
     pub arm_swing: f64,
+    /// Passive chains: in the air a chain's swing about its anchor may follow gravity's pull
+    /// by at most this fraction of g (the fitted k of a_swing = k g_swing) before a warning.
+    /// In free fall the anchor falls with the chain and the apparent gravity g - a is zero
+    /// (d'Alembert's principle in the anchor's frame; any mechanics text, e.g. Goldstein,
+    /// Classical Mechanics, 3rd ed., sec. 4.10, from memory), so k is 0; standing it is 1. The
+    /// limit halves the difference; no source for the half.
+    pub weightless: f64,
     /// Contact: a contact or flight phase shorter than this (s) is chatter. The shortest ground
     /// contacts measured are those of top-speed sprinting, about 0.08 s (Weyand PG et al. 2000,
     /// "Faster top running speeds are achieved with greater ground forces not more rapid leg
@@ -150,10 +177,12 @@ impl Default for Limits {
     fn default() -> Limits {
         Limits {
             flight_acceleration: 0.1,
-            takeoff_speed: 0.5,
+            takeoff_speed: 0.25,
+            push_acceleration: 3.0 * G,
             landing_low: 1.5,
             landing_high: 11.0,
             arm_swing: 0.5,
+            weightless: 0.5,
             min_phase: 0.05,
         }
     }
@@ -178,9 +207,10 @@ pub struct Flight {
     /// The same for a ballistic body: 2 sqrt(2 x 0.1 m / g) = 0.286 s (when the apex rises
     /// 10 cm or more above both ends).
     pub ballistic_hang: f64,
-    /// Upward speed of the centre of mass on the last frame on the ground, m/s.
+    /// Upward speed of the centre of mass over the last interval on the ground, m/s.
     pub takeoff_speed: f64,
-    /// Upward speed the flight needs there (the best ballistic path's), m/s.
+    /// The least the flight allows there: the best ballistic path's speed at the last frame on
+    /// the ground less what the strongest push adds in a frame, m/s.
     pub needed_takeoff_speed: f64,
     /// Downward speed at touch-down (the best ballistic path's), m/s.
     pub touchdown_speed: f64,
@@ -189,6 +219,9 @@ pub struct Flight {
     /// The arms' upward drive in the air: how much their vertical speed relative to the centre
     /// of mass grows, m/s (None without arms).
     pub arm_drive: Option<f64>,
+    /// For each chain, how much gravity its swing in the air follows: k of a_swing = k g_swing
+    /// (0 weightless, 1 as on the ground; None when the chain hangs too straight to tell).
+    pub chain_gravity: Vec<(String, Option<f64>)>,
 }
 
 /// The audit's result.
@@ -317,15 +350,46 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
         let ballistic_hang = 2.0 * (2.0 * 0.1 / G).sqrt();
         // The last frame on the ground and the first after landing.
         let (g0, g1) = (a - 1, b + 1);
+        // The speed over the last interval on the ground (a backward difference, the mean
+        // speed from frame g0 - 1 to g0), against the least the flight allows there: the
+        // ballistic path's speed at g0, less what the strongest push could still add before
+        // the feet leave (at most a frame later).
         let takeoff_speed = if g0 >= 1 {
-            (m.z(g0 + 1) - m.z(g0 - 1)) / (2.0 * dt)
+            (m.z(g0) - m.z(g0 - 1)) / dt
         } else {
             f64::NAN
         };
-        let needed = v0 + G * dt;
+        let needed = v0 + G * dt - (limits.push_acceleration + G) * dt;
         let touchdown_speed = -(v0 - G * (t[t.len() - 1] + dt));
         let landing_peak = landing_peak(m, g1, phases[k + 1].2, weight);
         let arm_drive = m.arms.as_ref().map(|(arms, _)| arm_drive(m, arms, a, b));
+        let chain_gravity: Vec<(String, Option<f64>)> = m
+            .chains
+            .iter()
+            .map(|c| (c.name.clone(), swing_gravity(m, c, a, b)))
+            .collect();
+        for (name, k) in &chain_gravity {
+            if let Some(k) = *k
+                && k > limits.weightless
+            {
+                findings.push(Finding {
+                    severity: Severity::Warning,
+                    kind: Kind::PassiveNotWeightless,
+                    first_frame: m.frame(a),
+                    last_frame: m.frame(b),
+                    measured: k,
+                    expected: 0.0,
+                    unit: "g",
+                    explanation: format!(
+                        "in the air `{name}` swings about its anchor as if pulled by {k:.2} g; falling with the \
+                         body it is weightless there and should keep drifting the way it was moving at take-off"
+                    ),
+                    change: format!(
+                        "let `{name}` float in the air (no swing back towards hanging), and tug it down on landing"
+                    ),
+                });
+            }
+        }
         let figures = Flight {
             first_frame: m.frame(a),
             last_frame: m.frame(b),
@@ -339,6 +403,7 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
             touchdown_speed,
             landing_peak,
             arm_drive,
+            chain_gravity,
         };
         let excess = (acceleration + G).abs() / G;
         if excess > limits.flight_acceleration {
@@ -391,7 +456,9 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
                 unit: "m/s",
                 explanation: format!(
                     "the feet leave the ground while the centre of mass rises at {takeoff_speed:.2} m/s, but the \
-                     flight that follows needs {needed:.2} m/s: the body keeps rising in the air as if still pushed"
+                     flight that follows needs at least {needed:.2} m/s there (its ballistic speed {:.2} m/s less \
+                     what the strongest push adds in a frame): the body keeps rising in the air as if still pushed",
+                    v0 + G * dt
                 ),
                 change: "let the legs extend and the body speed up before the feet leave the ground; the push \
                          comes first, the lift-off last"
@@ -406,7 +473,7 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
             // against the floor and the whole body keeps it: the take-off speed would grow by
             // fraction x drive, the rise by ((v + dv)^2 - v^2) / 2 g.
             let dv = fraction * drive;
-            let v = needed.max(0.0);
+            let v = (v0 + G * dt).max(0.0);
             let gain = ((v + dv).powi(2) - v * v) / (2.0 * G);
             // The trunk's drop: the rest of the body moves against the arms' rise relative to
             // the centre of mass, by fraction / (1 - fraction) of it.
@@ -489,6 +556,58 @@ fn arm_drive(m: &Motion, arms: &[V3], a: usize, b: usize) -> f64 {
     let lo = a.max(1);
     let hi = b.min(n.saturating_sub(2));
     (lo..hi).map(|i| (rel_v(i + 1) - rel_v(i)).max(0.0)).sum()
+}
+
+/// How much gravity a chain's swing about its anchor follows in the air (frames a..=b): with
+/// r the centre of the chain's points after the first less the first (the root riding on the
+/// anchor; a one-point chain: the point less the anchor), a the second difference of r, and
+/// g_t the part of gravity across r (what swings a pendulum), the least-squares k of
+/// a_t = k g_t over the frames (a_t the part of a across r). `None` when the chain hangs too
+/// straight for gravity to swing it (the mean |g_t| below 0.2 g) or the flight is too short.
+fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<f64> {
+    let dt = 1.0 / m.rate;
+    let n = c.anchor.len().min(c.points.len()).min(m.com.len());
+    // The pivot: the chain's first point when it has more (the root rides on the anchor),
+    // else the anchor; the swinging part: the points after the pivot.
+    let centre = |i: usize| {
+        let p = &c.points[i];
+        let (pivot, rest) = if p.len() >= 2 {
+            (p[0], &p[1..])
+        } else {
+            (c.anchor[i], &p[..])
+        };
+        let k = rest.len().max(1) as f64;
+        let s = rest
+            .iter()
+            .fold([0.0; 3], |s, q| [s[0] + q[0], s[1] + q[1], s[2] + q[2]]);
+        [s[0] / k - pivot[0], s[1] / k - pivot[1], s[2] / k - pivot[2]]
+    };
+    let (mut num, mut den, mut count) = (0.0, 0.0, 0usize);
+    for i in a.max(1)..=b.min(n.saturating_sub(2)) {
+        let (r0, r1, r2) = (centre(i - 1), centre(i), centre(i + 1));
+        let len = (r1[0] * r1[0] + r1[1] * r1[1] + r1[2] * r1[2]).sqrt();
+        if len < 1e-6 {
+            continue;
+        }
+        let u = [r1[0] / len, r1[1] / len, r1[2] / len];
+        let across = |v: V3| {
+            let d = v[0] * u[0] + v[1] * u[1] + v[2] * u[2];
+            [v[0] - d * u[0], v[1] - d * u[1], v[2] - d * u[2]]
+        };
+        let acc = across([
+            (r2[0] - 2.0 * r1[0] + r0[0]) / (dt * dt),
+            (r2[1] - 2.0 * r1[1] + r0[1]) / (dt * dt),
+            (r2[2] - 2.0 * r1[2] + r0[2]) / (dt * dt),
+        ]);
+        let g = across([0.0, 0.0, -G]);
+        num += acc[0] * g[0] + acc[1] * g[1] + acc[2] * g[2];
+        den += g[0] * g[0] + g[1] * g[1] + g[2] * g[2];
+        count += 1;
+    }
+    if count < 3 || den / (count as f64) < (0.2 * G).powi(2) {
+        return None;
+    }
+    Some(num / den)
 }
 
 /// The largest ground force m (g + a_z) over a landing's contact frames (central second
