@@ -195,3 +195,64 @@ fn each_mistake_of_a_wrongly_keyed_jump_is_found_and_its_corrected_version_is_cl
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     assert!(text(&o).contains("1 flight, 0 errors, 0 warnings"), "{}", text(&o));
 }
+
+#[test]
+fn the_plot_shades_each_finding_on_the_weight_curve() {
+    let dir = tempfile::tempdir().expect("temp");
+    let svg = dir.path().join("ines.svg");
+    let o = audit(&[
+        "tests/fixtures/audit/ines_wrong.glb",
+        "--mass",
+        "58",
+        "--quiet",
+        "--plot",
+        svg.to_str().expect("utf-8"),
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o));
+    let text = std::fs::read_to_string(&svg).expect("svg written");
+    for want in [
+        "ground force m (g + a_z) [body weights]",
+        "time [s]",
+        "flight not ballistic",
+        "arm swing after take-off",
+        "passive element not weightless",
+        "implied ground force",
+    ] {
+        assert!(text.contains(want), "`{want}` missing from the plot");
+    }
+}
+
+#[test]
+fn a_rig_s_joint_map_file_names_its_joints_and_its_mistakes_by_line() {
+    let dir = tempfile::tempdir().expect("temp");
+    let map = dir.path().join("ines.map");
+    std::fs::write(
+        &map,
+        "# Ines' rig\nponytail_1 = head_top   # the ponytail's root as the vertex\n",
+    )
+    .expect("write");
+    let o = audit(&[
+        "tests/fixtures/audit/ines_right.glb",
+        "--mass",
+        "58",
+        "--joint-map",
+        map.to_str().expect("utf-8"),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    // The joint it replaced is left out and said so.
+    assert!(text(&o).contains("head_top"), "{}", text(&o));
+    std::fs::write(&map, "ponytail_1 = head_top\nspine = elbow\n").expect("write");
+    let o = audit(&[
+        "tests/fixtures/audit/ines_right.glb",
+        "--mass",
+        "58",
+        "--joint-map",
+        map.to_str().expect("utf-8"),
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        text(&o).contains("ines.map:2: `spine = elbow`: `elbow` is not a role"),
+        "{}",
+        text(&o)
+    );
+}

@@ -26,6 +26,8 @@ pub struct Motion {
     pub arms: Option<(Vec<V3>, f64)>,
     /// Passive chains (hair, braids, necklaces, skirt strips), each hanging from an anchor.
     pub chains: Vec<Chain>,
+    /// The feet (a name and the foot's lowest joint at each frame, m), when known.
+    pub feet: Vec<(String, Vec<V3>)>,
 }
 
 /// A passive chain: where it hangs from and its points (equal masses), frame by frame.
@@ -89,6 +91,8 @@ pub enum Kind {
     PassiveNotWeightless,
     /// A contact or flight phase shorter than any real one.
     ContactChatter,
+    /// A planted foot slides along the ground.
+    FootSliding,
 }
 
 impl Kind {
@@ -102,6 +106,7 @@ impl Kind {
             Kind::LateArmSwing => "arm swing after take-off",
             Kind::PassiveNotWeightless => "passive element not weightless",
             Kind::ContactChatter => "contact chatter",
+            Kind::FootSliding => "foot sliding",
         }
     }
 }
@@ -166,6 +171,12 @@ pub struct Limits {
     /// Classical Mechanics, 3rd ed., sec. 4.10, from memory), so k is 0; standing it is 1. The
     /// limit halves the difference; no source for the half.
     pub weightless: f64,
+    /// Feet: a foot within `planted_height` (m) of its lowest point in a contact phase is
+    /// planted, and may travel at most `slide` (m) along the ground while planted. Common
+    /// practice in animation clean-up (a centimetre or two reads as sliding), no source.
+    pub slide: f64,
+    /// See `slide`.
+    pub planted_height: f64,
     /// Contact: a contact or flight phase shorter than this (s) is chatter. The shortest ground
     /// contacts measured are those of top-speed sprinting, about 0.08 s (Weyand PG et al. 2000,
     /// "Faster top running speeds are achieved with greater ground forces not more rapid leg
@@ -183,6 +194,8 @@ impl Default for Limits {
             landing_high: 11.0,
             arm_swing: 0.5,
             weightless: 0.5,
+            slide: 0.02,
+            planted_height: 0.01,
             min_phase: 0.05,
         }
     }
@@ -536,6 +549,16 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
         }
         flights.push(figures);
     }
+    for &(state, a, b) in &phases {
+        if !state {
+            continue;
+        }
+        for (name, track) in &m.feet {
+            if let Some(f) = sliding(m, name, track, a, b, limits) {
+                findings.push(f);
+            }
+        }
+    }
     findings.sort_by_key(|f| (f.first_frame, f.last_frame));
     Report {
         frames: n,
@@ -545,6 +568,52 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
         flights,
         findings,
     }
+}
+
+/// A foot's slide over one contact phase (frames a..=b): over each stretch where it is
+/// planted (within `planted_height` of its lowest point in the phase), the largest horizontal
+/// distance from where the stretch began.
+fn sliding(m: &Motion, name: &str, track: &[V3], a: usize, b: usize, limits: &Limits) -> Option<Finding> {
+    let b = b.min(track.len().checked_sub(1)?);
+    if a > b {
+        return None;
+    }
+    let low = (a..=b).map(|i| track[i][2]).fold(f64::INFINITY, f64::min);
+    let mut worst: Option<(f64, usize, usize)> = None;
+    let mut start: Option<usize> = None;
+    for i in a..=b + 1 {
+        let planted = i <= b && track[i][2] - low <= limits.planted_height;
+        match (planted, start) {
+            (true, None) => start = Some(i),
+            (false, Some(s)) => {
+                let e = i - 1;
+                let d = (s..=e)
+                    .map(|k| (track[k][0] - track[s][0]).hypot(track[k][1] - track[s][1]))
+                    .fold(0.0, f64::max);
+                if worst.is_none_or(|w| d > w.0) {
+                    worst = Some((d, s, e));
+                }
+                start = None;
+            }
+            _ => {}
+        }
+    }
+    let (d, s, e) = worst?;
+    (d > limits.slide).then(|| Finding {
+        severity: Severity::Warning,
+        kind: Kind::FootSliding,
+        first_frame: m.frame(s),
+        last_frame: m.frame(e),
+        measured: d,
+        expected: limits.slide,
+        unit: "m",
+        explanation: format!(
+            "`{name}` is planted on the ground but slides {:.0} mm along it; a planted foot holds its place \
+             (only the ground's friction moves the body)",
+            1000.0 * d
+        ),
+        change: format!("pin `{name}` where it lands for as long as it carries weight"),
+    })
 }
 
 /// How much the arms' vertical speed relative to the centre of mass grows in the air: the sum

@@ -76,6 +76,7 @@ mod tests {
             mass: 60.0,
             arms: None,
             chains: Vec::new(),
+            feet: Vec::new(),
         }
     }
 
@@ -243,6 +244,36 @@ mod tests {
             .collect();
         assert_eq!(f.len(), 1);
         assert!(f[0].explanation.contains("`ponytail`"), "{}", f[0].explanation);
+    }
+
+    /// A foot planted through the landing that drifts forward at 0.1 m/s: over the stand it
+    /// slides 0.1 m/s x its planted time; one that holds still does not.
+    #[test]
+    fn a_planted_foot_that_slides_is_found() {
+        let mut m = jump(2.0 * G, G, 3.0 * G);
+        let dt = 1.0 / RATE;
+        let last_air = m.contact.iter().rposition(|c| !c).expect("flight");
+        let land = last_air + 1;
+        let n = m.com.len();
+        let foot = |drift: f64| -> Vec<[f64; 3]> {
+            (0..n)
+                .map(|i| {
+                    if i < land {
+                        [0.0, 0.1, if m.contact[i] { 0.0 } else { 0.3 }]
+                    } else {
+                        [drift * (i - land) as f64 * dt, 0.1, 0.0]
+                    }
+                })
+                .collect()
+        };
+        m.feet = vec![("foot_l".into(), foot(0.1)), ("foot_r".into(), foot(0.0))];
+        let r = audit(&m, &Limits::default());
+        let f: Vec<&Finding> = r.findings.iter().filter(|f| f.kind == Kind::FootSliding).collect();
+        assert_eq!(f.len(), 1, "{f:#?}");
+        assert!(f[0].explanation.contains("`foot_l`"));
+        let planted = (n - 1 - land) as f64 * dt;
+        assert!((f[0].measured - 0.1 * planted).abs() < 1e-12, "{}", f[0].measured);
+        assert_eq!(f[0].first_frame, m.start_frame + land as i64);
     }
 
     #[test]

@@ -36,6 +36,8 @@ Findings and their limits (each with its source; `common practice` where none):
                          more than 0.5 m/s in the air (a warning, with the rise it costs).
   passive element not weightless  a chain (hair, braid, strap) swings about its anchor in the
                          air following more than 0.5 g of gravity's pull (weightless: 0).
+  foot sliding           a planted foot (within 1 cm of its lowest) travels more than 2 cm
+                         along the ground in a contact phase. Common practice, no source.
   contact chatter        a contact or flight shorter than 0.05 s; the shortest ground contacts,
                          top-speed sprinting, last about 0.08 s (Weyand et al. 2000, J Appl
                          Physiol 89:1991-1999, from memory).
@@ -73,6 +75,10 @@ pub(crate) struct AuditArgs {
     /// hip, knee, ankle, toe with `_l` or `_r`. Repeatable.
     #[arg(long = "joint", value_name = "NAME=ROLE")]
     joints: Vec<String>,
+    /// glTF: a file of `NAME=ROLE` lines (`#` starts a comment), read before any `--joint`:
+    /// a rig's mapping kept beside it.
+    #[arg(long = "joint-map", value_name = "FILE")]
+    joint_map: Option<PathBuf>,
     /// glTF: the animation clip, by name or index (default: the file's only clip).
     #[arg(long, value_name = "NAME")]
     clip: Option<String>,
@@ -91,6 +97,10 @@ pub(crate) struct AuditArgs {
     /// Also write every figure and finding as JSON to this file.
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
+    /// Also draw the implied ground force in body weights with the contact phases and each
+    /// finding's frames shaded (.svg or .png).
+    #[arg(long, value_name = "FILE")]
+    plot: Option<PathBuf>,
     /// Graph: override a parameter, `node.param=VALUE` with units. Repeatable.
     #[arg(long = "set", value_name = "NODE.PARAM=VALUE")]
     set: Vec<String>,
@@ -154,6 +164,12 @@ pub(crate) fn run(registry: &Registry, args: &AuditArgs, color: bool, quiet: boo
         eprintln!("error: cannot write {}: {e}", path.display());
         return ExitCode::from(FAILED);
     }
+    if let Some(path) = &args.plot
+        && let Err(e) = plot(path, &motion, &report, &source)
+    {
+        eprintln!("error: cannot draw {}: {e}", path.display());
+        return ExitCode::from(FAILED);
+    }
     if !quiet {
         print!("{}", text(&report, &source));
     }
@@ -180,6 +196,36 @@ fn write_json(path: &Path, report: &Report, source: &Source) -> Result<(), Strin
         let _ = std::fs::remove_file(&partial);
     }
     result.map_err(|e| e.to_string())
+}
+
+/// The weight curve with the findings shaded.
+fn plot(path: &Path, m: &Motion, report: &Report, source: &Source) -> Result<(), String> {
+    let dt = 1.0 / m.rate;
+    let n = m.com.len();
+    let times: Vec<f64> = (0..n).map(|i| i as f64 * dt).collect();
+    // m (g + a_z) / m g = 1 + a_z / g, a_z by central second differences (the ends repeat
+    // their neighbour).
+    let weight: Vec<f64> = (0..n)
+        .map(|i| {
+            let k = i.clamp(1, n.saturating_sub(2).max(1));
+            if n < 3 {
+                return 1.0;
+            }
+            1.0 + (m.com[k + 1][2] - 2.0 * m.com[k][2] + m.com[k - 1][2]) / (dt * dt * heft_audit::G)
+        })
+        .collect();
+    let time_of = |frame: i64| (frame - m.start_frame) as f64 * dt;
+    let marked: Vec<heft_formats::plots::Marked> = report
+        .findings
+        .iter()
+        .map(|f| heft_formats::plots::Marked {
+            span: (time_of(f.first_frame), time_of(f.last_frame)),
+            label: f.kind.words().to_owned(),
+            error: f.severity == Severity::Error,
+        })
+        .collect();
+    let title = format!("audit of {} (time from frame {})", source.input, m.start_frame);
+    heft_formats::plots::draw_audit(path, &title, &times, &weight, &m.contact, &marked)
 }
 
 /// The report as an animator reads it: one finding a line, then a summary.
@@ -374,6 +420,16 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         .collect();
     let contact: Vec<bool> = evaluation.values[fn_][fp].iter().map(|v| *v > 0.5).collect();
     let chains = graph_chains(&plan, &evaluation.values);
+    let feet: Vec<(String, Vec<[f64; 3]>)> = [Side::Left, Side::Right]
+        .into_iter()
+        .filter_map(|s| {
+            let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
+            Some((
+                format!("{}.{}", node.name, transforms[j].0),
+                (0..frames).map(|f| joint(j, f)).collect(),
+            ))
+        })
+        .collect();
     let tl = plan.timeline;
     let (first, count) = match args.frames {
         None => (0, frames),
@@ -405,6 +461,7 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         mass,
         arms: arms.clone(),
         chains,
+        feet,
     };
     let motion = slice(motion, first, count);
     let source = Source {
@@ -431,6 +488,7 @@ fn slice(m: Motion, first: usize, count: usize) -> Motion {
         contact: m.contact[first..first + count].to_vec(),
         mass: m.mass,
         arms: m.arms.as_ref().map(|(a, f)| (cut(a), *f)),
+        feet: m.feet.iter().map(|(n, t)| (n.clone(), cut(t))).collect(),
         chains: m
             .chains
             .iter()
@@ -615,16 +673,30 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
             args.rate
         ));
     }
+    let mut lines: Vec<(String, String)> = Vec::new();
+    if let Some(file) = &args.joint_map {
+        let text = heft_runtime::read_text(file, heft_runtime::GRAPH_FILE_LIMIT)
+            .map_err(|e| format!("cannot read {}: {e}", file.display()))?;
+        for (k, line) in text.lines().enumerate() {
+            let line = line.split('#').next().unwrap_or("").trim();
+            if !line.is_empty() {
+                lines.push((format!("{}:{}", file.display(), k + 1), line.to_owned()));
+            }
+        }
+    }
+    lines.extend(args.joints.iter().map(|j| ("--joint".to_owned(), j.clone())));
     let mut overrides: Vec<(String, Option<Role>)> = Vec::new();
-    for j in &args.joints {
+    for (at, j) in &lines {
         let (name, role) = j
             .split_once('=')
-            .ok_or_else(|| format!("--joint `{j}`: expected NAME=ROLE"))?;
+            .ok_or_else(|| format!("{at}: `{j}`: expected NAME=ROLE"))?;
+        let (name, role) = (name.trim(), role.trim());
         let role = if role.is_empty() {
             None
         } else {
-            Some(role_word(role).ok_or_else(|| format!("--joint `{j}`: `{role}` is not a role (see --help)"))?)
+            Some(role_word(role).ok_or_else(|| format!("{at}: `{j}`: `{role}` is not a role (see --help)"))?)
         };
+        overrides.retain(|(n, _)| n != name);
         overrides.push((name.to_owned(), role));
     }
     let req = Request {
@@ -710,6 +782,13 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
         mass,
         arms,
         chains: character_chains(&ch, &mapping, &kept),
+        feet: [Side::Left, Side::Right]
+            .into_iter()
+            .filter_map(|s| {
+                let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
+                Some((ch.nodes[j].name.clone(), (0..times.len()).map(|f| at(j, f)).collect()))
+            })
+            .collect(),
     };
     let source = Source {
         input: shown,

@@ -305,3 +305,126 @@ fn bounds(values: impl Iterator<Item = f64>) -> (f64, f64) {
     let pad = ((hi - lo) * 0.05).max(1e-6);
     (lo - pad, hi + pad)
 }
+
+/// One stretch of frames an audit found wrong, for [`draw_audit`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Marked {
+    /// First and last time of the stretch, s.
+    pub span: (f64, f64),
+    /// What was found (`flight not ballistic`).
+    pub label: String,
+    /// True for an error, false for a warning.
+    pub error: bool,
+}
+
+/// The audit's picture: the ground force implied by the centre of mass, m (g + a_z), in body
+/// weights against time, the contact phases shaded blue and each finding's frames shaded
+/// (red for an error, amber for a warning) with its label. `.svg` or `.png`.
+pub fn draw_audit(
+    path: &Path,
+    title: &str,
+    times: &[f64],
+    weight: &[f64],
+    contact: &[bool],
+    marked: &[Marked],
+) -> Result<(), String> {
+    let size = (1100, 620);
+    if path.extension().is_some_and(|e| e == "png") {
+        let root = BitMapBackend::new(path, size).into_drawing_area();
+        audit_on(&root, title, times, weight, contact, marked)?;
+        root.present().map_err(|e| e.to_string())
+    } else {
+        let root = SVGBackend::new(path, size).into_drawing_area();
+        audit_on(&root, title, times, weight, contact, marked)?;
+        root.present().map_err(|e| e.to_string())
+    }
+}
+
+fn audit_on<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    title: &str,
+    times: &[f64],
+    weight: &[f64],
+    contact: &[bool],
+    marked: &[Marked],
+) -> Result<(), String>
+where
+    DB::ErrorType: 'static,
+{
+    let err = |e: DrawingAreaErrorKind<DB::ErrorType>| e.to_string();
+    root.fill(&WHITE).map_err(err)?;
+    let t0 = times.first().copied().unwrap_or(0.0);
+    let t1 = times.last().copied().unwrap_or(1.0).max(t0 + 1e-9);
+    let (_, top) = bounds(weight.iter().copied().chain([0.0, 1.0]));
+    let hi = top * 1.1;
+    let mut chart = ChartBuilder::on(root)
+        .caption(title, ("sans-serif", 18).into_font())
+        .margin(16)
+        .x_label_area_size(48)
+        .y_label_area_size(72)
+        .build_cartesian_2d(t0..t1, 0.0..hi)
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .x_desc("time [s]")
+        .y_desc("ground force m (g + a_z) [body weights]")
+        .draw()
+        .map_err(err)?;
+    let mut start = None;
+    for i in 0..=contact.len() {
+        let on = i < contact.len() && contact[i];
+        match (on, start) {
+            (true, None) => start = Some(i),
+            (false, Some(s)) => {
+                let (a, b) = (times[s], times[(i - 1).max(s)]);
+                let shade = RGBColor(120, 170, 230).mix(0.18);
+                chart
+                    .draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, hi)], shade.filled())))
+                    .map_err(err)?;
+                start = None;
+            }
+            _ => {}
+        }
+    }
+    for (k, m) in marked.iter().enumerate() {
+        let color = if m.error {
+            RGBColor(210, 40, 40)
+        } else {
+            RGBColor(230, 150, 20)
+        };
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(m.span.0, 0.0), (m.span.1.max(m.span.0 + 1e-9), hi)],
+                color.mix(0.22).filled(),
+            )))
+            .map_err(err)?;
+        chart
+            .draw_series(std::iter::once(Text::new(
+                m.label.clone(),
+                (m.span.0, hi * (0.96 - 0.05 * k as f64)),
+                ("sans-serif", 15).into_font().color(&color),
+            )))
+            .map_err(err)?;
+    }
+    chart
+        .draw_series(LineSeries::new(
+            vec![(t0, 1.0), (t1, 1.0)],
+            BLACK.mix(0.6).stroke_width(1),
+        ))
+        .map_err(err)?
+        .label("body weight")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BLACK.mix(0.6)));
+    let pts: Vec<(f64, f64)> = times.iter().copied().zip(weight.iter().copied()).collect();
+    chart
+        .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(2)))
+        .map_err(err)?
+        .label("implied ground force")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[0].stroke_width(2)));
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()
+        .map_err(err)?;
+    Ok(())
+}
