@@ -256,3 +256,52 @@ fn a_rig_s_joint_map_file_names_its_joints_and_its_mistakes_by_line() {
         text(&o)
     );
 }
+
+/// A graph that reads CSV tracks (data/hop_tracks.csv, written by Python's csv module from
+/// closed forms: a push at 1.2 g, a ballistic flight, a landing stopped at 3 g): the centre of
+/// mass and the feet are named on the command line, the contact comes from the feet.
+#[test]
+fn a_graph_of_csv_tracks_is_audited_with_its_feet_as_the_contact() {
+    let dir = tempfile::tempdir().expect("temp");
+    let report = dir.path().join("hop.json");
+    let args = [
+        "graphs/audit_tracks.graph",
+        "--com",
+        "com.value",
+        "--foot",
+        "foot_l.value",
+        "--foot",
+        "foot_r.value",
+        "--mass",
+        "62",
+        "--json",
+        report.to_str().expect("utf-8"),
+    ];
+    let o = audit(&args);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let v = json(&report);
+    let flight = &v["report"]["flights"][0];
+    // Sampled at 120 Hz and resampled on the 24 fps frames, which fall on samples: the flight
+    // is the parabola to the CSV's six decimals of time.
+    let a = flight["acceleration"].as_f64().expect("number");
+    assert!((a + G).abs() < 1e-4, "{a}");
+    // Landing stopped at 3 g: 4 body weights at the peak (F = m (g + a)).
+    let peak = flight["landing_peak"].as_f64().expect("number");
+    assert!((peak - 4.0).abs() < 0.1, "{peak}");
+    assert_eq!(v["source"]["contact"], "feet within 0.03 m of their lowest");
+    let o = audit(&[
+        "graphs/audit_tracks.graph",
+        "--com",
+        "com.value",
+        "--foot",
+        "foot_l.nothing",
+        "--mass",
+        "62",
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        text(&o).contains("node `foot_l` has no output `nothing` (for the foot)"),
+        "{}",
+        text(&o)
+    );
+}

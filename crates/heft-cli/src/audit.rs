@@ -61,6 +61,11 @@ pub(crate) struct AuditArgs {
     /// the centre of mass's node).
     #[arg(long, value_name = "NODE.PORT")]
     contact: Option<String>,
+    /// Graph: a foot's position, `node.port` (a vec3 or transform in m; repeatable). With
+    /// feet and no `--contact`, the feet are on the ground within `--ground-clearance` of their
+    /// lowest point; a planted foot must not slide.
+    #[arg(long = "foot", value_name = "NODE.PORT")]
+    foot: Vec<String>,
     /// Body mass in kg (graph default: the `body_mass` parameter of the centre of mass's node;
     /// a glTF character needs it).
     #[arg(long, value_name = "KG")]
@@ -88,7 +93,8 @@ pub(crate) struct AuditArgs {
     /// glTF: the file is Z up already (glTF is Y up).
     #[arg(long)]
     z_up: bool,
-    /// glTF: a foot within this height (m) of its lowest point in the clip is on the ground.
+    /// A foot within this height (m) of the lowest any foot gets is on the ground (a glTF
+    /// character, or a graph's `--foot` positions).
     #[arg(long, value_name = "M", default_value_t = 0.03)]
     ground_clearance: f64,
     /// The severity that fails the audit (exit status 3): warning or error.
@@ -336,7 +342,29 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         "the graph has problems (above)".to_owned()
     })?;
     let (cn, cp) = find_port(&plan, args.com.as_deref(), "com_position", "centre of mass")?;
-    let contact_default = if args.contact.is_none() {
+    // Feet named on the command line: positions of vec3 or transform outputs in m.
+    let mut foot_ports: Vec<(usize, usize)> = Vec::new();
+    for f in &args.foot {
+        let (n, k) = find_port(&plan, Some(f), "", "foot")?;
+        let o = &plan.nodes[n].ty.spec().outputs[k];
+        let kind_ok = matches!(
+            o.kind,
+            heft_node_sdk::PortKind::Vec3 | heft_node_sdk::PortKind::Transform
+        );
+        if !kind_ok || o.dimension != heft_node_sdk::Dimension::Length {
+            return Err(format!(
+                "`{f}` is {} in {}: a foot is a vec3 or transform in m",
+                o.kind.name(),
+                o.dimension.si_symbol()
+            ));
+        }
+        foot_ports.push((n, k));
+    }
+    let from_feet = args.contact.is_none() && !foot_ports.is_empty();
+    let contact_default = if from_feet {
+        // Not used: the contact comes from the feet.
+        Some((cn, cp))
+    } else if args.contact.is_none() {
         // The contact flag of the centre of mass's own node first.
         plan.nodes[cn]
             .ty
@@ -364,7 +392,7 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
             com_spec.dimension.si_symbol()
         ));
     }
-    if flag_spec.kind != heft_node_sdk::PortKind::Flag {
+    if !from_feet && flag_spec.kind != heft_node_sdk::PortKind::Flag {
         return Err(format!(
             "`{}.{}` is {}: the contact is a flag",
             plan.nodes[fn_].name,
@@ -418,18 +446,37 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         .chunks_exact(3)
         .map(|c| [c[0], c[1], c[2]])
         .collect();
-    let contact: Vec<bool> = evaluation.values[fn_][fp].iter().map(|v| *v > 0.5).collect();
     let chains = graph_chains(&plan, &evaluation.values);
-    let feet: Vec<(String, Vec<[f64; 3]>)> = [Side::Left, Side::Right]
-        .into_iter()
-        .filter_map(|s| {
-            let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
-            Some((
-                format!("{}.{}", node.name, transforms[j].0),
-                (0..frames).map(|f| joint(j, f)).collect(),
-            ))
-        })
-        .collect();
+    let feet: Vec<(String, Vec<[f64; 3]>)> = if foot_ports.is_empty() {
+        [Side::Left, Side::Right]
+            .into_iter()
+            .filter_map(|s| {
+                let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
+                Some((
+                    format!("{}.{}", node.name, transforms[j].0),
+                    (0..frames).map(|f| joint(j, f)).collect(),
+                ))
+            })
+            .collect()
+    } else {
+        foot_ports
+            .iter()
+            .map(|&(n, k)| {
+                let v = &evaluation.values[n][k];
+                let w = plan.nodes[n].ty.spec().outputs[k].kind.width(0);
+                let name = format!("{}.{}", plan.nodes[n].name, plan.nodes[n].ty.spec().outputs[k].name);
+                (
+                    name,
+                    (0..frames).map(|f| [v[w * f], v[w * f + 1], v[w * f + 2]]).collect(),
+                )
+            })
+            .collect()
+    };
+    let contact: Vec<bool> = if from_feet {
+        feet_contact(&feet, frames, args.ground_clearance)
+    } else {
+        evaluation.values[fn_][fp].iter().map(|v| *v > 0.5).collect()
+    };
     let tl = plan.timeline;
     let (first, count) = match args.frames {
         None => (0, frames),
@@ -469,10 +516,21 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         body_model: arms.is_some().then_some(model.word()),
         skeleton_com_difference,
         com: format!("{}.{}", node.name, com_spec.name),
-        contact: format!("{}.{}", plan.nodes[fn_].name, flag_spec.name),
+        contact: if from_feet {
+            format!("feet within {} m of their lowest", args.ground_clearance)
+        } else {
+            format!("{}.{}", plan.nodes[fn_].name, flag_spec.name)
+        },
         ..Source::default()
     };
     Ok((motion, source))
+}
+
+/// On the ground: the lowest foot within `clearance` of the lowest any foot gets.
+fn feet_contact(feet: &[(String, Vec<[f64; 3]>)], frames: usize, clearance: f64) -> Vec<bool> {
+    let low = |f: usize| feet.iter().map(|(_, t)| t[f][2]).fold(f64::INFINITY, f64::min);
+    let ground = (0..frames).map(low).fold(f64::INFINITY, f64::min);
+    (0..frames).map(|f| low(f) - ground <= clearance).collect()
 }
 
 /// Frames `first..first + count` of a motion.
@@ -769,11 +827,11 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
         .flat_map(|s| [Role::Ankle(s), Role::Toe(s)])
         .filter_map(|r| mapping.joint(r))
         .collect();
-    let low = |f: usize| feet.iter().map(|j| at(*j, f)[2]).fold(f64::INFINITY, f64::min);
-    let ground = (0..times.len()).map(low).fold(f64::INFINITY, f64::min);
-    let contact: Vec<bool> = (0..times.len())
-        .map(|f| low(f) - ground <= args.ground_clearance)
+    let tracks: Vec<(String, Vec<[f64; 3]>)> = feet
+        .iter()
+        .map(|&j| (String::new(), (0..times.len()).map(|f| at(j, f)).collect()))
         .collect();
+    let contact = feet_contact(&tracks, times.len(), args.ground_clearance);
     let motion = Motion {
         start_frame: count.0 as i64,
         rate: args.rate,
