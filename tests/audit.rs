@@ -16,6 +16,16 @@ fn json(path: &std::path::Path) -> serde_json::Value {
     serde_json::from_str(&std::fs::read_to_string(path).expect("json written")).expect("json parses")
 }
 
+/// The kinds of a JSON report's findings.
+fn kinds(v: &serde_json::Value) -> Vec<String> {
+    v["report"]["findings"]
+        .as_array()
+        .expect("findings")
+        .iter()
+        .filter_map(|f| f["kind"].as_str().map(str::to_owned))
+        .collect()
+}
+
 fn text(o: &Output) -> String {
     format!(
         "{}{}",
@@ -97,13 +107,8 @@ fn a_keyed_gltf_jump_shows_its_floaty_flight() {
     ]);
     assert_eq!(o.status.code(), Some(3), "{}", text(&o));
     let v = json(&report);
-    let kinds: Vec<&str> = v["report"]["findings"]
-        .as_array()
-        .expect("findings")
-        .iter()
-        .filter_map(|f| f["kind"].as_str())
-        .collect();
-    assert!(kinds.contains(&"flight_not_ballistic"), "{kinds:?}");
+    let kinds = kinds(&v);
+    assert!(kinds.iter().any(|k| k == "flight_not_ballistic"), "{kinds:?}");
     let a = v["report"]["flights"][0]["acceleration"].as_f64().expect("number");
     assert!(a > -0.8 * G, "{a}");
     // Her clavicles, hips, spine and chest play no role; they are listed, not guessed.
@@ -173,14 +178,9 @@ fn each_mistake_of_a_wrongly_keyed_jump_is_found_and_its_corrected_version_is_cl
     ]);
     assert_eq!(o.status.code(), Some(3), "{}", text(&o));
     let v = json(&report);
-    let kinds: Vec<&str> = v["report"]["findings"]
-        .as_array()
-        .expect("findings")
-        .iter()
-        .filter_map(|f| f["kind"].as_str())
-        .collect();
+    let kinds = kinds(&v);
     for k in ["flight_not_ballistic", "late_arm_swing", "passive_not_weightless"] {
-        assert!(kinds.contains(&k), "{k} missing from {kinds:?}");
+        assert!(kinds.iter().any(|x| x == k), "{k} missing from {kinds:?}");
     }
     let flight = &v["report"]["flights"][0];
     // The pelvis on a sine arc of 0.8 s rising 0.345 m: the least-squares parabola through the

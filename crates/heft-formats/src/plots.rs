@@ -167,21 +167,11 @@ where
                 .map_err(err)?;
             // Contact phases shaded; take-off and touch-down marked.
             if let Some(flags) = contact {
-                let mut start = None;
                 let shade = RGBColor(120, 170, 230).mix(0.18);
-                for i in 0..=flags.len() {
-                    let on = i < flags.len() && flags[i] >= 0.5;
-                    match (on, start) {
-                        (true, None) => start = Some(i),
-                        (false, Some(s)) => {
-                            let (a, b) = (times[s], times[(i - 1).max(s)]);
-                            chart
-                                .draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, hi)], shade.filled())))
-                                .map_err(err)?;
-                            start = None;
-                        }
-                        _ => {}
-                    }
+                for (a, b) in spans(&times, flags.len(), |i| flags[i] >= 0.5) {
+                    chart
+                        .draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, hi)], shade.filled())))
+                        .map_err(err)?;
                 }
                 for i in 1..flags.len() {
                     let (was, is) = (flags[i - 1] >= 0.5, flags[i] >= 0.5);
@@ -293,6 +283,23 @@ where
 }
 
 /// A padded range holding every value (never empty).
+/// The time spans (first and last frame's times) of the runs of frames where `on` holds.
+fn spans(times: &[f64], n: usize, on: impl Fn(usize) -> bool) -> Vec<(f64, f64)> {
+    let mut out = Vec::new();
+    let mut start = None;
+    for i in 0..=n {
+        match (i < n && on(i), start) {
+            (true, None) => start = Some(i),
+            (false, Some(s)) => {
+                out.push((times[s], times[(i - 1).max(s)]));
+                start = None;
+            }
+            _ => {}
+        }
+    }
+    out
+}
+
 fn bounds(values: impl Iterator<Item = f64>) -> (f64, f64) {
     let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
     for v in values {
@@ -370,21 +377,11 @@ where
         .y_desc("ground force m (g + a_z) [body weights]")
         .draw()
         .map_err(err)?;
-    let mut start = None;
-    for i in 0..=contact.len() {
-        let on = i < contact.len() && contact[i];
-        match (on, start) {
-            (true, None) => start = Some(i),
-            (false, Some(s)) => {
-                let (a, b) = (times[s], times[(i - 1).max(s)]);
-                let shade = RGBColor(120, 170, 230).mix(0.18);
-                chart
-                    .draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, hi)], shade.filled())))
-                    .map_err(err)?;
-                start = None;
-            }
-            _ => {}
-        }
+    let shade = RGBColor(120, 170, 230).mix(0.18);
+    for (a, b) in spans(times, contact.len().min(times.len()), |i| contact[i]) {
+        chart
+            .draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, hi)], shade.filled())))
+            .map_err(err)?;
     }
     for (k, m) in marked.iter().enumerate() {
         let color = if m.error {
