@@ -127,6 +127,11 @@ pub struct Analysis {
     pub velocity: Vec<f64>,
     /// Centre-of-mass vertical displacement per sample from its standing height, m.
     pub displacement: Vec<f64>,
+    /// The same with the flight as the exact parabola from the take-off (its interpolated
+    /// instant, velocity and displacement) under standard gravity, and the landing's integral
+    /// shifted to continue from the parabola's last sample: the force samples of the flight
+    /// (noise on an unloaded plate) do not move it. m.
+    pub path: Vec<f64>,
     /// Phase per sample.
     pub phase: Vec<Phase>,
     /// Force per sample in body weights.
@@ -260,6 +265,25 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
         ));
     }
     let flight_time = flight.touchdown_time - flight.takeoff_time;
+    // The flight as the parabola from the take-off: displacement at the interpolated take-off
+    // by the trapezoid over the fraction s of the sample.
+    let takeoff_displacement = displacement[k - 1] + 0.5 * s * dt * (velocity[k - 1] + takeoff_velocity);
+    let parabola = |i: usize| {
+        let tau = clock.time(i) - flight.takeoff_time;
+        takeoff_displacement + takeoff_velocity * tau - 0.5 * STANDARD_GRAVITY * tau * tau
+    };
+    let shift = if j > k {
+        parabola(j - 1) - displacement[j - 1]
+    } else {
+        0.0
+    };
+    let path: Vec<f64> = (0..n)
+        .map(|i| match i {
+            _ if i < k => displacement[i],
+            _ if i < j => parabola(i),
+            _ => displacement[i] + shift,
+        })
+        .collect();
 
     // Phase boundaries.
     let velocity_min_index = (onset..k)
@@ -309,6 +333,7 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
         countermovement_depth,
         velocity,
         displacement,
+        path,
         phase,
         body_weights,
         warnings,

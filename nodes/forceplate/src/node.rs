@@ -28,6 +28,10 @@ rule of our own, no source); with `min_flight_duration` 0 every crossing counts.
 integral up to the interpolated take-off, over the linear interpolant of the force (consistent with the \
 trapezoid rule).
 - Jump height: from the take-off velocity, v^2 / (2 g); from the flight time t (flight-time method), g t^2 / 8.
+- The centre of mass (`centre_of_mass`, for passive motion driven by the plate): `standing_height` plus the \
+displacement, except in the flight, which is the exact parabola from the take-off's interpolated instant, \
+velocity and displacement under standard gravity (the unloaded plate's noise does not move it); the landing's \
+integral is shifted to continue from the parabola's last sample.
 
 Phases (codes of the `phase` output; names as in McMahon, Suchomel, Lake & Comfort 2018, Strength Cond J \
 40(4):96-106): 0 weighing, before the onset; 1 unweighting, from the onset to the sample of the velocity minimum \
@@ -87,6 +91,14 @@ impl Node for Analyse {
                     Dimension::BodyWeight,
                     "Force divided by body weight.",
                 ),
+                PortSpec::new(
+                    "centre_of_mass",
+                    PortKind::Transform,
+                    Dimension::Length,
+                    "The centre of mass as a transform a strand or a character can hang from: at \
+                     `standing_height` plus the displacement, the flight the exact parabola from the take-off \
+                     (identity rotation, x = y = 0).",
+                ),
             ],
             params: vec![
                 ParamSpec::number(
@@ -116,6 +128,14 @@ impl Node for Analyse {
                     20.0,
                     (1.0, 500.0),
                     "The plate is unloaded below this force.",
+                ),
+                ParamSpec::number(
+                    "standing_height",
+                    Dimension::Length,
+                    0.95,
+                    (0.1, 3.0),
+                    "Height of the centre of mass in quiet standing, for `centre_of_mass` (about 0.55 of body \
+                     height).",
                 ),
                 ParamSpec::number(
                     "min_flight_duration",
@@ -201,6 +221,10 @@ impl Node for Analyse {
         io.fill("displacement", |i, out| out[0] = a.displacement[i])?;
         io.fill("phase", |i, out| out[0] = a.phase[i].code())?;
         io.fill("body_weights", |i, out| out[0] = a.body_weights[i])?;
+        let standing = params.number("standing_height")?;
+        io.fill("centre_of_mass", |i, out| {
+            out.copy_from_slice(&[0.0, 0.0, standing + a.path[i], 0.0, 0.0, 0.0, 1.0])
+        })?;
         let summaries = [
             ("body_mass", a.body_mass),
             ("body_weight", a.body_weight),

@@ -17,16 +17,16 @@ fn timeline(start_frame: i64, frames: usize, fps: u32) -> Timeline {
     }
 }
 
-/// Runs the node; returns the four outputs, the summaries and the warnings.
+/// Runs the node; returns the outputs, the summaries and the warnings.
 type Run = (Vec<Vec<f64>>, Vec<f64>, Vec<String>);
 
 fn run(force: &[f64], tl: Timeline, params: &Params) -> Result<Run, NodeError> {
     let spec: NodeSpec = Analyse::spec();
     let n = tl.frames();
-    let mut bufs = vec![vec![f64::NAN; n]; spec.outputs.len()];
+    let widths: Vec<usize> = spec.outputs.iter().map(|o| o.kind.width(0)).collect();
+    let mut bufs: Vec<Vec<f64>> = widths.iter().map(|w| vec![f64::NAN; n * w]).collect();
     let (summaries, warnings, result) = {
         let outputs: Vec<&mut [f64]> = bufs.iter_mut().map(|b| b.as_mut_slice()).collect();
-        let widths = vec![1; outputs.len()];
         let mut io = Io::new(tl, &spec, vec![Series::new(force, 1)], outputs, widths);
         let result = Analyse::evaluate(params, &mut io);
         (io.summaries().to_vec(), io.warnings().to_vec(), result)
@@ -76,6 +76,10 @@ fn the_node_reports_the_analysis_on_the_timeline() {
     assert_eq!(outputs[3], a.body_weights);
     let codes: Vec<f64> = a.phase.iter().map(|p| p.code()).collect();
     assert_eq!(outputs[2], codes);
+    // The centre of mass: at the default standing height (0.95 m) plus the path, upright.
+    for (i, p) in a.path.iter().enumerate() {
+        assert_eq!(outputs[4][7 * i..7 * i + 7], [0.0, 0.0, 0.95 + p, 0.0, 0.0, 0.0, 1.0]);
+    }
     let spec = Analyse::spec();
     let get = |name: &str| summaries[spec.summaries.iter().position(|s| s.name == name).expect(name)];
     assert!(summaries.iter().all(|v| v.is_finite()), "{summaries:?}");
