@@ -16,6 +16,21 @@ pub const MIN_RATE_HZ: f64 = 100.0;
 /// shows a force SD well under 1 % of body weight; 5 % means the subject was moving.
 pub const QUIET_SD_LIMIT: f64 = 0.05;
 
+/// The first stretch of a record against which the end of quiet standing is judged, s (of
+/// our own, no source: short enough for a record that starts moving early, long enough for a
+/// usable noise estimate at 1000 Hz).
+pub const REFERENCE_DURATION: f64 = 0.05;
+
+/// A departure from the reference force beyond this fraction of it is a movement, not a sway
+/// (of our own, no source: a countermovement unloads the plate by 30 % or more, a push loads it
+/// as much).
+pub const MOVEMENT_FRACTION: f64 = 0.15;
+
+/// Quiet standing recommended before a countermovement jump for weighing, s (McMahon,
+/// Suchomel, Lake & Comfort 2018, "Understanding the key phases of the countermovement jump
+/// force-time curve", Strength Cond J 40(4):96-106: at least 1 s; from memory).
+pub const RECOMMENDED_STANDING: f64 = 1.0;
+
 /// The onset threshold never falls below this fraction of body weight, so that a noise-free
 /// (synthetic) record, whose standing SD is zero or a rounding residue, does not trigger on
 /// rounding. A guard of our own, no source.
@@ -199,6 +214,56 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
             settings.standing_duration
         ));
     }
+    // The movement may start inside the window: the window then ends where the force first
+    // leaves quiet standing (judged against the first 50 ms, at least 5 samples), stepped back
+    // by onset_backtrack, however short the quiet stretch before it is.
+    let n_ref = ((REFERENCE_DURATION * rate_hz).round() as usize).max(5).min(n_stand);
+    let reference = &force[..n_ref];
+    let ref_mean = reference.iter().sum::<f64>() / n_ref as f64;
+    let ref_sd = if n_ref > 1 {
+        (reference.iter().map(|f| (f - ref_mean) * (f - ref_mean)).sum::<f64>() / (n_ref - 1) as f64).sqrt()
+    } else {
+        0.0
+    };
+    let ref_limit = (settings.onset_deviations * ref_sd).max(ONSET_FLOOR_FRACTION * ref_mean.abs());
+    let back = (settings.onset_backtrack * rate_hz).round() as usize;
+    // A movement, not a sway: the force goes beyond MOVEMENT_FRACTION of body weight; its start
+    // is where it last left the reference band before that.
+    let far = (MOVEMENT_FRACTION * ref_mean.abs()).max(ref_limit);
+    let started = (n_ref..n)
+        .find(|&i| (force[i] - ref_mean).abs() > far)
+        .map(|far_at| {
+            (n_ref..far_at)
+                .rev()
+                .find(|&i| (force[i] - ref_mean).abs() <= ref_limit)
+                .map_or(n_ref, |i| i + 1)
+        })
+        .filter(|&start| start < n_stand);
+    let n_stand = match started {
+        Some(departure) => {
+            let end = departure.saturating_sub(back).max(n_ref.min(departure)).max(2);
+            warnings.push(format!(
+                "the movement starts at frame {} ({:.3} s), inside the {} s standing window: body weight comes \
+                 from the {:.3} s of quiet standing before it (frames {} to {})",
+                clock.frame(departure),
+                clock.time(departure),
+                settings.standing_duration,
+                end as f64 * dt,
+                clock.frame(0),
+                clock.frame(end - 1)
+            ));
+            end
+        }
+        None => n_stand,
+    };
+    if (n_stand as f64) * dt < RECOMMENDED_STANDING - 0.5 * dt {
+        warnings.push(format!(
+            "body weight comes from {:.3} s of quiet standing, less than the {RECOMMENDED_STANDING} s recommended \
+             (McMahon, Suchomel, Lake & Comfort 2018, Strength Cond J 40(4):96-106; from memory): a body weight \
+             0.1 % off moves the take-off velocity by about 0.5 %",
+            n_stand as f64 * dt
+        ));
+    }
     let window = &force[..n_stand];
     let bw = window.iter().sum::<f64>() / n_stand as f64;
     let sd = (window.iter().map(|f| (f - bw) * (f - bw)).sum::<f64>() / (n_stand - 1) as f64).sqrt();
@@ -230,7 +295,6 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
             settings.onset_deviations
         ));
     };
-    let back = (settings.onset_backtrack * rate_hz).round() as usize;
     let onset = detected.saturating_sub(back);
     if detected == n_stand {
         warnings.push(format!(

@@ -11,9 +11,14 @@ Input: the vertical ground reaction force of one jump, sampled at the timeline's
 the plate's rate, e.g. `rate 1000 fps`; 100 Hz or more). The record starts with quiet standing.
 
 Method.
-- Weighing: body weight BW is the mean force of the first `standing_duration` seconds; body mass m = BW / g with \
-standard gravity g = 9.80665 m/s^2. The window must be quiet: its SD may be at most 5 % of its mean (common \
-practice, no source).
+- Weighing: body weight BW is the mean force of the first `standing_duration` seconds, or of the quiet stretch \
+before the movement when the movement starts sooner, however short: the force judged against the record's first \
+50 ms (its mean, and `onset_deviations` of its SD), the movement found where it goes beyond 15 % of that mean (a \
+movement, not a sway; of our own, no source) and dated back to where it left the band, the window ending \
+`onset_backtrack` before that, with a warning. A window shorter than 1 s gets a warning (at least 1 s of quiet \
+standing: McMahon, Suchomel, Lake & Comfort 2018, Strength Cond J 40(4):96-106, from memory). Body mass \
+m = BW / g with standard gravity g = 9.80665 m/s^2. The window must be quiet: its SD may be at most 5 % of its \
+mean (common practice, no source).
 - Onset (Owen, Watkins, Kilduff, Bevan & Bennett 2014, J Strength Cond Res 28(6):1552-1558; details from \
 memory): the first sample after the standing window whose force departs from BW by more than `onset_deviations` \
 SDs of the standing force, stepped back by `onset_backtrack`. The threshold never falls below 1e-6 BW (a guard \
@@ -106,7 +111,8 @@ impl Node for Analyse {
                     Dimension::Time,
                     1.0,
                     (0.2, 10.0),
-                    "Quiet-standing window at the start of the record, used for body weight.",
+                    "Quiet-standing window at the start of the record, used for body weight (shortened, with a \
+                     warning, where the movement starts sooner).",
                 ),
                 ParamSpec::number(
                     "onset_deviations",
