@@ -16,6 +16,7 @@
 
 pub mod body;
 mod checks;
+pub mod skeleton;
 
 pub use checks::{Chain, Finding, Flight, G, Kind, Limits, Motion, Report, Severity, audit};
 

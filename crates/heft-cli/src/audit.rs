@@ -5,6 +5,7 @@ use std::process::ExitCode;
 
 use clap::Args;
 use heft_audit::body::{BodyModel, Mapping, Role, Side, arms_centre, centre_of_mass};
+use heft_audit::skeleton::{Reading, Skeleton, feet_contact, parse_overrides};
 use heft_audit::{Chain, Limits, Motion, Report, Severity, audit};
 use heft_formats::character::{self, Axes, Outside, Request};
 use heft_node_sdk::ParamValue;
@@ -510,7 +511,7 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         chains,
         feet,
     };
-    let motion = slice(motion, first, count);
+    let motion = motion.frames(first, count);
     let source = Source {
         input: args.input.display().to_string(),
         body_model: arms.is_some().then_some(model.word()),
@@ -524,39 +525,6 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         ..Source::default()
     };
     Ok((motion, source))
-}
-
-/// On the ground: the lowest foot within `clearance` of the lowest any foot gets.
-fn feet_contact(feet: &[(String, Vec<[f64; 3]>)], frames: usize, clearance: f64) -> Vec<bool> {
-    let low = |f: usize| feet.iter().map(|(_, t)| t[f][2]).fold(f64::INFINITY, f64::min);
-    let ground = (0..frames).map(low).fold(f64::INFINITY, f64::min);
-    (0..frames).map(|f| low(f) - ground <= clearance).collect()
-}
-
-/// Frames `first..first + count` of a motion.
-fn slice(m: Motion, first: usize, count: usize) -> Motion {
-    if first == 0 && count == m.com.len() {
-        return m;
-    }
-    let cut = |v: &[[f64; 3]]| v[first..first + count].to_vec();
-    Motion {
-        start_frame: m.start_frame + first as i64,
-        rate: m.rate,
-        com: cut(&m.com),
-        contact: m.contact[first..first + count].to_vec(),
-        mass: m.mass,
-        arms: m.arms.as_ref().map(|(a, f)| (cut(a), *f)),
-        feet: m.feet.iter().map(|(n, t)| (n.clone(), cut(t))).collect(),
-        chains: m
-            .chains
-            .iter()
-            .map(|c| Chain {
-                name: c.name.clone(),
-                anchor: cut(&c.anchor),
-                points: c.points[first..first + count].to_vec(),
-            })
-            .collect(),
-    }
 }
 
 /// The graph's strands as chains: every node with a `positions` output (points, m) and a
@@ -631,59 +599,6 @@ fn graph_chains(plan: &check::Plan, values: &[Vec<Vec<f64>>]) -> Vec<Chain> {
     out
 }
 
-/// A character's passive chains: joints with no role in the body whose descendants have none
-/// either (a ponytail, a braid; not a spine), each hanging from the first such joint's parent,
-/// following the first child.
-fn character_chains(ch: &character::Character, mapping: &Mapping, kept: &[String]) -> Vec<Chain> {
-    let n = ch.nodes.len();
-    let mapped: Vec<bool> = (0..n).map(|i| mapping.roles.iter().any(|(_, j)| *j == i)).collect();
-    let children = |i: usize| (0..n).filter(move |&c| ch.nodes[c].parent == Some(i));
-    // Descendants with a role, bottom up (a node comes after its parent).
-    let mut body_below = mapped.clone();
-    for i in (0..n).rev() {
-        if body_below[i]
-            && let Some(p) = ch.nodes[i].parent
-        {
-            body_below[p] = true;
-        }
-    }
-    let centre = [
-        "hips", "pelvis", "spine", "chest", "root", "clavicle", "shoulder", "body",
-    ];
-    let candidate = |i: usize| {
-        let lower = ch.nodes[i].name.to_ascii_lowercase();
-        !body_below[i]
-            && !kept[i].is_empty()
-            && ch.nodes[i].parent.is_some()
-            && children(i).count() <= 1
-            && !centre.iter().any(|c| lower.contains(c))
-    };
-    let at = |node: usize, f: usize| ch.axes.point(ch.world[node][f].t);
-    let frames = ch.clip_times.len();
-    let mut out = Vec::new();
-    for i in 0..n {
-        let Some(parent) = ch.nodes[i].parent else { continue };
-        if !candidate(i) || candidate(parent) {
-            continue;
-        }
-        let mut joints = vec![i];
-        while let Some(c) = children(*joints.last().unwrap_or(&i)).next() {
-            if !candidate(c) {
-                break;
-            }
-            joints.push(c);
-        }
-        out.push(Chain {
-            name: ch.nodes[i].name.clone(),
-            anchor: (0..frames).map(|f| at(parent, f)).collect(),
-            points: (0..frames)
-                .map(|f| joints.iter().map(|&j| at(j, f)).collect())
-                .collect(),
-        });
-    }
-    out
-}
-
 fn body_model(word: Option<&str>, default: BodyModel) -> Result<BodyModel, String> {
     match word {
         None => Ok(default),
@@ -691,33 +606,6 @@ fn body_model(word: Option<&str>, default: BodyModel) -> Result<BodyModel, Strin
             BodyModel::from_word(w).ok_or_else(|| format!("--body `{w}`: one of de-leva-male, de-leva-female, winter"))
         }
     }
-}
-
-fn role_word(word: &str) -> Option<Role> {
-    let side = |s: &str| match s {
-        "l" => Some(Side::Left),
-        "r" => Some(Side::Right),
-        _ => None,
-    };
-    match word {
-        "neck" => return Some(Role::Neck),
-        "head" => return Some(Role::Head),
-        "head_top" => return Some(Role::HeadTop),
-        _ => {}
-    }
-    let (part, s) = word.rsplit_once('_')?;
-    let s = side(s)?;
-    Some(match part {
-        "shoulder" => Role::Shoulder(s),
-        "elbow" => Role::Elbow(s),
-        "wrist" => Role::Wrist(s),
-        "knuckle" => Role::Knuckle(s),
-        "hip" => Role::Hip(s),
-        "knee" => Role::Knee(s),
-        "ankle" => Role::Ankle(s),
-        "toe" => Role::Toe(s),
-        _ => return None,
-    })
 }
 
 fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
@@ -743,20 +631,7 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
         }
     }
     lines.extend(args.joints.iter().map(|j| ("--joint".to_owned(), j.clone())));
-    let mut overrides: Vec<(String, Option<Role>)> = Vec::new();
-    for (at, j) in &lines {
-        let (name, role) = j
-            .split_once('=')
-            .ok_or_else(|| format!("{at}: `{j}`: expected NAME=ROLE"))?;
-        let (name, role) = (name.trim(), role.trim());
-        let role = if role.is_empty() {
-            None
-        } else {
-            Some(role_word(role).ok_or_else(|| format!("{at}: `{j}`: `{role}` is not a role (see --help)"))?)
-        };
-        overrides.retain(|(n, _)| n != name);
-        overrides.push((name.to_owned(), role));
-    }
+    let overrides = parse_overrides(&lines)?;
     let req = Request {
         clip: args.clip.as_deref().unwrap_or(""),
         axes: if args.z_up { Axes::ZUp } else { Axes::YUp },
@@ -773,7 +648,7 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
     // Key times are stored as 32-bit floats: a clip of 71 frames at 24 fps ends at 2.9583333,
     // not 71 / 24; a frame within 1e-4 of the end counts.
     let count = ((last - first) * args.rate + 1e-4).floor() as usize + 1;
-    let count = match args.frames {
+    let (start, count) = match args.frames {
         Some((a, b)) => {
             let a = a.max(0) as usize;
             let b = (b.max(0) as usize).min(count.saturating_sub(1));
@@ -784,77 +659,36 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
         }
         None => (0, count),
     };
-    let times: Vec<f64> = (count.0..count.0 + count.1).map(|i| i as f64 / args.rate).collect();
+    let times: Vec<f64> = (start..start + count).map(|i| i as f64 / args.rate).collect();
     let ch = character::load(&args.input, &req, &times).map_err(fail)?;
-    let names: Vec<String> = ch.nodes.iter().map(|n| n.name.clone()).collect();
-    let given: Vec<(String, Role)> = overrides
-        .iter()
-        .filter_map(|(n, r)| r.map(|r| (n.clone(), r)))
-        .collect();
-    let left_out: Vec<&String> = overrides.iter().filter(|(_, r)| r.is_none()).map(|(n, _)| n).collect();
-    let kept: Vec<String> = names
-        .iter()
-        .map(|n| {
-            if left_out.contains(&n) {
-                String::new()
-            } else {
-                n.clone()
-            }
-        })
-        .collect();
-    let mapping = Mapping::of(&kept, &given);
-    let at = |node: usize, f: usize| ch.axes.point(ch.world[node][f].t);
-    let mut com = Vec::with_capacity(times.len());
-    for f in 0..times.len() {
-        let c = centre_of_mass(model, &mapping, |j| at(j, f)).map_err(|missing| {
-            format!(
-                "{shown}: no joint plays the role of {}: map them with --joint NAME=ROLE",
-                missing.iter().map(|r| format!("{r:?}")).collect::<Vec<_>>().join(", ")
-            )
-        })?;
-        com.push(c);
-    }
-    let arms = (0..times.len())
-        .map(|f| arms_centre(model, &mapping, |j| at(j, f)))
-        .collect::<Option<Vec<_>>>()
-        .and_then(|v| {
-            let fraction = v.first().map(|(_, m)| *m)?;
-            Some((v.into_iter().map(|(p, _)| p).collect::<Vec<_>>(), fraction))
-        });
-    // Contact: a foot (ankle or toe) within the clearance of its lowest point in the clip.
-    let feet: Vec<usize> = [Side::Left, Side::Right]
-        .into_iter()
-        .flat_map(|s| [Role::Ankle(s), Role::Toe(s)])
-        .filter_map(|r| mapping.joint(r))
-        .collect();
-    let tracks: Vec<(String, Vec<[f64; 3]>)> = feet
-        .iter()
-        .map(|&j| (String::new(), (0..times.len()).map(|f| at(j, f)).collect()))
-        .collect();
-    let contact = feet_contact(&tracks, times.len(), args.ground_clearance);
-    let motion = Motion {
-        start_frame: count.0 as i64,
-        rate: args.rate,
-        com,
-        contact,
-        mass,
-        arms,
-        chains: character_chains(&ch, &mapping, &kept),
-        feet: [Side::Left, Side::Right]
-            .into_iter()
-            .filter_map(|s| {
-                let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
-                Some((ch.nodes[j].name.clone(), (0..times.len()).map(|f| at(j, f)).collect()))
-            })
+    let skeleton = Skeleton {
+        names: ch.nodes.iter().map(|n| n.name.clone()).collect(),
+        parents: ch.nodes.iter().map(|n| n.parent).collect(),
+        positions: (0..times.len())
+            .map(|f| (0..ch.nodes.len()).map(|j| ch.axes.point(ch.world[j][f].t)).collect())
             .collect(),
     };
+    let reading = Reading {
+        model,
+        overrides,
+        start_frame: start as i64,
+        rate: args.rate,
+        mass,
+        clearance: args.ground_clearance,
+    };
+    let read = skeleton.motion(&reading).map_err(|missing| {
+        format!(
+            "{shown}: no joint plays the role of {}: map them with --joint NAME=ROLE",
+            missing.iter().map(|r| format!("{r:?}")).collect::<Vec<_>>().join(", ")
+        )
+    })?;
     let source = Source {
         input: shown,
         com: format!("the skeleton, {}", model.word()),
         contact: format!("feet within {} m of their lowest", args.ground_clearance),
         body_model: Some(model.word()),
-        unmapped_joints: mapping.unmapped.into_iter().filter(|n| !n.is_empty()).collect(),
+        unmapped_joints: read.unmapped,
         skeleton_com_difference: None,
     };
-    Ok((motion, source))
+    Ok((read.motion, source))
 }
