@@ -964,3 +964,71 @@ fn nodes_report_their_own_problems_at_check_time_where_they_are() {
     assert_eq!(p[0].location(), "t.graph:4:1");
     assert_eq!(p[0].label, "`substeps` of this node (its default)");
 }
+
+/// A parameter given once: `node.param` takes another node's value (declared before it), of
+/// the same kind and dimension, within the taking parameter's own range; a plot's `mass` too.
+#[test]
+fn a_parameter_can_take_an_earlier_node_s_value() {
+    let plan = plan_with(
+        "odile = trajectory.jump
+    body_mass = 61 kg
+weight = weight.apparent
+    mass = odile.body_mass
+odile.com_acceleration -> weight.com_acceleration
+odile.contact -> weight.contact
+plot \"w.svg\"
+    weight.force
+    style = body_weights
+    mass = odile.body_mass
+",
+        &[],
+        None,
+    )
+    .expect("checks");
+    let w = plan.nodes.iter().find(|n| n.name == "weight").expect("weight");
+    let k = w.ty.spec().params.iter().position(|p| p.name == "mass").expect("mass");
+    assert_eq!(w.params[k], ParamValue::Number(61.0));
+    assert_eq!(plan.plots[0].mass, Some(61.0));
+
+    let p = body_problems(
+        "weight = weight.apparent
+    mass = odile.body_mass
+odile = trajectory.jump
+    body_mass = 61 kg
+    body_height = odile.body_mass
+    rise = odlie.crouch_depth
+odile2 = trajectory.jump
+    crouch_depth = odile.body_height
+plate = forceplate.analyse
+    standing_height = odile.body_heigth
+    onset_backtrack = odile.body_mass
+    flight_threshold = odile.
+",
+    );
+    assert_eq!(
+        located(&p)[..7],
+        expect(&[
+            ("t.graph:15:29", "expected a parameter name after `.`"),
+            (
+                "t.graph:5:12",
+                "`odile` is declared after this node: `mass` can take the value of a node declared before it"
+            ),
+            (
+                "t.graph:8:19",
+                "`odile.body_mass` is this node's own parameter: write `body_height`'s value"
+            ),
+            ("t.graph:9:12", "no node named `odlie` in the graph"),
+            (
+                "t.graph:11:20",
+                "`crouch_depth` = `odile.body_height` = 1.65 m is out of range"
+            ),
+            ("t.graph:13:23", "`trajectory.jump` has no parameter `body_heigth`"),
+            (
+                "t.graph:14:23",
+                "`odile.body_mass` is a number (a mass), but `onset_backtrack` takes a number (a time)"
+            ),
+        ])[..]
+    );
+    assert_eq!(help(&p[3]), "did you mean `odile`?");
+    assert_eq!(help(&p[5]), "did you mean `odile.body_height`?");
+}

@@ -170,3 +170,24 @@ fn a_chain_of_recipes_too_deep_is_refused_at_its_place() {
         "{at:?}"
     );
 }
+
+/// A recipe's `node.param` names its own nodes: each instance takes its own node's value, and
+/// an override of that value reaches both.
+#[test]
+fn a_recipe_s_references_name_its_own_nodes() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let recipe = "format 1\njump = trajectory.jump\n    body_mass = 60 kg\n    takeoff_frame = 2\nweigh = weight.apparent\n    mass = jump.body_mass\njump.com_acceleration -> weigh.com_acceleration\njump.contact -> weigh.contact\n";
+    let main = "include \"recipes/weigh.graph\" as odile\n    jump.body_mass = 58 kg\ninclude \"recipes/weigh.graph\" as pim\n";
+    let plan = plan(dir.path(), &[("recipes/weigh.graph", recipe)], main).expect("checks");
+    let mass = |node: &str| {
+        let n = plan
+            .nodes
+            .iter()
+            .find(|n| n.name == node)
+            .unwrap_or_else(|| panic!("{node}"));
+        let k = n.ty.spec().params.iter().position(|p| p.name == "mass").expect("mass");
+        n.params[k].clone()
+    };
+    assert_eq!(mass("odile_weigh"), ParamValue::Number(58.0));
+    assert_eq!(mass("pim_weigh"), ParamValue::Number(60.0));
+}

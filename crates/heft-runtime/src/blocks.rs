@@ -83,6 +83,10 @@ pub struct PlannedBake {
 /// A port reference resolved to (node, output, shape, dimension), or a problem.
 pub type Resolve<'a> = dyn Fn(&PortRef) -> Result<(usize, usize, Shape, Dimension), Problem> + 'a;
 
+/// A number parameter of a node by `node` and `param` name: its SI value and dimension, or
+/// why there is none (for a block option written `node.param`).
+pub type ParamOf<'a> = dyn Fn(&str, &str) -> Result<(f64, Dimension), String> + 'a;
+
 fn word_option(src: &Arc<Source>, line: &ParamLine, options: &[&str]) -> Result<String, Problem> {
     match &line.value.value {
         Value::Word(w) | Value::Text(w) if options.contains(&w.as_str()) => Ok(w.clone()),
@@ -334,7 +338,12 @@ pub struct PlannedPlot {
 }
 
 /// Checks a `plot` block.
-pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) -> Result<PlannedPlot, Vec<Problem>> {
+pub fn plan_plot(
+    src: &Arc<Source>,
+    block: &OutputBlock,
+    resolve: &Resolve<'_>,
+    param_of: &ParamOf<'_>,
+) -> Result<PlannedPlot, Vec<Problem>> {
     let mut problems = Vec::new();
     if let Err(p) = check_file_name(src, block, &["svg", "png"]) {
         problems.push(p);
@@ -366,7 +375,15 @@ pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
             },
             ("title", Value::Text(t)) => title = t.clone(),
             ("style", _) => problems.push(bad("lines, body_weights or path")),
-            ("mass", _) => problems.push(bad("a positive mass with its unit, such as `58 kg`")),
+            ("mass", Value::Reference { node, param }) => match param_of(node, param) {
+                Ok((v, Dimension::Mass)) if v > 0.0 => mass = Some(v),
+                Ok((_, d)) => problems.push(
+                    Problem::new(src, opt.value.span, format!("`{node}.{param}` is {}, not a mass", d.describe()))
+                        .label("not a mass"),
+                ),
+                Err(why) => problems.push(Problem::new(src, opt.value.span, why).label("no such parameter")),
+            },
+            ("mass", _) => problems.push(bad("a positive mass with its unit, such as `58 kg`, or `node.param`")),
             ("plane", _) => problems.push(bad("xz, xy or yz")),
             ("title", _) => problems.push(bad("a quoted text")),
             (other, _) => problems.push(
@@ -435,7 +452,7 @@ pub fn plan_plot(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
                 problems.push(
                     Problem::new(src, block.file.span, "a body_weights plot needs the body mass")
                         .label("body_weights plot")
-                        .help("add `mass = 58 kg` under the plot"),
+                        .help("add `mass = 58 kg` (or `mass = node.body_mass`) under the plot"),
                 );
             }
         }

@@ -230,7 +230,7 @@ pub fn convert(source: &Arc<Source>, value: &Spanned<Value>, spec: &ParamSpec) -
             }
             values
         }
-        Value::Word(_) | Value::Text(_) => &[],
+        Value::Word(_) | Value::Text(_) | Value::Reference { .. } => &[],
     };
     if numbers.iter().any(|v| !v.is_finite()) {
         return Err(too_large(source, span, name));
@@ -420,6 +420,147 @@ struct NodeState {
     ok: bool,
 }
 
+/// The nodes declared before the one being checked, whose parameters are final: what a
+/// `node.param` value may name.
+struct Earlier<'a> {
+    states: &'a [NodeState],
+    by_name: &'a BTreeMap<&'a str, usize>,
+}
+
+impl Earlier<'_> {
+    /// The node being checked: the one after the earlier ones.
+    fn this(&self) -> usize {
+        self.states.len()
+    }
+}
+
+impl Earlier<'_> {
+    /// The value of `node.param` for a parameter of `spec`: the same kind and dimension, within
+    /// the parameter's own range.
+    fn value(
+        &self,
+        source: &Arc<Source>,
+        span: Span,
+        node: &str,
+        param: &str,
+        spec: &ParamSpec,
+    ) -> Result<ParamValue, Problem> {
+        let name = &spec.name;
+        let Some(&j) = self.by_name.get(node) else {
+            let mut p =
+                Problem::new(source, span, format!("no node named `{node}` in the graph")).label("unknown node");
+            if let Some(c) = closest(node, self.by_name.keys().copied()) {
+                p = p.help(format!("did you mean `{c}`?"));
+            }
+            return Err(p);
+        };
+        if j == self.this() {
+            return Err(Problem::new(
+                source,
+                span,
+                format!("`{node}.{param}` is this node's own parameter: write `{name}`'s value"),
+            )
+            .label("its own parameter"));
+        }
+        let Some(state) = self.states.get(j) else {
+            return Err(Problem::new(
+                source,
+                span,
+                format!(
+                    "`{node}` is declared after this node: `{name}` can take the value of a node declared before it"
+                ),
+            )
+            .label("declared later")
+            .help(format!("move `{node}` above this node")));
+        };
+        let Some(ty) = &state.ty else {
+            return Err(
+                Problem::new(source, span, format!("`{node}` has problems of its own (above)"))
+                    .label("cannot take its value"),
+            );
+        };
+        let theirs = ty.spec();
+        let Some(k) = theirs.params.iter().position(|p| p.name == param) else {
+            let mut p = Problem::new(source, span, format!("`{}` has no parameter `{param}`", ty.full_name))
+                .label("unknown parameter");
+            if let Some(c) = closest(param, theirs.params.iter().map(|p| p.name.as_str())) {
+                p = p.help(format!("did you mean `{node}.{c}`?"));
+            }
+            return Err(p);
+        };
+        let Some(value) = state.params.get(k) else {
+            return Err(
+                Problem::new(source, span, format!("`{node}` has problems of its own (above)"))
+                    .label("cannot take its value"),
+            );
+        };
+        let kind = |t: &ParamType| match t {
+            ParamType::Number { dimension, .. } => format!("a number ({})", dimension.describe()),
+            ParamType::Vec3 { dimension, .. } => format!("a vector ({})", dimension.describe()),
+            ParamType::Integer { .. } => "a whole number".to_owned(),
+            ParamType::Bool => "`true` or `false`".to_owned(),
+            ParamType::Choice { .. } => "a choice".to_owned(),
+            ParamType::Text => "a text".to_owned(),
+            ParamType::Keys { dimension, .. } => format!("keys ({})", dimension.describe()),
+        };
+        let same = match (&spec.ty, &theirs.params[k].ty) {
+            (ParamType::Number { dimension: a, .. }, ParamType::Number { dimension: b, .. })
+            | (ParamType::Vec3 { dimension: a, .. }, ParamType::Vec3 { dimension: b, .. })
+            | (ParamType::Keys { dimension: a, .. }, ParamType::Keys { dimension: b, .. }) => a == b,
+            (ParamType::Integer { .. }, ParamType::Integer { .. })
+            | (ParamType::Bool, ParamType::Bool)
+            | (ParamType::Text, ParamType::Text)
+            | (ParamType::Choice { .. }, ParamType::Choice { .. }) => true,
+            _ => false,
+        };
+        if !same {
+            return Err(Problem::new(
+                source,
+                span,
+                format!(
+                    "`{node}.{param}` is {}, but `{name}` takes {}",
+                    kind(&theirs.params[k].ty),
+                    kind(&spec.ty)
+                ),
+            )
+            .label("not the same kind"));
+        }
+        let out_of_range = |what: String, range: String| {
+            Problem::new(
+                source,
+                span,
+                format!("`{name}` = `{node}.{param}` = {what} is out of range"),
+            )
+            .label("out of range")
+            .help(format!("valid range: {range}"))
+        };
+        match (&spec.ty, value) {
+            (ParamType::Number { dimension, min, max }, ParamValue::Number(v)) if !(v >= min && v <= max) => Err(
+                out_of_range(si_text(*v, *dimension), range_text(*min, *max, *dimension)),
+            ),
+            (ParamType::Integer { min, max }, ParamValue::Integer(v)) if v < min || v > max => {
+                Err(out_of_range(v.to_string(), format!("{min} to {max}")))
+            }
+            (ParamType::Choice { options }, ParamValue::Choice(w)) if !options.contains(w) => Err(Problem::new(
+                source,
+                span,
+                format!("`{node}.{param}` = `{w}` is not an option of `{name}`"),
+            )
+            .label("unknown option")
+            .help(format!("options: {}", options.join(", ")))),
+            (ParamType::Vec3 { min, max, dimension }, ParamValue::Vec3(v))
+                if v.iter().any(|c| !(c >= min && c <= max)) =>
+            {
+                Err(out_of_range(
+                    format!("({}, {}, {})", v[0], v[1], v[2]),
+                    range_text(*min, *max, *dimension),
+                ))
+            }
+            _ => Ok(value.clone()),
+        }
+    }
+}
+
 /// Checks a parsed graph (with the problems its parse found) and builds a plan.
 pub fn check(
     graph: &GraphFile,
@@ -603,7 +744,17 @@ pub fn check(
                 continue;
             };
             let is_override = w.line.replaces;
-            match convert(&w.source, &w.line.value, &spec.params[k]) {
+            let converted = match &w.line.value.value {
+                Value::Reference { node, param } => {
+                    let earlier = Earlier {
+                        states: &states[..i],
+                        by_name: &by_name,
+                    };
+                    earlier.value(&w.source, w.line.value.span, node, param, &spec.params[k])
+                }
+                _ => convert(&w.source, &w.line.value, &spec.params[k]),
+            };
+            match converted {
                 Ok(ParamValue::Keys(mut new)) => {
                     // Key lines append. The first overriding key line (a recipe's override, a
                     // `--set`) starts a new list, and later overriding lines append to it.
@@ -1131,6 +1282,25 @@ pub fn check(
     }
 
     // Bakes and plots.
+    let param_of = |node: &str, param: &str| -> Result<(f64, Dimension), String> {
+        let i = *by_name
+            .get(node)
+            .ok_or_else(|| format!("no node named `{node}` in the graph"))?;
+        let ty = states[i]
+            .ty
+            .as_ref()
+            .ok_or_else(|| format!("`{node}` has problems of its own"))?;
+        let k = ty
+            .spec()
+            .params
+            .iter()
+            .position(|p| p.name == param)
+            .ok_or_else(|| format!("`{}` has no parameter `{param}`", ty.full_name))?;
+        match (&ty.spec().params[k].ty, states[i].params.get(k)) {
+            (ParamType::Number { dimension, .. }, Some(ParamValue::Number(v))) => Ok((*v, *dimension)),
+            _ => Err(format!("`{node}.{param}` is not a number")),
+        }
+    };
     let resolve = |r: &PortRef| -> Result<(usize, usize, Shape, Dimension), Problem> {
         let i = node_index(r)?;
         let ty = states[i]
@@ -1279,7 +1449,7 @@ pub fn check(
                 }
                 Err(mut p) => problems.append(&mut p),
             },
-            BlockKind::Plot => match blocks::plan_plot(block_src(block), block, &resolve) {
+            BlockKind::Plot => match blocks::plan_plot(block_src(block), block, &resolve, &param_of) {
                 Ok(mut p) => {
                     for item in &mut p.items {
                         if item.shape.kind == PortKind::Points {

@@ -67,6 +67,14 @@ pub enum Value {
     },
     /// A bare word: `true`, `ring`.
     Word(String),
+    /// Another node's parameter, `node.param` (the node declared earlier): the same value,
+    /// given once. An included recipe's node is `include_name.node`.
+    Reference {
+        /// The node.
+        node: String,
+        /// Its parameter.
+        param: String,
+    },
     /// A quoted text: `"plates/trial 3.csv"` (no escapes; a text cannot hold `"`).
     Text(String),
     /// A keyframe `0.4 s: (0, 0, 1.02) m`.
@@ -496,9 +504,24 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
                 problem(
                     source,
                     Span::new(start, start + 1),
-                    "expected a number, a vector `(x, y, z)` or a word",
+                    "expected a number, a vector `(x, y, z)`, a word or `node.param`",
                 )
             })?;
+            // `node.param`, `recipe.node.param`: another node's parameter.
+            let mut path = vec![w.value.clone()];
+            while line.peek() == Some('.') {
+                line.pos += 1;
+                let Some(next) = line.ident() else {
+                    let at = line.at();
+                    return Err(problem(
+                        source,
+                        Span::new(at.saturating_sub(1), at),
+                        "expected a parameter name after `.`",
+                    )
+                    .label("`node.param` names another node's parameter"));
+                };
+                path.push(next.value);
+            }
             if !line.done() {
                 let at = line.at();
                 return Err(problem(
@@ -507,7 +530,13 @@ pub fn parse_value(source: &Arc<Source>, text: &str, base: usize) -> Result<Span
                     "unexpected text after the value",
                 ));
             }
-            Value::Word(w.value)
+            match path.split_last() {
+                Some((param, node)) if !node.is_empty() => Value::Reference {
+                    node: node.join("."),
+                    param: param.clone(),
+                },
+                _ => Value::Word(w.value),
+            }
         }
     };
     let end = base + text.trim_end().len();
@@ -1141,5 +1170,30 @@ mod tests {
         let (_, p) = parse(&src);
         let at: Vec<String> = p.iter().map(|p| p.location()).collect();
         assert_eq!(at, vec!["t.graph:4:1", "t.graph:6:14", "t.graph:7:8"], "{p:?}");
+    }
+
+    #[test]
+    fn a_dotted_word_is_another_node_s_parameter() {
+        let src = Source::new("t.graph", String::new());
+        let v = parse_value(&src, "odile.body_mass", 0).expect("parses");
+        assert_eq!(
+            v.value,
+            Value::Reference {
+                node: "odile".into(),
+                param: "body_mass".into()
+            }
+        );
+        let v = parse_value(&src, "pim_braid.segments", 0).expect("parses");
+        assert!(
+            matches!(v.value, Value::Reference { ref node, ref param } if node == "pim_braid" && param == "segments")
+        );
+        let v = parse_value(&src, "a.b.c", 0).expect("parses");
+        assert!(matches!(v.value, Value::Reference { ref node, ref param } if node == "a.b" && param == "c"));
+        assert!(matches!(
+            parse_value(&src, "ring", 0).expect("parses").value,
+            Value::Word(_)
+        ));
+        let e = parse_value(&src, "odile.", 0).expect_err("refused");
+        assert_eq!(e.message, "expected a parameter name after `.`");
     }
 }

@@ -38,7 +38,7 @@ fn span_value(v: &mut Value, k: u16) {
             fix(unit);
             units.iter_mut().for_each(fix);
         }
-        Value::Word(_) | Value::Text(_) => {}
+        Value::Word(_) | Value::Text(_) | Value::Reference { .. } => {}
     }
 }
 
@@ -95,6 +95,17 @@ fn remap(g: &mut GraphFile, k: u16) {
 fn rename(g: &mut GraphFile, prefix: &str) {
     let p = |s: &mut String| *s = format!("{prefix}{s}");
     g.nodes.iter_mut().for_each(|n| p(&mut n.name.value));
+    // `node.param` values name the recipe's own nodes.
+    let lines = g
+        .nodes
+        .iter_mut()
+        .flat_map(|n| n.params.iter_mut())
+        .chain(g.blocks.iter_mut().flat_map(|b| b.options.iter_mut()));
+    for l in lines {
+        if let Value::Reference { node, .. } = &mut l.value.value {
+            p(node);
+        }
+    }
     for w in &mut g.wires {
         p(&mut w.from.node.value);
         p(&mut w.to.node.value);
