@@ -155,6 +155,13 @@ fn inputs_that_cannot_be_audited_exit_with_1_and_say_why() {
     // A usage error is clap's 2.
     let o = audit(&["graphs/jump.graph", "--fail-on", "sometimes"]);
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    let o = audit(&["graphs/jump.graph", "--plot", "no/such/folder/w.svg"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        text(&o).contains("the folder no/such/folder does not exist"),
+        "{}",
+        text(&o)
+    );
     let o = audit(&["graphs/jump.graph", "--frames", "80..90"]);
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o).contains("not inside the graph's frames 0..84"), "{}", text(&o));

@@ -144,6 +144,19 @@ pub(crate) fn run(registry: &Registry, args: &AuditArgs, color: bool, quiet: boo
         eprintln!("error: --mass {m}: a body mass in kg above 0 and at most 1000");
         return ExitCode::from(FAILED);
     }
+    // Where the report goes is checked before the motion is read (a graph's evaluation).
+    for path in args.json.iter().chain(&args.plot) {
+        if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty())
+            && !dir.is_dir()
+        {
+            eprintln!(
+                "error: cannot write {}: the folder {} does not exist",
+                path.display(),
+                dir.display()
+            );
+            return ExitCode::from(FAILED);
+        }
+    }
     let gltf = matches!(
         args.input
             .extension()
@@ -232,7 +245,19 @@ fn plot(path: &Path, m: &Motion, report: &Report, source: &Source) -> Result<(),
         })
         .collect();
     let title = format!("audit of {} (time from frame {})", source.input, m.start_frame);
-    heft_formats::plots::draw_audit(path, &title, &times, &weight, &m.contact, &marked)
+    // Drawn beside the target (the same extension, which picks SVG or PNG) and renamed over it:
+    // a reader never sees half a picture.
+    let ext = path
+        .extension()
+        .map(|e| e.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let partial = path.with_extension(format!("partial.{ext}"));
+    let drawn = heft_formats::plots::draw_audit(&partial, &title, &times, &weight, &m.contact, &marked)
+        .and_then(|()| std::fs::rename(&partial, path).map_err(|e| e.to_string()));
+    if drawn.is_err() {
+        let _ = std::fs::remove_file(&partial);
+    }
+    drawn
 }
 
 /// The report as an animator reads it: one finding a line, then a summary.
