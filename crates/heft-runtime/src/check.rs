@@ -745,6 +745,10 @@ pub fn check(
             };
             let is_override = w.line.replaces;
             let converted = match &w.line.value.value {
+                // A text parameter (a file name) takes `name.ext` as the text it reads as.
+                Value::Reference { node, param } if spec.params[k].ty == ParamType::Text => {
+                    Ok(ParamValue::Text(format!("{node}.{param}")))
+                }
                 Value::Reference { node, param } => {
                     let earlier = Earlier {
                         states: &states[..i],
