@@ -37,9 +37,11 @@ const fn segment(
 
 /// Dempster's segment parameters as tabulated in Winter, Biomechanics and Motor Control of
 /// Human Movement (4th ed., Wiley, 2009), Table 4.1: one row per segment of one side (arms and
-/// legs appear twice in a body). The numbers were written from memory of that widely
-/// reproduced table and are checked here only by their sum (head and neck + trunk + two arms
-/// + two legs = 1.000) and by the arm rows adding up to the table's "total arm" row.
+/// legs appear twice in a body). First written from memory of that widely reproduced table;
+/// every row here (mass fraction and centre of mass from the proximal end) agrees with the
+/// table as transcribed in Duarte's BMC notebooks (github.com/BMClab/BMC,
+/// data/BSP_DempsterWinter.txt), checked by hand. The tests check their sum (head and neck +
+/// trunk + two arms + two legs = 1.000) and the arm rows against the "total arm" row.
 pub const DEMPSTER: [Segment; 8] = [
     segment("hand", 0.006, 0.506, "wrist axis", "knuckle II middle finger"),
     segment("forearm", 0.016, 0.430, "elbow axis", "ulnar styloid"),
@@ -53,7 +55,7 @@ pub const DEMPSTER: [Segment; 8] = [
 
 /// Winter (2009) Table 4.1, "total arm" row (upper arm + forearm + hand of one side): mass
 /// fraction 0.050, centre of mass at 0.530 of the shoulder-to-wrist length from the
-/// shoulder. From memory, as [`DEMPSTER`].
+/// shoulder. Checked against the same transcription as [`DEMPSTER`].
 pub const TOTAL_ARM: Segment = segment("total arm", 0.050, 0.530, "glenohumeral joint", "ulnar styloid");
 
 /// A row of [`DEMPSTER`] by name.
