@@ -362,15 +362,7 @@ fn is_upper_arm(name: &str) -> bool {
     ["upperarm", "uparm"].iter().any(|p| joined.contains(p)) || w.iter().any(|x| x == "arm")
 }
 
-type V3 = [f64; 3];
-
-fn lerp(a: V3, b: V3, u: f64) -> V3 {
-    [
-        a[0] + u * (b[0] - a[0]),
-        a[1] + u * (b[1] - a[1]),
-        a[2] + u * (b[2] - a[2]),
-    ]
-}
+use heft_node_sdk::math::vec3::{V3, lerp};
 
 /// The whole-body centre of mass of one frame: `at(joint)` is a joint's world position (m).
 /// Fails with the roles missing when the mapping lacks one the model needs.

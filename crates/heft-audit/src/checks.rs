@@ -3,10 +3,10 @@
 
 use serde::Serialize;
 
-/// Standard gravity, m/s^2 (CGPM 1901; ISO 80000-3).
-pub const G: f64 = 9.80665;
+use heft_node_sdk::math::vec3::{V3, add, dot, scale, sub};
 
-type V3 = [f64; 3];
+/// Standard gravity, m/s^2 (CGPM 1901; ISO 80000-3): the SDK's.
+pub const G: f64 = heft_node_sdk::STANDARD_GRAVITY;
 
 /// A motion to audit: the whole-body centre of mass and the feet's contact, frame by frame.
 #[derive(Debug, Clone, PartialEq)]
@@ -645,32 +645,22 @@ fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<f64> {
         } else {
             (c.anchor[i], &p[..])
         };
-        let k = rest.len().max(1) as f64;
-        let s = rest
-            .iter()
-            .fold([0.0; 3], |s, q| [s[0] + q[0], s[1] + q[1], s[2] + q[2]]);
-        [s[0] / k - pivot[0], s[1] / k - pivot[1], s[2] / k - pivot[2]]
+        let sum = rest.iter().fold([0.0; 3], |s, q| add(s, *q));
+        sub(scale(sum, 1.0 / rest.len().max(1) as f64), pivot)
     };
     let (mut num, mut den, mut count) = (0.0, 0.0, 0usize);
     for i in a.max(1)..=b.min(n.saturating_sub(2)) {
         let (r0, r1, r2) = (centre(i - 1), centre(i), centre(i + 1));
-        let len = (r1[0] * r1[0] + r1[1] * r1[1] + r1[2] * r1[2]).sqrt();
+        let len = dot(r1, r1).sqrt();
         if len < 1e-6 {
             continue;
         }
-        let u = [r1[0] / len, r1[1] / len, r1[2] / len];
-        let across = |v: V3| {
-            let d = v[0] * u[0] + v[1] * u[1] + v[2] * u[2];
-            [v[0] - d * u[0], v[1] - d * u[1], v[2] - d * u[2]]
-        };
-        let acc = across([
-            (r2[0] - 2.0 * r1[0] + r0[0]) / (dt * dt),
-            (r2[1] - 2.0 * r1[1] + r0[1]) / (dt * dt),
-            (r2[2] - 2.0 * r1[2] + r0[2]) / (dt * dt),
-        ]);
+        let u = scale(r1, 1.0 / len);
+        let across = |v: V3| sub(v, scale(u, dot(v, u)));
+        let acc = across(scale(add(sub(r2, scale(r1, 2.0)), r0), 1.0 / (dt * dt)));
         let g = across([0.0, 0.0, -G]);
-        num += acc[0] * g[0] + acc[1] * g[1] + acc[2] * g[2];
-        den += g[0] * g[0] + g[1] * g[1] + g[2] * g[2];
+        num += dot(acc, g);
+        den += dot(g, g);
         count += 1;
     }
     if count < 3 || den / (count as f64) < (0.2 * G).powi(2) {

@@ -6,7 +6,7 @@
 use crate::body::{BodyModel, Mapping, Role, Side, arms_centre, centre_of_mass};
 use crate::checks::{Chain, Motion};
 
-type V3 = [f64; 3];
+use heft_node_sdk::math::vec3::V3;
 
 /// An animated skeleton: its joints (names and parents, each joint after its parent) and their
 /// world positions at each frame (m, Z up).
@@ -79,13 +79,7 @@ impl Skeleton {
         let com = (0..frames)
             .map(|f| centre_of_mass(reading.model, &mapping, |j| at(j, f)))
             .collect::<Result<Vec<V3>, Vec<Role>>>()?;
-        let arms = (0..frames)
-            .map(|f| arms_centre(reading.model, &mapping, |j| at(j, f)))
-            .collect::<Option<Vec<_>>>()
-            .and_then(|v| {
-                let fraction = v.first().map(|(_, m)| *m)?;
-                Some((v.into_iter().map(|(p, _)| p).collect::<Vec<_>>(), fraction))
-            });
+        let arms = arms_track(reading.model, &mapping, frames, at);
         let track = |j: usize| (0..frames).map(|f| at(j, f)).collect::<Vec<V3>>();
         let soles: Vec<(String, Vec<V3>)> = [Side::Left, Side::Right]
             .into_iter()
@@ -94,13 +88,7 @@ impl Skeleton {
             .map(|j| (self.names[j].clone(), track(j)))
             .collect();
         let contact = feet_contact(&soles, frames, reading.clearance);
-        let feet = [Side::Left, Side::Right]
-            .into_iter()
-            .filter_map(|s| {
-                let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
-                Some((self.names[j].clone(), track(j)))
-            })
-            .collect();
+        let feet = feet_tracks(&mapping, frames, at, |j| self.names[j].clone());
         let motion = Motion {
             start_frame: reading.start_frame,
             rate: reading.rate,
@@ -168,6 +156,38 @@ impl Skeleton {
         }
         out
     }
+}
+
+/// The arms' centre of mass at each of `frames` frames (`at(joint, frame)` a joint's position)
+/// and their mass as a fraction of the body's; `None` when a joint the arms need is missing.
+pub fn arms_track(
+    model: BodyModel,
+    mapping: &Mapping,
+    frames: usize,
+    at: impl Fn(usize, usize) -> V3,
+) -> Option<(Vec<V3>, f64)> {
+    let each = (0..frames)
+        .map(|f| arms_centre(model, mapping, |j| at(j, f)))
+        .collect::<Option<Vec<_>>>()?;
+    let fraction = each.first().map(|(_, m)| *m)?;
+    Some((each.into_iter().map(|(p, _)| p).collect(), fraction))
+}
+
+/// Each side's foot, the toe where the rig has one, else the ankle: its name (`name(joint)`)
+/// and its position at each of `frames` frames.
+pub fn feet_tracks(
+    mapping: &Mapping,
+    frames: usize,
+    at: impl Fn(usize, usize) -> V3,
+    name: impl Fn(usize) -> String,
+) -> Vec<(String, Vec<V3>)> {
+    [Side::Left, Side::Right]
+        .into_iter()
+        .filter_map(|s| {
+            let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
+            Some((name(j), (0..frames).map(|f| at(j, f)).collect()))
+        })
+        .collect()
 }
 
 /// On the ground: the lowest foot within `clearance` of the lowest any foot gets over the

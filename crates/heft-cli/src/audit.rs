@@ -4,8 +4,8 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use clap::Args;
-use heft_audit::body::{BodyModel, Mapping, Role, Side, arms_centre, centre_of_mass};
-use heft_audit::skeleton::{Reading, Skeleton, feet_contact, parse_overrides};
+use heft_audit::body::{BodyModel, Mapping, centre_of_mass};
+use heft_audit::skeleton::{Reading, Skeleton, arms_track, feet_contact, feet_tracks, parse_overrides};
 use heft_audit::{Chain, Limits, Motion, Report, Severity, audit};
 use heft_formats::character::{self, Axes, Outside, Request};
 use heft_node_sdk::ParamValue;
@@ -386,29 +386,23 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         }
         foot_ports.push((n, k));
     }
-    let from_feet = args.contact.is_none() && !foot_ports.is_empty();
-    let contact_default = if from_feet {
-        // Not used: the contact comes from the feet.
-        Some((cn, cp))
-    } else if args.contact.is_none() {
-        // The contact flag of the centre of mass's own node first.
-        plan.nodes[cn]
-            .ty
-            .spec()
-            .outputs
-            .iter()
-            .position(|o| o.name == "contact")
-            .map(|k| (cn, k))
-    } else {
-        None
+    // The contact flag: none when the feet give the contact; else `--contact`, the centre of
+    // mass's own node's `contact`, or the graph's only output named so.
+    let own_contact = || {
+        let outputs = &plan.nodes[cn].ty.spec().outputs;
+        outputs.iter().position(|o| o.name == "contact").map(|k| (cn, k))
     };
-    let (fn_, fp) = match contact_default {
-        Some(x) => x,
-        None => find_port(&plan, args.contact.as_deref(), "contact", "contact")?,
+    let flag = match (&args.contact, foot_ports.is_empty()) {
+        (None, false) => None,
+        (None, true) => match own_contact() {
+            Some(x) => Some(x),
+            None => Some(find_port(&plan, None, "contact", "contact")?),
+        },
+        (Some(named), _) => Some(find_port(&plan, Some(named), "contact", "contact")?),
     };
     let node = &plan.nodes[cn];
     let spec = node.ty.spec();
-    let (com_spec, flag_spec) = (&spec.outputs[cp], &plan.nodes[fn_].ty.spec().outputs[fp]);
+    let com_spec = &spec.outputs[cp];
     if com_spec.kind != heft_node_sdk::PortKind::Vec3 || com_spec.dimension != heft_node_sdk::Dimension::Length {
         return Err(format!(
             "`{}.{}` is {} in {}: the centre of mass is a vec3 in m",
@@ -418,13 +412,16 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
             com_spec.dimension.si_symbol()
         ));
     }
-    if !from_feet && flag_spec.kind != heft_node_sdk::PortKind::Flag {
-        return Err(format!(
-            "`{}.{}` is {}: the contact is a flag",
-            plan.nodes[fn_].name,
-            flag_spec.name,
-            flag_spec.kind.name()
-        ));
+    if let Some((n, k)) = flag {
+        let o = &plan.nodes[n].ty.spec().outputs[k];
+        if o.kind != heft_node_sdk::PortKind::Flag {
+            return Err(format!(
+                "`{}.{}` is {}: the contact is a flag",
+                plan.nodes[n].name,
+                o.name,
+                o.kind.name()
+            ));
+        }
     }
     let mass = match args.mass {
         Some(m) => m,
@@ -461,29 +458,16 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         let v = &evaluation.values[cn][transforms[j].1];
         [v[7 * f], v[7 * f + 1], v[7 * f + 2]]
     };
-    let arms = (0..frames)
-        .map(|f| arms_centre(model, &mapping, |j| joint(j, f)))
-        .collect::<Option<Vec<_>>>()
-        .and_then(|v| {
-            let fraction = v.first().map(|(_, m)| *m)?;
-            Some((v.into_iter().map(|(p, _)| p).collect::<Vec<_>>(), fraction))
-        });
+    let arms = arms_track(model, &mapping, frames, joint);
     let com: Vec<[f64; 3]> = evaluation.values[cn][cp]
         .chunks_exact(3)
         .map(|c| [c[0], c[1], c[2]])
         .collect();
     let chains = graph_chains(&plan, &evaluation.values);
     let feet: Vec<(String, Vec<[f64; 3]>)> = if foot_ports.is_empty() {
-        [Side::Left, Side::Right]
-            .into_iter()
-            .filter_map(|s| {
-                let j = mapping.joint(Role::Toe(s)).or_else(|| mapping.joint(Role::Ankle(s)))?;
-                Some((
-                    format!("{}.{}", node.name, transforms[j].0),
-                    (0..frames).map(|f| joint(j, f)).collect(),
-                ))
-            })
-            .collect()
+        feet_tracks(&mapping, frames, joint, |j| {
+            format!("{}.{}", node.name, transforms[j].0)
+        })
     } else {
         foot_ports
             .iter()
@@ -498,10 +482,9 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
             })
             .collect()
     };
-    let contact: Vec<bool> = if from_feet {
-        feet_contact(&feet, frames, args.ground_clearance)
-    } else {
-        evaluation.values[fn_][fp].iter().map(|v| *v > 0.5).collect()
+    let contact: Vec<bool> = match flag {
+        Some((n, k)) => evaluation.values[n][k].iter().map(|v| *v > 0.5).collect(),
+        None => feet_contact(&feet, frames, args.ground_clearance),
     };
     let tl = plan.timeline;
     let (first, count) = match args.frames {
@@ -542,10 +525,9 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         body_model: arms.is_some().then_some(model.word()),
         skeleton_com_difference,
         com: format!("{}.{}", node.name, com_spec.name),
-        contact: if from_feet {
-            format!("feet within {} m of their lowest", args.ground_clearance)
-        } else {
-            format!("{}.{}", plan.nodes[fn_].name, flag_spec.name)
+        contact: match flag {
+            Some((n, k)) => format!("{}.{}", plan.nodes[n].name, plan.nodes[n].ty.spec().outputs[k].name),
+            None => format!("feet within {} m of their lowest", args.ground_clearance),
         },
         ..Source::default()
     };

@@ -1,11 +1,10 @@
 //! Property 4: convergence at the declared order as the substep shrinks.
 
 use crate::cases::{
-    ANCHOR, Material, StateSpec, V3, Verdict, add, beyond, clamp_number, int_range, norm, num_range, place,
-    run_property, sub,
+    ANCHOR, Material, StateSpec, Verdict, add, beyond, clamp_number, int_range, num_range, place, run_property,
 };
 use crate::momentum::free_origin;
-use crate::subject::{Run, RunError, Setup, Subject};
+use crate::subject::{RunError, Setup, Subject};
 use crate::{Failure, Property, Tolerances};
 use proptest::prelude::*;
 
@@ -43,26 +42,16 @@ pub fn measure_order(
     let reference_run = subject.run(&setup.clone().integer("substeps", reference))?;
     let coarse = subject.run(&setup.clone().integer("substeps", substeps))?;
     let fine = subject.run(&setup.clone().integer("substeps", 2 * substeps))?;
-    let errors = [rms_error(&coarse, &reference_run), rms_error(&fine, &reference_run)];
+    let errors = [
+        coarse.rms_distance(&reference_run, "positions"),
+        fine.rms_distance(&reference_run, "positions"),
+    ];
     Ok(OrderMeasurement {
         substeps,
         reference_substeps: reference,
         errors,
         order: (errors[0] / errors[1]).log2(),
     })
-}
-
-fn rms_error(run: &Run, reference: &Run) -> f64 {
-    let mut sum = 0.0;
-    let mut count = 0usize;
-    for f in 1..run.frames() {
-        for i in 0..run.points.min(reference.points) {
-            let d: V3 = sub(run.position(f, i), reference.position(f, i));
-            sum += norm(d).powi(2);
-            count += 1;
-        }
-    }
-    (sum / count.max(1) as f64).sqrt()
 }
 
 /// One convergence case.

@@ -1029,7 +1029,7 @@ pub fn check_order(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -> 
                     .map_err(|e| (Verdict::from_run(&e, "the node's defaults"), text.clone()))
             };
             let (r, c, f) = (run(reference)?, run(coarse)?, run(2 * coarse)?);
-            let errors = [rms(&c, &r, &d.positions), rms(&f, &r, &d.positions)];
+            let errors = [c.rms_distance(&r, &d.positions), f.rms_distance(&r, &d.positions)];
             if errors[0] < 1.0e-12 && errors[1] < 1.0e-12 {
                 return Ok(());
             }
@@ -1052,21 +1052,6 @@ pub fn check_order(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -> 
             Ok(())
         },
     )
-}
-
-fn rms(run: &Run, reference: &Run, name: &str) -> f64 {
-    let n = run.vectors(name).min(reference.vectors(name));
-    let mut sum = 0.0;
-    let mut count = 0usize;
-    for f in 1..run.frames() {
-        for i in 0..n {
-            let a = run.vector(name, f, i).unwrap_or([f64::NAN; 3]);
-            let b = reference.vector(name, f, i).unwrap_or([f64::NAN; 3]);
-            sum += norm(sub(a, b)).powi(2);
-            count += 1;
-        }
-    }
-    (sum / count.max(1) as f64).sqrt()
 }
 
 fn contract(subject: &Subject, d: &Dynamics) -> Result<(), Failure> {

@@ -619,6 +619,23 @@ impl Run {
         (3 * i + 3 <= w && at + 3 <= v.len()).then(|| [v[at], v[at + 1], v[at + 2]])
     }
 
+    /// The root-mean-square distance between this run's and `other`'s 3-vectors of an output,
+    /// over every vector and every frame after the first (the initial state), m for positions.
+    pub fn rms_distance(&self, other: &Run, name: &str) -> f64 {
+        let n = self.vectors(name).min(other.vectors(name));
+        let mut sum = 0.0;
+        let mut count = 0usize;
+        for f in 1..self.frames().min(other.frames()) {
+            for i in 0..n {
+                let a = self.vector(name, f, i).unwrap_or([f64::NAN; 3]);
+                let b = other.vector(name, f, i).unwrap_or([f64::NAN; 3]);
+                sum += (0..3).map(|k| (a[k] - b[k]).powi(2)).sum::<f64>();
+                count += 1;
+            }
+        }
+        (sum / count.max(1) as f64).sqrt()
+    }
+
     /// A scalar output at frame `f`, if there is one.
     pub fn scalar(&self, name: &str, f: usize) -> Option<f64> {
         let (v, w) = self.output(name)?;

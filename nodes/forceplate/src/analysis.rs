@@ -170,6 +170,18 @@ impl Clock {
     }
 }
 
+/// The mean of some samples and their sample standard deviation (n - 1; 0 for one sample).
+fn mean_sd(x: &[f64]) -> (f64, f64) {
+    let n = x.len();
+    let mean = x.iter().sum::<f64>() / n.max(1) as f64;
+    let sd = if n > 1 {
+        (x.iter().map(|f| (f - mean) * (f - mean)).sum::<f64>() / (n - 1) as f64).sqrt()
+    } else {
+        0.0
+    };
+    (mean, sd)
+}
+
 /// Analyses a vertical force record `force` (N) sampled at `rate_hz` (the record must start
 /// with quiet standing, then hold one jump: take-off, flight and touch-down).
 ///
@@ -219,12 +231,7 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
     // by onset_backtrack, however short the quiet stretch before it is.
     let n_ref = ((REFERENCE_DURATION * rate_hz).round() as usize).max(5).min(n_stand);
     let reference = &force[..n_ref];
-    let ref_mean = reference.iter().sum::<f64>() / n_ref as f64;
-    let ref_sd = if n_ref > 1 {
-        (reference.iter().map(|f| (f - ref_mean) * (f - ref_mean)).sum::<f64>() / (n_ref - 1) as f64).sqrt()
-    } else {
-        0.0
-    };
+    let (ref_mean, ref_sd) = mean_sd(reference);
     let ref_limit = (settings.onset_deviations * ref_sd).max(ONSET_FLOOR_FRACTION * ref_mean.abs());
     let back = (settings.onset_backtrack * rate_hz).round() as usize;
     // A movement, not a sway: the force goes beyond MOVEMENT_FRACTION of body weight; its start
@@ -265,8 +272,7 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
         ));
     }
     let window = &force[..n_stand];
-    let bw = window.iter().sum::<f64>() / n_stand as f64;
-    let sd = (window.iter().map(|f| (f - bw) * (f - bw)).sum::<f64>() / (n_stand - 1) as f64).sqrt();
+    let (bw, sd) = mean_sd(window);
     let (w0, w1) = (clock.frame(0), clock.frame(n_stand - 1));
     if bw <= settings.flight_threshold {
         return Err(format!(
