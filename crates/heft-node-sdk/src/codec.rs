@@ -86,6 +86,37 @@ mod tests {
         assert!(old.nodes[0].outputs[0].codes.is_empty());
     }
 
+    /// A default scaled by another parameter crosses after the code names and comes back on
+    /// its parameter; the bytes of a plugin built with code names but before scaled defaults
+    /// (the descriptor, then the code names alone, written here by a mirror of that layout)
+    /// still read, with no scaled default.
+    #[test]
+    fn scaled_defaults_cross_after_the_code_names() {
+        use crate::descriptor::{decode_descriptor, encode_descriptor};
+        let mut d = sample();
+        d.nodes[0].params[0] = d.nodes[0].params[0].clone().scaled_by("height", 0.17);
+        let back = decode_descriptor(&encode_descriptor(&d).expect("encodes")).expect("decodes");
+        assert_eq!(
+            back.nodes[0].params[0].scaled_default,
+            Some(("height".to_owned(), 0.17))
+        );
+        assert_eq!(back, d);
+        #[derive(serde::Serialize)]
+        struct CodesOnly {
+            output_codes: Vec<(u32, u32, Vec<String>)>,
+        }
+        let mut bytes = encode(&sample()).expect("encodes");
+        bytes.extend(
+            encode(&CodesOnly {
+                output_codes: vec![(0, 0, vec!["still".into()])],
+            })
+            .expect("encodes"),
+        );
+        let old = decode_descriptor(&bytes).expect("decodes");
+        assert_eq!(old.nodes[0].outputs[0].codes, ["still"]);
+        assert!(old.nodes[0].params.iter().all(|p| p.scaled_default.is_none()));
+    }
+
     #[test]
     fn trailing_or_truncated_bytes_are_errors_not_panics() {
         let mut bytes = encode(&sample()).expect("encodes");

@@ -226,6 +226,13 @@ pub struct ParamSpec {
     pub default: Option<ParamValue>,
     /// One line of documentation.
     pub doc: String,
+    /// A number whose default scales with another number parameter of the same node:
+    /// `Some((other, factor))` makes the default `factor` times the value `other` has (given
+    /// or defaulted), so a body's lengths follow its height unless the graph sets them. The
+    /// `default` stays the value at `other`'s own default. Like [`PortSpec::codes`], it
+    /// crosses the boundary after the descriptor, so older plugins still load.
+    #[serde(skip)]
+    pub scaled_default: Option<(String, f64)>,
 }
 
 impl ParamSpec {
@@ -240,6 +247,7 @@ impl ParamSpec {
             },
             default: Some(ParamValue::Number(default)),
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// A whole-number parameter with a default.
@@ -252,6 +260,7 @@ impl ParamSpec {
             },
             default: Some(ParamValue::Integer(default)),
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// An on/off parameter with a default.
@@ -261,6 +270,7 @@ impl ParamSpec {
             ty: ParamType::Bool,
             default: Some(ParamValue::Bool(default)),
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// A choice among words, defaulting to the first.
@@ -272,6 +282,7 @@ impl ParamSpec {
             },
             default: options.first().map(|s| ParamValue::Choice((*s).to_owned())),
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// A vector parameter with a default.
@@ -285,6 +296,7 @@ impl ParamSpec {
             },
             default: Some(ParamValue::Vec3(default)),
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// A required keyframe list.
@@ -294,6 +306,7 @@ impl ParamSpec {
             ty: ParamType::Keys { dimension, min_keys },
             default: None,
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// A text parameter, required unless `default` is given.
@@ -303,11 +316,19 @@ impl ParamSpec {
             ty: ParamType::Text,
             default: default.map(|d| ParamValue::Text(d.to_owned())),
             doc: doc.to_owned(),
+            scaled_default: None,
         }
     }
     /// Makes the parameter required (no default).
     pub fn required(mut self) -> ParamSpec {
         self.default = None;
+        self
+    }
+    /// Makes a number's default `factor` times the value of the node's number parameter
+    /// `other` (given or defaulted); the spec's own default should be `factor` times
+    /// `other`'s default, which is what a caller without the graph sees.
+    pub fn scaled_by(mut self, other: &str, factor: f64) -> ParamSpec {
+        self.scaled_default = Some((other.to_owned(), factor));
         self
     }
 }
@@ -373,18 +394,36 @@ struct Additions {
     output_codes: Vec<(u32, u32, Vec<String>)>,
 }
 
+/// The second addition, after [`Additions`] (a plugin built with only the first sends only
+/// the first).
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+struct ParamAdditions {
+    /// (node index, parameter index, other parameter, factor) of every parameter whose
+    /// default scales with another.
+    scaled_defaults: Vec<(u32, u32, String, f64)>,
+}
+
 /// The bytes of a descriptor at the boundary: the descriptor, then its additions.
 pub fn encode_descriptor(d: &PluginDescriptor) -> Result<Vec<u8>, String> {
     let mut bytes = crate::codec::encode(d)?;
     let mut add = Additions::default();
+    let mut params = ParamAdditions::default();
     for (i, n) in d.nodes.iter().enumerate() {
         for (k, p) in n.outputs.iter().enumerate() {
             if !p.codes.is_empty() {
                 add.output_codes.push((i as u32, k as u32, p.codes.clone()));
             }
         }
+        for (k, p) in n.params.iter().enumerate() {
+            if let Some((other, factor)) = &p.scaled_default {
+                params
+                    .scaled_defaults
+                    .push((i as u32, k as u32, other.clone(), *factor));
+            }
+        }
     }
     bytes.extend(crate::codec::encode(&add)?);
+    bytes.extend(crate::codec::encode(&params)?);
     Ok(bytes)
 }
 
@@ -395,7 +434,12 @@ pub fn decode_descriptor(bytes: &[u8]) -> Result<PluginDescriptor, String> {
     if used == bytes.len() {
         return Ok(d);
     }
-    let add: Additions = crate::codec::decode(&bytes[used..])?;
+    let (add, more): (Additions, usize) = crate::codec::decode_prefix(&bytes[used..])?;
+    let params: ParamAdditions = if used + more == bytes.len() {
+        ParamAdditions::default()
+    } else {
+        crate::codec::decode(&bytes[used + more..])?
+    };
     for (i, k, names) in add.output_codes {
         let port = d
             .nodes
@@ -403,6 +447,16 @@ pub fn decode_descriptor(bytes: &[u8]) -> Result<PluginDescriptor, String> {
             .and_then(|n| n.outputs.get_mut(k as usize))
             .ok_or_else(|| format!("codes for output {k} of node type {i}, which the descriptor does not have"))?;
         port.codes = names;
+    }
+    for (i, k, other, factor) in params.scaled_defaults {
+        let param = d
+            .nodes
+            .get_mut(i as usize)
+            .and_then(|n| n.params.get_mut(k as usize))
+            .ok_or_else(|| {
+                format!("a scaled default for parameter {k} of node type {i}, which the descriptor does not have")
+            })?;
+        param.scaled_default = Some((other, factor));
     }
     Ok(d)
 }

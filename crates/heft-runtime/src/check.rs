@@ -805,6 +805,7 @@ pub fn check(
             }
         }
         let mut complete = Vec::with_capacity(spec.params.len());
+        let given: Vec<bool> = values.iter().map(Option::is_some).collect();
         for (k, p) in spec.params.iter().enumerate() {
             match values[k].take().or_else(|| p.default.clone()) {
                 Some(v) => {
@@ -842,6 +843,40 @@ pub fn check(
                         )),
                     );
                     states[i].ok = false;
+                }
+            }
+        }
+        // Defaults that scale with another parameter (a body's lengths with its height), from
+        // that parameter's value, given or defaulted.
+        if complete.len() == spec.params.len() {
+            for (k, p) in spec.params.iter().enumerate() {
+                let (Some((other, factor)), false) = (&p.scaled_default, given[k]) else {
+                    continue;
+                };
+                let base = spec.params.iter().position(|q| &q.name == other).map(|o| &complete[o]);
+                let (Some(ParamValue::Number(x)), ParamType::Number { dimension, min, max }) = (base, &p.ty) else {
+                    continue;
+                };
+                let value = factor * x;
+                if !(*min..=*max).contains(&value) {
+                    problems.push(
+                        Problem::at(
+                            srcs,
+                            decl.name.span,
+                            format!(
+                                "`{}` defaults to {factor} x `{other}` = {}, outside its range {} to {}",
+                                p.name,
+                                si_text(value, *dimension),
+                                si_text(*min, *dimension),
+                                si_text(*max, *dimension)
+                            ),
+                        )
+                        .label(format!("`{}` of this node", p.name))
+                        .help(format!("set `{}` under the node, or change `{other}`", p.name)),
+                    );
+                    states[i].ok = false;
+                } else {
+                    complete[k] = ParamValue::Number(value);
                 }
             }
         }

@@ -160,10 +160,15 @@ pub fn describe_type(t: &NodeType) -> String {
         let _ = writeln!(out, "  (none)");
     }
     for p in &spec.params {
-        let default = p.default.as_ref().map_or_else(
-            || "required".to_owned(),
-            |v| format!("default {}", value_text(v, &p.ty)),
-        );
+        let default = match (&p.scaled_default, &p.default) {
+            (Some((other, factor)), Some(v)) => {
+                format!("default {factor} x `{other}` ({} at its default)", value_text(v, &p.ty))
+            }
+            _ => p.default.as_ref().map_or_else(
+                || "required".to_owned(),
+                |v| format!("default {}", value_text(v, &p.ty)),
+            ),
+        };
         let _ = writeln!(out, "  {}: {}", p.name, p.doc);
         let _ = writeln!(out, "      {}; {default}", type_text(&p.ty));
     }
