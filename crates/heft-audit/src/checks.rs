@@ -171,6 +171,12 @@ pub struct Limits {
     /// Classical Mechanics, 3rd ed., sec. 4.10, from memory), so k is 0; standing it is 1. The
     /// limit halves the difference; no source for the half.
     pub weightless: f64,
+    /// Passive chains: ... and only when the fit explains at least this share of the swing's
+    /// acceleration across the chain (R^2). A swing gravity drives follows it closely (a
+    /// pendulum under full g: above 0.9, tested); one driven by the body brushing it or by its
+    /// own bending straightening in the air scatters about any fit (heft's skirt strips against
+    /// Odile's thighs: at most 0.19). Of our own, no source.
+    pub weightless_fit: f64,
     /// Feet: a foot within `planted_height` (m) of its lowest point in a contact phase is
     /// planted, and may travel at most `slide` (m) along the ground while planted. Common
     /// practice in animation clean-up (a centimetre or two reads as sliding), no source.
@@ -194,6 +200,7 @@ impl Default for Limits {
             landing_high: 11.0,
             arm_swing: 0.5,
             weightless: 0.5,
+            weightless_fit: 0.3,
             slide: 0.02,
             planted_height: 0.01,
             min_phase: 0.05,
@@ -235,6 +242,9 @@ pub struct Flight {
     /// For each chain, how much gravity its swing in the air follows: k of a_swing = k g_swing
     /// (0 weightless, 1 as on the ground; None when the chain hangs too straight to tell).
     pub chain_gravity: Vec<(String, Option<f64>)>,
+    /// For each chain, the share of its swing's acceleration that the fit of `chain_gravity`
+    /// explains (R^2, 0 to 1).
+    pub chain_fit: Vec<(String, Option<f64>)>,
 }
 
 /// The audit's result.
@@ -376,14 +386,18 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
         let touchdown_speed = -(v0 - G * (t[t.len() - 1] + dt));
         let landing_peak = landing_peak(m, g1, phases[k + 1].2, weight);
         let arm_drive = m.arms.as_ref().map(|(arms, _)| arm_drive(m, arms, a, b));
-        let chain_gravity: Vec<(String, Option<f64>)> = m
+        let swings: Vec<(String, Option<(f64, f64)>)> = m
             .chains
             .iter()
             .map(|c| (c.name.clone(), swing_gravity(m, c, a, b)))
             .collect();
-        for (name, k) in &chain_gravity {
-            if let Some(k) = *k
+        let chain_gravity: Vec<(String, Option<f64>)> =
+            swings.iter().map(|(n, s)| (n.clone(), s.map(|s| s.0))).collect();
+        let chain_fit: Vec<(String, Option<f64>)> = swings.iter().map(|(n, s)| (n.clone(), s.map(|s| s.1))).collect();
+        for (name, swing) in &swings {
+            if let Some((k, fit)) = *swing
                 && k > limits.weightless
+                && fit >= limits.weightless_fit
             {
                 findings.push(Finding {
                     severity: Severity::Warning,
@@ -417,6 +431,7 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
             landing_peak,
             arm_drive,
             chain_gravity,
+            chain_fit,
         };
         let excess = (acceleration + G).abs() / G;
         if excess > limits.flight_acceleration {
@@ -633,7 +648,7 @@ fn arm_drive(m: &Motion, arms: &[V3], a: usize, b: usize) -> f64 {
 /// g_t the part of gravity across r (what swings a pendulum), the least-squares k of
 /// a_t = k g_t over the frames (a_t the part of a across r). `None` when the chain hangs too
 /// straight for gravity to swing it (the mean |g_t| below 0.2 g) or the flight is too short.
-fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<f64> {
+fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> {
     let dt = 1.0 / m.rate;
     let n = c.anchor.len().min(c.points.len()).min(m.com.len());
     // The pivot: the chain's first point when it has more (the root rides on the anchor),
@@ -648,7 +663,7 @@ fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<f64> {
         let sum = rest.iter().fold([0.0; 3], |s, q| add(s, *q));
         sub(scale(sum, 1.0 / rest.len().max(1) as f64), pivot)
     };
-    let (mut num, mut den, mut count) = (0.0, 0.0, 0usize);
+    let (mut num, mut den, mut count, mut total) = (0.0, 0.0, 0usize, 0.0);
     for i in a.max(1)..=b.min(n.saturating_sub(2)) {
         let (r0, r1, r2) = (centre(i - 1), centre(i), centre(i + 1));
         let len = dot(r1, r1).sqrt();
@@ -661,12 +676,16 @@ fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<f64> {
         let g = across([0.0, 0.0, -G]);
         num += dot(acc, g);
         den += dot(g, g);
+        total += dot(acc, acc);
         count += 1;
     }
     if count < 3 || den / (count as f64) < (0.2 * G).powi(2) {
         return None;
     }
-    Some(num / den)
+    // The share of the swing's across-acceleration that the fit explains (R^2 of a fit
+    // through the origin), 0 for a chain at rest.
+    let fit = if total > 0.0 { num * num / (den * total) } else { 0.0 };
+    Some((num / den, fit))
 }
 
 /// The largest ground force m (g + a_z) over a landing's contact frames (central second

@@ -235,6 +235,8 @@ mod tests {
         // For the exact pendulum theta'' = -(g / l) sin theta the fit would be 1; the
         // small-angle law differs by sin(theta) / theta, 0.92 at 0.7 rad.
         assert!((k_swing - 1.0).abs() < 0.1, "{k_swing}");
+        let fit = r.flights[0].chain_fit[0].1.expect("measurable");
+        assert!(fit > 0.9, "{fit}");
         let k_drift = ks[1].1.expect("measurable");
         // A constant angular speed: the centripetal part lies along r, nothing across it.
         assert!(k_drift.abs() < 1e-6, "{k_drift}");
@@ -245,6 +247,19 @@ mod tests {
             .collect();
         assert_eq!(f.len(), 1);
         assert!(f[0].explanation.contains("`ponytail`"), "{}", f[0].explanation);
+
+        // The same swing shaken by something else (a 6.4 Hz rattle against the body, 0.05 rad):
+        // the fit still leans towards gravity, but explains little of the swing, so it is not
+        // reported.
+        let shaken = chain(&|t| 0.7 * (w * t).cos() + 0.05 * (40.0 * t).sin(), "strip");
+        m.chains = vec![shaken];
+        let r = audit(&m, &Limits::default());
+        let (k, fit) = (
+            r.flights[0].chain_gravity[0].1.expect("measurable"),
+            r.flights[0].chain_fit[0].1.expect("measurable"),
+        );
+        assert!(k > 0.5 && fit < 0.3, "k {k}, fit {fit}");
+        assert!(r.findings.iter().all(|f| f.kind != Kind::PassiveNotWeightless));
     }
 
     /// A foot planted through the landing that drifts forward at 0.1 m/s: over the stand it

@@ -36,7 +36,9 @@ Findings and their limits (each with its source; `common practice` where none):
   arm swing after take-off  the arms' upward speed relative to the centre of mass grows by
                          more than 0.5 m/s in the air (a warning, with the rise it costs).
   passive element not weightless  a chain (hair, braid, strap) swings about its anchor in the
-                         air following more than 0.5 g of gravity's pull (weightless: 0).
+                         air following more than 0.5 g of gravity's pull (weightless: 0),
+                         the fit explaining at least 30 % of the swing (a swing driven by
+                         contact or bending scatters about it). Of our own, no source.
   foot sliding           a planted foot (within 1 cm of its lowest) travels more than 2 cm
                          along the ground in a contact phase. Common practice, no source.
   contact chatter        a contact or flight shorter than 0.05 s; the shortest ground contacts,
