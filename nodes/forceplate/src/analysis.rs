@@ -26,9 +26,10 @@ pub const REFERENCE_DURATION: f64 = 0.05;
 /// as much).
 pub const MOVEMENT_FRACTION: f64 = 0.15;
 
-/// Quiet standing recommended before a countermovement jump for weighing, s (McMahon,
-/// Suchomel, Lake & Comfort 2018, "Understanding the key phases of the countermovement jump
-/// force-time curve", Strength Cond J 40(4):96-106: at least 1 s; from memory).
+/// Quiet standing recommended before a countermovement jump for weighing, s: Owen, Watkins,
+/// Kilduff, Bevan & Bennett 2014, "Development of a criterion method to determine peak
+/// mechanical power output in a countermovement jump", J Strength Cond Res 28(6):1552-1558,
+/// whose criterion method weighs on the "mean VGRF for 1 second of quiet standing" (abstract).
 pub const RECOMMENDED_STANDING: f64 = 1.0;
 
 /// The onset threshold never falls below this fraction of body weight, so that a noise-free
@@ -266,7 +267,7 @@ pub fn analyse(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Analy
     if (n_stand as f64) * dt < RECOMMENDED_STANDING - 0.5 * dt {
         warnings.push(format!(
             "body weight comes from {:.3} s of quiet standing, less than the {RECOMMENDED_STANDING} s recommended \
-             (McMahon, Suchomel, Lake & Comfort 2018, Strength Cond J 40(4):96-106; from memory): a body weight \
+             for weighing (Owen, Watkins, Kilduff, Bevan & Bennett 2014, J Strength Cond Res 28(6):1552-1558): a body weight \
              0.1 % off moves the take-off velocity by about 0.5 %",
             n_stand as f64 * dt
         ));

@@ -15,8 +15,9 @@ Method.
 before the movement when the movement starts sooner, however short: the force judged against the record's first \
 50 ms (its mean, and `onset_deviations` of its SD), the movement found where it goes beyond 15 % of that mean (a \
 movement, not a sway; of our own, no source) and dated back to where it left the band, the window ending \
-`onset_backtrack` before that, with a warning. A window shorter than 1 s gets a warning (at least 1 s of quiet \
-standing: McMahon, Suchomel, Lake & Comfort 2018, Strength Cond J 40(4):96-106, from memory). Body mass \
+`onset_backtrack` before that, with a warning. A window shorter than 1 s gets a warning (the criterion method \
+weighs on 1 s of quiet standing: Owen, Watkins, Kilduff, Bevan & Bennett 2014, J Strength Cond Res \
+28(6):1552-1558). Body mass \
 m = BW / g with standard gravity g = 9.80665 m/s^2. The window must be quiet: its SD may be at most 5 % of its \
 mean (common practice, no source).
 - Onset (Owen, Watkins, Kilduff, Bevan & Bennett 2014, J Strength Cond Res 28(6):1552-1558; details from \
