@@ -967,6 +967,44 @@ fn nodes_report_their_own_problems_at_check_time_where_they_are() {
 
 /// A parameter given once: `node.param` takes another node's value (declared before it), of
 /// the same kind and dimension, within the taking parameter's own range; a plot's `mass` too.
+/// A body's lengths follow its height unless the graph sets them: trajectory.jump declares
+/// its crouch, ankle lift and landing depth as 0.18, 0.04 and 0.10 of `body_height`, so a
+/// 1.20 m child crouches 0.216 m; a length the graph gives stays as given; `heft help` says
+/// how the default is made.
+#[test]
+fn a_length_default_scales_with_the_body_height() {
+    let plan = plan_with(
+        "kid = trajectory.jump
+    body_height = 120 cm
+tall = trajectory.jump
+    body_height = 2 m
+    crouch_depth = 25 cm
+",
+        &[],
+        None,
+    )
+    .expect("checks");
+    let value = |node: &str, param: &str| {
+        let n = plan.nodes.iter().find(|n| n.name == node).expect("node");
+        let k = n.ty.spec().params.iter().position(|p| p.name == param).expect("param");
+        match n.params[k] {
+            ParamValue::Number(x) => x,
+            ref other => panic!("{other:?}"),
+        }
+    };
+    assert!((value("kid", "crouch_depth") - 0.18 * 1.2).abs() < 1e-15);
+    assert!((value("kid", "takeoff_extension") - 0.04 * 1.2).abs() < 1e-15);
+    assert!((value("kid", "landing_depth") - 0.10 * 1.2).abs() < 1e-15);
+    assert_eq!(value("tall", "crouch_depth"), 0.25);
+    assert!((value("tall", "landing_depth") - 0.10 * 2.0).abs() < 1e-15);
+    let jump = plan.nodes.iter().find(|n| n.name == "kid").expect("node");
+    let text = heft_runtime::node_docs::describe_type(&jump.ty);
+    assert!(
+        text.contains("default 0.18 x `body_height` (0.297 m at its default)"),
+        "{text}"
+    );
+}
+
 #[test]
 fn a_parameter_can_take_an_earlier_node_s_value() {
     let plan = plan_with(

@@ -1,16 +1,17 @@
-//! `trajectory.jump`: a planned standing countermovement jump of a segmented body (two arms
-//! and the rest of the body), evaluated in closed form at every frame.
+//! `trajectory.jump`: a planned standing countermovement jump of a segmented body, whose
+//! centre of mass follows a ground-force profile of the measured shape, evaluated in closed
+//! form at every frame.
 //!
-//! The physics lives in plain functions and types ([`JumpSpec`], [`Plan`], [`ArmSwing`]) that
-//! the node and the tests share.
+//! The physics lives in plain functions and types ([`JumpSpec`], [`Plan`], [`ArmSwing`],
+//! [`solve_push`], [`solve_countermovement`]) that the node and the tests share.
 
 use heft_node_sdk::{
     CheckProblem, Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, STANDARD_GRAVITY,
     SummarySpec, Timeline,
 };
 
-use crate::body::{Body, collider_radii, leg, proportions, segment_rotation};
-use crate::profile::{Quintic, smoothstep};
+use crate::body::{Body, Feet, Limbs, collider_radii, proportions, segment_rotation};
+use crate::profile::{Piece, Quintic, smoothstep};
 use heft_node_sdk::colliders::{self, Capsule};
 
 const G: f64 = STANDARD_GRAVITY;
@@ -18,9 +19,12 @@ const G: f64 = STANDARD_GRAVITY;
 /// What fixes the take-off.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Drive {
-    /// Whole-body COM apex this far (m) above the standing COM height.
+    /// Jump height (m): the rise of the whole-body centre of mass from take-off to the apex,
+    /// v^2 / (2 g), the height a force plate or a flight time measures.
+    JumpHeight(f64),
+    /// Whole-body apex this far (m) above the standing centre of mass.
     Rise(f64),
-    /// Vertical speed (m/s) the legs give the trunk (the body without the arms) at take-off.
+    /// Vertical speed (m/s) the legs give the body at take-off; the arms add theirs.
     Speed(f64),
 }
 
@@ -73,22 +77,18 @@ pub struct JumpSpec {
     pub body_mass: f64,
     /// Body height (m).
     pub body_height: f64,
-    /// Whole-body COM height in quiet standing, arms at `arm_swing_from` (m).
-    pub standing_com_height: f64,
-    /// How far the trunk COM goes down in the countermovement (m).
+    /// How far the whole-body centre of mass goes down in the countermovement (m).
     pub crouch_depth: f64,
     /// What fixes the take-off.
     pub drive: Drive,
-    /// Trunk COM at take-off above its standing height (m).
+    /// How far the ankles rise onto the balls of the feet by take-off (m).
     pub takeoff_extension: f64,
     /// Unweighting plus braking (s).
     pub countermovement_duration: f64,
-    /// Propulsion (s).
-    pub push_duration: f64,
-    /// Trunk COM at the lowest point of the landing below its take-off height (m).
+    /// Share of the push held at the force of the lowest point before it declines to zero.
+    pub push_hold: f64,
+    /// Whole-body centre of mass at the lowest point of the landing below standing (m).
     pub landing_depth: f64,
-    /// Touch-down to the lowest point (s).
-    pub landing_duration: f64,
     /// Lowest point back to standing (s).
     pub recovery_duration: f64,
     /// Take-off time (s).
@@ -109,11 +109,12 @@ impl JumpSpec {
     /// Reads the node's parameters; the take-off time is frame `takeoff_frame` of `timeline`'s rate.
     pub fn from_params(params: &Params, timeline: Timeline) -> Result<JumpSpec, NodeError> {
         let drive = match params.choice("plan_by")? {
+            "jump_height" => Drive::JumpHeight(params.number("jump_height")?),
             "rise" => Drive::Rise(params.number("rise")?),
             "takeoff_speed" => Drive::Speed(params.number("takeoff_speed")?),
             other => {
                 return Err(NodeError::new(format!(
-                    "`plan_by` is `{other}`; use `rise` or `takeoff_speed`"
+                    "`plan_by` is `{other}`; use `jump_height`, `rise` or `takeoff_speed`"
                 )));
             }
         };
@@ -127,14 +128,12 @@ impl JumpSpec {
         Ok(JumpSpec {
             body_mass: params.number("body_mass")?,
             body_height: params.number("body_height")?,
-            standing_com_height: params.number("standing_com_height")?,
             crouch_depth: params.number("crouch_depth")?,
             drive,
             takeoff_extension: params.number("takeoff_extension")?,
             countermovement_duration: params.number("countermovement_duration")?,
-            push_duration: params.number("push_duration")?,
+            push_hold: params.number("push_hold")?,
             landing_depth: params.number("landing_depth")?,
-            landing_duration: params.number("landing_duration")?,
             recovery_duration: params.number("recovery_duration")?,
             takeoff_time: takeoff.time(0),
             arm_swing_from: params.number("arm_swing_from")?,
@@ -151,9 +150,11 @@ impl JumpSpec {
 pub enum Phase {
     /// Quiet standing before the countermovement (arms may already swing).
     Standing,
-    /// Unweighting then braking, down to the crouch.
-    Countermovement,
-    /// Propulsion, from the crouch to take-off.
+    /// The ground force below body weight: the body starts down.
+    Unweighting,
+    /// The ground force above body weight, stopping the descent at the lowest point.
+    Braking,
+    /// Propulsion, from the lowest point to take-off.
     Propulsion,
     /// Flight, take-off to touch-down.
     Flight,
@@ -170,7 +171,8 @@ impl Phase {
     pub fn name(self) -> &'static str {
         match self {
             Phase::Standing => "quiet standing",
-            Phase::Countermovement => "the countermovement",
+            Phase::Unweighting => "the unweighting",
+            Phase::Braking => "the braking",
             Phase::Propulsion => "the propulsion",
             Phase::Flight => "the flight",
             Phase::Landing => "the landing",
@@ -191,94 +193,160 @@ pub struct Motion {
     pub acceleration: [f64; 3],
 }
 
-/// Everything the node writes for one instant.
+/// The planned motion at one instant.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct State {
     /// The phase whose closed form gave this state.
     pub phase: Phase,
     /// Whole-body centre of mass.
     pub com: Motion,
-    /// Centre of mass of the body without the arms.
-    pub trunk: Motion,
     /// Arm angle (rad).
     pub arm_angle: f64,
-    /// Height of the feet above the ground (m); 0 in contact.
-    pub foot_height: f64,
-    /// Feet on the ground.
+    /// Feet in contact with the ground.
     pub contact: bool,
 }
 
-/// The deepest the trunk may go below its standing height: hips (greater trochanter,
-/// 0.530 H) down to knee height (0.285 H), thighs about horizontal. A modelling limit taken
-/// from the proportions of Winter (2009) Fig. 4.1 (from memory); common practice, no source
+/// The deepest the centre of mass may go below its standing height, in the countermovement
+/// or the landing: hips (0.530 H) down to knee height (0.285 H), thighs about horizontal. A
+/// modelling limit taken from Drillis & Contini's proportions; common practice, no source
 /// for using it as the limit.
 pub fn deepest_crouch(height: f64) -> f64 {
     (proportions::HIP - proportions::KNEE) * height
 }
 
-/// The band of standing COM heights, as fractions of body height, within which the body
-/// proportions stay consistent (shoulder well above the trunk COM, trunk COM above the hips).
-/// Common practice, no source: adult whole-body COM is near 0.55 H (the node's default).
-pub const STANDING_COM_BAND: (f64, f64) = (0.45, 0.65);
+/// The push: the centre of mass starts at rest at the lowest point with acceleration A,
+/// holds it for the share `hold` of the push, then declines as the square of the time into
+/// the decline to `a_end` at take-off (-g: the ground force falls to zero, steeply, as
+/// measured records do), covering `rise` (m) and reaching `speed` (m/s). With
+/// alpha = (1 - hold) / 3 and beta = (1 - hold)^2 / 12 (the integrals of w^2 and of
+/// (1 - w) w^2 over the decline), speed = T (A (1 - alpha) + a_end alpha) and
+/// rise = T^2 (A (1/2 - beta) + a_end beta): eliminating T leaves a quadratic in A, whose
+/// larger root is the push that starts hardest. Returns (A, T), or `None` when no push of
+/// this shape does it.
+pub fn solve_push(speed: f64, rise: f64, a_end: f64, hold: f64) -> Option<(f64, f64)> {
+    let alpha = (1.0 - hold) / 3.0;
+    let beta = (1.0 - hold) * (1.0 - hold) / 12.0;
+    let (p, q, s, w) = (1.0 - alpha, a_end * alpha, 0.5 - beta, a_end * beta);
+    let r = rise / (speed * speed);
+    let (a2, a1, a0) = (r * p * p, 2.0 * r * p * q - s, r * q * q - w);
+    let disc = a1 * a1 - 4.0 * a2 * a0;
+    if !(speed > 0.0 && rise > 0.0 && disc >= 0.0) {
+        return None;
+    }
+    let x = (-a1 + disc.sqrt()) / (2.0 * a2);
+    let rate = p * x + q;
+    (rate > 0.0 && s * x + w > 0.0).then(|| (x, speed / rate))
+}
 
-/// A planned jump: the solved take-off and touch-down and the quintic segments of the trunk.
+/// The countermovement: from rest, the unweighting (acceleration -A_u b(u), b = 30 u^2
+/// (1 - u)^2, over T_u) then the braking (A s(u), the smoothstep, over T_b) stop at rest
+/// `depth` lower with acceleration A, in `duration` = T_u + T_b. The velocity ends at zero
+/// when A T_b / 2 = A_u T_u, and the depth is A_u T_u (T_u / 2 + 5 T_b / 7) (the integrals
+/// of b and s and of (1 - u) times them: 1, 1/2, 1/2, 1/7), so T_b solves
+/// (3/14) T_b^2 + (duration / 2) T_b - 2 depth / A = 0. Returns (T_u, T_b, A_u), or `None`
+/// when A is too small to stop that depth in that time (T_b would fill the duration).
+pub fn solve_countermovement(depth: f64, duration: f64, a: f64) -> Option<(f64, f64, f64)> {
+    if !(a > 0.0 && depth > 0.0) {
+        return None;
+    }
+    let (qa, qb, qc) = (3.0 / 14.0, 0.5 * duration, -2.0 * depth / a);
+    let tb = (-qb + (qb * qb - 4.0 * qa * qc).sqrt()) / (2.0 * qa);
+    let tu = duration - tb;
+    (tu > 0.0 && tb > 0.0).then(|| (tu, tb, a * tb / (2.0 * tu)))
+}
+
+/// The landing: from touch-down at `speed` (m/s, downward) with the acceleration -g (no
+/// force yet), the acceleration -g (1 - s(u)) + B b(u) (s the smoothstep, b = 12 u (1 - u)^2,
+/// whose slope at u = 0 makes the force rise at once, as at an impact) brings the centre of
+/// mass to rest `depth` lower with no acceleration (one body weight). The end velocity is
+/// zero when B = speed / T + g / 2 (the integrals of 1 - s and of b: 1/2 and 1), and the
+/// depth is then 0.4 speed T + 0.4 g T^2 / 7 (of (1 - u) times them: 5/14 and 3/5), a
+/// quadratic in T with one positive root. The force g s + B b never goes below zero.
+/// Returns (T, B), or `None` without a positive depth.
+pub fn solve_landing(speed: f64, depth: f64) -> Option<(f64, f64)> {
+    if !(depth > 0.0 && speed >= 0.0) {
+        return None;
+    }
+    let (a, b) = (0.4 * G / 7.0, 0.4 * speed);
+    let t = (-b + (b * b + 4.0 * a * depth).sqrt()) / (2.0 * a);
+    (t > 0.0).then(|| (t, speed / t + 0.5 * G))
+}
+
+/// The deepest dip of the unweighting's b(u) = 30 u^2 (1 - u)^2, at u = 1/2.
+const UNWEIGHTING_PEAK: f64 = 30.0 / 16.0;
+
+/// A planned jump: the centre of mass piece by piece, the body that carries it, and the
+/// figures worth reporting.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Plan {
     /// The parameters.
     pub spec: JumpSpec,
-    /// The two-part body.
+    /// The segmented body.
     pub body: Body,
     /// The arm swing, in absolute time.
     pub arms: ArmSwing,
-    /// Trunk height, countermovement (standing to crouch).
-    pub countermovement: Quintic,
-    /// Trunk height, propulsion (crouch to take-off).
-    pub propulsion: Quintic,
-    /// Trunk height, landing (touch-down to the lowest point).
-    pub landing: Quintic,
-    /// Trunk height, recovery (lowest point to standing).
-    pub recovery: Quintic,
+    /// The centre of mass's height in contact, in time order, each with its phase (the
+    /// flight between them is the parabola).
+    pub pieces: Vec<(Phase, Piece)>,
+    /// Whole-body centre of mass in quiet standing before the jump (m).
+    pub standing_height: f64,
+    /// Whole-body centre of mass standing after the recovery (m).
+    pub settled_height: f64,
+    /// Start of the countermovement (s).
+    pub countermovement_start: f64,
+    /// Lowest point of the countermovement, where propulsion starts (s).
+    pub lowest_time: f64,
+    /// Unweighting, braking and push durations (s).
+    pub durations: [f64; 3],
+    /// Touch-down to the lowest point of the landing (s).
+    pub landing_duration: f64,
     /// Take-off time (s).
     pub takeoff_time: f64,
     /// Touch-down time (s).
     pub touchdown_time: f64,
-    /// Trunk COM height, vertical speed and vertical acceleration at take-off.
-    pub trunk_takeoff: [f64; 3],
-    /// Whole-body COM height at take-off (m).
+    /// Whole-body centre-of-mass height at take-off (m).
     pub takeoff_height: f64,
-    /// Whole-body vertical COM speed at take-off (m/s).
+    /// Whole-body vertical centre-of-mass speed at take-off (m/s).
     pub takeoff_speed: f64,
-    /// Whole-body COM apex (m).
+    /// Whole-body apex (m).
     pub apex_height: f64,
+    /// Ground force at the lowest point of the countermovement (body weights): the push's
+    /// largest.
+    pub lowest_point_force: f64,
+    /// Least ground force of the unweighting (body weights).
+    pub least_unweighting_force: f64,
     /// Peak ground force over the landing (body weights).
     pub peak_landing_force: f64,
+    /// The pelvis at take-off.
+    pub pelvis_takeoff: [f64; 3],
+    /// Where the balls of the feet stand before the jump (x).
+    pub ball_x: f64,
+    /// Where they stand after it (x).
+    pub landing_ball_x: f64,
+    /// The feet in the air, relative to the pelvis.
+    pub flight_feet: Feet,
     /// Things that are allowed but worth saying.
     pub warnings: Vec<String>,
 }
 
-/// Samples per phase for the checks of the ground force and the landing peak.
+/// Samples per phase for the checks of the ground force, the reach and the landing peak.
 const SAMPLES: usize = 2000;
 
+/// Feet moved by `d`.
+fn shifted(f: &Feet, d: [f64; 3]) -> Feet {
+    let add = |p: [f64; 3]| [p[0] + d[0], p[1] + d[1], p[2] + d[2]];
+    Feet {
+        ankle: f.ankle.map(add),
+        ball: f.ball.map(add),
+    }
+}
+
 impl Plan {
-    /// Solves a jump, or says which parameter to change.
+    /// Solves a jump, or says which parameter to change and which way.
     pub fn new(spec: &JumpSpec) -> Result<Plan, NodeError> {
         let s = *spec;
         let h = s.body_height;
-        let ratio = s.standing_com_height / h;
-        if !(STANDING_COM_BAND.0..=STANDING_COM_BAND.1).contains(&ratio) {
-            return Err(NodeError::new(format!(
-                "`standing_com_height` {:.3} m is {:.3} of `body_height` {:.3} m; the body proportions need it between \
-                 {:.2} and {:.2} of the height ({:.3} to {:.3} m): change `standing_com_height` or `body_height`",
-                s.standing_com_height,
-                ratio,
-                h,
-                STANDING_COM_BAND.0,
-                STANDING_COM_BAND.1,
-                STANDING_COM_BAND.0 * h,
-                STANDING_COM_BAND.1 * h
-            )));
-        }
-        let body = Body::new(h, s.standing_com_height, s.arm_swing_from);
+        let body = Body::new(h);
         let deepest = deepest_crouch(h);
         if s.crouch_depth > deepest {
             return Err(NodeError::new(format!(
@@ -287,127 +355,200 @@ impl Plan {
                 s.crouch_depth, h, deepest
             )));
         }
-        let lowest_landing = s.landing_depth - s.takeoff_extension;
-        if lowest_landing > deepest {
+        if s.landing_depth > deepest {
             return Err(NodeError::new(format!(
-                "`landing_depth` {:.3} m takes the trunk {:.3} m below standing, deeper than a {:.2} m tall body allows \
-                 ({:.3} m, hips down to knee height); reduce `landing_depth` to at most {:.3} m",
-                s.landing_depth,
-                lowest_landing,
-                h,
-                deepest,
-                deepest + s.takeoff_extension
+                "`landing_depth` {:.3} m is deeper than a {:.2} m tall body allows: at most {:.3} m (hips down to knee \
+                 height); reduce `landing_depth` or raise `body_height`",
+                s.landing_depth, h, deepest
             )));
         }
-
+        let most = body.greatest_lift();
+        if s.takeoff_extension > most {
+            return Err(NodeError::new(format!(
+                "`takeoff_extension` {:.3} m lifts the ankles higher than a {:.2} m tall body's feet allow (at most \
+                 {:.3} m, the foot upright on its ball); reduce `takeoff_extension`",
+                s.takeoff_extension, h, most
+            )));
+        }
         let t_to = s.takeoff_time;
-        let t_push = t_to - s.push_duration;
-        let t_cm = t_push - s.countermovement_duration;
         let arms = ArmSwing {
             from: s.arm_swing_from,
             to: s.arm_swing_to,
             start: t_to + s.arm_swing_start,
             duration: s.arm_swing_duration,
         };
-        let k = body.arm_fraction;
-        let z_stand = body.trunk_standing;
-        let z_crouch = z_stand - s.crouch_depth;
-        let z_to = z_stand + s.takeoff_extension;
-
-        // Take-off: arms' offset and its rates at take-off set the whole-body state.
-        let [_, arm_z] = body.arm_offset(arms.angle(t_to));
-        let com_to = z_to + k * arm_z[0];
-        let (trunk_v, com_v) = match s.drive {
-            Drive::Speed(v) => (v, v + k * arm_z[1]),
+        let ball_x = body.standing_ball_x();
+        let standing_height = straight_pose(&body, s.arm_swing_from, ball_x, 0.0).1[2];
+        let theta_to = arms.angle(t_to);
+        let (takeoff_limbs, takeoff_com) = straight_pose(&body, theta_to[0], ball_x, s.takeoff_extension);
+        let z_to = takeoff_com[2];
+        // The arms' share of the take-off speed: k r sin(theta) theta'.
+        let arm_share = body.arm_fraction() * body.arm_radius() * theta_to[0].sin() * theta_to[1];
+        let speed = match s.drive {
+            Drive::JumpHeight(height) => (2.0 * G * height).sqrt(),
+            Drive::Speed(v) => v + arm_share,
             Drive::Rise(rise) => {
-                let apex = s.standing_com_height + rise;
-                if apex <= com_to {
+                let above = z_to - standing_height;
+                if rise <= above {
                     return Err(NodeError::new(format!(
-                        "`rise` {:.3} m puts the apex below the take-off height: the COM is already {:.3} m above \
-                         standing at take-off (`takeoff_extension` plus the arms); raise `rise` above {:.3} m or \
-                         reduce `takeoff_extension`",
-                        rise,
-                        com_to - s.standing_com_height,
-                        com_to - s.standing_com_height
+                        "`rise` {:.3} m puts the apex below the take-off height: the centre of mass is already {:.3} m \
+                         above standing at take-off (`takeoff_extension` and the arms); raise `rise` above {:.3} m, \
+                         reduce `takeoff_extension`, or plan by `jump_height`",
+                        rise, above, above
                     )));
                 }
-                let v = (2.0 * G * (apex - com_to)).sqrt();
-                (v - k * arm_z[1], v)
+                (2.0 * G * (rise - above)).sqrt()
             }
         };
-        if trunk_v <= 0.0 {
+        if speed - arm_share <= 0.0 {
             return Err(NodeError::new(format!(
-                "the arms carry the whole take-off speed ({:.3} m/s of {:.3} m/s), so the legs would not leave the \
-                 ground (trunk speed {:.3} m/s at take-off); raise `rise`, or slow the arms at take-off \
-                 (`arm_swing_start`, `arm_swing_duration`)",
-                k * arm_z[1],
-                com_v,
-                trunk_v
+                "the arms carry the whole take-off speed ({arm_share:.3} m/s of {speed:.3} m/s), so the legs would not \
+                 leave the ground; jump higher, or slow the arms at take-off (`arm_swing_start`, `arm_swing_duration`)"
             )));
         }
-        if com_v <= 0.0 {
+        if speed <= 0.0 {
             return Err(NodeError::new(format!(
-                "the arms swing down so fast at take-off that the body's COM moves down ({com_v:.3} m/s): there is no \
-                 jump; raise `takeoff_speed` or change the arm swing (`arm_swing_from`, `arm_swing_to`, \
+                "the arms swing down so fast at take-off that the body's centre of mass moves down ({speed:.3} m/s): \
+                 there is no jump; raise `takeoff_speed` or change the arm swing (`arm_swing_from`, `arm_swing_to`, \
                  `arm_swing_start`)"
             )));
         }
-        // Whole-body acceleration exactly -g at take-off: the ground force falls to zero.
-        let trunk_a = -G - k * arm_z[2];
-        let trunk_takeoff = [z_to, trunk_v, trunk_a];
-
-        let countermovement = Quintic::new(
+        let z_low = standing_height - s.crouch_depth;
+        let Some((a_push, t_push)) = solve_push(speed, z_to - z_low, -G, s.push_hold) else {
+            return Err(NodeError::new(format!(
+                "no push of this shape goes from the crouch to take-off at {speed:.3} m/s over {:.3} m; change \
+                 `push_hold`, `crouch_depth` or `takeoff_extension`",
+                z_to - z_low
+            )));
+        };
+        let Some((t_u, t_b, a_u)) = solve_countermovement(s.crouch_depth, s.countermovement_duration, a_push) else {
+            return Err(NodeError::new(format!(
+                "this jump pushes with {:.2} body weights at the lowest point, too little to stop a {:.3} m \
+                 countermovement within `countermovement_duration` {:.3} s; make `countermovement_duration` longer or \
+                 `crouch_depth` smaller, or jump higher",
+                1.0 + a_push / G,
+                s.crouch_depth,
+                s.countermovement_duration
+            )));
+        };
+        let least_unweighting_force = 1.0 - UNWEIGHTING_PEAK * a_u / G;
+        if least_unweighting_force < 0.0 {
+            return Err(NodeError::new(format!(
+                "the unweighting would need the ground to pull ({least_unweighting_force:.2} body weights): the \
+                 countermovement is too quick for its depth; make `countermovement_duration` longer or `crouch_depth` \
+                 smaller"
+            )));
+        }
+        let t_low = t_to - t_push;
+        let t_b0 = t_low - t_b;
+        let t_cm = t_b0 - t_u;
+        let mut pieces = Vec::new();
+        let unweighting = Piece::from_acceleration(
             t_cm,
-            s.countermovement_duration,
-            [z_stand, 0.0, 0.0],
-            [z_crouch, 0.0, 0.0],
+            t_u,
+            standing_height,
+            0.0,
+            &[0.0, 0.0, -30.0 * a_u, 60.0 * a_u, -30.0 * a_u],
         );
-        let propulsion = Quintic::new(t_push, s.push_duration, [z_crouch, 0.0, 0.0], trunk_takeoff);
+        pieces.push((Phase::Unweighting, unweighting));
+        let [z, v, _] = unweighting.eval(t_b0);
+        let braking = Piece::from_acceleration(
+            t_b0,
+            t_b,
+            z,
+            v,
+            &[0.0, 0.0, 0.0, 10.0 * a_push, -15.0 * a_push, 6.0 * a_push],
+        );
+        pieces.push((Phase::Braking, braking));
+        let [mut z, mut v, _] = braking.eval(t_low);
+        let held = s.push_hold * t_push;
+        if held > 0.0 {
+            let hold = Piece::from_acceleration(t_low, held, z, v, &[a_push]);
+            [z, v, _] = hold.eval(t_low + held);
+            pieces.push((Phase::Propulsion, hold));
+        }
+        let decline = Piece::from_acceleration(t_low + held, t_push - held, z, v, &[a_push, 0.0, -G - a_push]);
+        pieces.push((Phase::Propulsion, decline));
+        let [takeoff_height, takeoff_speed, _] = decline.eval(t_to);
 
+        let pelvis_takeoff = takeoff_limbs.pelvis;
+        let feet_to = body.planted_feet(ball_x, s.takeoff_extension);
+        let flight_feet = shifted(&feet_to, pelvis_takeoff.map(|p| -p));
         let mut plan = Plan {
             spec: s,
             body,
             arms,
-            countermovement,
-            propulsion,
-            landing: propulsion,
-            recovery: propulsion,
+            pieces,
+            standing_height,
+            settled_height: standing_height,
+            countermovement_start: t_cm,
+            lowest_time: t_low,
+            durations: [t_u, t_b, t_push],
+            landing_duration: 0.0,
             takeoff_time: t_to,
             touchdown_time: t_to,
-            trunk_takeoff,
-            takeoff_height: com_to,
-            takeoff_speed: com_v,
-            apex_height: com_to + com_v * com_v / (2.0 * G),
+            takeoff_height,
+            takeoff_speed,
+            apex_height: takeoff_height + takeoff_speed * takeoff_speed / (2.0 * G),
+            lowest_point_force: 1.0 + a_push / G,
+            least_unweighting_force,
             peak_landing_force: 0.0,
+            pelvis_takeoff,
+            ball_x,
+            landing_ball_x: ball_x,
+            flight_feet,
             warnings: Vec::new(),
         };
 
         let t_td = plan.find_touchdown()?;
-        let t_apex = t_to + com_v / G;
+        let t_apex = t_to + takeoff_speed / G;
         if t_td <= t_apex {
             return Err(NodeError::new(format!(
-                "the arm swing pulls the feet back to the ground at {} before the COM reaches its apex at {}: the \
-                 planned apex cannot happen; start the swing earlier (`arm_swing_start`), make it smaller \
-                 (`arm_swing_from`, `arm_swing_to`) or jump higher (`rise` or `takeoff_speed`)",
+                "the arm swing pulls the feet back to the ground at {} before the centre of mass reaches its apex at \
+                 {}: the planned apex cannot happen; start the swing earlier (`arm_swing_start`), make it smaller \
+                 (`arm_swing_from`, `arm_swing_to`) or jump higher",
                 plan.at(t_td),
                 plan.at(t_apex)
             )));
         }
         plan.touchdown_time = t_td;
-        let f = plan.state_in(Phase::Flight, t_td).trunk;
-        let landing_start = [f.position[2], f.velocity[2], f.acceleration[2]];
-        let z_low = z_to - s.landing_depth;
-        plan.landing = Quintic::new(t_td, s.landing_duration, landing_start, [z_low, 0.0, 0.0]);
-        plan.recovery = Quintic::new(
-            t_td + s.landing_duration,
-            s.recovery_duration,
-            [z_low, 0.0, 0.0],
-            [z_stand, 0.0, 0.0],
+        plan.landing_ball_x = plan.flight_pelvis(t_td)[0] + plan.flight_feet.ball[0][0];
+        // The arms' angle when the body is back to standing (the landing lasts well under a
+        // second; the swing's end, if later, is what counts).
+        let t_rest = (t_td + 1.0 + s.recovery_duration).max(plan.arms.end());
+        plan.settled_height = straight_pose(&plan.body, plan.arms.angle(t_rest)[0], plan.landing_ball_x, 0.0).1[2];
+        let tau = t_td - t_to;
+        let (z_td, v_td) = (
+            takeoff_height + takeoff_speed * tau - 0.5 * G * tau * tau,
+            takeoff_speed - G * tau,
         );
+        let z_low_landing = plan.settled_height - s.landing_depth;
+        let Some((t_land, b)) = solve_landing(-v_td, z_td - z_low_landing) else {
+            return Err(NodeError::new(format!(
+                "the centre of mass touches down at {z_td:.3} m, not above the landing's lowest point {z_low_landing:.3} \
+                 m; make `landing_depth` larger"
+            )));
+        };
+        let landing = Piece::from_acceleration(
+            t_td,
+            t_land,
+            z_td,
+            v_td,
+            &[-G, 12.0 * b, -24.0 * b, 10.0 * G + 12.0 * b, -15.0 * G, 6.0 * G],
+        );
+        let recovery = Quintic::new(
+            t_td + t_land,
+            s.recovery_duration,
+            [z_low_landing, 0.0, 0.0],
+            [plan.settled_height, 0.0, 0.0],
+        );
+        plan.landing_duration = t_land;
+        plan.pieces.push((Phase::Landing, landing));
+        plan.pieces.push((Phase::Recovery, Piece::from_quintic(&recovery)));
 
         plan.check_ground_force()?;
-        plan.check_landing_depth()?;
-        let (_, peak) = plan.extreme(Phase::Landing, plan.landing.start(), plan.landing.end(), true, |st| {
+        plan.check_reach()?;
+        let (_, peak) = plan.extreme(Phase::Landing, landing.start(), landing.end(), true, |st| {
             (G + st.com.acceleration[2]) / G
         });
         plan.peak_landing_force = peak;
@@ -419,16 +560,51 @@ impl Plan {
         format!("{t:.3} s (frame {})", (t * self.spec.frame_rate).round())
     }
 
-    /// The first time after take-off at which the feet (trunk height minus its take-off
-    /// height) come back to the ground: bracketed by stepping (20 000 steps up to the latest
-    /// possible touch-down), then bisected to 1e-12 s.
+    /// The pelvis in the air at `t`: the body is rigid but for the arms, so the pelvis is
+    /// the centre of mass less the offset the body's shape at the arms' angle gives it.
+    pub fn flight_pelvis(&self, t: f64) -> [f64; 3] {
+        let com = self.flight_com(t).position;
+        let theta = self.arms.angle(t)[0];
+        let offset = self
+            .body
+            .centres(&self.body.limbs([0.0; 3], theta, &self.flight_feet))
+            .0;
+        [com[0] - offset[0], 0.0, com[2] - offset[2]]
+    }
+
+    /// The exact parabola from take-off.
+    fn flight_com(&self, t: f64) -> Motion {
+        let tau = t - self.takeoff_time;
+        let (z0, v0) = (self.takeoff_height, self.takeoff_speed);
+        Motion {
+            position: [0.0, 0.0, z0 + v0 * tau - 0.5 * G * tau * tau],
+            velocity: [0.0, 0.0, v0 - G * tau],
+            acceleration: [0.0, 0.0, -G],
+        }
+    }
+
+    /// Height of the balls of the feet above the ground in the air (they are carried with
+    /// the pelvis), 0 in contact.
+    pub fn foot_height(&self, t: f64) -> f64 {
+        if self.phase(t) == Phase::Flight {
+            self.flight_pelvis(t)[2] - self.pelvis_takeoff[2]
+        } else {
+            0.0
+        }
+    }
+
+    /// The first time after take-off at which the balls of the feet come back to the
+    /// ground: bracketed by stepping (20 000 steps up to the latest possible touch-down),
+    /// then bisected to 1e-12 s.
     fn find_touchdown(&self) -> Result<f64, NodeError> {
         let t_to = self.takeoff_time;
-        let z_to = self.trunk_takeoff[0];
-        let foot = |t: f64| self.state_in(Phase::Flight, t).trunk.position[2] - z_to;
-        // The arms move the trunk at most 2 k r about the COM, so the feet are down by the
-        // time the parabola alone has fallen that far below the take-off height.
-        let (v, reach) = (self.takeoff_speed, 2.0 * self.body.arm_fraction * self.body.arm_radius);
+        let foot = |t: f64| self.flight_pelvis(t)[2] - self.pelvis_takeoff[2];
+        // The arms move the pelvis at most 2 k r about the centre of mass, so the feet are
+        // down by the time the parabola alone has fallen that far below the take-off height.
+        let (v, reach) = (
+            self.takeoff_speed,
+            2.0 * self.body.arm_fraction() * self.body.arm_radius(),
+        );
         let latest = (v + (v * v + 2.0 * G * reach).sqrt()) / G;
         let steps = 20_000;
         let step = latest / f64::from(steps) * (1.0 + 1e-6);
@@ -465,21 +641,23 @@ impl Plan {
 
     /// The phase that holds time `t` (take-off belongs to the propulsion, touch-down to the landing).
     pub fn phase(&self, t: f64) -> Phase {
-        if t < self.countermovement.start() {
-            Phase::Standing
-        } else if t < self.propulsion.start() {
-            Phase::Countermovement
-        } else if t <= self.takeoff_time {
-            Phase::Propulsion
-        } else if t < self.touchdown_time {
-            Phase::Flight
-        } else if t < self.recovery.start() {
-            Phase::Landing
-        } else if t < self.recovery.end() {
-            Phase::Recovery
-        } else {
-            Phase::Settled
+        if t < self.countermovement_start {
+            return Phase::Standing;
         }
+        if t <= self.takeoff_time {
+            return self
+                .pieces
+                .iter()
+                .find(|(phase, piece)| *phase != Phase::Landing && *phase != Phase::Recovery && t < piece.end())
+                .map_or(Phase::Propulsion, |(phase, _)| *phase);
+        }
+        if t < self.touchdown_time {
+            return Phase::Flight;
+        }
+        self.pieces
+            .iter()
+            .find(|(phase, piece)| (*phase == Phase::Landing || *phase == Phase::Recovery) && t < piece.end())
+            .map_or(Phase::Settled, |(phase, _)| *phase)
     }
 
     /// The state at `t`.
@@ -488,65 +666,107 @@ impl Plan {
     }
 
     /// The closed form of `phase` evaluated at `t`, whether or not `t` lies in that phase
-    /// (for checking the junctions from both sides).
+    /// (for checking the junctions from both sides); a phase of several pieces uses the one
+    /// nearest `t`.
     pub fn state_in(&self, phase: Phase, t: f64) -> State {
-        let k = self.body.arm_fraction;
-        let theta = self.arms.angle(t);
-        let [ox, oz] = self.body.arm_offset(theta);
-        let (com, trunk) = if phase == Phase::Flight {
-            let tau = t - self.takeoff_time;
-            let (z0, v0) = (self.takeoff_height, self.takeoff_speed);
-            let com = [0.0, 0.0, z0 + v0 * tau - 0.5 * G * tau * tau];
-            let com_v = [0.0, 0.0, v0 - G * tau];
-            let com_a = [0.0, 0.0, -G];
-            // Trunk = COM - k o (whole body = trunk + k o).
-            let trunk = Motion {
-                position: [com[0] - k * ox[0], 0.0, com[2] - k * oz[0]],
-                velocity: [com_v[0] - k * ox[1], 0.0, com_v[2] - k * oz[1]],
-                acceleration: [com_a[0] - k * ox[2], 0.0, com_a[2] - k * oz[2]],
-            };
-            let com = Motion {
-                position: com,
-                velocity: com_v,
-                acceleration: com_a,
-            };
-            (com, trunk)
-        } else {
-            let z = match phase {
-                // (Flight is handled above.)
-                Phase::Standing | Phase::Settled | Phase::Flight => [self.body.trunk_standing, 0.0, 0.0],
-                Phase::Countermovement => self.countermovement.eval(t),
-                Phase::Propulsion => self.propulsion.eval(t),
-                Phase::Landing => self.landing.eval(t),
-                Phase::Recovery => self.recovery.eval(t),
-            };
-            // In contact the whole-body COM stays over the feet (x = 0): the trunk moves
-            // opposite the arms, x_t = -k o_x.
-            let trunk = Motion {
-                position: [-k * ox[0], 0.0, z[0]],
-                velocity: [-k * ox[1], 0.0, z[1]],
-                acceleration: [-k * ox[2], 0.0, z[2]],
-            };
-            let com = Motion {
-                position: [trunk.position[0] + k * ox[0], 0.0, z[0] + k * oz[0]],
-                velocity: [trunk.velocity[0] + k * ox[1], 0.0, z[1] + k * oz[1]],
-                acceleration: [trunk.acceleration[0] + k * ox[2], 0.0, z[2] + k * oz[2]],
-            };
-            (com, trunk)
+        let theta = self.arms.angle(t)[0];
+        let still = |z: f64| Motion {
+            position: [0.0, 0.0, z],
+            velocity: [0.0; 3],
+            acceleration: [0.0; 3],
         };
-        let contact = phase != Phase::Flight;
+        let com = match phase {
+            Phase::Flight => self.flight_com(t),
+            Phase::Standing => still(self.standing_height),
+            Phase::Settled => still(self.settled_height),
+            _ => {
+                let piece = self
+                    .pieces
+                    .iter()
+                    .filter(|(p, _)| *p == phase)
+                    .map(|(_, piece)| piece)
+                    .min_by(|a, b| {
+                        let d = |q: &Piece| (q.start() - t).max(t - q.end()).max(0.0);
+                        d(a).total_cmp(&d(b))
+                    });
+                match piece {
+                    Some(piece) => {
+                        let [z, v, a] = piece.eval(t);
+                        Motion {
+                            position: [0.0, 0.0, z],
+                            velocity: [0.0, 0.0, v],
+                            acceleration: [0.0, 0.0, a],
+                        }
+                    }
+                    None => still(self.standing_height),
+                }
+            }
+        };
         State {
             phase,
             com,
-            trunk,
-            arm_angle: theta[0],
-            foot_height: if contact {
-                0.0
-            } else {
-                trunk.position[2] - self.trunk_takeoff[0]
-            },
-            contact,
+            arm_angle: theta,
+            contact: phase != Phase::Flight,
         }
+    }
+
+    /// How far the ankles are lifted at `t` in contact: rising over the second half of the
+    /// push to `takeoff_extension` (smoothstep), coming down over the first half of the
+    /// landing.
+    fn lift(&self, t: f64) -> f64 {
+        let e = self.spec.takeoff_extension;
+        let half = 0.5 * self.durations[2];
+        if t <= self.takeoff_time {
+            e * smoothstep((t - (self.takeoff_time - half)) / half)[0]
+        } else {
+            let half = 0.5 * self.landing_duration;
+            e * (1.0 - smoothstep((t - self.touchdown_time) / half)[0])
+        }
+    }
+
+    /// The body's joints at `t`: in the air the pelvis carries the feet; on the ground the
+    /// feet stand where they are and the pelvis is placed so that the segments' centre of
+    /// mass is the planned one ([`Body::stand`]).
+    pub fn limbs(&self, t: f64) -> Limbs {
+        let st = self.state(t);
+        if !st.contact {
+            let p = self.flight_pelvis(t);
+            return self.body.limbs(p, st.arm_angle, &shifted(&self.flight_feet, p));
+        }
+        let ball_x = if t <= self.takeoff_time {
+            self.ball_x
+        } else {
+            self.landing_ball_x
+        };
+        let feet = self.body.planted_feet(ball_x, self.lift(t));
+        self.body.stand(st.com.position, st.arm_angle, &feet)
+    }
+
+    /// Centre of mass of the body without its arms at `t`.
+    pub fn trunk(&self, l: &Limbs) -> [f64; 3] {
+        self.body.centres(l).1
+    }
+
+    /// Time of the whole-body apex (s).
+    pub fn apex_time(&self) -> f64 {
+        self.takeoff_time + self.takeoff_speed / G
+    }
+
+    /// When anything starts to move: the countermovement or the arm swing, if earlier.
+    pub fn start(&self) -> f64 {
+        let t = self.countermovement_start;
+        if self.arms.moves() { t.min(self.arms.start) } else { t }
+    }
+
+    /// End of the recovery.
+    fn recovery_end(&self) -> f64 {
+        self.pieces.last().map_or(self.touchdown_time, |(_, p)| p.end())
+    }
+
+    /// When everything has stopped: the end of the recovery or of the arm swing, if later.
+    pub fn end(&self) -> f64 {
+        let t = self.recovery_end();
+        if self.arms.moves() { t.max(self.arms.end()) } else { t }
     }
 
     /// Vertical ground force at `t` in body weights: (g + a_z) / g in contact, 0 in flight.
@@ -559,39 +779,14 @@ impl Plan {
         }
     }
 
-    /// Time of the whole-body apex (s).
-    pub fn apex_time(&self) -> f64 {
-        self.takeoff_time + self.takeoff_speed / G
-    }
-
-    /// When anything starts to move: the countermovement or the arm swing, if earlier.
-    pub fn start(&self) -> f64 {
-        let t = self.countermovement.start();
-        if self.arms.moves() { t.min(self.arms.start) } else { t }
-    }
-
-    /// When everything has stopped: the end of the recovery or of the arm swing, if later.
-    pub fn end(&self) -> f64 {
-        let t = self.recovery.end();
-        if self.arms.moves() { t.max(self.arms.end()) } else { t }
-    }
-
     /// The contact intervals in which the ground force may change: each with its phase.
     pub fn contact_intervals(&self) -> Vec<(Phase, f64, f64)> {
-        let mut v = Vec::new();
-        if self.arms.moves() && self.arms.start < self.countermovement.start() {
-            v.push((Phase::Standing, self.arms.start, self.countermovement.start()));
+        let mut v: Vec<(Phase, f64, f64)> = self.pieces.iter().map(|(ph, p)| (*ph, p.start(), p.end())).collect();
+        if self.arms.moves() && self.arms.start < self.countermovement_start {
+            v.insert(0, (Phase::Standing, self.arms.start, self.countermovement_start));
         }
-        v.push((
-            Phase::Countermovement,
-            self.countermovement.start(),
-            self.countermovement.end(),
-        ));
-        v.push((Phase::Propulsion, self.propulsion.start(), self.takeoff_time));
-        v.push((Phase::Landing, self.landing.start(), self.landing.end()));
-        v.push((Phase::Recovery, self.recovery.start(), self.recovery.end()));
-        if self.arms.moves() && self.arms.end() > self.recovery.end() {
-            v.push((Phase::Settled, self.recovery.end(), self.arms.end()));
+        if self.arms.moves() && self.arms.end() > self.recovery_end() {
+            v.push((Phase::Settled, self.recovery_end(), self.arms.end()));
         }
         v
     }
@@ -640,79 +835,98 @@ impl Plan {
             if bw >= -1e-9 {
                 continue;
             }
-            let arms = self.arms.moves() && self.arms.start < t1 && self.arms.end() > t0;
             let change = match phase {
                 Phase::Standing | Phase::Settled => "make `arm_swing_duration` longer or the swing smaller",
-                Phase::Countermovement => "make `countermovement_duration` longer or `crouch_depth` smaller",
-                Phase::Propulsion => {
-                    "change `push_duration`, `crouch_depth`, `takeoff_extension` or the take-off (`rise` or \
-                     `takeoff_speed`)"
-                }
-                Phase::Landing if self.landing_rebounds() => {
-                    "the touch-down is too fast to stop within `landing_depth` without sinking below it and coming \
-                     back up: make `landing_depth` larger or `landing_duration` shorter"
-                }
-                Phase::Landing => "make `landing_duration` longer or `landing_depth` smaller",
-                Phase::Recovery | Phase::Flight => "make `recovery_duration` longer",
+                _ => "make `recovery_duration` longer",
             };
             return Err(NodeError::new(format!(
-                "during {} the ground would have to pull the body down (ground force {:.2} body weights at {}); {}{}",
+                "during {} the ground would have to pull the body down (ground force {:.2} body weights at {}); {}",
                 phase.name(),
                 bw,
                 self.at(t),
-                change,
-                if arms {
-                    ", or move the arm swing (`arm_swing_start`, `arm_swing_duration`)"
-                } else {
-                    ""
-                }
+                change
             )));
         }
         Ok(())
     }
 
-    /// True when the trunk moves up at some time in the landing (it sinks below the planned
-    /// lowest point and comes back).
-    fn landing_rebounds(&self) -> bool {
-        let (_, v) = self.extreme(Phase::Landing, self.landing.start(), self.landing.end(), true, |st| {
-            st.trunk.velocity[2]
-        });
-        v > 1e-9
-    }
-
-    /// The landing may sink below its planned lowest point when the touch-down is fast and
-    /// the landing shallow; that is allowed (a warning) unless it goes below the deepest crouch.
-    fn check_landing_depth(&mut self) -> Result<(), NodeError> {
-        let (t, low) = self.extreme(Phase::Landing, self.landing.start(), self.landing.end(), false, |st| {
-            st.trunk.position[2]
-        });
-        let planned = self.trunk_takeoff[0] - self.spec.landing_depth;
-        let floor = self.body.trunk_standing - deepest_crouch(self.spec.body_height);
-        if low < floor {
-            return Err(NodeError::new(format!(
-                "the landing sinks to {:.3} m at {}, below the deepest crouch ({:.3} m, hips at knee height), and comes \
-                 back up: the touch-down is too fast to stop within `landing_depth` {:.3} m in `landing_duration` \
-                 {:.3} s; make `landing_depth` larger or `landing_duration` shorter",
-                low,
-                self.at(t),
-                floor,
-                self.spec.landing_depth,
-                self.spec.landing_duration
-            )));
-        }
-        if planned - low > 0.005 {
-            self.warnings.push(format!(
-                "the landing sinks {:.3} m below its planned lowest point (at {}) and comes back up: the touch-down \
-                 is fast for `landing_depth` {:.3} m in `landing_duration` {:.3} s (a larger depth or a shorter \
-                 duration avoids it)",
-                planned - low,
-                self.at(t),
-                self.spec.landing_depth,
-                self.spec.landing_duration
+    /// The legs must reach the ground wherever the plan puts the centre of mass in contact:
+    /// sampled over every contact interval (121 times each), the pose the body takes there
+    /// may not ask the legs for more than their length (1 micrometre allowed for the solver).
+    fn check_reach(&self) -> Result<(), NodeError> {
+        let mut intervals = self.contact_intervals();
+        if self.arms.moves() {
+            intervals.push((
+                Phase::Standing,
+                self.arms.start.min(self.countermovement_start),
+                self.countermovement_start,
             ));
         }
+        for (phase, t0, t1) in intervals {
+            if t1 <= t0 {
+                continue;
+            }
+            let n = 120;
+            for i in 0..=n {
+                let t = t0 + (t1 - t0) * f64::from(i) / f64::from(n);
+                let l = self.limbs(t);
+                let short = l.overreach;
+
+                if short <= 1e-6 {
+                    continue;
+                }
+                let change = match phase {
+                    Phase::Unweighting | Phase::Braking | Phase::Propulsion => {
+                        "reduce `takeoff_extension`, or move the arm swing (`arm_swing_start`, `arm_swing_duration`)"
+                    }
+                    Phase::Landing | Phase::Recovery => {
+                        "make `landing_duration` longer or `landing_depth` larger, or reduce `takeoff_extension`"
+                    }
+                    _ => "move the arm swing (`arm_swing_start`, `arm_swing_duration`, `arm_swing_to`)",
+                };
+                return Err(NodeError::new(format!(
+                    "during {} at {} the feet cannot stay on the ground: the legs would have to be {:.3} m longer \
+                     to hold the planned centre of mass; {}",
+                    phase.name(),
+                    self.at(t),
+                    short,
+                    change
+                )));
+            }
+        }
         Ok(())
     }
+}
+
+/// The body standing on straight legs with the balls of the feet at `ball_x`, the ankles
+/// lifted by `lift` and the arms at `arm_angle`, its centre of mass over x = 0: the pelvis
+/// slides along the circle the straight legs allow until the segments balance (Newton on x
+/// with a difference derivative). Returns the joints and the centre of mass.
+pub fn straight_pose(body: &Body, arm_angle: f64, ball_x: f64, lift: f64) -> (Limbs, [f64; 3]) {
+    let feet = body.planted_feet(ball_x, lift);
+    let a = feet.ankle[0];
+    let len = body.leg_length();
+    let at = |x: f64| {
+        let dx = (x - a[0]).clamp(-len, len);
+        let p = [x, 0.0, a[2] + (len * len - dx * dx).sqrt()];
+        let l = body.limbs(p, arm_angle, &feet);
+        let c = body.centres(&l).0;
+        (l, c)
+    };
+    let mut x = a[0];
+    for _ in 0..50 {
+        let c = at(x).1[0];
+        if c.abs() < 1e-13 {
+            break;
+        }
+        let e = 1e-7;
+        let slope = (at(x + e).1[0] - c) / e;
+        if slope.abs() < 1e-12 {
+            break;
+        }
+        x -= c / slope;
+    }
+    at(x)
 }
 
 /// A planned standing countermovement jump of a segmented body.
@@ -720,6 +934,16 @@ impl Plan {
 pub struct Jump;
 
 const DEG: f64 = std::f64::consts::PI / 180.0;
+
+/// Default crouch depth, fraction of body height: 0.30 m at 1.65 m (common practice, no
+/// source; measured countermovement depths of adults are of this order).
+const CROUCH: f64 = 0.18;
+/// Default ankle lift at take-off, fraction of body height (about 45 degrees of plantar
+/// flexion of a foot of Drillis & Contini's proportions; common practice, no source).
+const EXTENSION: f64 = 0.04;
+/// Default landing depth below standing, fraction of body height (common practice, no
+/// source).
+const LANDING: f64 = 0.10;
 
 impl Node for Jump {
     fn spec() -> NodeSpec {
@@ -736,44 +960,41 @@ impl Node for Jump {
             doc: "Planned standing countermovement jump of the whole-body centre of mass, with a segmented body and \
                   an arm swing."
                 .into(),
-            notes: "Method: a two-part body. Both arms (each one rigid segment, shoulder to wrist, Dempster's total \
-                    arm: 0.050 of body mass, centre of mass at 0.530 of the shoulder-to-wrist length, Winter 2009, \
-                    Biomechanics and Motor Control of Human Movement, Table 4.1; upper arm 0.186 H + forearm 0.146 H, \
-                    shoulder at 0.818 H, Drillis & Contini as drawn in Winter Fig. 4.1) swing about the shoulders in \
-                    the x-z plane on a quintic smoothstep; the rest of the body (the trunk: head, trunk, legs) \
-                    carries the shoulders. The whole-body COM is the mass-weighted sum. The trunk height in contact \
-                    is made of quintic segments that fix position, velocity and acceleration at both ends: standing \
-                    to the crouch (unweighting, braking), crouch to take-off (propulsion), touch-down to the lowest \
-                    point (landing), lowest point to standing (recovery). At take-off the trunk is \
-                    `takeoff_extension` above standing, at the speed `plan_by` sets, with the acceleration that makes \
-                    the whole-body acceleration exactly -g, so the ground force falls to zero there; in `rise` mode \
-                    the take-off speed is solved in closed form from apex = take-off height + v^2 / (2 g) given the \
-                    arms' contribution. Flight: the whole-body COM follows the exact parabola; the trunk is what \
-                    makes the mass-weighted sum equal it, so an arm swing in flight moves the trunk and the feet, \
-                    not the COM. Touch-down is the first return of the feet (trunk height minus its take-off height) \
-                    to the ground, found by bisection to 1e-12 s; the landing starts from the trunk's state there \
-                    with whole-body acceleration -g. In contact the whole-body COM stays over the feet (x = 0) and \
-                    the trunk shifts opposite the arms; in flight the horizontal momentum is zero. Everything is \
-                    evaluated in closed form at each frame time, so any frame rate works. Ground force in body \
-                    weights is (g + a_z) / g. Segment numbers were written from memory of Winter's table and \
-                    checked by their sum; the head-centre height (0.936 H) and knee height (0.285 H) are from \
-                    memory.\n\
-                    Limits: a kinematic planner, not a muscle model. The take-off speed is prescribed, not produced \
-                    by forces; in `speed` mode the arms add their momentum on top of the trunk speed (no reaction of \
-                    the swing on the legs). The crouch is a rest point, so the ground force passes one body weight \
-                    at the bottom (measured jumps typically push hardest near there). Vertical jumps only. Landmarks (head, chest, \
-                    hips, neck, shoulders, hip joints) ride rigidly on the trunk COM; each arm is one straight \
-                    segment at the arm angle (upper_arm at the shoulder, forearm at the elbow 0.186 H along it, hand \
-                    at the wrist 0.332 H along it), and each leg a thigh (0.245 H) and a shank (0.246 H) bent forward \
-                    at the knee to an ankle under the centre of mass at the feet's height (straight where out of \
-                    reach); each segment's transform points its local -Z along it, so a capsule collider from one \
-                    joint to the next is the limb (shoulder and hip widths 0.259 H and 0.191 H, ankle height \
-                    0.039 H: from memory of Winter's Fig. 4.1). The arms stay at `arm_swing_to` after the swing, so \
-                    the COM stands higher after the recovery than before the jump when they end up raised. `body_mass` scales forces only: every output here depends \
-                    on mass fractions, not on the mass. Errors: a ground that would have to pull (force below zero \
-                    in contact), a crouch or landing deeper than hips at knee height, an apex below the take-off \
-                    height, a touch-down before the apex, legs that would not leave the ground. Frames that do not \
-                    cover the whole jump are allowed, with a warning."
+            notes: "Method: the whole-body centre of mass (COM) follows a ground-force profile of the measured \
+                    shape, integrated in closed form, so force and motion always agree (force = m (g + a_z)). From \
+                    quiet standing: the unweighting (force below body weight, a smooth dip of 30 u^2 (1 - u)^2), \
+                    the braking (force rising on a quintic smoothstep to its largest value exactly at the lowest \
+                    point, where the COM is at rest `crouch_depth` below standing), the push (that force held for \
+                    the share `push_hold` of the push, then declining as the square of the time to zero at \
+                    take-off, where it falls steeply as in measured records). The \
+                    take-off speed follows from `plan_by`; the push's force and duration follow from it and the \
+                    distance from the lowest point to the take-off height (a quadratic in the force, solved in \
+                    closed form), the split of `countermovement_duration` into unweighting and braking from the \
+                    force at the lowest point (another quadratic). Flight: the exact parabola. Landing: from \
+                    touch-down (no force yet) the force rises and falls back to one body weight at the lowest \
+                    point, `landing_depth` below standing; its duration follows from that depth and the touch-down \
+                    speed (a quadratic), and the body never comes back up before the lowest point. Recovery: a \
+                    quintic back to standing in `recovery_duration`. The body: Dempster's segments as tabulated by \
+                    Winter (2009, Biomechanics and Motor Control of Human Movement, Table 4.1) on Drillis & \
+                    Contini's proportions (Winter Fig. 4.1): head and neck (C7-T1 to the head joint at eye level), \
+                    an upright trunk (hips to shoulders), both arms swinging together as straight lines (upper arm, \
+                    forearm, hand to 0.4 forearm lengths past the wrist), thighs and shanks bending forward at the \
+                    knees, feet from the ankle to the ball. At every frame in contact the pelvis and knees are \
+                    placed (Newton's method) so that the segments' COM is the planned COM to 1e-12 m; in the air \
+                    the body keeps its take-off shape but for the arms, so an arm swing in flight moves the trunk \
+                    and the feet, not the COM. The ankles rise onto the balls of the feet by `takeoff_extension` \
+                    over the second half of the push and come down over the first half of the landing. In \
+                    `takeoff_speed` mode the legs give the body that speed and the arms add their share (arm mass \
+                    times the vertical speed of their centre about the shoulders). Touch-down is the first return \
+                    of the balls of the feet to the ground, by bisection to 1e-12 s. Everything is evaluated in \
+                    closed form at each frame time, so any frame rate works.\n\
+                    Limits: a planner, not a muscle model: the force's shape is prescribed (single plateau; \
+                    measured jumps are often two-peaked). Vertical jumps: the COM stays over the balls' line in \
+                    contact and has no horizontal speed. The trunk stays upright. Errors name the parameter to \
+                    change: a crouch, landing or ankle lift the body cannot make, a countermovement too quick for \
+                    its depth or too slow for the push, an apex below the take-off height, a touch-down before the \
+                    apex, arms that carry the whole take-off, legs too short for the planned COM. Frames that do \
+                    not cover the whole jump are allowed, with a warning."
                 .into(),
             inputs: vec![],
             outputs: vec![
@@ -791,7 +1012,7 @@ impl Node for Jump {
                 vec3(
                     "trunk_position",
                     Dimension::Length,
-                    "Centre of mass of the body without the arms.",
+                    "Centre of mass of the body without the arms (the segments' sum).",
                 ),
                 PortSpec::new(
                     "foot_height",
@@ -805,15 +1026,25 @@ impl Node for Jump {
                     Dimension::Dimensionless,
                     "1 while the feet are on the ground.",
                 ),
-                transform("head", "Head centre riding on the trunk (identity rotation)."),
-                transform("chest", "Chest (nipple line) riding on the trunk (identity rotation)."),
                 transform(
-                    "hips",
-                    "Hips (greater trochanter level) riding on the trunk (identity rotation).",
+                    "head",
+                    "Head joint at eye level on the upright trunk (identity rotation): the end of Winter's head \
+                     and neck segment.",
                 ),
-                transform("neck", "Base of the neck, at shoulder height on the trunk (identity rotation)."),
-                transform("shoulder_l", "Left shoulder joint (+Y side) on the trunk (identity rotation)."),
-                transform("shoulder_r", "Right shoulder joint (-Y side) on the trunk (identity rotation)."),
+                transform("chest", "Chest (nipple line) on the upright trunk (identity rotation)."),
+                transform("hips", "Pelvis: the mid-point of the hip joints (identity rotation)."),
+                transform(
+                    "neck",
+                    "Base of the neck, at shoulder height on the trunk (identity rotation).",
+                ),
+                transform(
+                    "shoulder_l",
+                    "Left shoulder joint (+Y side) on the trunk (identity rotation).",
+                ),
+                transform(
+                    "shoulder_r",
+                    "Right shoulder joint (-Y side) on the trunk (identity rotation).",
+                ),
                 transform(
                     "upper_arm_l",
                     "Left upper arm: at the shoulder joint, local -Z along the arm to the elbow.",
@@ -822,16 +1053,42 @@ impl Node for Jump {
                     "upper_arm_r",
                     "Right upper arm: at the shoulder joint, local -Z along the arm to the elbow.",
                 ),
-                transform("forearm_l", "Left forearm: at the elbow, local -Z along the arm to the wrist."),
-                transform("forearm_r", "Right forearm: at the elbow, local -Z along the arm to the wrist."),
+                transform(
+                    "forearm_l",
+                    "Left forearm: at the elbow, local -Z along the arm to the wrist.",
+                ),
+                transform(
+                    "forearm_r",
+                    "Right forearm: at the elbow, local -Z along the arm to the wrist.",
+                ),
                 transform("hand_l", "Left hand: at the wrist, local -Z along the arm."),
                 transform("hand_r", "Right hand: at the wrist, local -Z along the arm."),
-                transform("thigh_l", "Left thigh: at the hip joint, local -Z along the thigh to the knee."),
-                transform("thigh_r", "Right thigh: at the hip joint, local -Z along the thigh to the knee."),
-                transform("shin_l", "Left shank: at the knee, local -Z along the shank to the ankle."),
-                transform("shin_r", "Right shank: at the knee, local -Z along the shank to the ankle."),
-                transform("foot_l", "Left ankle (identity rotation)."),
-                transform("foot_r", "Right ankle (identity rotation)."),
+                transform(
+                    "thigh_l",
+                    "Left thigh: at the hip joint, local -Z along the thigh to the knee.",
+                ),
+                transform(
+                    "thigh_r",
+                    "Right thigh: at the hip joint, local -Z along the thigh to the knee.",
+                ),
+                transform(
+                    "shin_l",
+                    "Left shank: at the knee, local -Z along the shank to the ankle.",
+                ),
+                transform(
+                    "shin_r",
+                    "Right shank: at the knee, local -Z along the shank to the ankle.",
+                ),
+                transform(
+                    "foot_l",
+                    "Left foot: at the ankle, local -Z toward the ball of the foot.",
+                ),
+                transform(
+                    "foot_r",
+                    "Right foot: at the ankle, local -Z toward the ball of the foot.",
+                ),
+                transform("toe_l", "Ball of the left foot (identity rotation)."),
+                transform("toe_r", "Ball of the right foot (identity rotation)."),
                 PortSpec::new(
                     "colliders",
                     PortKind::Points,
@@ -856,59 +1113,73 @@ impl Node for Jump {
                     "body_height",
                     1.65,
                     (0.8, 2.5),
-                    "Body height H; segment lengths scale with it.",
-                ),
-                length(
-                    "standing_com_height",
-                    0.55 * 1.65,
-                    (0.3, 1.5),
-                    "Whole-body COM height in quiet standing, arms at `arm_swing_from` (0.45 H to 0.65 H).",
+                    "Body height H; segment lengths, and the lengths below unless set, scale with it.",
                 ),
                 length(
                     "crouch_depth",
-                    0.28,
-                    (0.0, 1.0),
-                    "How far the trunk COM goes down in the countermovement (at most 0.245 H).",
-                ),
+                    CROUCH * 1.65,
+                    (0.01, 1.0),
+                    "How far the whole-body centre of mass goes down in the countermovement (at most 0.245 H); \
+                     default 0.18 H.",
+                )
+                .scaled_by("body_height", CROUCH),
                 ParamSpec::choice(
                     "plan_by",
-                    &["rise", "takeoff_speed"],
-                    "What the jump is planned by: `rise`, the apex reached; `takeoff_speed`, the speed the legs give \
-                     the trunk.",
+                    &["jump_height", "rise", "takeoff_speed"],
+                    "What the jump is planned by: `jump_height`, the centre of mass's rise from take-off to the apex \
+                     (what a force plate measures); `rise`, the apex above standing; `takeoff_speed`, the speed the \
+                     legs give the body.",
+                ),
+                length(
+                    "jump_height",
+                    0.30,
+                    (0.01, 2.0),
+                    "With plan_by = jump_height: the centre of mass's rise from take-off to the apex, v^2 / (2 g).",
                 ),
                 length(
                     "rise",
-                    0.35,
+                    0.40,
                     (0.01, 2.0),
-                    "With plan_by = rise: whole-body COM apex above `standing_com_height`.",
+                    "With plan_by = rise: whole-body apex above the standing centre of mass.",
                 ),
                 ParamSpec::number(
                     "takeoff_speed",
                     Dimension::Velocity,
-                    2.6,
+                    2.4,
                     (0.1, 8.0),
-                    "With plan_by = takeoff_speed: vertical speed of the trunk (body without arms) at take-off; arms add theirs.",
+                    "With plan_by = takeoff_speed: vertical speed the legs give the body at take-off; the arms add \
+                     theirs.",
                 ),
                 length(
                     "takeoff_extension",
-                    0.10,
+                    EXTENSION * 1.65,
                     (0.0, 0.3),
-                    "Trunk COM at take-off above standing (hip, knee, ankle extension onto the toes).",
-                ),
+                    "How far the ankles rise onto the balls of the feet by take-off, the legs straight; default \
+                     0.04 H.",
+                )
+                .scaled_by("body_height", EXTENSION),
                 time(
                     "countermovement_duration",
-                    0.50,
+                    0.55,
                     (0.05, 5.0),
-                    "Unweighting and braking, standing to the crouch.",
+                    "Unweighting and braking, standing to the lowest point.",
                 ),
-                time("push_duration", 0.30, (0.05, 5.0), "Propulsion, crouch to take-off."),
+                ParamSpec::number(
+                    "push_hold",
+                    Dimension::Dimensionless,
+                    0.5,
+                    (0.0, 0.9),
+                    "Share of the push held at the force of the lowest point before the force declines to zero at \
+                     take-off; the push's duration follows.",
+                ),
                 length(
                     "landing_depth",
-                    0.15,
+                    LANDING * 1.65,
                     (0.01, 1.0),
-                    "Trunk COM at the lowest point of the landing below its take-off height.",
-                ),
-                time("landing_duration", 0.20, (0.02, 5.0), "Touch-down to the lowest point."),
+                    "Whole-body centre of mass at the lowest point of the landing below standing (the landing's \
+                     duration follows from it and the touch-down speed); default 0.10 H.",
+                )
+                .scaled_by("body_height", LANDING),
                 time(
                     "recovery_duration",
                     0.60,
@@ -936,11 +1207,9 @@ impl Node for Jump {
                     "Arm angle after the swing, default 160 deg; equal to `arm_swing_from` for no swing.",
                 ),
                 // Swing timing defaults: starting 0.30 s before take-off and lasting 0.45 s puts
-                // the arms at about 118 deg and still rising at take-off, so the swing adds both
-                // take-off height and speed (with plan_by = takeoff_speed: 27 % of the no-swing rise, 30 % of
-                // the gain from height; Lees, Vanrenterghem & De Clercq 2004, J Biomech
-                // 37:1929-40, report 28 % from height). A 0.30 s swing would end at take-off with
-                // the arms at rest, adding height only.
+                // the arms high and still rising at take-off, so the swing adds both take-off
+                // height and speed (tests/jump.rs measures the share against Lees,
+                // Vanrenterghem & De Clercq 2004, J Biomech 37:1929-40).
                 time(
                     "arm_swing_start",
                     -0.30,
@@ -954,17 +1223,53 @@ impl Node for Jump {
                 SummarySpec::new(
                     "takeoff_speed",
                     Dimension::Velocity,
-                    "Whole-body vertical COM speed at take-off.",
+                    "Whole-body vertical centre-of-mass speed at take-off.",
                 ),
                 SummarySpec::new(
                     "takeoff_height",
                     Dimension::Length,
-                    "Whole-body COM height at take-off.",
+                    "Whole-body centre-of-mass height at take-off.",
                 ),
-                SummarySpec::new("apex_height", Dimension::Length, "Whole-body COM apex."),
-                SummarySpec::new("rise", Dimension::Length, "Apex minus the standing COM height."),
+                SummarySpec::new("apex_height", Dimension::Length, "Whole-body apex."),
+                SummarySpec::new("rise", Dimension::Length, "Apex minus the standing centre of mass."),
+                SummarySpec::new(
+                    "jump_height",
+                    Dimension::Length,
+                    "Apex minus the take-off height, v^2 / (2 g).",
+                ),
+                SummarySpec::new(
+                    "standing_com_height",
+                    Dimension::Length,
+                    "Centre of mass in quiet standing, from the segments.",
+                ),
                 SummarySpec::new("flight_time", Dimension::Time, "Take-off to touch-down."),
                 SummarySpec::new("touchdown_time", Dimension::Time, "Time of touch-down."),
+                SummarySpec::new(
+                    "unweighting_duration",
+                    Dimension::Time,
+                    "Ground force below body weight.",
+                ),
+                SummarySpec::new(
+                    "braking_duration",
+                    Dimension::Time,
+                    "From body weight to the lowest point.",
+                ),
+                SummarySpec::new("push_duration", Dimension::Time, "Lowest point to take-off."),
+                SummarySpec::new(
+                    "landing_duration",
+                    Dimension::Time,
+                    "Touch-down to the lowest point of the landing.",
+                ),
+                SummarySpec::new(
+                    "least_unweighting_force",
+                    Dimension::BodyWeight,
+                    "Least ground force of the unweighting.",
+                ),
+                SummarySpec::new(
+                    "lowest_point_force",
+                    Dimension::BodyWeight,
+                    "Ground force at the lowest point, the push's largest.",
+                ),
                 SummarySpec::new(
                     "peak_landing_force",
                     Dimension::BodyWeight,
@@ -1014,43 +1319,51 @@ impl Node for Jump {
                 ));
             }
         }
-        io.summary("takeoff_time", plan.takeoff_time)?;
-        io.summary("takeoff_speed", plan.takeoff_speed)?;
-        io.summary("takeoff_height", plan.takeoff_height)?;
-        io.summary("apex_height", plan.apex_height)?;
-        io.summary("rise", plan.apex_height - spec.standing_com_height)?;
-        io.summary("flight_time", plan.touchdown_time - plan.takeoff_time)?;
-        io.summary("touchdown_time", plan.touchdown_time)?;
-        io.summary("peak_landing_force", plan.peak_landing_force)?;
+        let [t_u, t_b, t_p] = plan.durations;
+        for (name, value) in [
+            ("takeoff_time", plan.takeoff_time),
+            ("takeoff_speed", plan.takeoff_speed),
+            ("takeoff_height", plan.takeoff_height),
+            ("apex_height", plan.apex_height),
+            ("rise", plan.apex_height - plan.standing_height),
+            ("jump_height", plan.apex_height - plan.takeoff_height),
+            ("standing_com_height", plan.standing_height),
+            ("flight_time", plan.touchdown_time - plan.takeoff_time),
+            ("touchdown_time", plan.touchdown_time),
+            ("unweighting_duration", t_u),
+            ("braking_duration", t_b),
+            ("push_duration", t_p),
+            ("landing_duration", plan.landing_duration),
+            ("least_unweighting_force", plan.least_unweighting_force),
+            ("lowest_point_force", plan.lowest_point_force),
+            ("peak_landing_force", plan.peak_landing_force),
+        ] {
+            io.summary(name, value)?;
+        }
 
-        let states: Vec<State> = (0..frames).map(|i| plan.state(tl.time(i))).collect();
+        let times: Vec<f64> = (0..frames).map(|i| tl.time(i)).collect();
+        let states: Vec<State> = times.iter().map(|&t| plan.state(t)).collect();
+        let limbs: Vec<Limbs> = times.iter().map(|&t| plan.limbs(t)).collect();
         io.fill("com_position", |i, out| out.copy_from_slice(&states[i].com.position))?;
         io.fill("com_velocity", |i, out| out.copy_from_slice(&states[i].com.velocity))?;
         io.fill("com_acceleration", |i, out| {
             out.copy_from_slice(&states[i].com.acceleration)
         })?;
-        io.fill("trunk_position", |i, out| {
-            out.copy_from_slice(&states[i].trunk.position)
-        })?;
-        io.fill("foot_height", |i, out| out[0] = states[i].foot_height)?;
+        io.fill("trunk_position", |i, out| out.copy_from_slice(&plan.trunk(&limbs[i])))?;
+        io.fill("foot_height", |i, out| out[0] = plan.foot_height(times[i]))?;
         io.fill("contact", |i, out| out[0] = if states[i].contact { 1.0 } else { 0.0 })?;
         io.fill("arm_angle", |i, out| out[0] = states[i].arm_angle)?;
-        for (name, fraction) in [
-            ("head", proportions::HEAD_CENTRE),
-            ("chest", proportions::CHEST),
-            ("hips", proportions::HIP),
-        ] {
-            let dz = plan.body.landmark_offset(fraction);
-            io.fill(name, |i, out| {
-                let p = states[i].trunk.position;
-                out.copy_from_slice(&[p[0], p[1], p[2] + dz, 0.0, 0.0, 0.0, 1.0]);
-            })?;
-        }
-        let limbs: Vec<Limbs> = states.iter().map(|s| limbs(&plan.body, s)).collect();
         let put = |out: &mut [f64], p: [f64; 3], q: [f64; 4]| {
             out.copy_from_slice(&[p[0], p[1], p[2], q[0], q[1], q[2], q[3]]);
         };
         let identity = [0.0, 0.0, 0.0, 1.0];
+        let chest = (proportions::CHEST - proportions::HIP) * plan.body.height;
+        io.fill("head", |i, out| put(out, limbs[i].head, identity))?;
+        io.fill("chest", |i, out| {
+            let p = limbs[i].pelvis;
+            put(out, [p[0], p[1], p[2] + chest], identity);
+        })?;
+        io.fill("hips", |i, out| put(out, limbs[i].pelvis, identity))?;
         io.fill("neck", |i, out| put(out, limbs[i].neck, identity))?;
         for (side, k) in [("l", 0), ("r", 1)] {
             io.fill(&format!("shoulder_{side}"), |i, out| {
@@ -1079,21 +1392,17 @@ impl Node for Jump {
                     segment_rotation(limbs[i].knee[k], limbs[i].ankle[k]),
                 )
             })?;
-            io.fill(&format!("foot_{side}"), |i, out| put(out, limbs[i].ankle[k], identity))?;
+            io.fill(&format!("foot_{side}"), |i, out| {
+                put(
+                    out,
+                    limbs[i].ankle[k],
+                    segment_rotation(limbs[i].ankle[k], limbs[i].ball[k]),
+                )
+            })?;
+            io.fill(&format!("toe_{side}"), |i, out| put(out, limbs[i].ball[k], identity))?;
         }
-        let head = plan.body.landmark_offset(proportions::HEAD_CENTRE);
-        let hips = plan.body.landmark_offset(proportions::HIP);
         io.fill("colliders", |i, out| {
-            let t = states[i].trunk.position;
-            colliders::write_frame(
-                out,
-                &body_colliders(
-                    &limbs[i],
-                    [t[0], t[1], t[2] + head],
-                    [t[0], t[1], t[2] + hips],
-                    plan.body.height,
-                ),
-            );
+            colliders::write_frame(out, &body_colliders(&limbs[i], plan.body.height));
         })?;
         Ok(())
     }
@@ -1105,7 +1414,7 @@ pub const BODY_COLLIDERS: usize = 12;
 /// The body's colliders at one state, in the order of the `colliders` output: head, trunk,
 /// upper arms, forearms, thighs, shanks, feet (left before right), radii in
 /// [`collider_radii`] times the body height `h`.
-pub fn body_colliders(l: &Limbs, head: [f64; 3], hips: [f64; 3], h: f64) -> [Capsule; BODY_COLLIDERS] {
+pub fn body_colliders(l: &Limbs, h: f64) -> [Capsule; BODY_COLLIDERS] {
     use collider_radii as r;
     let limb = |a: [f64; 3], b: [f64; 3], radii: [f64; 2]| Capsule {
         start: a,
@@ -1114,8 +1423,8 @@ pub fn body_colliders(l: &Limbs, head: [f64; 3], hips: [f64; 3], h: f64) -> [Cap
         end_radius: radii[1] * h,
     };
     [
-        Capsule::sphere(head, r::HEAD * h),
-        limb(hips, l.neck, [r::TRUNK; 2]),
+        Capsule::sphere(l.head, r::HEAD * h),
+        limb(l.pelvis, l.neck, [r::TRUNK; 2]),
         limb(l.shoulder[0], l.elbow[0], r::UPPER_ARM),
         limb(l.shoulder[1], l.elbow[1], r::UPPER_ARM),
         limb(l.elbow[0], l.wrist[0], r::FOREARM),
@@ -1127,73 +1436,4 @@ pub fn body_colliders(l: &Limbs, head: [f64; 3], hips: [f64; 3], h: f64) -> [Cap
         Capsule::sphere(l.ankle[0], r::FOOT * h),
         Capsule::sphere(l.ankle[1], r::FOOT * h),
     ]
-}
-
-/// The body's joints at one state, world space (x forward, y to the left, z up): both sides,
-/// left (+y) first.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Limbs {
-    /// Base of the neck: the mid-point of the shoulders.
-    pub neck: [f64; 3],
-    /// Shoulder joints.
-    pub shoulder: [[f64; 3]; 2],
-    /// Elbows: the upper arm's length along the arm.
-    pub elbow: [[f64; 3]; 2],
-    /// Wrists: the whole arm's length along the arm.
-    pub wrist: [[f64; 3]; 2],
-    /// The arms' rotation (both swing together): local -Z along the arm.
-    pub arm_rotation: [f64; 4],
-    /// Hip joints.
-    pub hip: [[f64; 3]; 2],
-    /// Knees, bending forward.
-    pub knee: [[f64; 3]; 2],
-    /// Ankles: under the centre of mass (x = 0) at the feet's height above ankle height, or
-    /// at the end of a straight leg where that is out of reach.
-    pub ankle: [[f64; 3]; 2],
-}
-
-/// The joints of `body` at `state`: shoulders and hips ride on the trunk at their heights
-/// and half their widths (Drillis & Contini 1966, as drawn in Winter 2009, Fig. 4.1; the
-/// widths and the ankle height from memory), each arm is one straight segment at the arm
-/// angle (0 hanging down, forward and up positive) with the elbow at the upper arm's length,
-/// and each leg is a thigh (hip to knee height) and a shank (knee to ankle height) bent
-/// forward at the knee to reach the ankle.
-pub fn limbs(body: &Body, state: &State) -> Limbs {
-    let h = body.height;
-    let t = state.trunk.position;
-    let at = |fraction: f64, side: f64, half_width: f64| {
-        [
-            t[0],
-            t[1] + side * half_width * h,
-            t[2] + body.landmark_offset(fraction),
-        ]
-    };
-    let sides = [1.0, -1.0];
-    let shoulder = sides.map(|s| at(proportions::SHOULDER, s, 0.5 * proportions::SHOULDER_WIDTH));
-    let (sin, cos) = state.arm_angle.sin_cos();
-    let along = |p: [f64; 3], length: f64| [p[0] + length * sin, p[1], p[2] - length * cos];
-    let elbow = shoulder.map(|p| along(p, proportions::UPPER_ARM * h));
-    let wrist = shoulder.map(|p| along(p, (proportions::UPPER_ARM + proportions::FOREARM) * h));
-    let arm_rotation = segment_rotation([0.0; 3], along([0.0; 3], 1.0));
-    let hip = sides.map(|s| at(proportions::HIP, s, 0.5 * proportions::HIP_WIDTH));
-    let (l1, l2) = (
-        (proportions::HIP - proportions::KNEE) * h,
-        (proportions::KNEE - proportions::ANKLE) * h,
-    );
-    let mut knee = [[0.0; 3]; 2];
-    let mut ankle = [[0.0; 3]; 2];
-    for k in 0..2 {
-        let foot = [0.0, hip[k][1], state.foot_height + proportions::ANKLE * h];
-        (knee[k], ankle[k]) = leg(hip[k], foot, l1, l2);
-    }
-    Limbs {
-        neck: [t[0], t[1], t[2] + body.landmark_offset(proportions::SHOULDER)],
-        shoulder,
-        elbow,
-        wrist,
-        arm_rotation,
-        hip,
-        knee,
-        ankle,
-    }
 }

@@ -67,6 +67,71 @@ impl Quintic {
     }
 }
 
+/// A stretch of motion whose acceleration is a polynomial in the normalised time
+/// u = (t - t0) / duration, integrated in closed form from a start position and velocity:
+/// position z(u) = z0 + v0 T u + T^2 sum a_k u^(k+2) / ((k+1)(k+2)), T the duration.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Piece {
+    t0: f64,
+    duration: f64,
+    /// Position coefficients of u^0 .. u^7.
+    c: [f64; 8],
+}
+
+impl Piece {
+    /// The piece from `z0`, `v0` at `t0` whose acceleration is sum `accel[k]` u^k (m/s^2;
+    /// at most degree 5). `duration` must be positive.
+    pub fn from_acceleration(t0: f64, duration: f64, z0: f64, v0: f64, accel: &[f64]) -> Piece {
+        let t = duration;
+        let mut c = [0.0; 8];
+        c[0] = z0;
+        c[1] = v0 * t;
+        for (k, a) in accel.iter().enumerate().take(6) {
+            let k = k as f64;
+            c[k as usize + 2] = a * t * t / ((k + 1.0) * (k + 2.0));
+        }
+        Piece { t0, duration, c }
+    }
+
+    /// A [`Quintic`] as a piece.
+    pub fn from_quintic(q: &Quintic) -> Piece {
+        let mut c = [0.0; 8];
+        c[..6].copy_from_slice(&q.c);
+        Piece {
+            t0: q.t0,
+            duration: q.duration,
+            c,
+        }
+    }
+
+    /// Start time.
+    pub fn start(&self) -> f64 {
+        self.t0
+    }
+
+    /// End time.
+    pub fn end(&self) -> f64 {
+        self.t0 + self.duration
+    }
+
+    /// Position, velocity and acceleration at `t` (the polynomial continues outside).
+    pub fn eval(&self, t: f64) -> [f64; 3] {
+        let u = (t - self.t0) / self.duration;
+        let (mut p, mut v, mut a) = (0.0, 0.0, 0.0);
+        for k in (0..8).rev() {
+            let kf = k as f64;
+            p = p * u + self.c[k];
+            if k >= 1 {
+                v = v * u + kf * self.c[k];
+            }
+            if k >= 2 {
+                a = a * u + kf * (kf - 1.0) * self.c[k];
+            }
+        }
+        [p, v / self.duration, a / (self.duration * self.duration)]
+    }
+}
+
 /// The quintic smoothstep s(u) = 10 u^3 - 15 u^4 + 6 u^5 and its first two derivatives in u,
 /// clamped to 0 before u = 0 and 1 after u = 1. s, s' and s'' are continuous at both ends
 /// (s' = s'' = 0 there), so a motion built on it is C2.
@@ -120,6 +185,54 @@ mod tests {
             let u = f64::from(k) / 20.0;
             let s = smoothstep(u)[0];
             assert!((q.eval(u * t)[0] + d * s).abs() < 1e-14);
+        }
+    }
+
+    /// A piece integrates its acceleration polynomial exactly: against the composite
+    /// Simpson rule of the acceleration (velocity) and of the velocity (position), which is
+    /// exact for polynomials of degree 3 per panel and converges as h^4 otherwise.
+    #[test]
+    fn a_piece_integrates_its_acceleration() {
+        let accel = [1.5, -2.0, 30.0, -60.0, 30.0, 4.0];
+        let p = Piece::from_acceleration(0.7, 0.25, 0.9, -0.4, &accel);
+        let a = |t: f64| {
+            let u = (t - 0.7) / 0.25;
+            accel.iter().rev().fold(0.0, |s, c| s * u + c)
+        };
+        let simpson = |f: &dyn Fn(f64) -> f64, t0: f64, t1: f64| {
+            let n = 2000;
+            let h = (t1 - t0) / n as f64;
+            (0..=n)
+                .map(|i| {
+                    let w = if i == 0 || i == n {
+                        1.0
+                    } else if i % 2 == 1 {
+                        4.0
+                    } else {
+                        2.0
+                    };
+                    w * f(t0 + h * i as f64)
+                })
+                .sum::<f64>()
+                * h
+                / 3.0
+        };
+        for t in [0.7, 0.8, 0.95] {
+            let [z, v, acc] = p.eval(t);
+            assert!((acc - a(t)).abs() < 1e-12);
+            let v_want = -0.4 + simpson(&|s| a(s), 0.7, t);
+            assert!((v - v_want).abs() < 1e-10, "{v} vs {v_want}");
+            let z_want = 0.9 + simpson(&|s| p.eval(s)[1], 0.7, t);
+            assert!((z - z_want).abs() < 1e-10, "{z} vs {z_want}");
+        }
+        let q = Quintic::new(0.1, 0.3, [1.0, 0.2, -3.0], [0.5, 0.0, 0.0]);
+        let pq = Piece::from_quintic(&q);
+        for k in 0..=10 {
+            let t = 0.1 + 0.03 * f64::from(k);
+            let (x, y) = (q.eval(t), pq.eval(t));
+            for i in 0..3 {
+                assert!((x[i] - y[i]).abs() < 1e-12 * (1.0 + x[i].abs()));
+            }
         }
     }
 
