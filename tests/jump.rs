@@ -323,3 +323,55 @@ fn skirt_and_sash_stay_outside_the_whole_body() {
     assert!(nearest < 1e-6, "the strands do rest on the body: {nearest}");
     assert!(lowest_sash < 1e-3, "the sash reaches the floor: {lowest_sash}");
 }
+
+/// The broad-jump example through the real plugins and the CLI: it runs without a warning,
+/// its centre of mass (com.csv) moves forward and ends `jump_distance` ahead, its flight is
+/// a straight line in x (constant forward speed: free flight, second differences of x zero to
+/// 1e-12 m) and `heft audit` finds nothing wrong with it.
+#[test]
+fn the_broad_jump_example_runs_flies_straight_forward_and_audits_clean() {
+    let out = tempfile::tempdir().expect("temp dir");
+    let o = heft()
+        .args(["run", "graphs/broad_jump.graph", "--out"])
+        .arg(out.path())
+        .output()
+        .expect("runs");
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{err}");
+    assert!(!err.contains("warning"), "{err}");
+    let (header, rows) = read_csv(&out.path().join("com.csv"));
+    let x = header
+        .iter()
+        .position(|h| h.starts_with("bo.com_position.x"))
+        .expect("x column");
+    let (_, contact) = read_csv(&out.path().join("bo.contact.csv"));
+    let run: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.path().join("run.json")).expect("run.json")).expect("json");
+    let distance = run["summaries"]
+        .as_array()
+        .expect("summaries")
+        .iter()
+        .find(|s| s["node"] == "bo" && s["name"] == "jump_distance")
+        .and_then(|s| s["value"].as_f64())
+        .expect("jump_distance");
+    assert!((rows[rows.len() - 1][x] - distance).abs() < 1e-9, "{distance}");
+    assert!(distance > 1.0, "{distance}");
+    let mut straight = 0;
+    for i in 1..rows.len() - 1 {
+        if contact[i - 1][2] == 0.0 && contact[i][2] == 0.0 && contact[i + 1][2] == 0.0 {
+            assert!(
+                (rows[i + 1][x] - 2.0 * rows[i][x] + rows[i - 1][x]).abs() < 1e-12,
+                "frame {i}"
+            );
+            straight += 1;
+        }
+    }
+    assert!(straight >= 5, "{straight} flight frames");
+    let o = heft()
+        .args(["audit", "graphs/broad_jump.graph"])
+        .output()
+        .expect("runs");
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert_eq!(o.status.code(), Some(0), "{text}");
+    assert!(text.contains("1 flight, 0 errors, 0 warnings"), "{text}");
+}

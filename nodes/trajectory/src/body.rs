@@ -377,7 +377,7 @@ impl Body {
             self.limbs(p, arm_angle, feet)
         };
         let balanced = |phi: f64| {
-            let mut x = a[0] + target[0] - self.centres(&pose(a[0], phi)).0[0] + a[0];
+            let mut x = a[0] + target[0] - self.centres(&pose(a[0], phi)).0[0];
             for _ in 0..50 {
                 let c = self.centres(&pose(x, phi)).0[0];
                 let r = target[0] - c;

@@ -101,6 +101,8 @@ pub struct JumpSpec {
     pub arm_swing_start: f64,
     /// Length of the swing (s).
     pub arm_swing_duration: f64,
+    /// Forward speed at take-off (m/s): 0 for a vertical jump, more for a standing broad jump.
+    pub forward_speed: f64,
     /// Frames per second, used only to name frames in messages.
     pub frame_rate: f64,
 }
@@ -140,6 +142,7 @@ impl JumpSpec {
             arm_swing_to: params.number("arm_swing_to")?,
             arm_swing_start: params.number("arm_swing_start")?,
             arm_swing_duration: params.number("arm_swing_duration")?,
+            forward_speed: params.number("forward_speed")?,
             frame_rate: timeline.fps(),
         })
     }
@@ -272,6 +275,47 @@ pub fn solve_landing(speed: f64, depth: f64) -> Option<(f64, f64)> {
     (t > 0.0).then(|| (t, speed / t + 0.5 * G))
 }
 
+/// The share of the push over which its horizontal force comes in.
+const LEAN_RAMP: f64 = 0.3;
+
+/// 8-point Gauss-Legendre nodes and weights on [-1, 1] (Abramowitz & Stegun 1964, Table
+/// 25.4): exact for polynomials of degree up to 15.
+const GAUSS8: [(f64, f64); 8] = [
+    (-0.960_289_856_497_536_2, 0.101_228_536_290_376_26),
+    (-0.796_666_477_413_626_7, 0.222_381_034_453_374_47),
+    (-0.525_532_409_916_329, 0.313_706_645_877_887_3),
+    (-0.183_434_642_495_649_8, 0.362_683_783_378_362),
+    (0.183_434_642_495_649_8, 0.362_683_783_378_362),
+    (0.525_532_409_916_329, 0.313_706_645_877_887_3),
+    (0.796_666_477_413_626_7, 0.222_381_034_453_374_47),
+    (0.960_289_856_497_536_2, 0.101_228_536_290_376_26),
+];
+
+/// int_t0^t f(s) ds and int_t0^t (t - s) f(s) ds for an `f` that is one polynomial between
+/// consecutive `breaks` (each stretch by [`GAUSS8`]).
+fn integrate_pieces(f: &dyn Fn(f64) -> f64, t0: f64, t: f64, breaks: &[f64]) -> (f64, f64) {
+    let mut cuts = vec![t0];
+    let mut inner: Vec<f64> = breaks.iter().copied().filter(|&b| b > t0 && b < t).collect();
+    inner.sort_by(f64::total_cmp);
+    cuts.extend(inner);
+    cuts.push(t);
+    let (mut v, mut x) = (0.0, 0.0);
+    for w in cuts.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        if b <= a {
+            continue;
+        }
+        let (mid, half) = (0.5 * (a + b), 0.5 * (b - a));
+        for (node, weight) in GAUSS8 {
+            let s = mid + half * node;
+            let fs = f(s) * weight * half;
+            v += fs;
+            x += (t - s) * fs;
+        }
+    }
+    (v, x)
+}
+
 /// The deepest dip of the unweighting's b(u) = 30 u^2 (1 - u)^2, at u = 1/2.
 const UNWEIGHTING_PEAK: f64 = 30.0 / 16.0;
 
@@ -323,8 +367,23 @@ pub struct Plan {
     pub ball_x: f64,
     /// Where they stand after it (x).
     pub landing_ball_x: f64,
-    /// The feet in the air, relative to the pelvis.
+    /// The feet at take-off, relative to the pelvis.
     pub flight_feet: Feet,
+    /// Forward speed at take-off (m/s).
+    pub forward_speed: f64,
+    /// The largest share of the push's vertical force its horizontal force takes (the
+    /// friction a forward jump needs; see [`Plan::horizontal`]).
+    pub push_lean: f64,
+    /// The same over the landing.
+    pub landing_lean: f64,
+    /// The centre of mass's x at take-off (m).
+    pub takeoff_x: f64,
+    /// Its x once the landing has stopped it (m).
+    pub rest_x: f64,
+    /// How far the straight legs turn forward about the hips in the air (rad).
+    pub leg_swing: f64,
+    /// When the legs' turn ends: the touch-down (s).
+    pub swing_end: f64,
     /// Things that are allowed but worth saying.
     pub warnings: Vec<String>,
 }
@@ -378,49 +437,90 @@ impl Plan {
             duration: s.arm_swing_duration,
         };
         let ball_x = body.standing_ball_x();
-        let standing_height = straight_pose(&body, s.arm_swing_from, ball_x, 0.0).1[2];
+        let standing_height = straight_pose(&body, s.arm_swing_from, ball_x, 0.0, 0.0).1[2];
         let theta_to = arms.angle(t_to);
-        let (takeoff_limbs, takeoff_com) = straight_pose(&body, theta_to[0], ball_x, s.takeoff_extension);
-        let z_to = takeoff_com[2];
         // The arms' share of the take-off speed: k r sin(theta) theta'.
         let arm_share = body.arm_fraction() * body.arm_radius() * theta_to[0].sin() * theta_to[1];
-        let speed = match s.drive {
-            Drive::JumpHeight(height) => (2.0 * G * height).sqrt(),
-            Drive::Speed(v) => v + arm_share,
-            Drive::Rise(rise) => {
-                let above = z_to - standing_height;
-                if rise <= above {
-                    return Err(NodeError::new(format!(
-                        "`rise` {:.3} m puts the apex below the take-off height: the centre of mass is already {:.3} m \
-                         above standing at take-off (`takeoff_extension` and the arms); raise `rise` above {:.3} m, \
-                         reduce `takeoff_extension`, or plan by `jump_height`",
-                        rise, above, above
-                    )));
-                }
-                (2.0 * G * (rise - above)).sqrt()
-            }
-        };
-        if speed - arm_share <= 0.0 {
-            return Err(NodeError::new(format!(
-                "the arms carry the whole take-off speed ({arm_share:.3} m/s of {speed:.3} m/s), so the legs would not \
-                 leave the ground; jump higher, or slow the arms at take-off (`arm_swing_start`, `arm_swing_duration`)"
-            )));
-        }
-        if speed <= 0.0 {
-            return Err(NodeError::new(format!(
-                "the arms swing down so fast at take-off that the body's centre of mass moves down ({speed:.3} m/s): \
-                 there is no jump; raise `takeoff_speed` or change the arm swing (`arm_swing_from`, `arm_swing_to`, \
-                 `arm_swing_start`)"
-            )));
-        }
         let z_low = standing_height - s.crouch_depth;
-        let Some((a_push, t_push)) = solve_push(speed, z_to - z_low, -G, s.push_hold) else {
-            return Err(NodeError::new(format!(
-                "no push of this shape goes from the crouch to take-off at {speed:.3} m/s over {:.3} m; change \
-                 `push_hold`, `crouch_depth` or `takeoff_extension`",
-                z_to - z_low
-            )));
+        // A forward take-off leans the straight legs at take-off, which lowers the take-off
+        // height, which changes the push, which moves the take-off forward: a fixed point,
+        // reached in a few rounds (one for a vertical jump, whose take-off is over the feet).
+        let mut takeoff_x = 0.0;
+        let mut solved = None;
+        for _ in 0..30 {
+            let (takeoff_limbs, takeoff_com) =
+                straight_pose(&body, theta_to[0], ball_x, s.takeoff_extension, takeoff_x);
+            let z_to = takeoff_com[2];
+            let speed = match s.drive {
+                Drive::JumpHeight(height) => (2.0 * G * height).sqrt(),
+                Drive::Speed(v) => v + arm_share,
+                Drive::Rise(rise) => {
+                    let above = z_to - standing_height;
+                    if rise <= above {
+                        return Err(NodeError::new(format!(
+                            "`rise` {:.3} m puts the apex below the take-off height: the centre of mass is already \
+                             {:.3} m above standing at take-off (`takeoff_extension` and the arms); raise `rise` above \
+                             {:.3} m, reduce `takeoff_extension`, or plan by `jump_height`",
+                            rise, above, above
+                        )));
+                    }
+                    (2.0 * G * (rise - above)).sqrt()
+                }
+            };
+            if speed - arm_share <= 0.0 {
+                return Err(NodeError::new(format!(
+                    "the arms carry the whole take-off speed ({arm_share:.3} m/s of {speed:.3} m/s), so the legs would \
+                     not leave the ground; jump higher, or slow the arms at take-off (`arm_swing_start`, \
+                     `arm_swing_duration`)"
+                )));
+            }
+            if speed <= 0.0 {
+                return Err(NodeError::new(format!(
+                    "the arms swing down so fast at take-off that the body's centre of mass moves down ({speed:.3} \
+                     m/s): there is no jump; raise `takeoff_speed` or change the arm swing (`arm_swing_from`, \
+                     `arm_swing_to`, `arm_swing_start`)"
+                )));
+            }
+            let Some((a_push, t_push)) = solve_push(speed, z_to - z_low, -G, s.push_hold) else {
+                return Err(NodeError::new(format!(
+                    "no push of this shape goes from the crouch to take-off at {speed:.3} m/s over {:.3} m; change \
+                     `push_hold`, `crouch_depth` or `takeoff_extension`",
+                    z_to - z_low
+                )));
+            };
+            // The push's horizontal force is a share of its vertical one (see
+            // Plan::horizontal): the share that gives the forward speed, and where it leaves.
+            let held = s.push_hold * t_push;
+            let vertical = |tau: f64| {
+                let w = ((tau - held) / (t_push - held)).max(0.0);
+                let a = if tau <= held {
+                    a_push
+                } else {
+                    a_push + (-G - a_push) * w * w
+                };
+                smoothstep(tau / (LEAN_RAMP * t_push))[0] * (G + a)
+            };
+            let (impulse, moment) = integrate_pieces(&vertical, 0.0, t_push, &[LEAN_RAMP * t_push, held]);
+            let lean = s.forward_speed / impulse;
+            let x = lean * moment;
+            let done = (x - takeoff_x).abs() < 1e-13;
+            takeoff_x = x;
+            solved = Some((takeoff_limbs, a_push, t_push, lean));
+            if done {
+                break;
+            }
+        }
+        let Some((takeoff_limbs, a_push, t_push, push_lean)) = solved else {
+            return Err(NodeError::new(
+                "the take-off could not be solved; please report this parameter set",
+            ));
         };
+        if takeoff_limbs.overreach > 1e-6 {
+            return Err(NodeError::new(format!(
+                "the take-off would put the centre of mass {takeoff_x:.3} m ahead of the feet, beyond what straight \
+                 legs lean to; reduce `forward_speed`"
+            )));
+        }
         let Some((t_u, t_b, a_u)) = solve_countermovement(s.crouch_depth, s.countermovement_duration, a_push) else {
             return Err(NodeError::new(format!(
                 "this jump pushes with {:.2} body weights at the lowest point, too little to stop a {:.3} m \
@@ -497,38 +597,107 @@ impl Plan {
             ball_x,
             landing_ball_x: ball_x,
             flight_feet,
+            forward_speed: s.forward_speed,
+            push_lean: 0.0,
+            landing_lean: 0.0,
+            takeoff_x: 0.0,
+            rest_x: 0.0,
+            leg_swing: 0.0,
+            swing_end: t_to + 2.0 * takeoff_speed / G,
             warnings: Vec::new(),
         };
 
-        let t_td = plan.find_touchdown()?;
-        let t_apex = t_to + takeoff_speed / G;
-        if t_td <= t_apex {
-            return Err(NodeError::new(format!(
-                "the arm swing pulls the feet back to the ground at {} before the centre of mass reaches its apex at \
-                 {}: the planned apex cannot happen; start the swing earlier (`arm_swing_start`), make it smaller \
-                 (`arm_swing_from`, `arm_swing_to`) or jump higher",
-                plan.at(t_td),
-                plan.at(t_apex)
-            )));
-        }
-        plan.touchdown_time = t_td;
-        plan.landing_ball_x = plan.flight_pelvis(t_td)[0] + plan.flight_feet.ball[0][0];
-        // The arms' angle when the body is back to standing (the landing lasts well under a
-        // second; the swing's end, if later, is what counts).
-        let t_rest = (t_td + 1.0 + s.recovery_duration).max(plan.arms.end());
-        plan.settled_height = straight_pose(&plan.body, plan.arms.angle(t_rest)[0], plan.landing_ball_x, 0.0).1[2];
-        let tau = t_td - t_to;
-        let (z_td, v_td) = (
-            takeoff_height + takeoff_speed * tau - 0.5 * G * tau * tau,
-            takeoff_speed - G * tau,
-        );
-        let z_low_landing = plan.settled_height - s.landing_depth;
-        let Some((t_land, b)) = solve_landing(-v_td, z_td - z_low_landing) else {
-            return Err(NodeError::new(format!(
-                "the centre of mass touches down at {z_td:.3} m, not above the landing's lowest point {z_low_landing:.3} \
-                 m; make `landing_depth` larger"
-            )));
+        plan.takeoff_x = takeoff_x;
+        plan.push_lean = push_lean;
+        // The touch-down and the landing. A forward jump swings the straight legs forward in the
+        // air so that the balls of the feet land where the body will stand once the landing
+        // has stopped it; that place depends on the touch-down, which depends on the swing: a
+        // fixed point again (no swing, one round, for a vertical jump).
+        let mut rounds = 0;
+        let (t_td, landing) = loop {
+            let t_td = plan.find_touchdown()?;
+            let t_apex = t_to + takeoff_speed / G;
+            if t_td <= t_apex {
+                return Err(NodeError::new(format!(
+                    "the arm swing pulls the feet back to the ground at {} before the centre of mass reaches its \
+                     apex at {}: the planned apex cannot happen; start the swing earlier (`arm_swing_start`), make \
+                     it smaller (`arm_swing_from`, `arm_swing_to`) or jump higher",
+                    plan.at(t_td),
+                    plan.at(t_apex)
+                )));
+            }
+            plan.touchdown_time = t_td;
+            let pelvis = plan.flight_pelvis(t_td);
+            let feet = plan.flight_feet_at(t_td);
+            plan.landing_ball_x = pelvis[0] + feet.ball[0][0];
+            // The arms' angle when the body is back to standing (the landing lasts well under a
+            // second; the swing's end, if later, is what counts).
+            let t_rest = (t_td + 1.0 + s.recovery_duration).max(plan.arms.end());
+            let tau = t_td - t_to;
+            let (z_td, v_td) = (
+                takeoff_height + takeoff_speed * tau - 0.5 * G * tau * tau,
+                takeoff_speed - G * tau,
+            );
+            let theta_rest = plan.arms.angle(t_rest)[0];
+            // Standing again: a vertical jump where it took off, a forward one over its feet as
+            // before the jump (the balls `ball_x` ahead of the centre of mass; where the swing
+            // below puts them once it has settled).
+            let rest = if s.forward_speed == 0.0 {
+                plan.takeoff_x
+            } else {
+                plan.landing_ball_x - ball_x
+            };
+            let settled = straight_pose(&plan.body, theta_rest, plan.landing_ball_x, 0.0, rest).1[2];
+            let z_low_landing = settled - s.landing_depth;
+            let Some((t_land, b)) = solve_landing(-v_td, z_td - z_low_landing) else {
+                return Err(NodeError::new(format!(
+                    "the centre of mass touches down at {z_td:.3} m, not above the landing's lowest point \
+                     {z_low_landing:.3} m; make `landing_depth` larger"
+                )));
+            };
+            // The landing's horizontal force is a share of its vertical one (see
+            // Plan::horizontal): the share that stops the forward speed, and where it stops.
+            let vertical = |tau: f64| {
+                let u = tau / t_land;
+                let a = -G * (1.0 - smoothstep(u)[0]) + 12.0 * b * u * (1.0 - u) * (1.0 - u);
+                (1.0 - smoothstep((u - 0.5) / 0.5)[0]) * (G + a)
+            };
+            let (impulse, moment) = integrate_pieces(&vertical, 0.0, t_land, &[0.5 * t_land]);
+            let lean = s.forward_speed / impulse;
+            let rest_x = plan.takeoff_x + s.forward_speed * (tau + t_land) - lean * moment;
+            let landing = (t_land, b, z_td, v_td, settled);
+            plan.landing_duration = t_land;
+            plan.landing_lean = lean;
+            plan.rest_x = rest_x;
+            if s.forward_speed == 0.0 {
+                break (t_td, landing);
+            }
+            // Turn the legs about the hips so that the balls land `ball_x` ahead of where the
+            // centre of mass will stand.
+            let want = rest_x + ball_x - pelvis[0];
+            let b0 = plan.flight_feet.ball[0];
+            let (bx, bz) = (b0[0], b0[2]);
+            let reach = bx.hypot(bz);
+            let swing = (want / reach).clamp(-1.0, 1.0).asin() - bx.atan2(-bz);
+            let done = (swing - plan.leg_swing).abs() < 1e-12 && (t_td - plan.swing_end).abs() < 1e-12;
+            if done {
+                break (t_td, landing);
+            }
+            // The plain iteration overshoots (about -0.6 a round): under-relaxed, it settles.
+            plan.leg_swing += 0.6 * (swing - plan.leg_swing);
+            plan.swing_end += 0.6 * (t_td - plan.swing_end);
+            rounds += 1;
+            if rounds == 200 {
+                return Err(NodeError::new(format!(
+                    "the legs' swing in the air to land ahead at `forward_speed` {:.2} m/s did not settle; reduce \
+                     `forward_speed`",
+                    s.forward_speed
+                )));
+            }
         };
+        let (t_land, b, z_td, v_td, settled) = landing;
+        plan.settled_height = settled;
+        let z_low_landing = settled - s.landing_depth;
         let landing = Piece::from_acceleration(
             t_td,
             t_land,
@@ -567,7 +736,7 @@ impl Plan {
         let theta = self.arms.angle(t)[0];
         let offset = self
             .body
-            .centres(&self.body.limbs([0.0; 3], theta, &self.flight_feet))
+            .centres(&self.body.limbs([0.0; 3], theta, &self.flight_feet_at(t)))
             .0;
         [com[0] - offset[0], 0.0, com[2] - offset[2]]
     }
@@ -576,10 +745,28 @@ impl Plan {
     fn flight_com(&self, t: f64) -> Motion {
         let tau = t - self.takeoff_time;
         let (z0, v0) = (self.takeoff_height, self.takeoff_speed);
+        let (x0, u) = (self.takeoff_x, self.forward_speed);
         Motion {
-            position: [0.0, 0.0, z0 + v0 * tau - 0.5 * G * tau * tau],
-            velocity: [0.0, 0.0, v0 - G * tau],
+            position: [x0 + u * tau, 0.0, z0 + v0 * tau - 0.5 * G * tau * tau],
+            velocity: [u, 0.0, v0 - G * tau],
             acceleration: [0.0, 0.0, -G],
+        }
+    }
+
+    /// The feet in the air at `t`, relative to the pelvis: the take-off shape turned forward
+    /// about the hips by `leg_swing` on a smoothstep from take-off to touch-down.
+    pub fn flight_feet_at(&self, t: f64) -> Feet {
+        if self.leg_swing == 0.0 {
+            return self.flight_feet;
+        }
+        let span = self.swing_end - self.takeoff_time;
+        let phi = self.leg_swing * smoothstep((t - self.takeoff_time) / span)[0];
+        let (sin, cos) = phi.sin_cos();
+        // About each hip: the hips sit on the pelvis's x and z.
+        let turn = |p: [f64; 3]| [p[0] * cos - p[2] * sin, p[1], p[0] * sin + p[2] * cos];
+        Feet {
+            ankle: self.flight_feet.ankle.map(turn),
+            ball: self.flight_feet.ball.map(turn),
         }
     }
 
@@ -587,10 +774,16 @@ impl Plan {
     /// the pelvis), 0 in contact.
     pub fn foot_height(&self, t: f64) -> f64 {
         if self.phase(t) == Phase::Flight {
-            self.flight_pelvis(t)[2] - self.pelvis_takeoff[2]
+            self.ball_height(t)
         } else {
             0.0
         }
+    }
+
+    /// Height of the balls of the feet in the air at `t` (they are carried with the pelvis,
+    /// turned with the legs).
+    fn ball_height(&self, t: f64) -> f64 {
+        self.flight_pelvis(t)[2] + self.flight_feet_at(t).ball[0][2]
     }
 
     /// The first time after take-off at which the balls of the feet come back to the
@@ -598,12 +791,16 @@ impl Plan {
     /// then bisected to 1e-12 s.
     fn find_touchdown(&self) -> Result<f64, NodeError> {
         let t_to = self.takeoff_time;
-        let foot = |t: f64| self.flight_pelvis(t)[2] - self.pelvis_takeoff[2];
-        // The arms move the pelvis at most 2 k r about the centre of mass, so the feet are
-        // down by the time the parabola alone has fallen that far below the take-off height.
+        let foot = |t: f64| self.ball_height(t);
+        // The arms move the pelvis at most 2 k r about the centre of mass and turning the legs
+        // forward lifts the balls by at most twice their distance from the pelvis times
+        // 1 - cos of the turn, so the feet are down by the time the parabola alone has fallen
+        // that far below the take-off height.
+        let ball = self.flight_feet.ball[0];
+        let lift = 2.0 * ball[0].hypot(ball[2]) * (1.0 - self.leg_swing.cos());
         let (v, reach) = (
             self.takeoff_speed,
-            2.0 * self.body.arm_fraction() * self.body.arm_radius(),
+            2.0 * self.body.arm_fraction() * self.body.arm_radius() + lift,
         );
         let latest = (v + (v * v + 2.0 * G * reach).sqrt()) / G;
         let steps = 20_000;
@@ -678,29 +875,22 @@ impl Plan {
         let com = match phase {
             Phase::Flight => self.flight_com(t),
             Phase::Standing => still(self.standing_height),
-            Phase::Settled => still(self.settled_height),
-            _ => {
-                let piece = self
-                    .pieces
-                    .iter()
-                    .filter(|(p, _)| *p == phase)
-                    .map(|(_, piece)| piece)
-                    .min_by(|a, b| {
-                        let d = |q: &Piece| (q.start() - t).max(t - q.end()).max(0.0);
-                        d(a).total_cmp(&d(b))
-                    });
-                match piece {
-                    Some(piece) => {
-                        let [z, v, a] = piece.eval(t);
-                        Motion {
-                            position: [0.0, 0.0, z],
-                            velocity: [0.0, 0.0, v],
-                            acceleration: [0.0, 0.0, a],
-                        }
+            Phase::Settled => Motion {
+                position: [self.rest_x, 0.0, self.settled_height],
+                velocity: [0.0; 3],
+                acceleration: [0.0; 3],
+            },
+            _ => match self.vertical(phase, t) {
+                Some([z, v, a]) => {
+                    let [x, u, b] = self.horizontal(phase, t);
+                    Motion {
+                        position: [x, 0.0, z],
+                        velocity: [u, 0.0, v],
+                        acceleration: [b, 0.0, a],
                     }
-                    None => still(self.standing_height),
                 }
-            }
+                None => still(self.standing_height),
+            },
         };
         State {
             phase,
@@ -708,6 +898,80 @@ impl Plan {
             arm_angle: theta,
             contact: phase != Phase::Flight,
         }
+    }
+
+    /// Height, vertical speed and acceleration of the centre of mass at `t` from the piece of
+    /// `phase` nearest `t` (None for a phase without pieces).
+    fn vertical(&self, phase: Phase, t: f64) -> Option<[f64; 3]> {
+        self.pieces
+            .iter()
+            .filter(|(p, _)| *p == phase)
+            .map(|(_, piece)| piece)
+            .min_by(|a, b| {
+                let d = |q: &Piece| (q.start() - t).max(t - q.end()).max(0.0);
+                d(a).total_cmp(&d(b))
+            })
+            .map(|piece| piece.eval(t))
+    }
+
+    /// The share of the vertical ground force the horizontal one takes at `t` in `phase`,
+    /// before the scale `push_lean` or `landing_lean`: it rises on a smoothstep over the first
+    /// `LEAN_RAMP` of the push and falls on one over the second half of the landing, so the
+    /// horizontal force is continuous (zero at the lowest point, at take-off and touch-down
+    /// with the vertical one, and at the landing's end).
+    fn lean_window(&self, phase: Phase, t: f64) -> f64 {
+        match phase {
+            Phase::Propulsion => smoothstep((t - self.lowest_time) / (LEAN_RAMP * self.durations[2]))[0],
+            Phase::Landing => {
+                let half = 0.5 * self.landing_duration;
+                1.0 - smoothstep((t - self.touchdown_time - half) / half)[0]
+            }
+            _ => 0.0,
+        }
+    }
+
+    /// The centre of mass's forward motion in contact. In the push and the landing the
+    /// horizontal force is a share of the vertical one, m a_x = lean w(t) m (g + a_z) (a
+    /// push along a line through the body), with w the window of [`Plan::lean_window`];
+    /// velocity and position are its integrals from the phase's start, int a_x and
+    /// int (t - s) a_x ds, by 8-point Gauss-Legendre quadrature on each stretch where the
+    /// integrand is one polynomial (exact: the integrand's degree is below 16). Before the
+    /// push x is 0, after the landing `rest_x`.
+    fn horizontal(&self, phase: Phase, t: f64) -> [f64; 3] {
+        let (t0, x0, v0, lean, breaks) = match phase {
+            Phase::Propulsion => (
+                self.lowest_time,
+                0.0,
+                0.0,
+                self.push_lean,
+                [
+                    self.lowest_time + LEAN_RAMP * self.durations[2],
+                    self.lowest_time + self.spec.push_hold * self.durations[2],
+                ],
+            ),
+            Phase::Landing => {
+                let td = self.flight_com(self.touchdown_time);
+                let mid = self.touchdown_time + 0.5 * self.landing_duration;
+                (
+                    self.touchdown_time,
+                    td.position[0],
+                    td.velocity[0],
+                    -self.landing_lean,
+                    [mid, mid],
+                )
+            }
+            Phase::Recovery | Phase::Settled => return [self.rest_x, 0.0, 0.0],
+            _ => return [0.0; 3],
+        };
+        if lean == 0.0 {
+            return [x0 + v0 * (t - t0), v0, 0.0];
+        }
+        let force = |s: f64| {
+            let a = self.vertical(phase, s).map_or(0.0, |z| z[2]);
+            lean * self.lean_window(phase, s) * (G + a)
+        };
+        let (dv, dx) = integrate_pieces(&force, t0, t, &breaks);
+        [x0 + v0 * (t - t0) + dx, v0 + dv, force(t)]
     }
 
     /// How far the ankles are lifted at `t` in contact: rising over the second half of the
@@ -731,7 +995,7 @@ impl Plan {
         let st = self.state(t);
         if !st.contact {
             let p = self.flight_pelvis(t);
-            return self.body.limbs(p, st.arm_angle, &shifted(&self.flight_feet, p));
+            return self.body.limbs(p, st.arm_angle, &shifted(&self.flight_feet_at(t), p));
         }
         let ball_x = if t <= self.takeoff_time {
             self.ball_x
@@ -880,7 +1144,7 @@ impl Plan {
                         "reduce `takeoff_extension`, or move the arm swing (`arm_swing_start`, `arm_swing_duration`)"
                     }
                     Phase::Landing | Phase::Recovery => {
-                        "make `landing_duration` longer or `landing_depth` larger, or reduce `takeoff_extension`"
+                        "make `landing_depth` larger, or reduce `takeoff_extension` or `forward_speed`"
                     }
                     _ => "move the arm swing (`arm_swing_start`, `arm_swing_duration`, `arm_swing_to`)",
                 };
@@ -899,10 +1163,10 @@ impl Plan {
 }
 
 /// The body standing on straight legs with the balls of the feet at `ball_x`, the ankles
-/// lifted by `lift` and the arms at `arm_angle`, its centre of mass over x = 0: the pelvis
+/// lifted by `lift` and the arms at `arm_angle`, its centre of mass at x = `com_x`: the pelvis
 /// slides along the circle the straight legs allow until the segments balance (Newton on x
 /// with a difference derivative). Returns the joints and the centre of mass.
-pub fn straight_pose(body: &Body, arm_angle: f64, ball_x: f64, lift: f64) -> (Limbs, [f64; 3]) {
+pub fn straight_pose(body: &Body, arm_angle: f64, ball_x: f64, lift: f64, com_x: f64) -> (Limbs, [f64; 3]) {
     let feet = body.planted_feet(ball_x, lift);
     let a = feet.ankle[0];
     let len = body.leg_length();
@@ -913,14 +1177,14 @@ pub fn straight_pose(body: &Body, arm_angle: f64, ball_x: f64, lift: f64) -> (Li
         let c = body.centres(&l).0;
         (l, c)
     };
-    let mut x = a[0];
+    let mut x = a[0] + com_x - ball_x + body.standing_ball_x();
     for _ in 0..50 {
-        let c = at(x).1[0];
+        let c = at(x).1[0] - com_x;
         if c.abs() < 1e-13 {
             break;
         }
         let e = 1e-7;
-        let slope = (at(x + e).1[0] - c) / e;
+        let slope = (at(x + e).1[0] - com_x - c) / e;
         if slope.abs() < 1e-12 {
             break;
         }
@@ -988,9 +1252,16 @@ impl Node for Jump {
                     times the vertical speed of their centre about the shoulders). Touch-down is the first return \
                     of the balls of the feet to the ground, by bisection to 1e-12 s. Everything is evaluated in \
                     closed form at each frame time, so any frame rate works.\n\
+                    Forward jumps (`forward_speed` > 0, a standing broad jump): in the push and the landing the \
+                    horizontal ground force is a share of the vertical one (a push along a line through the body), \
+                    coming in over the first 30 % of the push and going out over the second half of the landing, \
+                    the share chosen so that the push gives the forward speed and the landing takes it away \
+                    (reported as `push_friction` and `landing_friction`, the friction the floor must give); the \
+                    flight is the exact parabola in x and z; the straight legs turn forward about the hips in the \
+                    air so that the balls of the feet land where the body stands again.\n\
                     Limits: a planner, not a muscle model: the force's shape is prescribed (single plateau; \
-                    measured jumps are often two-peaked). Vertical jumps: the COM stays over the balls' line in \
-                    contact and has no horizontal speed. The trunk stays upright. Errors name the parameter to \
+                    measured jumps are often two-peaked). The trunk stays upright, so a broad jump's lean is in \
+                    the legs. Errors name the parameter to \
                     change: a crouch, landing or ankle lift the body cannot make, a countermovement too quick for \
                     its depth or too slow for the push, an apex below the take-off height, a touch-down before the \
                     apex, arms that carry the whole take-off, legs too short for the planned COM. Frames that do \
@@ -1217,6 +1488,13 @@ impl Node for Jump {
                     "Start of the swing relative to take-off (negative = before).",
                 ),
                 time("arm_swing_duration", 0.45, (0.05, 5.0), "Length of the swing."),
+                ParamSpec::number(
+                    "forward_speed",
+                    Dimension::Velocity,
+                    0.0,
+                    (0.0, 6.0),
+                    "Horizontal speed at take-off, along +x: 0 for a vertical jump, more for a standing broad jump.",
+                ),
             ],
             summaries: vec![
                 SummarySpec::new("takeoff_time", Dimension::Time, "Time of take-off."),
@@ -1269,6 +1547,21 @@ impl Node for Jump {
                     "lowest_point_force",
                     Dimension::BodyWeight,
                     "Ground force at the lowest point, the push's largest.",
+                ),
+                SummarySpec::new(
+                    "jump_distance",
+                    Dimension::Length,
+                    "How far forward the centre of mass ends, standing again, from where it started.",
+                ),
+                SummarySpec::new(
+                    "push_friction",
+                    Dimension::Dimensionless,
+                    "Largest horizontal over vertical ground force in the push: the friction a forward jump needs.",
+                ),
+                SummarySpec::new(
+                    "landing_friction",
+                    Dimension::Dimensionless,
+                    "Largest horizontal over vertical ground force in the landing.",
                 ),
                 SummarySpec::new(
                     "peak_landing_force",
@@ -1334,6 +1627,9 @@ impl Node for Jump {
             ("braking_duration", t_b),
             ("push_duration", t_p),
             ("landing_duration", plan.landing_duration),
+            ("jump_distance", plan.rest_x),
+            ("push_friction", plan.push_lean),
+            ("landing_friction", plan.landing_lean),
             ("least_unweighting_force", plan.least_unweighting_force),
             ("lowest_point_force", plan.lowest_point_force),
             ("peak_landing_force", plan.peak_landing_force),
