@@ -548,3 +548,132 @@ fn find_flight(
         });
     }
 }
+
+/// The quiet stretch that separates two jumps is searched with windows of this length, s (of
+/// our own, no source: long enough to average a plate's noise, short enough to fit between
+/// two jumps).
+pub const SPLIT_WINDOW: f64 = 0.1;
+
+/// One jump of a record: where it starts (a sample index into the whole record), where it
+/// ends (exclusive), and its analysis (indices inside it are relative to `start`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct RecordedJump {
+    /// First sample of the jump's stretch of the record.
+    pub start: usize,
+    /// One past its last sample.
+    pub end: usize,
+    /// The analysis of that stretch.
+    pub analysis: Analysis,
+}
+
+/// Analyses a record that may hold several jumps, each after its own quiet standing: the
+/// flights (the force below `flight_threshold` for at least `min_flight_duration`) are found
+/// first; between consecutive flights the record is split at the start of the quiet stretch
+/// before the next jump (the quietest `SPLIT_WINDOW` between the two, extended back while the
+/// force stays within `onset_deviations` of that window's SD of its mean, the onset's own test
+/// of quiet standing), and each stretch is analysed by [`analyse`]
+/// on its own: its own body weight, onset, phases and heights. A record with one flight is one
+/// jump, analysed whole. Errors name the jump and its frames.
+pub fn analyse_jumps(force: &[f64], rate_hz: f64, settings: &Settings) -> Result<Vec<RecordedJump>, String> {
+    check_settings(rate_hz, settings)?;
+    let flights = flights(force, rate_hz, settings);
+    let mut cuts = vec![0];
+    for pair in flights.windows(2) {
+        let (landed, next) = (pair[0].1, pair[1].0);
+        // A new jump needs quiet standing before it: a gap without a quiet window (a spike
+        // inside a flight, hops in a row) does not split the record.
+        if let Some(cut) = quiet_start(force, rate_hz, landed, next, settings.onset_deviations) {
+            cuts.push(cut);
+        }
+    }
+    cuts.push(force.len());
+    let count = cuts.len() - 1;
+    let mut jumps = Vec::with_capacity(count);
+    for (k, w) in cuts.windows(2).enumerate() {
+        let (start, end) = (w[0], w[1]);
+        let part = Settings {
+            first_frame: settings.first_frame + start as i64,
+            ..settings.clone()
+        };
+        let analysis = analyse(&force[start..end], rate_hz, &part).map_err(|e| {
+            if count > 1 {
+                format!(
+                    "jump {} of {count} (frames {} to {}): {e}",
+                    k + 1,
+                    part.first_frame,
+                    part.first_frame + (end - start) as i64 - 1
+                )
+            } else {
+                e
+            }
+        })?;
+        jumps.push(RecordedJump { start, end, analysis });
+    }
+    Ok(jumps)
+}
+
+/// The unloaded stretches (first sample below the threshold, first sample back at or above
+/// it) at least `min_flight_duration` long.
+fn flights(force: &[f64], rate_hz: f64, settings: &Settings) -> Vec<(usize, usize)> {
+    let shortest = (settings.min_flight_duration * rate_hz).ceil().max(1.0) as usize;
+    let mut out = Vec::new();
+    let mut i = 0;
+    while i < force.len() {
+        if force[i] < settings.flight_threshold {
+            let start = i;
+            while i < force.len() && force[i] < settings.flight_threshold {
+                i += 1;
+            }
+            if i - start >= shortest {
+                out.push((start, i));
+            }
+        } else {
+            i += 1;
+        }
+    }
+    out
+}
+
+/// Where the quiet standing before the next jump starts, between `from` and `to`, if there is
+/// one: the window of `SPLIT_WINDOW` with the least standard deviation relative to its mean
+/// (running sums, linear in the stretch), quiet as a weighing window must be
+/// (`QUIET_SD_LIMIT`), extended back while the force stays within `deviations` of that
+/// window's SD of its mean (at least `ONSET_FLOOR_FRACTION` of it).
+fn quiet_start(force: &[f64], rate_hz: f64, from: usize, to: usize, deviations: f64) -> Option<usize> {
+    let len = ((SPLIT_WINDOW * rate_hz).round() as usize).max(2);
+    if to < from + 2 * len {
+        return None;
+    }
+    let (mut sum, mut squares) = (0.0, 0.0);
+    for &f in &force[from..from + len] {
+        sum += f;
+        squares += f * f;
+    }
+    let n = len as f64;
+    let spread = |sum: f64, squares: f64| {
+        let mean = sum / n;
+        ((squares / n - mean * mean).max(0.0)).sqrt() / mean.abs().max(1e-12)
+    };
+    let mut best = (spread(sum, squares), from);
+    for s in from + 1..=to - len {
+        let (out, add) = (force[s - 1], force[s + len - 1]);
+        sum += add - out;
+        squares += add * add - out * out;
+        let q = spread(sum, squares);
+        if q < best.0 {
+            best = (q, s);
+        }
+    }
+    // The window's mean and SD afresh (the running sums carry rounding); quiet as the
+    // weighing window must be.
+    let (mut start, window) = (best.1, &force[best.1..best.1 + len]);
+    let (mean, sd) = mean_sd(window);
+    if sd.is_nan() || sd > QUIET_SD_LIMIT * mean.abs() {
+        return None;
+    }
+    let band = (deviations * sd).max(ONSET_FLOOR_FRACTION * mean.abs());
+    while start > from && (force[start - 1] - mean).abs() <= band {
+        start -= 1;
+    }
+    Some(start)
+}

@@ -11,7 +11,7 @@
 pub mod analysis;
 mod node;
 
-pub use analysis::{Analysis, Phase, Settings, analyse};
+pub use analysis::{Analysis, Phase, RecordedJump, Settings, analyse, analyse_jumps};
 pub use node::Analyse;
 
 heft_node_sdk::export_plugin!(name: "forceplate", nodes: [Analyse]);

@@ -1,13 +1,13 @@
 use heft_node_sdk::{Dimension, Io, Node, NodeError, NodeSpec, ParamSpec, Params, PortKind, PortSpec, SummarySpec};
 
-use crate::analysis::{Settings, analyse};
+use crate::analysis::{Settings, analyse_jumps};
 
 /// `forceplate.analyse`: jump analysis of a vertical ground reaction force record.
 #[derive(Debug)]
 pub struct Analyse;
 
 const NOTES: &str = "\
-Input: the vertical ground reaction force of one jump, sampled at the timeline's frame rate (run the graph at \
+Input: the vertical ground reaction force of one jump or several, sampled at the timeline's frame rate (run the graph at \
 the plate's rate, e.g. `rate 1000 fps`; 100 Hz or more). The record starts with quiet standing.
 
 Method.
@@ -47,7 +47,15 @@ rises back through BW) to the first sample with velocity >= 0; 3 propulsion, fro
 When the velocity never goes negative (a squat jump) there is no unweighting or braking: propulsion starts at \
 the onset. A phase starts at the first sample at or after its boundary.
 
-Limits. One jump per record; the first flight after the onset is analysed. Body weight errors grow linearly \
+Several jumps: the flights (below `flight_threshold` for at least `min_flight_duration`) are found first; between \
+two the record is split at the start of the quiet stretch before the next jump (the quietest 0.1 s, extended back \
+while the force stays within 2 % of its mean; of our own, no source), and each stretch is analysed on its own \
+(body weight, onset, phases, heights; its warnings prefixed with its number). The `jump` output numbers each \
+frame's jump and `jump_height` gives that jump's height; the other summaries are the first jump's, with \
+`jump_count`, `highest_jump` and `highest_jump_number` over all of them. Each stretch's centre of mass starts \
+again at `standing_height`.
+
+Limits. Each stretch must start with quiet standing. Body weight errors grow linearly \
 into the velocity and quadratically into the displacement, so the landing part of the integrated outputs \
 drifts. The threshold makes the flight a little longer and the take-off velocity a little larger than at zero \
 force (by about g times the time the force takes to fall from the threshold to zero). Crossings are \
@@ -61,8 +69,8 @@ impl Node for Analyse {
     fn spec() -> NodeSpec {
         NodeSpec {
             name: "analyse".into(),
-            doc: "Jump analysis of a vertical force record: body weight, onset, take-off, flight, velocity, \
-                  height and jump phases."
+            doc: "Jump analysis of a vertical force record of one jump or several: body weight, onset, take-off, \
+                  flight, velocity, height and jump phases."
                 .into(),
             notes: NOTES.into(),
             inputs: vec![PortSpec::new(
@@ -104,6 +112,18 @@ impl Node for Analyse {
                     "The centre of mass as a transform a strand or a character can hang from: at \
                      `standing_height` plus the displacement, the flight the exact parabola from the take-off \
                      (identity rotation, x = y = 0).",
+                ),
+                PortSpec::new(
+                    "jump",
+                    PortKind::Scalar,
+                    Dimension::Dimensionless,
+                    "Which jump of the record the frame belongs to: 1, 2, ...",
+                ),
+                PortSpec::new(
+                    "jump_height",
+                    PortKind::Scalar,
+                    Dimension::Length,
+                    "The height (from the take-off velocity) of the jump the frame belongs to.",
                 ),
             ],
             params: vec![
@@ -193,6 +213,17 @@ impl Node for Analyse {
                     Dimension::BodyWeight,
                     "Largest force of the landing phase.",
                 ),
+                SummarySpec::new("jump_count", Dimension::Dimensionless, "Jumps found in the record."),
+                SummarySpec::new(
+                    "highest_jump",
+                    Dimension::Length,
+                    "The largest height from take-off velocity among the jumps.",
+                ),
+                SummarySpec::new(
+                    "highest_jump_number",
+                    Dimension::Dimensionless,
+                    "Which jump that is (1, 2, ...).",
+                ),
                 SummarySpec::new(
                     "countermovement_depth",
                     Dimension::Length,
@@ -220,18 +251,55 @@ impl Node for Analyse {
                 io.frames()
             )));
         }
-        let a = analyse(force.as_slice(), tl.fps(), &settings).map_err(NodeError::new)?;
-        for w in &a.warnings {
-            io.warn(w.clone());
+        let jumps = analyse_jumps(force.as_slice(), tl.fps(), &settings).map_err(NodeError::new)?;
+        let several = jumps.len() > 1;
+        for (k, j) in jumps.iter().enumerate() {
+            for w in &j.analysis.warnings {
+                io.warn(if several {
+                    format!("jump {}: {w}", k + 1)
+                } else {
+                    w.clone()
+                });
+            }
         }
-        io.fill("velocity", |i, out| out[0] = a.velocity[i])?;
-        io.fill("displacement", |i, out| out[0] = a.displacement[i])?;
-        io.fill("phase", |i, out| out[0] = a.phase[i].code())?;
-        io.fill("body_weights", |i, out| out[0] = a.body_weights[i])?;
+        // Every frame belongs to one jump's stretch of the record.
+        let mut owner = Vec::with_capacity(io.frames());
+        for (k, j) in jumps.iter().enumerate() {
+            owner.extend((j.start..j.end).map(|i| (k, i - j.start)));
+        }
+        let at = |i: usize| (&jumps[owner[i].0].analysis, owner[i].1);
+        io.fill("velocity", |i, out| {
+            let (a, k) = at(i);
+            out[0] = a.velocity[k];
+        })?;
+        io.fill("displacement", |i, out| {
+            let (a, k) = at(i);
+            out[0] = a.displacement[k];
+        })?;
+        io.fill("phase", |i, out| {
+            let (a, k) = at(i);
+            out[0] = a.phase[k].code();
+        })?;
+        io.fill("body_weights", |i, out| {
+            let (a, k) = at(i);
+            out[0] = a.body_weights[k];
+        })?;
         let standing = params.number("standing_height")?;
         io.fill("centre_of_mass", |i, out| {
-            out.copy_from_slice(&[0.0, 0.0, standing + a.path[i], 0.0, 0.0, 0.0, 1.0])
+            let (a, k) = at(i);
+            out.copy_from_slice(&[0.0, 0.0, standing + a.path[k], 0.0, 0.0, 0.0, 1.0]);
         })?;
+        io.fill("jump", |i, out| out[0] = (owner[i].0 + 1) as f64)?;
+        io.fill("jump_height", |i, out| out[0] = at(i).0.height_from_velocity)?;
+        let (best, highest) = jumps
+            .iter()
+            .enumerate()
+            .map(|(k, j)| (k, j.analysis.height_from_velocity))
+            .fold((0, f64::MIN), |b, c| if c.1 > b.1 { c } else { b });
+        io.summary("jump_count", jumps.len() as f64)?;
+        io.summary("highest_jump", highest)?;
+        io.summary("highest_jump_number", (best + 1) as f64)?;
+        let a = &jumps[0].analysis;
         let summaries = [
             ("body_mass", a.body_mass),
             ("body_weight", a.body_weight),

@@ -549,3 +549,64 @@ fn a_short_quiet_stretch_is_found_and_weighed_with_a_warning() {
     let a = analyse(&full, RATE, &defaults()).expect("analyses");
     assert!(a.warnings.is_empty(), "{:?}", a.warnings);
 }
+
+/// A record of two jumps, each after its own quiet standing (Ilse's jump, then one with a
+/// weaker push, p = 12 m/s^2 instead of 16): the record is split between them and each jump
+/// is analysed on its own. Each take-off velocity is its closed form to the 0.5 % of the
+/// single-jump test (measured: +0.095 % and +0.17 %), each body mass 72 kg to 1e-6, each jump's
+/// phases run in order, the split falls in the quiet standing between them (after the first
+/// landing has settled, before the second jump moves) and the second jump's frames and
+/// times are those of the whole record.
+#[test]
+fn a_record_of_two_jumps_is_split_and_each_analysed() {
+    use heft_forceplate::analyse_jumps;
+    let first = Jump::ilse();
+    let second = Jump {
+        p: 12.0,
+        ..Jump::ilse()
+    };
+    let mut record = first.record(RATE);
+    let offset = record.len();
+    record.extend(second.record(RATE));
+    let jumps = analyse_jumps(&record, RATE, &defaults()).expect("analyses");
+    assert_eq!(jumps.len(), 2);
+    for (j, jump) in jumps.iter().zip([first, second]) {
+        let v = jump.takeoff_velocity();
+        let a = &j.analysis;
+        println!(
+            "frames {}..{}: take-off {:.6} m/s vs {v:.6} m/s ({:+.3} %), body mass {:.9} kg",
+            j.start,
+            j.end,
+            a.takeoff_velocity,
+            100.0 * (a.takeoff_velocity / v - 1.0),
+            a.body_mass
+        );
+        assert!(rel(a.takeoff_velocity, v) < 0.005, "{} vs {v}", a.takeoff_velocity);
+        // The quiet stretch takes in samples within 1e-6 BW of its mean (the onset's floor for a
+        // noise-free record), here the last of the first jump's landing: 1e-6 relative.
+        assert!(rel(a.body_mass, 72.0) < 1e-6, "{}", a.body_mass);
+        assert!(a.phase.windows(2).all(|w| w[0] <= w[1]), "phases in order");
+    }
+    let split = jumps[1].start;
+    assert_eq!(jumps[0].end, split);
+    // After the first landing has settled (its force within 1e-6 BW: the landing's transient
+    // decays with tau = 0.02 s) and before the second jump moves.
+    assert!(split as f64 / RATE > first.touchdown() + 0.1, "split at {split}");
+    assert!(
+        split < offset + (second.t0 * RATE) as usize,
+        "split at {split}, after the second onset"
+    );
+    // The second jump's times are the whole record's: its take-off is the second record's
+    // take-off crossing, shifted by the first record's length.
+    let want = offset as f64 / RATE + second.takeoff_crossing(20.0);
+    assert!(
+        (jumps[1].analysis.takeoff_time - want).abs() < 1e-6,
+        "{} vs {want}",
+        jumps[1].analysis.takeoff_time
+    );
+    // A record whose second jump ends in the air is refused, naming that jump and its frames.
+    let cut = offset + ((second.touchdown() - 0.1) * RATE) as usize;
+    let e = analyse_jumps(&record[..cut], RATE, &defaults()).expect_err("refused");
+    assert!(e.starts_with("jump 2 of 2 (frames "), "{e}");
+    assert!(e.contains("no complete flight found"), "{e}");
+}

@@ -50,7 +50,7 @@ fn the_spec_is_complete_and_its_defaults_lie_in_range() {
         assert!(min <= d && d <= max, "default of `{}` out of range", p.name);
     }
     let names: Vec<&str> = spec.summaries.iter().map(|s| s.name.as_str()).collect();
-    assert_eq!(names.len(), 12, "{names:?}");
+    assert_eq!(names.len(), 15, "{names:?}");
     // The node's defaults are the analysis' defaults.
     let s = Settings::default();
     let p = defaults();
@@ -201,4 +201,35 @@ proptest! {
             prop_assert!(a.flight_time >= Settings::default().min_flight_duration);
         }
     }
+}
+
+/// Two jumps in one record through the node: each frame says its jump (1 then 2) and that
+/// jump's height, the summaries count the jumps and name the higher one (Ilse's first jump,
+/// p = 16 m/s^2, against the second's 12), and the other summaries are the first jump's.
+#[test]
+fn the_node_splits_a_record_of_two_jumps() {
+    use heft_forceplate::analyse_jumps;
+    let first = Jump::ilse();
+    let second = Jump {
+        p: 12.0,
+        ..Jump::ilse()
+    };
+    let mut force = first.record(1000.0);
+    force.extend(second.record(1000.0));
+    let (outputs, summaries, _) = run(&force, timeline(0, force.len(), 1000), &defaults()).expect("evaluates");
+    let jumps = analyse_jumps(&force, 1000.0, &Settings::default()).expect("analyses");
+    let spec = Analyse::spec();
+    let out = |name: &str| &outputs[spec.outputs.iter().position(|o| o.name == name).expect(name)];
+    let get = |name: &str| summaries[spec.summaries.iter().position(|s| s.name == name).expect(name)];
+    for (k, j) in jumps.iter().enumerate() {
+        for i in j.start..j.end {
+            assert_eq!(out("jump")[i], (k + 1) as f64, "frame {i}");
+            assert_eq!(out("jump_height")[i], j.analysis.height_from_velocity, "frame {i}");
+        }
+    }
+    assert_eq!(get("jump_count"), 2.0);
+    assert_eq!(get("highest_jump_number"), 1.0);
+    assert_eq!(get("highest_jump"), jumps[0].analysis.height_from_velocity);
+    assert!(jumps[0].analysis.height_from_velocity > jumps[1].analysis.height_from_velocity);
+    assert_eq!(get("takeoff_velocity"), jumps[0].analysis.takeoff_velocity);
 }
