@@ -89,6 +89,9 @@ pub enum Kind {
     LateArmSwing,
     /// A passive chain swings in the air as if gravity still pulled it.
     PassiveNotWeightless,
+    /// A passive chain keeps still against its anchor through the landing, where the anchor's
+    /// deceleration should pull it.
+    PassiveNotTugged,
     /// A contact or flight phase shorter than any real one.
     ContactChatter,
     /// A planted foot slides along the ground.
@@ -105,6 +108,7 @@ impl Kind {
             Kind::LandingTooHard => "landing too hard",
             Kind::LateArmSwing => "arm swing after take-off",
             Kind::PassiveNotWeightless => "passive element not weightless",
+            Kind::PassiveNotTugged => "passive element not tugged on landing",
             Kind::ContactChatter => "contact chatter",
             Kind::FootSliding => "foot sliding",
         }
@@ -177,6 +181,16 @@ pub struct Limits {
     /// own bending straightening in the air scatters about any fit (heft's skirt strips against
     /// Odile's thighs: at most 0.19). Of our own, no source.
     pub weightless_fit: f64,
+    /// Passive chains on landing: the swing about the anchor should follow the apparent
+    /// gravity g - a of the decelerating anchor (k = 1, d'Alembert as for `weightless`); a
+    /// chain whose fitted k stays below this, and whose swing's acceleration across it is
+    /// under `tug_response` of what that apparent gravity gives it, keeps still where it
+    /// should be tugged (a warning). A chain pushed about by the body moves plenty and is not
+    /// reported. Of our own, no source, like `weightless`.
+    pub tugged: f64,
+    /// See `tugged`: the RMS of the swing's acceleration across the chain over the RMS of the
+    /// apparent gravity's across it.
+    pub tug_response: f64,
     /// Feet: a foot within `planted_height` (m) of its lowest point in a contact phase is
     /// planted, and may travel at most `slide` (m) along the ground while planted. Common
     /// practice in animation clean-up (a centimetre or two reads as sliding), no source.
@@ -201,6 +215,8 @@ impl Default for Limits {
             arm_swing: 0.5,
             weightless: 0.5,
             weightless_fit: 0.3,
+            tugged: 0.5,
+            tug_response: 0.5,
             slide: 0.02,
             planted_height: 0.01,
             min_phase: 0.05,
@@ -245,6 +261,11 @@ pub struct Flight {
     /// For each chain, the share of its swing's acceleration that the fit of `chain_gravity`
     /// explains (R^2, 0 to 1).
     pub chain_fit: Vec<(String, Option<f64>)>,
+    /// For each chain, how much of the landing's apparent gravity its swing follows from the
+    /// touch-down (k of a_swing = k (g - a_anchor) across the chain; 1 as physics gives, 0 for
+    /// a chain that keeps still; None when it hangs along that gravity or the landing is too
+    /// short to tell).
+    pub chain_landing: Vec<(String, Option<f64>)>,
 }
 
 /// The audit's result.
@@ -417,6 +438,41 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
                 });
             }
         }
+        // The landing: from the first frame on the ground, up to LANDING_SPAN or the end of
+        // that contact.
+        let land_end = phases[k + 1].2.min(g1 + (LANDING_SPAN * m.rate).round() as usize);
+        let tugs: Vec<(String, Option<(f64, f64)>)> = m
+            .chains
+            .iter()
+            .map(|c| (c.name.clone(), landing_tug(m, c, g1, land_end)))
+            .collect();
+        let chain_landing: Vec<(String, Option<f64>)> = tugs.iter().map(|(n, t)| (n.clone(), t.map(|t| t.0))).collect();
+        for (name, tug) in &tugs {
+            if let Some((k, response)) = *tug
+                && k < limits.tugged
+                && response < limits.tug_response
+            {
+                findings.push(Finding {
+                    severity: Severity::Warning,
+                    kind: Kind::PassiveNotTugged,
+                    first_frame: m.frame(g1),
+                    last_frame: m.frame(land_end),
+                    measured: k,
+                    expected: 1.0,
+                    unit: "g_app",
+                    explanation: format!(
+                        "on landing `{name}` keeps still against its anchor (its swing follows {k:.2} of the apparent \
+                         gravity, its acceleration across the chain {:.0} % of what that gravity gives): the body \
+                         stops hard there, and a hanging element is pulled down and swings",
+                        100.0 * response
+                    ),
+                    change: format!(
+                        "let `{name}` swing down on landing, faster than it hangs at rest (the landing multiplies its \
+                         weight), then settle"
+                    ),
+                });
+            }
+        }
         let figures = Flight {
             first_frame: m.frame(a),
             last_frame: m.frame(b),
@@ -432,6 +488,7 @@ pub fn audit(m: &Motion, limits: &Limits) -> Report {
             arm_drive,
             chain_gravity,
             chain_fit,
+            chain_landing,
         };
         let excess = (acceleration + G).abs() / G;
         if excess > limits.flight_acceleration {
@@ -686,6 +743,52 @@ fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)
     // through the origin), 0 for a chain at rest.
     let fit = if total > 0.0 { num * num / (den * total) } else { 0.0 };
     Some((num / den, fit))
+}
+
+/// How long after touch-down the landing tug is measured, s (of our own: a landing's
+/// deceleration lasts about 0.1 to 0.3 s).
+const LANDING_SPAN: f64 = 0.25;
+
+/// A chain's swing in the landing against the apparent gravity g - a of its anchor: the fit
+/// k of across(r'') = k across(g - a) over frames `a..=b` (r the chain's centre about its
+/// pivot, a the anchor's acceleration, both by central second differences; across: the part
+/// normal to r), and the RMS of across(r'') over that of across(g - a). `None` when fewer
+/// than 3 frames can be used or the apparent gravity lies along the chain.
+fn landing_tug(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> {
+    let dt = 1.0 / m.rate;
+    let n = c.anchor.len().min(c.points.len());
+    let centre = |i: usize| {
+        let p = &c.points[i];
+        let (pivot, rest) = if p.len() >= 2 {
+            (p[0], &p[1..])
+        } else {
+            (c.anchor[i], &p[..])
+        };
+        let sum = rest.iter().fold([0.0; 3], |s, q| add(s, *q));
+        sub(scale(sum, 1.0 / rest.len().max(1) as f64), pivot)
+    };
+    let (mut num, mut den, mut total, mut count) = (0.0, 0.0, 0.0, 0usize);
+    for i in a.max(1)..=b.min(n.saturating_sub(2)) {
+        let (r0, r1, r2) = (centre(i - 1), centre(i), centre(i + 1));
+        let len = dot(r1, r1).sqrt();
+        if len < 1e-6 {
+            continue;
+        }
+        let u = scale(r1, 1.0 / len);
+        let across = |v: V3| sub(v, scale(u, dot(v, u)));
+        let acc = across(scale(add(sub(r2, scale(r1, 2.0)), r0), 1.0 / (dt * dt)));
+        let (p0, p1, p2) = (c.anchor[i - 1], c.anchor[i], c.anchor[i + 1]);
+        let anchor_acc = scale(add(sub(p2, scale(p1, 2.0)), p0), 1.0 / (dt * dt));
+        let g = across(sub([0.0, 0.0, -G], anchor_acc));
+        num += dot(acc, g);
+        den += dot(g, g);
+        total += dot(acc, acc);
+        count += 1;
+    }
+    if count < 3 || den / (count as f64) < (0.2 * G).powi(2) {
+        return None;
+    }
+    Some((num / den, (total / den).sqrt()))
 }
 
 /// The largest ground force m (g + a_z) over a landing's contact frames (central second

@@ -39,6 +39,11 @@ Findings and their limits (each with its source; `common practice` where none):
                          air following more than 0.5 g of gravity's pull (weightless: 0),
                          the fit explaining at least 30 % of the swing (a swing driven by
                          contact or bending scatters about it). Of our own, no source.
+  passive element not tugged on landing  over the 0.25 s after touch-down a chain's swing
+                         follows less than 0.5 of the apparent gravity g - a of its
+                         decelerating anchor (1 is physics), moving less than half what that
+                         gravity gives it: it keeps still where the landing should pull it.
+                         Of our own, no source.
   foot sliding           a planted foot (within 1 cm of its lowest) travels more than 2 cm
                          along the ground in a contact phase. Common practice, no source.
   contact chatter        a contact or flight shorter than 0.05 s; the shortest ground contacts,
