@@ -706,57 +706,19 @@ fn arm_drive(m: &Motion, arms: &[V3], a: usize, b: usize) -> f64 {
 /// a_t = k g_t over the frames (a_t the part of a across r). `None` when the chain hangs too
 /// straight for gravity to swing it (the mean |g_t| below 0.2 g) or the flight is too short.
 fn swing_gravity(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> {
-    let dt = 1.0 / m.rate;
-    let n = c.anchor.len().min(c.points.len()).min(m.com.len());
-    // The pivot: the chain's first point when it has more (the root rides on the anchor),
-    // else the anchor; the swinging part: the points after the pivot.
-    let centre = |i: usize| {
-        let p = &c.points[i];
-        let (pivot, rest) = if p.len() >= 2 {
-            (p[0], &p[1..])
-        } else {
-            (c.anchor[i], &p[..])
-        };
-        let sum = rest.iter().fold([0.0; 3], |s, q| add(s, *q));
-        sub(scale(sum, 1.0 / rest.len().max(1) as f64), pivot)
-    };
-    let (mut num, mut den, mut count, mut total) = (0.0, 0.0, 0usize, 0.0);
-    for i in a.max(1)..=b.min(n.saturating_sub(2)) {
-        let (r0, r1, r2) = (centre(i - 1), centre(i), centre(i + 1));
-        let len = dot(r1, r1).sqrt();
-        if len < 1e-6 {
-            continue;
-        }
-        let u = scale(r1, 1.0 / len);
-        let across = |v: V3| sub(v, scale(u, dot(v, u)));
-        let acc = across(scale(add(sub(r2, scale(r1, 2.0)), r0), 1.0 / (dt * dt)));
-        let g = across([0.0, 0.0, -G]);
-        num += dot(acc, g);
-        den += dot(g, g);
-        total += dot(acc, acc);
-        count += 1;
-    }
-    if count < 3 || den / (count as f64) < (0.2 * G).powi(2) {
-        return None;
-    }
-    // The share of the swing's across-acceleration that the fit explains (R^2 of a fit
-    // through the origin), 0 for a chain at rest.
-    let fit = if total > 0.0 { num * num / (den * total) } else { 0.0 };
-    Some((num / den, fit))
+    swing_fit(m, c, a, b, &|_| [0.0, 0.0, -G]).map(|(k, fit, _)| (k, fit))
 }
 
-/// How long after touch-down the landing tug is measured, s (of our own: a landing's
-/// deceleration lasts about 0.1 to 0.3 s).
-const LANDING_SPAN: f64 = 0.25;
-
-/// A chain's swing in the landing against the apparent gravity g - a of its anchor: the fit
-/// k of across(r'') = k across(g - a) over frames `a..=b` (r the chain's centre about its
-/// pivot, a the anchor's acceleration, both by central second differences; across: the part
-/// normal to r), and the RMS of across(r'') over that of across(g - a). `None` when fewer
-/// than 3 frames can be used or the apparent gravity lies along the chain.
-fn landing_tug(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> {
+/// The fit behind [`swing_gravity`] and [`landing_tug`]: over frames `a..=b`, the chain's
+/// centre about its pivot r (the chain's first point when it has more, else the anchor), its
+/// acceleration r'' by central second differences, and `gravity(i)` the field it should
+/// follow there; across: the parts normal to r. Returns k of across(r'') = k across(gravity),
+/// the share of across(r'')'s variance that fit explains (R^2 through the origin), and the RMS
+/// of across(r'') over that of across(gravity). `None` with fewer than 3 usable frames or a
+/// field (nearly) along the chain (its across part under 0.2 g on average).
+fn swing_fit(m: &Motion, c: &Chain, a: usize, b: usize, gravity: &dyn Fn(usize) -> V3) -> Option<(f64, f64, f64)> {
     let dt = 1.0 / m.rate;
-    let n = c.anchor.len().min(c.points.len());
+    let n = c.anchor.len().min(c.points.len()).min(m.com.len());
     let centre = |i: usize| {
         let p = &c.points[i];
         let (pivot, rest) = if p.len() >= 2 {
@@ -777,9 +739,7 @@ fn landing_tug(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> 
         let u = scale(r1, 1.0 / len);
         let across = |v: V3| sub(v, scale(u, dot(v, u)));
         let acc = across(scale(add(sub(r2, scale(r1, 2.0)), r0), 1.0 / (dt * dt)));
-        let (p0, p1, p2) = (c.anchor[i - 1], c.anchor[i], c.anchor[i + 1]);
-        let anchor_acc = scale(add(sub(p2, scale(p1, 2.0)), p0), 1.0 / (dt * dt));
-        let g = across(sub([0.0, 0.0, -G], anchor_acc));
+        let g = across(gravity(i));
         num += dot(acc, g);
         den += dot(g, g);
         total += dot(acc, acc);
@@ -788,7 +748,26 @@ fn landing_tug(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> 
     if count < 3 || den / (count as f64) < (0.2 * G).powi(2) {
         return None;
     }
-    Some((num / den, (total / den).sqrt()))
+    let fit = if total > 0.0 { num * num / (den * total) } else { 0.0 };
+    Some((num / den, fit, (total / den).sqrt()))
+}
+
+/// How long after touch-down the landing tug is measured, s (of our own: a landing's
+/// deceleration lasts about 0.1 to 0.3 s).
+const LANDING_SPAN: f64 = 0.25;
+
+/// A chain's swing in the landing against the apparent gravity g - a of its anchor (a by
+/// central second differences of the anchor): the k of [`swing_fit`] and the RMS ratio of
+/// its swing's acceleration to that gravity's, across the chain.
+fn landing_tug(m: &Motion, c: &Chain, a: usize, b: usize) -> Option<(f64, f64)> {
+    let dt = 1.0 / m.rate;
+    let n = c.anchor.len();
+    let apparent = |i: usize| {
+        let (p0, p1, p2) = (c.anchor[i - 1], c.anchor[i], c.anchor[(i + 1).min(n - 1)]);
+        let anchor_acc = scale(add(sub(p2, scale(p1, 2.0)), p0), 1.0 / (dt * dt));
+        sub([0.0, 0.0, -G], anchor_acc)
+    };
+    swing_fit(m, c, a, b, &apparent).map(|(k, _, response)| (k, response))
 }
 
 /// The largest ground force m (g + a_z) over a landing's contact frames (central second

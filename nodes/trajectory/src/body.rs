@@ -64,7 +64,9 @@ pub fn dempster(name: &str) -> Option<&'static Segment> {
 }
 
 /// Body proportions as fractions of body height H (Drillis & Contini 1966, as drawn in
-/// Winter 2009, Fig. 4.1). Written from memory of that figure, then checked against two
+/// Winter 2009, Fig. 4.1, "Body segment length expressed as fraction of body height"; p. 83
+/// in a public scan of the chapter, whose edition the scan does not state). Written from
+/// memory of that figure, then checked against two
 /// public transcriptions of it (dpfens/PyExPhys, pyexphys/anthropometry.py, and
 /// eladsimantov/anthropometric-model, tbx/AnthropometricModel.m, calculateSegmentLengths):
 /// every value here agrees with them. The thigh and shank lengths are the differences of

@@ -11,7 +11,7 @@ use heft_node_sdk::{
 };
 
 use crate::body::{Body, Feet, Limbs, collider_radii, proportions, segment_rotation};
-use crate::profile::{Piece, Quintic, smoothstep};
+use crate::profile::{Piece, smoothstep};
 use heft_node_sdk::colliders::{self, Capsule};
 
 const G: f64 = STANDARD_GRAVITY;
@@ -705,7 +705,7 @@ impl Plan {
             v_td,
             &[-G, 12.0 * b, -24.0 * b, 10.0 * G + 12.0 * b, -15.0 * G, 6.0 * G],
         );
-        let recovery = Quintic::new(
+        let recovery = Piece::quintic(
             t_td + t_land,
             s.recovery_duration,
             [z_low_landing, 0.0, 0.0],
@@ -713,7 +713,7 @@ impl Plan {
         );
         plan.landing_duration = t_land;
         plan.pieces.push((Phase::Landing, landing));
-        plan.pieces.push((Phase::Recovery, Piece::from_quintic(&recovery)));
+        plan.pieces.push((Phase::Recovery, recovery));
 
         plan.check_ground_force()?;
         plan.check_reach()?;

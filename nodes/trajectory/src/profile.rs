@@ -1,71 +1,6 @@
-//! Smooth one-dimensional profiles: quintic segments that fix position, velocity and
-//! acceleration at both ends, and the quintic smoothstep.
-
-/// A quintic polynomial over `[t0, t0 + duration]` that takes given position, velocity and
-/// acceleration at both ends (six conditions, six coefficients: the unique quintic Hermite
-/// segment). Evaluated in the normalised time u = (t - t0) / duration.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Quintic {
-    t0: f64,
-    duration: f64,
-    /// Coefficients of u^0 .. u^5 (position units).
-    c: [f64; 6],
-}
-
-impl Quintic {
-    /// The segment from `start` = (p, v, a) at `t0` to `end` = (p, v, a) at `t0 + duration`.
-    /// `duration` must be positive (the callers' parameter ranges ensure it).
-    pub fn new(t0: f64, duration: f64, start: [f64; 3], end: [f64; 3]) -> Quintic {
-        let t = duration;
-        let [p0, v0, a0] = start;
-        let [p1, v1, a1] = end;
-        // With c0 = p0, c1 = v0 T, c2 = a0 T^2 / 2 fixed by the start, the end conditions
-        // c3 + c4 + c5 = dp, 3 c3 + 4 c4 + 5 c5 = dv, 6 c3 + 12 c4 + 20 c5 = da solve to:
-        let dp = p1 - p0 - v0 * t - 0.5 * a0 * t * t;
-        let dv = (v1 - v0 - a0 * t) * t;
-        let da = (a1 - a0) * t * t;
-        Quintic {
-            t0,
-            duration,
-            c: [
-                p0,
-                v0 * t,
-                0.5 * a0 * t * t,
-                10.0 * dp - 4.0 * dv + 0.5 * da,
-                -15.0 * dp + 7.0 * dv - da,
-                6.0 * dp - 3.0 * dv + 0.5 * da,
-            ],
-        }
-    }
-
-    /// Start time.
-    pub fn start(&self) -> f64 {
-        self.t0
-    }
-
-    /// End time.
-    pub fn end(&self) -> f64 {
-        self.t0 + self.duration
-    }
-
-    /// Position, velocity and acceleration at `t` (the polynomial continues outside the
-    /// interval; callers choose the segment).
-    pub fn eval(&self, t: f64) -> [f64; 3] {
-        let u = (t - self.t0) / self.duration;
-        let c = &self.c;
-        let p = c[0] + u * (c[1] + u * (c[2] + u * (c[3] + u * (c[4] + u * c[5]))));
-        let v = c[1] + u * (2.0 * c[2] + u * (3.0 * c[3] + u * (4.0 * c[4] + u * 5.0 * c[5])));
-        let a = 2.0 * c[2] + u * (6.0 * c[3] + u * (12.0 * c[4] + u * 20.0 * c[5]));
-        [p, v / self.duration, a / (self.duration * self.duration)]
-    }
-
-    /// Third derivative (jerk) at `t`.
-    pub fn jerk(&self, t: f64) -> f64 {
-        let u = (t - self.t0) / self.duration;
-        let c = &self.c;
-        (6.0 * c[3] + u * (24.0 * c[4] + u * 60.0 * c[5])) / self.duration.powi(3)
-    }
-}
+//! Smooth one-dimensional profiles: pieces whose acceleration is a polynomial (among them the
+//! quintic segments that fix position, velocity and acceleration at both ends), and the
+//! quintic smoothstep.
 
 /// A stretch of motion whose acceleration is a polynomial in the normalised time
 /// u = (t - t0) / duration, integrated in closed form from a start position and velocity:
@@ -93,14 +28,31 @@ impl Piece {
         Piece { t0, duration, c }
     }
 
-    /// A [`Quintic`] as a piece.
-    pub fn from_quintic(q: &Quintic) -> Piece {
-        let mut c = [0.0; 8];
-        c[..6].copy_from_slice(&q.c);
+    /// The quintic over `[t0, t0 + duration]` from `start` = (position, velocity,
+    /// acceleration) to `end` (six conditions, six coefficients: the unique quintic Hermite
+    /// segment). With c0 = p0, c1 = v0 T, c2 = a0 T^2 / 2 fixed by the start, the end
+    /// conditions c3 + c4 + c5 = dp, 3 c3 + 4 c4 + 5 c5 = dv, 6 c3 + 12 c4 + 20 c5 = da solve
+    /// in closed form. `duration` must be positive.
+    pub fn quintic(t0: f64, duration: f64, start: [f64; 3], end: [f64; 3]) -> Piece {
+        let t = duration;
+        let [p0, v0, a0] = start;
+        let [p1, v1, a1] = end;
+        let dp = p1 - p0 - v0 * t - 0.5 * a0 * t * t;
+        let dv = (v1 - v0 - a0 * t) * t;
+        let da = (a1 - a0) * t * t;
         Piece {
-            t0: q.t0,
-            duration: q.duration,
-            c,
+            t0,
+            duration,
+            c: [
+                p0,
+                v0 * t,
+                0.5 * a0 * t * t,
+                10.0 * dp - 4.0 * dv + 0.5 * da,
+                -15.0 * dp + 7.0 * dv - da,
+                6.0 * dp - 3.0 * dv + 0.5 * da,
+                0.0,
+                0.0,
+            ],
         }
     }
 
@@ -159,7 +111,7 @@ mod tests {
     /// Robots, 2008, ch. 2, polynomial trajectories of degree five; chapter from memory).
     #[test]
     fn meets_its_end_conditions() {
-        let q = Quintic::new(1.5, 0.4, [0.9, -0.3, 2.0], [0.6, 1.7, -9.8]);
+        let q = Piece::quintic(1.5, 0.4, [0.9, -0.3, 2.0], [0.6, 1.7, -9.8]);
         let s = q.eval(1.5);
         let e = q.eval(1.9);
         for (got, want) in s.iter().zip([0.9, -0.3, 2.0]).chain(e.iter().zip([0.6, 1.7, -9.8])) {
@@ -174,7 +126,7 @@ mod tests {
     #[test]
     fn rest_to_rest_is_the_minimum_jerk_profile() {
         let (d, t) = (0.28, 0.5);
-        let q = Quintic::new(0.0, t, [0.0, 0.0, 0.0], [-d, 0.0, 0.0]);
+        let q = Piece::quintic(0.0, t, [0.0, 0.0, 0.0], [-d, 0.0, 0.0]);
         let mid = q.eval(t / 2.0);
         assert!((mid[0] + d / 2.0).abs() < 1e-15);
         assert!((mid[1] + 15.0 * d / (8.0 * t)).abs() < 1e-12);
@@ -225,22 +177,13 @@ mod tests {
             let z_want = 0.9 + simpson(&|s| p.eval(s)[1], 0.7, t);
             assert!((z - z_want).abs() < 1e-10, "{z} vs {z_want}");
         }
-        let q = Quintic::new(0.1, 0.3, [1.0, 0.2, -3.0], [0.5, 0.0, 0.0]);
-        let pq = Piece::from_quintic(&q);
-        for k in 0..=10 {
-            let t = 0.1 + 0.03 * f64::from(k);
-            let (x, y) = (q.eval(t), pq.eval(t));
-            for i in 0..3 {
-                assert!((x[i] - y[i]).abs() < 1e-12 * (1.0 + x[i].abs()));
-            }
-        }
     }
 
     /// Derivatives agree with central differences of the position (definition of the
     /// derivative; the O(h^2) difference error bounds the tolerance).
     #[test]
     fn derivatives_match_differences() {
-        let q = Quintic::new(-0.2, 0.3, [1.0, 0.5, 3.0], [1.4, 2.6, -9.8]);
+        let q = Piece::quintic(-0.2, 0.3, [1.0, 0.5, 3.0], [1.4, 2.6, -9.8]);
         let h = 1e-5;
         for k in 1..10 {
             let t = -0.2 + 0.03 * f64::from(k);
@@ -248,7 +191,6 @@ mod tests {
             let (pm, pp) = (q.eval(t - h), q.eval(t + h));
             assert!(((pp[0] - pm[0]) / (2.0 * h) - v).abs() < 1e-6);
             assert!(((pp[0] - 2.0 * p + pm[0]) / (h * h) - a).abs() < 1e-3);
-            assert!(((pp[2] - pm[2]) / (2.0 * h) - q.jerk(t)).abs() < 1e-3);
         }
         let h = 1e-6;
         for k in 1..10 {
