@@ -30,8 +30,8 @@ fn a_sweep_runs_every_grid_point_and_tables_the_summaries() {
         [
             "point",
             "folder",
-            "odile.takeoff_speed [SI]",
-            "odile.crouch_depth [SI]",
+            "odile.takeoff_speed.set [m/s]",
+            "odile.crouch_depth.set [m]",
             "odile.rise [m]",
             "error"
         ]
@@ -47,6 +47,27 @@ fn a_sweep_runs_every_grid_point_and_tables_the_summaries() {
         assert!(out.path().join(&r[1]).join("run.json").is_file(), "{}", r[1]);
         let (_, com) = read_csv(&out.path().join(&r[1]).join("com.csv"));
         assert_eq!(com.len(), 85);
+        // The point's run.json records the values it ran with, in SI.
+        let run: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.path().join(&r[1]).join("run.json")).expect("run.json"))
+                .expect("json");
+        let odile = run["nodes"]
+            .as_array()
+            .expect("nodes")
+            .iter()
+            .find(|n| n["name"] == "odile")
+            .expect("odile");
+        let param = |name: &str| {
+            odile["parameters"]
+                .as_array()
+                .expect("parameters")
+                .iter()
+                .find(|p| p["name"] == name)
+                .and_then(|p| p["value"].as_f64())
+                .expect("a number")
+        };
+        assert_eq!(param("takeoff_speed").to_string(), r[2]);
+        assert_eq!(param("crouch_depth").to_string(), r[3]);
     }
 }
 
@@ -78,6 +99,25 @@ fn shards_split_the_grid_without_overlap() {
     }
     points.sort_unstable();
     assert_eq!(points, (0..7).collect::<Vec<_>>());
+    // A shard with no point (the eighth of a seven-point grid split eight ways) writes the
+    // same header as the others, so the tables concatenate.
+    let o = heft()
+        .args([
+            "sweep",
+            "graphs/toss.graph",
+            "-q",
+            "--vary",
+            "parcel.launch_time=0..0.5 s:7",
+        ])
+        .args(["--shard", "7/8", "--out"])
+        .arg(out.path())
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let (empty, rows) = read_csv_text(&out.path().join("sweep-shard-7-of-8.csv"));
+    let (full, _) = read_csv_text(&out.path().join("sweep-shard-0-of-3.csv"));
+    assert!(rows.is_empty());
+    assert_eq!(empty, full);
 }
 
 #[test]
@@ -101,6 +141,12 @@ fn a_failing_point_is_recorded_and_the_sweep_goes_on() {
     assert_eq!(rows.len(), 3);
     assert!(rows[0][rows[0].len() - 1].is_empty() && rows[1][rows[1].len() - 1].is_empty());
     assert!(rows[2][rows[2].len() - 1].contains("out of range"), "{:?}", rows[2]);
+    // The failed point wrote no folder, and its row names none.
+    assert!(
+        rows[2][1].is_empty() && !out.path().join("point-0002").exists(),
+        "{:?}",
+        rows[2]
+    );
     assert!(out.path().join("point-0001/run.json").is_file());
 }
 

@@ -46,6 +46,50 @@ fn si_value(plan: &Plan, target: &str) -> String {
         .unwrap_or_default()
 }
 
+/// ` [unit]` of a parameter `node.param` of the plan (SI), or nothing for a plain number.
+fn unit_of(plan: &Plan, target: &str) -> String {
+    let symbol = target
+        .split_once('.')
+        .and_then(|(node, param)| {
+            let n = plan.nodes.iter().find(|n| n.name == node)?;
+            let spec = n.ty.spec();
+            let p = spec.params.iter().find(|p| p.name == param)?;
+            match &p.ty {
+                heft_node_sdk::ParamType::Number { dimension, .. } => Some(dimension.si_symbol()),
+                _ => None,
+            }
+        })
+        .unwrap_or("");
+    if symbol.is_empty() {
+        String::new()
+    } else {
+        format!(" [{symbol}]")
+    }
+}
+
+/// The summary columns of the graph (`node.summary [unit]`), those in `wanted` when it names
+/// any, in the graph's order.
+fn summary_columns(plan: &Plan, wanted: &[String]) -> Vec<String> {
+    let mut columns = Vec::new();
+    for n in &plan.nodes {
+        for s in &n.ty.spec().summaries {
+            let name = format!("{}.{}", n.name, s.name);
+            if wanted.is_empty() || wanted.contains(&name) {
+                columns.push(summary_column(&name, s.dimension));
+            }
+        }
+    }
+    columns
+}
+
+/// A summary's column name: `node.summary [unit]`.
+fn summary_column(name: &str, dimension: heft_node_sdk::Dimension) -> String {
+    match dimension.si_symbol() {
+        "" => name.to_owned(),
+        u => format!("{name} [{u}]"),
+    }
+}
+
 #[allow(clippy::too_many_arguments)]
 fn run_point(
     registry: &Registry,
@@ -97,11 +141,7 @@ fn run_point(
         for (s, v) in n.ty.spec().summaries.iter().zip(values) {
             let name = format!("{}.{}", n.name, s.name);
             if wanted.is_empty() || wanted.contains(&name) {
-                let unit = match s.dimension.si_symbol() {
-                    "" => String::new(),
-                    u => format!(" [{u}]"),
-                };
-                result.summaries.push((format!("{name}{unit}"), *v));
+                result.summaries.push((summary_column(&name, s.dimension), *v));
             }
         }
     }
@@ -125,17 +165,19 @@ pub(crate) fn run(
 ) -> ExitCode {
     // Read the graph once and check it as it stands, so that a broken graph stops before any
     // point runs; every point then checks the same parsed graph with its own overrides.
-    let parsed = match read_graph(&graph.graph) {
+    let (parsed, base) = match read_graph(&graph.graph) {
         Ok((g, p)) => {
             let overrides = Overrides {
                 set: graph.set.clone(),
                 frames: graph.frames,
             };
-            if let Err(problems) = check::check(&g, p, registry, &overrides) {
-                eprint!("{}", render(&problems, color));
-                return ExitCode::from(1);
+            match check::check(&g, p, registry, &overrides) {
+                Ok(plan) => (g, plan),
+                Err(problems) => {
+                    eprint!("{}", render(&problems, color));
+                    return ExitCode::from(1);
+                }
             }
-            g
         }
         Err(e) => {
             eprintln!("error: cannot read the graph file {}: {e}", graph.graph.display());
@@ -171,24 +213,29 @@ pub(crate) fn run(
             .map(|(i, values)| run_point(registry, &parsed, graph, axes, *i, values, out, wanted))
             .collect()
     });
-    // The table: one row per point, the union of summary columns in first-seen order.
-    let mut columns: Vec<String> = Vec::new();
-    for r in &results {
-        for (name, _) in &r.summaries {
-            if !columns.contains(name) {
-                columns.push(name.clone());
-            }
-        }
-    }
+    // The table: one row per point; the columns come from the graph, not from the points that
+    // ran, so every shard's table has the same header (an empty shard's too) and they
+    // concatenate. A varied parameter's column is `node.param.set [unit]`, kept apart from a
+    // summary of the same name when a data tool strips the units.
+    let columns = summary_columns(&base, wanted);
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut header = vec!["point".to_owned(), "folder".to_owned()];
-    header.extend(axes.iter().map(|a| format!("{} [SI]", a.target)));
+    header.extend(
+        axes.iter()
+            .map(|a| format!("{}.set{}", a.target, unit_of(&base, &a.target))),
+    );
     header.extend(columns.iter().cloned());
     header.push("error".to_owned());
     let mut failed = 0;
     let mut rows = vec![header];
     for r in &results {
-        let mut row = vec![r.index.to_string(), format!("point-{:04}", r.index)];
+        // A point that failed wrote no folder: its row names none.
+        let folder = if r.error.is_none() {
+            format!("point-{:04}", r.index)
+        } else {
+            String::new()
+        };
+        let mut row = vec![r.index.to_string(), folder];
         row.extend(r.axis_values.iter().cloned());
         for c in &columns {
             row.push(

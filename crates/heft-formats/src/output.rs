@@ -78,6 +78,31 @@ struct NodeEntry {
     #[serde(rename = "type")]
     ty: String,
     seconds: f64,
+    /// Every parameter's value as the node ran with it (defaults, the graph's lines and
+    /// `--set` applied), in SI with its unit.
+    parameters: Vec<ParamEntry>,
+}
+
+#[derive(Serialize)]
+struct ParamEntry {
+    name: String,
+    value: serde_json::Value,
+    unit: &'static str,
+}
+
+/// A parameter's value for run.json: numbers as numbers (SI), vectors as arrays, keys as
+/// [time, [x, y, z]] pairs, words and texts as strings.
+fn param_json(v: &heft_node_sdk::ParamValue) -> serde_json::Value {
+    use heft_node_sdk::ParamValue as P;
+    use serde_json::json;
+    match v {
+        P::Number(x) => json!(x),
+        P::Integer(i) => json!(i),
+        P::Bool(b) => json!(b),
+        P::Choice(c) | P::Text(c) => json!(c),
+        P::Vec3(v) => json!(v),
+        P::Keys(k) => json!(k),
+    }
 }
 
 #[derive(Serialize)]
@@ -240,6 +265,23 @@ pub fn write_all(
                 name: n.name.clone(),
                 ty: n.ty.full_name.clone(),
                 seconds: t.as_secs_f64(),
+                parameters: n
+                    .ty
+                    .spec()
+                    .params
+                    .iter()
+                    .zip(&n.params)
+                    .map(|(spec, value)| ParamEntry {
+                        name: spec.name.clone(),
+                        value: param_json(value),
+                        unit: match &spec.ty {
+                            heft_node_sdk::ParamType::Number { dimension, .. }
+                            | heft_node_sdk::ParamType::Vec3 { dimension, .. }
+                            | heft_node_sdk::ParamType::Keys { dimension, .. } => dimension.si_symbol(),
+                            _ => "",
+                        },
+                    })
+                    .collect(),
             })
             .collect(),
         outputs,
