@@ -248,7 +248,24 @@ fn the_run_summary_names_graph_plugins_timeline_and_outputs() {
     assert_eq!(s["outputs"].as_array().map(Vec::len), Some(4));
     assert_eq!(s["outputs"][0]["file"], "parcel.position.csv");
     assert!(s["wall_seconds"].as_f64().is_some_and(|w| w > 0.0));
+    // The wall time includes the writing: at least the evaluation and the writing together.
+    let (wall, eval, write) = (
+        s["wall_seconds"].as_f64().expect("wall"),
+        s["evaluation_seconds"].as_f64().expect("evaluation"),
+        s["writing_seconds"].as_f64().expect("writing"),
+    );
+    assert!(write > 0.0 && wall >= eval + write, "{wall} {eval} {write}");
     assert_eq!(s["nodes"][1]["type"], "trajectory.keyed");
+    // Every parameter the node ran with, in SI with its unit.
+    let gravity = s["nodes"]
+        .as_array()
+        .expect("nodes")
+        .iter()
+        .flat_map(|n| n["parameters"].as_array().cloned().unwrap_or_default())
+        .find(|p| p["name"] == "gravity")
+        .expect("a gravity parameter");
+    assert_eq!(gravity["unit"], "m/s^2");
+    assert!(gravity["value"].as_f64().is_some_and(|g| g > 0.0));
 }
 
 /// Two runs into one output folder never mix their files: while one run holds the folder (its

@@ -142,6 +142,11 @@ struct Summary {
     summaries: Vec<SummaryEntry>,
     warnings: Vec<String>,
     evaluation_seconds: f64,
+    /// Time spent building and staging the output files (this summary and the final rename
+    /// excepted).
+    writing_seconds: f64,
+    /// From the start of the run to the outputs staged: reading, checking, evaluating and
+    /// writing.
     wall_seconds: f64,
 }
 
@@ -182,6 +187,7 @@ pub fn write_all(
     out: &OutputDir,
     wall: Duration,
 ) -> Result<Vec<PathBuf>, WriteError> {
+    let writing = std::time::Instant::now();
     let dir = out.path();
     let mut staged = out.transaction();
     let mut outputs = Vec::new();
@@ -300,7 +306,8 @@ pub fn write_all(
             .collect(),
         warnings: eval.warnings.iter().map(|(n, w)| format!("{n}: {w}")).collect(),
         evaluation_seconds: eval.wall.as_secs_f64(),
-        wall_seconds: wall.as_secs_f64(),
+        writing_seconds: writing.elapsed().as_secs_f64(),
+        wall_seconds: (wall + writing.elapsed()).as_secs_f64(),
     };
     let summary_path = dir.join(SUMMARY_FILE);
     let json = serde_json::to_vec_pretty(&summary).map_err(|e| werr(&summary_path, e))?;
