@@ -1,7 +1,8 @@
 //! A segmented body for whole-body centre-of-mass work: segment mass fractions and centre of
-//! mass positions, body proportions as fractions of body height, and the two-part model the
-//! jump planner uses (two arms swinging about the shoulders, the rest of the body as one
-//! "trunk").
+//! mass positions (Winter's Table 4.1), body proportions as fractions of body height (Drillis &
+//! Contini), and the jump planner's body built from them: its joints for a pelvis, an arm
+//! angle and the feet, its segments' centre of mass, and the standing pose that puts that
+//! centre of mass where the planner asks.
 
 /// One body segment of the anthropometric table.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -3,9 +3,11 @@
 //! - `trajectory.ballistic`: the exact free-flight parabola from a launch position and velocity.
 //! - `trajectory.keyed`: a path through keyframes on a natural cubic spline (C2: position,
 //!   velocity and acceleration are continuous).
-//! - `trajectory.jump`: a standing countermovement jump planner on a segmented body (Dempster's
-//!   segment table, [`body`]): quintic contact phases, an exact ballistic flight, and arms that
-//!   swing with a timing relative to take-off; attachments for head, chest and hips.
+//! - `trajectory.jump`: a standing countermovement (or broad) jump planned from a ground-force
+//!   profile of the measured shape, integrated in closed form ([`profile`]), an exact ballistic
+//!   flight, arms that swing with a timing relative to take-off, and a segmented body
+//!   (Dempster's segments on Drillis & Contini's proportions, [`body`]) placed at every frame
+//!   so that its centre of mass is the planned one; joints and colliders to hang strands from.
 //!
 //! World axes: right-handed, Z up, SI units (m, s). Gravity acts along -Z.
 #![forbid(unsafe_code)]
