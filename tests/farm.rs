@@ -9,7 +9,7 @@
 use std::path::Path;
 use std::process::Command;
 
-use heft_integration_tests::{plugin_dir, workspace_root};
+use heft_integration_tests::{plugin_dir, run_parameter, workspace_root};
 
 fn lines(path: &Path) -> Vec<String> {
     std::fs::read_to_string(path)
@@ -59,21 +59,7 @@ fn a_job_array_sweep_on_slurm_matches_the_whole_sweep() {
     for row in &rows {
         let cells: Vec<&str> = row.split(',').collect();
         let folder = sharded.join(cells[1]);
-        let run: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(folder.join("run.json")).expect("run.json")).expect("json");
-        let odile = run["nodes"]
-            .as_array()
-            .expect("nodes")
-            .iter()
-            .find(|n| n["name"] == "odile")
-            .expect("odile");
-        let speed = odile["parameters"]
-            .as_array()
-            .expect("parameters")
-            .iter()
-            .find(|p| p["name"] == "takeoff_speed")
-            .and_then(|p| p["value"].as_f64())
-            .expect("a number");
+        let speed = run_parameter(&folder, "odile", "takeoff_speed");
         assert_eq!(speed.to_string(), cells[2], "{}", folder.display());
     }
     let folders = std::fs::read_dir(&sharded)

@@ -1,6 +1,6 @@
 //! `heft sweep`: grids of runs, shards of a job array, and the summary table.
 
-use heft_integration_tests::{heft, read_csv};
+use heft_integration_tests::{heft, read_csv, run_parameter};
 
 #[test]
 fn a_sweep_runs_every_grid_point_and_tables_the_summaries() {
@@ -48,24 +48,8 @@ fn a_sweep_runs_every_grid_point_and_tables_the_summaries() {
         let (_, com) = read_csv(&out.path().join(&r[1]).join("com.csv"));
         assert_eq!(com.len(), 85);
         // The point's run.json records the values it ran with, in SI.
-        let run: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(out.path().join(&r[1]).join("run.json")).expect("run.json"))
-                .expect("json");
-        let odile = run["nodes"]
-            .as_array()
-            .expect("nodes")
-            .iter()
-            .find(|n| n["name"] == "odile")
-            .expect("odile");
-        let param = |name: &str| {
-            odile["parameters"]
-                .as_array()
-                .expect("parameters")
-                .iter()
-                .find(|p| p["name"] == name)
-                .and_then(|p| p["value"].as_f64())
-                .expect("a number")
-        };
+        let folder = out.path().join(&r[1]);
+        let param = |name: &str| run_parameter(&folder, "odile", name);
         assert_eq!(param("takeoff_speed").to_string(), r[2]);
         assert_eq!(param("crouch_depth").to_string(), r[3]);
     }

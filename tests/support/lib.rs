@@ -192,3 +192,19 @@ pub fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<f64>>) {
         .collect();
     (header, rows)
 }
+
+/// The value a node ran with for one of its number parameters, as the run's `run.json` in
+/// `folder` records it (SI).
+pub fn run_parameter(folder: &Path, node: &str, param: &str) -> f64 {
+    let path = folder.join("run.json");
+    let run: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display())))
+            .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    run["nodes"]
+        .as_array()
+        .and_then(|nodes| nodes.iter().find(|n| n["name"] == node))
+        .and_then(|n| n["parameters"].as_array())
+        .and_then(|ps| ps.iter().find(|p| p["name"] == param))
+        .and_then(|p| p["value"].as_f64())
+        .unwrap_or_else(|| panic!("{}: no number `{node}.{param}`", path.display()))
+}
