@@ -10,13 +10,24 @@ heft=$1
 out=$2
 root=$(cd "$(dirname "$0")/../.." && pwd)
 work=$(mktemp -d)
-pids=()
 cleanup() {
-    for p in "${pids[@]}"; do kill "$p" 2>/dev/null || true; done
-    for f in "$work"/*.pid "$work"/munge/*.pid; do
-        [ -f "$f" ] && kill "$(cat "$f")" 2>/dev/null || true
+    # Never fails, so the check's own status is what the script exits with: the daemons are
+    # stopped, waited for (munged writes its seed file as it exits), then their folder goes.
+    set +e
+    local stopped=()
+    for f in "$work"/slurmd.pid "$work"/slurmctld.pid "$work"/munge/munged.pid; do
+        if [ -f "$f" ]; then
+            stopped+=("$(cat "$f")")
+            kill "$(cat "$f")" 2>/dev/null
+        fi
     done
-    rm -rf "$work"
+    for p in "${stopped[@]}"; do
+        for _ in $(seq 50); do
+            kill -0 "$p" 2>/dev/null || break
+            sleep 0.1
+        done
+    done
+    rm -rf "$work" 2>/dev/null || true
 }
 trap cleanup EXIT
 
