@@ -1005,6 +1005,20 @@ tall = trajectory.jump
     );
 }
 
+/// A scaled default that falls outside its parameter's range is a problem at the node, naming
+/// the rule and the range (probe.span: `gap` defaults to a quarter of `length`, at most 0.5 m).
+#[test]
+fn a_scaled_default_out_of_range_is_refused_at_the_node() {
+    let p = body_problems("s = probe.span\n    length = 3 m\n");
+    assert_eq!(
+        located(&p),
+        expect(&[(
+            "t.graph:4:1",
+            "`gap` defaults to 0.25 x `length` = 0.75 m, outside its range 0 m to 0.5 m"
+        )])
+    );
+}
+
 #[test]
 fn a_parameter_can_take_an_earlier_node_s_value() {
     let plan = plan_with(
