@@ -356,6 +356,44 @@ impl Body {
         )
     }
 
+    /// The pose on `feet` (both ankles at the same x and z) with the knees flexed by `phi`
+    /// (0 straight) whose segments' centre of mass is over x = `target[0]` (the pelvis at
+    /// y = `target[1]`, the body's plane of symmetry; z is not used), the arms at
+    /// `arm_angle`: the pelvis sits sqrt(l1^2 + l2^2 + 2 l1 l2 cos phi) from the ankles, its x
+    /// found by Newton's method with a difference slope. Where no lean of the legs balances
+    /// it, [`Limbs::overreach`] holds the distance the centre of mass stays off.
+    pub fn balance(&self, target: [f64; 3], arm_angle: f64, feet: &Feet, phi: f64) -> Limbs {
+        let target_x = target[0];
+        let h = self.height;
+        let (l1, l2) = (
+            (proportions::HIP - proportions::KNEE) * h,
+            (proportions::KNEE - proportions::ANKLE) * h,
+        );
+        let a = feet.ankle[0];
+        let d = (l1 * l1 + l2 * l2 + 2.0 * l1 * l2 * phi.cos()).sqrt();
+        let pose = |x: f64| {
+            let dx = (x - a[0]).clamp(-d, d);
+            self.limbs([a[0] + dx, target[1], a[2] + (d * d - dx * dx).sqrt()], arm_angle, feet)
+        };
+        let mut x = a[0] + target_x - self.centres(&pose(a[0])).0[0];
+        for _ in 0..50 {
+            let c = self.centres(&pose(x)).0[0];
+            let r = target_x - c;
+            if r.abs() < 1e-14 {
+                break;
+            }
+            let e = 1e-7;
+            let slope = (self.centres(&pose(x + e)).0[0] - c) / e;
+            if slope.abs() < 1e-9 {
+                break;
+            }
+            x += r / slope;
+        }
+        let mut l = pose(x);
+        l.overreach = l.overreach.max((self.centres(&l).0[0] - target_x).abs());
+        l
+    }
+
     /// The pose standing on `feet` (both ankles at the same x and z) whose segments' centre
     /// of mass is `target` (x and z; y is the body's plane of symmetry), with the arms at
     /// `arm_angle`. The unknowns are the pelvis's x and the knees' flexion phi (0 straight):
@@ -367,34 +405,8 @@ impl Body {
     /// reach gives the straight pose, one lower than the deepest fold (2.6 rad) that pose,
     /// with the distance missed in [`Limbs::overreach`].
     pub fn stand(&self, target: [f64; 3], arm_angle: f64, feet: &Feet) -> Limbs {
-        let h = self.height;
-        let (l1, l2) = (
-            (proportions::HIP - proportions::KNEE) * h,
-            (proportions::KNEE - proportions::ANKLE) * h,
-        );
-        let a = feet.ankle[0];
-        let pose = |x: f64, phi: f64| {
-            let d = (l1 * l1 + l2 * l2 + 2.0 * l1 * l2 * phi.cos()).sqrt();
-            let dx = (x - a[0]).clamp(-d, d);
-            let p = [a[0] + dx, target[1], a[2] + (d * d - dx * dx).sqrt()];
-            self.limbs(p, arm_angle, feet)
-        };
         let balanced = |phi: f64| {
-            let mut x = a[0] + target[0] - self.centres(&pose(a[0], phi)).0[0];
-            for _ in 0..50 {
-                let c = self.centres(&pose(x, phi)).0[0];
-                let r = target[0] - c;
-                if r.abs() < 1e-14 {
-                    break;
-                }
-                let e = 1e-7;
-                let slope = (self.centres(&pose(x + e, phi)).0[0] - c) / e;
-                if slope.abs() < 1e-9 {
-                    break;
-                }
-                x += r / slope;
-            }
-            let l = pose(x, phi);
+            let l = self.balance(target, arm_angle, feet, phi);
             let z = self.centres(&l).0[2];
             (l, z - target[2])
         };

@@ -361,8 +361,6 @@ pub struct Plan {
     pub least_unweighting_force: f64,
     /// Peak ground force over the landing (body weights).
     pub peak_landing_force: f64,
-    /// The pelvis at take-off.
-    pub pelvis_takeoff: [f64; 3],
     /// Where the balls of the feet stand before the jump (x).
     pub ball_x: f64,
     /// Where they stand after it (x).
@@ -571,9 +569,8 @@ impl Plan {
         pieces.push((Phase::Propulsion, decline));
         let [takeoff_height, takeoff_speed, _] = decline.eval(t_to);
 
-        let pelvis_takeoff = takeoff_limbs.pelvis;
         let feet_to = body.planted_feet(ball_x, s.takeoff_extension);
-        let flight_feet = shifted(&feet_to, pelvis_takeoff.map(|p| -p));
+        let flight_feet = shifted(&feet_to, takeoff_limbs.pelvis.map(|p| -p));
         let mut plan = Plan {
             spec: s,
             body,
@@ -593,7 +590,6 @@ impl Plan {
             lowest_point_force: 1.0 + a_push / G,
             least_unweighting_force,
             peak_landing_force: 0.0,
-            pelvis_takeoff,
             ball_x,
             landing_ball_x: ball_x,
             flight_feet,
@@ -1163,34 +1159,12 @@ impl Plan {
 }
 
 /// The body standing on straight legs with the balls of the feet at `ball_x`, the ankles
-/// lifted by `lift` and the arms at `arm_angle`, its centre of mass at x = `com_x`: the pelvis
-/// slides along the circle the straight legs allow until the segments balance (Newton on x
-/// with a difference derivative). Returns the joints and the centre of mass.
+/// lifted by `lift` and the arms at `arm_angle`, its centre of mass at x = `com_x` ([`Body::balance`]
+/// with the knees straight). Returns the joints and the centre of mass.
 pub fn straight_pose(body: &Body, arm_angle: f64, ball_x: f64, lift: f64, com_x: f64) -> (Limbs, [f64; 3]) {
-    let feet = body.planted_feet(ball_x, lift);
-    let a = feet.ankle[0];
-    let len = body.leg_length();
-    let at = |x: f64| {
-        let dx = (x - a[0]).clamp(-len, len);
-        let p = [x, 0.0, a[2] + (len * len - dx * dx).sqrt()];
-        let l = body.limbs(p, arm_angle, &feet);
-        let c = body.centres(&l).0;
-        (l, c)
-    };
-    let mut x = a[0] + com_x - ball_x + body.standing_ball_x();
-    for _ in 0..50 {
-        let c = at(x).1[0] - com_x;
-        if c.abs() < 1e-13 {
-            break;
-        }
-        let e = 1e-7;
-        let slope = (at(x + e).1[0] - com_x - c) / e;
-        if slope.abs() < 1e-12 {
-            break;
-        }
-        x -= c / slope;
-    }
-    at(x)
+    let l = body.balance([com_x, 0.0, 0.0], arm_angle, &body.planted_feet(ball_x, lift), 0.0);
+    let c = body.centres(&l).0;
+    (l, c)
 }
 
 /// A planned standing countermovement jump of a segmented body.
