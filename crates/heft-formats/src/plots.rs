@@ -198,26 +198,14 @@ where
                     }
                 }
             }
-            chart
-                .draw_series(LineSeries::new(
-                    vec![(t0, bw), (t1, bw)],
-                    BLACK.mix(0.6).stroke_width(1),
-                ))
-                .map_err(err)?
-                .label(format!("body weight {bw:.0} N (quiet standing)"))
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BLACK.mix(0.6)));
             let pts: Vec<(f64, f64)> = (0..times.len()).map(|i| (times[i], force[i])).collect();
-            chart
-                .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(2)))
-                .map_err(err)?
-                .label(force_item.name.clone())
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[0].stroke_width(2)));
-            chart
-                .configure_series_labels()
-                .background_style(WHITE.mix(0.85))
-                .border_style(BLACK)
-                .draw()
-                .map_err(err)?;
+            curve_over_weight(
+                &mut chart,
+                (t0, t1, bw),
+                &format!("body weight {bw:.0} N (quiet standing)"),
+                pts,
+                &force_item.name,
+            )?;
         }
         Style::Path => {
             let [a, b] = plot.plane;
@@ -279,6 +267,43 @@ where
             }
         }
     }
+    Ok(())
+}
+
+/// The weight plots' last layer: the body-weight level (`weight` = (t0, t1, level)) as a thin
+/// black line, the force curve `pts` over it, and the legend.
+fn curve_over_weight<'a, DB: DrawingBackend + 'a>(
+    chart: &mut ChartContext<
+        'a,
+        DB,
+        Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+    >,
+    weight: (f64, f64, f64),
+    weight_label: &str,
+    pts: Vec<(f64, f64)>,
+    curve_label: &str,
+) -> Result<(), String> {
+    let err = |e: DrawingAreaErrorKind<DB::ErrorType>| e.to_string();
+    let (t0, t1, level) = weight;
+    chart
+        .draw_series(LineSeries::new(
+            vec![(t0, level), (t1, level)],
+            BLACK.mix(0.6).stroke_width(1),
+        ))
+        .map_err(err)?
+        .label(weight_label)
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BLACK.mix(0.6)));
+    chart
+        .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(2)))
+        .map_err(err)?
+        .label(curve_label)
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[0].stroke_width(2)));
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()
+        .map_err(err)?;
     Ok(())
 }
 
@@ -403,25 +428,7 @@ where
             )))
             .map_err(err)?;
     }
-    chart
-        .draw_series(LineSeries::new(
-            vec![(t0, 1.0), (t1, 1.0)],
-            BLACK.mix(0.6).stroke_width(1),
-        ))
-        .map_err(err)?
-        .label("body weight")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BLACK.mix(0.6)));
     let pts: Vec<(f64, f64)> = times.iter().copied().zip(weight.iter().copied()).collect();
-    chart
-        .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(2)))
-        .map_err(err)?
-        .label("implied ground force")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[0].stroke_width(2)));
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .draw()
-        .map_err(err)?;
+    curve_over_weight(&mut chart, (t0, t1, 1.0), "body weight", pts, "implied ground force")?;
     Ok(())
 }
