@@ -1114,15 +1114,8 @@ impl Plan {
     /// sampled over every contact interval (121 times each), the pose the body takes there
     /// may not ask the legs for more than their length (1 micrometre allowed for the solver).
     fn check_reach(&self) -> Result<(), NodeError> {
-        let mut intervals = self.contact_intervals();
-        if self.arms.moves() {
-            intervals.push((
-                Phase::Standing,
-                self.arms.start.min(self.countermovement_start),
-                self.countermovement_start,
-            ));
-        }
-        for (phase, t0, t1) in intervals {
+        // Standing and settled stretches where the arms move are among the contact intervals.
+        for (phase, t0, t1) in self.contact_intervals() {
             if t1 <= t0 {
                 continue;
             }
