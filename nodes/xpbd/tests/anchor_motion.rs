@@ -19,8 +19,8 @@ fn a_strand_on_a_falling_anchor_keeps_its_shape_at_24_fps() {
 /// A strand hanging from an anchor that accelerates upward at 4 m/s^2 carries (g + a) / g of
 /// its static tension (equivalence principle; Halliday, Resnick & Walker, Fundamentals of
 /// Physics, ch. 5, the apparent weight in an accelerating elevator). XPBD's stretch of a
-/// segment is linear in the tensions (the sweep's fixed point, see the node's notes), so the top
-/// segment stretches by that ratio: within 0.5 % at 24 and 60 fps (measured: to 1e-12).
+/// segment is Hooke's, linear in the tension (the chain's direct solve, see the node's notes), so
+/// the top segment stretches by that ratio: within 0.5 % at 24 and 60 fps (measured: to 1e-12).
 #[test]
 fn a_strand_in_an_accelerating_elevator_carries_g_plus_a() {
     let (g, a) = (heft_node_sdk::STANDARD_GRAVITY, 4.0);

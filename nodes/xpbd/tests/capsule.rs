@@ -11,10 +11,10 @@ fn norm(a: [f64; 3]) -> f64 {
     (a[0] * a[0] + a[1] * a[1] + a[2] * a[2]).sqrt()
 }
 
-/// 400 substeps for the 40-segment limb strand: a single sweep carries a strand's weight with a
-/// top-segment stretch of about h^2 g (n - 1) (the node notes), 1.7e-3 m at the default 20
-/// substeps against l0 = 0.01 m, 4e-6 m at 400.
-const LIMB_SUBSTEPS: i64 = 400;
+/// The default 20 substeps for the 40-segment limb strand: the chain's direct solve carries its
+/// weight at Hooke's stretch at any step (one sweep per substep, heft's method before, stretched
+/// the top segment by h^2 g (n - 1) = 1.7e-3 m against l0 = 0.01 m and needed 400).
+const LIMB_SUBSTEPS: i64 = 20;
 
 /// How far inside a capsule an output particle may be: in f64 the projection puts it a few ulps
 /// outside; in f32 lanes it runs in f64 with the radii grown by the lanes' rounding, so the

@@ -7,18 +7,21 @@
 use heft_conformance::{Dynamics, Subject, Tolerances, check_all, check_dynamics};
 use heft_node_sdk::ParamValue;
 
-/// XPBD, one Gauss-Seidel sweep of compliant constraints per substep.
+/// XPBD: per substep a Gauss-Seidel sweep of the bending constraints, a direct solve of each
+/// strand's stretch constraints, the correction spread across the strand, and a Gauss-Seidel
+/// sweep of the stretch constraints.
 ///
-/// - Momentum: each constraint projection moves its particles along the constraint gradient
-///   weighted by inverse mass, which conserves linear momentum for a constraint that does not
-///   change under translation (Muller, Heidelberger, Hennix & Ratcliff 2007, "Position Based
-///   Dynamics", J. Vis. Commun. Image Represent. 18, sec. 3.3, from memory; XPBD, Macklin, Muller
-///   & Chentanez 2016, MIG, keeps that form), so momentum is conserved to rounding (1e-9 of
-///   M v_max allowed; measured 5.5e-12).
+/// - Momentum: each constraint projection, and the direct solve, move the particles by W J^T
+///   dlambda, the inverse masses times equal and opposite impulses, which conserves linear momentum
+///   for constraints that do not change under translation (Muller, Heidelberger, Hennix & Ratcliff
+///   2007, "Position Based Dynamics", J. Vis. Commun. Image Represent. 18, sec. 3.3, from memory;
+///   XPBD, Macklin, Muller & Chentanez 2016, MIG, keeps that form); the spreading solves
+///   (M + L) dx = M dx_0 with L a Laplacian (rows summing to zero), which keeps sum M dx. So
+///   momentum is conserved to rounding (1e-9 of M v_max allowed).
 /// - Energy: dissipative (`energy_drift` None). With substeps, XPBD behaves as backward Euler
 ///   in the constraints (the node notes: a stiff strand's swing is damped by about pi omega h of
 ///   its amplitude per period, as nodes/xpbd/tests/pendulum.rs checks), and backward Euler only
-///   loses energy on a linear oscillator (its amplification factor 1 / |1 - i h omega| < 1). One sweep is not an exact
+///   loses energy on a linear oscillator (its amplification factor 1 / |1 - i h omega| < 1). One Newton step is not an exact
 ///   backward-Euler solve, so no rise of zero can be promised: `energy_growth` keeps the kit's
 ///   0.1 of the range. Measured: no rise at all (passes at 1e-8) in damped and undamped runs.
 /// - Order 1: backward Euler, and the position-based velocity v = (x - x_prev) / h, are first
