@@ -137,7 +137,7 @@ impl Kind {
             Kind::Xpbd => Xpbd::<f64>::stability_limit(&setup, false),
             Kind::XpbdF32 => Xpbd::<f32>::stability_limit(&setup, false),
             Kind::Euler => setup.explicit_step_limit(false),
-            Kind::Verlet => step_limit(setup.omega_max_of(0.0, setup.bending_k), setup.damping_rate(false)),
+            Kind::Verlet => step_limit(setup.omega_max_of(false), setup.damping_rate(false)),
         }
     }
 }

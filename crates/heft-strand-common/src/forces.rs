@@ -23,11 +23,11 @@ use crate::geometry::{V3, add, axpy, dot, scale, sub};
 use crate::run::State;
 use crate::setup::Setup;
 
-/// Adds the stretch spring forces of one strand (positions `x`) into `f`.
-/// A segment of zero length exerts no force (its direction is undefined).
+/// Adds the stretch spring forces of one strand (positions `x`; `k` the spring constant of each
+/// segment) into `f`. A segment of zero length exerts no force (its direction is undefined).
 #[inline]
-pub fn add_stretch_forces(x: &[V3], k: f64, l0: f64, f: &mut [V3]) {
-    for j in 0..x.len().saturating_sub(1) {
+pub fn add_stretch_forces(x: &[V3], k: &[f64], l0: f64, f: &mut [V3]) {
+    for (j, &k) in k.iter().enumerate().take(x.len().saturating_sub(1)) {
         let e = sub(x[j + 1], x[j]);
         let l2 = dot(e, e);
         if l2 == 0.0 {
@@ -41,14 +41,15 @@ pub fn add_stretch_forces(x: &[V3], k: f64, l0: f64, f: &mut [V3]) {
     }
 }
 
-/// Adds the bending forces of one strand into `f`: for every interior particle i,
-/// f_{i-1} -= c b_i, f_i += 2 c b_i, f_{i+1} -= c b_i (minus the gradient of (c / 2) |b_i|^2).
+/// Adds the bending forces of one strand into `f`: for every interior particle i (with `c`
+/// at index i - 1), f_{i-1} -= c_i b_i, f_i += 2 c_i b_i, f_{i+1} -= c_i b_i (minus the gradient
+/// of (c_i / 2) |b_i|^2).
 #[inline]
-pub fn add_bending_forces(x: &[V3], c: f64, f: &mut [V3]) {
-    if c == 0.0 {
-        return;
-    }
-    for i in 1..x.len().saturating_sub(1) {
+pub fn add_bending_forces(x: &[V3], c: &[f64], f: &mut [V3]) {
+    for (i, &c) in (1..x.len().saturating_sub(1)).zip(c) {
+        if c == 0.0 {
+            continue;
+        }
         let b = add(sub(x[i - 1], scale(x[i], 2.0)), x[i + 1]);
         let cb = scale(b, c);
         f[i - 1] = sub(f[i - 1], cb);
@@ -57,23 +58,22 @@ pub fn add_bending_forces(x: &[V3], c: f64, f: &mut [V3]) {
     }
 }
 
-/// Stretch energy of one strand, sum of 1/2 k (l - l0)^2, J.
-pub fn stretch_energy(x: &[V3], k: f64, l0: f64) -> f64 {
+/// Stretch energy of one strand, sum of 1/2 k_j (l_j - l0)^2, J.
+pub fn stretch_energy(x: &[V3], k: &[f64], l0: f64) -> f64 {
     x.windows(2)
-        .map(|w| {
+        .zip(k)
+        .map(|(w, &k)| {
             let d = crate::geometry::norm(sub(w[1], w[0])) - l0;
             0.5 * k * d * d
         })
         .sum()
 }
 
-/// Bending energy of one strand, sum of (c / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2, J.
-pub fn bending_energy(x: &[V3], c: f64) -> f64 {
-    if c == 0.0 {
-        return 0.0;
-    }
+/// Bending energy of one strand, sum of (c_i / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2, J.
+pub fn bending_energy(x: &[V3], c: &[f64]) -> f64 {
     x.windows(3)
-        .map(|w| {
+        .zip(c)
+        .map(|(w, &c)| {
             let b = add(sub(w[0], scale(w[1], 2.0)), w[2]);
             0.5 * c * dot(b, b)
         })
@@ -85,7 +85,7 @@ pub fn elastic_energy(setup: &Setup, state: &State) -> f64 {
     state
         .x
         .chunks_exact(setup.particles)
-        .map(|x| stretch_energy(x, setup.spring_k, setup.rest_length) + bending_energy(x, setup.bending_k))
+        .map(|x| stretch_energy(x, &setup.segment_k, setup.rest_length) + bending_energy(x, &setup.bend_c))
         .sum()
 }
 
@@ -94,7 +94,7 @@ pub fn bending_energy_all(setup: &Setup, state: &State) -> f64 {
     state
         .x
         .chunks_exact(setup.particles)
-        .map(|x| bending_energy(x, setup.bending_k))
+        .map(|x| bending_energy(x, &setup.bend_c))
         .sum()
 }
 
@@ -132,15 +132,16 @@ mod tests {
         let (ei, l0) = (2e-3, 0.05);
         let c = ei / (l0 * l0 * l0);
         for theta in [0.01, 0.3, 1.0, 2.5] {
-            let e = bending_energy(&bent(theta, l0), c);
+            let e = bending_energy(&bent(theta, l0), &[c]);
             assert!((e - ei / l0 * (1.0 - theta.cos())).abs() < 1e-15, "{theta}");
         }
         let theta = 1e-3;
-        let e = bending_energy(&bent(theta, l0), c);
+        let e = bending_energy(&bent(theta, l0), &[c]);
         assert!((e / (ei * theta * theta / (2.0 * l0)) - 1.0).abs() < 1e-6);
     }
 
-    /// Forces are minus the gradient of the energies (central differences) and sum to zero.
+    /// Forces are minus the gradient of the energies (central differences) and sum to zero, with
+    /// a different stiffness on every segment and interior particle (a tapered strand).
     #[test]
     fn forces_are_minus_the_energy_gradient() {
         let x: Vec<V3> = vec![
@@ -149,11 +150,11 @@ mod tests {
             [0.05, -0.01, -0.05],
             [0.06, 0.02, -0.09],
         ];
-        let (k, l0, c) = (500.0, 0.035, 3.0);
-        let energy = |x: &[V3]| stretch_energy(x, k, l0) + bending_energy(x, c);
+        let (k, l0, c) = ([500.0, 300.0, 120.0], 0.035, [3.0, 1.2]);
+        let energy = |x: &[V3]| stretch_energy(x, &k, l0) + bending_energy(x, &c);
         let mut f = vec![[0.0; 3]; 4];
-        add_stretch_forces(&x, k, l0, &mut f);
-        add_bending_forces(&x, c, &mut f);
+        add_stretch_forces(&x, &k, l0, &mut f);
+        add_bending_forces(&x, &c, &mut f);
         let eps = 1e-7;
         for i in 0..4 {
             for a in 0..3 {

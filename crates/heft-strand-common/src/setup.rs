@@ -59,7 +59,7 @@ pub struct Setup {
     /// Rest length of every segment, l0 = length / segments, m.
     pub rest_length: f64,
     /// Mass of each particle of a strand (index within the strand), kg: lumped, half a
-    /// segment's mass at each end of every segment.
+    /// segment's mass (tapered, see `tip_thickness`) at each end of every segment.
     pub mass: Vec<f64>,
     /// 1 / mass, and 0 for pinned particles (index within the strand), 1/kg.
     pub inv_mass: Vec<f64>,
@@ -71,14 +71,22 @@ pub struct Setup {
     pub pin: Pin,
     /// Placement mode.
     pub placement: Placement,
-    /// Axial rigidity E A, N.
+    /// Axial rigidity E A at the root, N.
     pub stretch_stiffness: f64,
-    /// Spring constant of one segment, k = E A / l0, N/m.
+    /// Spring constant of a segment at the root, k = E A / l0, N/m.
     pub spring_k: f64,
-    /// Flexural rigidity E I, N m^2.
+    /// Flexural rigidity E I at the root, N m^2.
     pub bending_stiffness: f64,
     /// Bending coefficient c = E I / l0^3 of the discrete energy (c / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2, N/m.
     pub bending_k: f64,
+    /// Spring constant of each segment, k_j = (E A)_j / l0, N/m: `spring_k` scaled by the
+    /// taper (see `tip_thickness`).
+    pub segment_k: Vec<f64>,
+    /// Bending coefficient of each interior particle i (at index i - 1), c_i = (E I)_i / l0^3,
+    /// N/m: `bending_k` scaled by the taper.
+    pub bend_c: Vec<f64>,
+    /// Thickness at the tip over thickness at the root (1: uniform).
+    pub tip_thickness: f64,
     /// Absolute damping rate, 1/s.
     pub damping: f64,
     /// Damping rate relative to the anchor's rigid motion, 1/s.
@@ -196,9 +204,22 @@ impl Setup {
         }
 
         let l0 = length / segments as f64;
-        let mut mass = vec![mu * l0; particles];
-        mass[0] = 0.5 * mu * l0;
-        mass[particles - 1] = 0.5 * mu * l0;
+        // A cone of one material: thickness d(s) / d_root = 1 - (1 - tip) s / L; mass per length
+        // and E A scale with d^2 (taken at each segment's middle), E I with d^4 (at each
+        // interior particle). Masses are lumped: half of each segment's at each of its ends.
+        let tip = positive("tip_thickness")?;
+        let thickness = |s: f64| 1.0 - (1.0 - tip) * s / length;
+        let area = |j: usize| thickness((j as f64 + 0.5) * l0).powi(2);
+        let segment_k: Vec<f64> = (0..segments).map(|j| ea * area(j) / l0).collect();
+        let bend_c: Vec<f64> = (1..segments)
+            .map(|i| ei * thickness(i as f64 * l0).powi(4) / (l0 * l0 * l0))
+            .collect();
+        let mut mass = vec![0.0; particles];
+        for j in 0..segments {
+            let half = 0.5 * mu * area(j) * l0;
+            mass[j] += half;
+            mass[j + 1] += half;
+        }
         let pins: Vec<usize> = match pin {
             Pin::OneEnd => vec![0],
             Pin::BothEnds => vec![0, particles - 1],
@@ -245,6 +266,9 @@ impl Setup {
             spring_k: ea / l0,
             bending_stiffness: ei,
             bending_k: ei / (l0 * l0 * l0),
+            segment_k,
+            bend_c,
+            tip_thickness: tip,
             damping,
             relative_damping,
             drag,
@@ -285,14 +309,16 @@ impl Setup {
     /// bound omega_max = 2 sqrt(k / m) of a spring chain; a single spring on a pinned particle
     /// gives sqrt(k / m) exactly.
     pub fn omega_max(&self) -> f64 {
-        self.omega_max_of(self.spring_k, self.bending_k)
+        self.omega_max_of(true)
     }
 
-    /// [`Setup::omega_max`] for a spring constant `k` (N/m) and bending coefficient `c` (N/m)
-    /// other than the setup's (e.g. `k` = 0 for a method whose segments are rigid).
-    pub fn omega_max_of(&self, k: f64, c: f64) -> f64 {
+    /// [`Setup::omega_max`] with the springs along the strand (`stretch` true) or without them
+    /// (false: for a method whose segments are rigid). Each segment's and each interior
+    /// particle's own constants (a tapered strand's vary).
+    pub fn omega_max_of(&self, stretch: bool) -> f64 {
         let p = self.particles;
         let mut worst: f64 = 0.0;
+        let k = |j: usize| if stretch { self.segment_k[j] } else { 0.0 };
         for i in 0..p {
             if self.pinned[i] {
                 continue;
@@ -301,14 +327,15 @@ impl Setup {
             let free = |j: usize| !self.pinned[j];
             let mut row = 0.0;
             if i > 0 {
-                row += k * (1.0 + f64::from(u8::from(free(i - 1))));
+                row += k(i - 1) * (1.0 + f64::from(u8::from(free(i - 1))));
             }
             if i + 1 < p {
-                row += k * (1.0 + f64::from(u8::from(free(i + 1))));
+                row += k(i) * (1.0 + f64::from(u8::from(free(i + 1))));
             }
-            if c > 0.0 && p >= 3 {
-                // Row i of D^T D, where row j of D is the stencil [1, -2, 1] at j-1, j, j+1 for
-                // every interior particle j: entries at i-2..=i+2 (index e[at + 2 - i]).
+            if p >= 3 {
+                // Row i of D^T C D, where row j of D is the stencil [1, -2, 1] at j-1, j, j+1 for
+                // every interior particle j and C holds its c_j: entries at i-2..=i+2 (index
+                // e[at + 2 - i]).
                 let stencil = |j: usize, at: usize| -> f64 {
                     if at + 1 == j || at == j + 1 {
                         1.0
@@ -321,7 +348,7 @@ impl Setup {
                 let mut e = [0.0f64; 5];
                 for j in i.saturating_sub(1).max(1)..=(i + 1).min(p - 2) {
                     for at in j - 1..=j + 1 {
-                        e[at + 2 - i] += stencil(j, i) * stencil(j, at);
+                        e[at + 2 - i] += self.bend_c[j - 1] * stencil(j, i) * stencil(j, at);
                     }
                 }
                 let sum: f64 = e
@@ -330,7 +357,7 @@ impl Setup {
                     .filter(|(q, v)| **v != 0.0 && free(i + q - 2))
                     .map(|(_, v)| v.abs())
                     .sum();
-                row += c * sum;
+                row += sum;
             }
             worst = worst.max(row / self.mass[i]);
         }
@@ -408,16 +435,17 @@ mod tests {
         let p = s.particles;
         let mut a = vec![vec![0.0; p]; p];
         for j in 0..p - 1 {
-            a[j][j] += s.spring_k;
-            a[j + 1][j + 1] += s.spring_k;
-            a[j][j + 1] -= s.spring_k;
-            a[j + 1][j] -= s.spring_k;
+            let k = s.segment_k[j];
+            a[j][j] += k;
+            a[j + 1][j + 1] += k;
+            a[j][j + 1] -= k;
+            a[j + 1][j] -= k;
         }
         for j in 1..p - 1 {
             let d = [(j - 1, 1.0), (j, -2.0), (j + 1, 1.0)];
             for (r, x) in d {
                 for (c, y) in d {
-                    a[r][c] += s.bending_k * x * y;
+                    a[r][c] += s.bend_c[j - 1] * x * y;
                 }
             }
         }
@@ -515,5 +543,32 @@ mod tests {
             .and_then(|p| p.with("rest_direction", ParamValue::Vec3([0.0; 3])))
             .expect("params");
         assert!(Setup::from_params(&p).unwrap_err().0.contains("zero vector"));
+    }
+    /// `tip_thickness`: a cone of one material. The strand's mass is the cone's,
+    /// mu L (1 + r + r^2) / 3 (the volume of a frustum over the cylinder's), to the midpoint
+    /// rule's error (about (1 - r)^2 / (12 n^2) of it: 2e-4 here); the tip segment's spring constant
+    /// is the root's times the squared thickness ratio of their middles, and the last interior
+    /// particle's bending coefficient the fourth power of its thickness; Gershgorin's bound
+    /// holds for the tapered stiffness matrix too (checked against the power iteration).
+    #[test]
+    fn a_tapered_strand_is_a_cone_of_one_material() {
+        let (n, r) = (12usize, 0.4);
+        let s = setup(&[
+            ("segments", ParamValue::Integer(n as i64)),
+            ("tip_thickness", ParamValue::Number(r)),
+            ("pin", ParamValue::Choice("free".into())),
+            ("bending_stiffness", ParamValue::Number(1e-3)),
+        ]);
+        let total: f64 = s.mass.iter().sum();
+        let cone = 0.05 * 0.4 * (1.0 + r + r * r) / 3.0;
+        assert!((total / cone - 1.0).abs() < 5e-4, "{total} vs {cone}");
+        let d = |x: f64| 1.0 - (1.0 - r) * x / n as f64;
+        let ratio = s.segment_k[n - 1] / s.segment_k[0];
+        assert!((ratio - (d(n as f64 - 0.5) / d(0.5)).powi(2)).abs() < 1e-12, "{ratio}");
+        let c = s.bend_c[n - 2] / (s.bending_stiffness / s.rest_length.powi(3));
+        assert!((c - d(n as f64 - 1.0).powi(4)).abs() < 1e-12, "{c}");
+        let (a, m) = axial_matrix(&s);
+        let exact = lambda_max(&a, &m).sqrt();
+        assert!(s.omega_max() >= exact * (1.0 - 1e-9), "{} < {exact}", s.omega_max());
     }
 }

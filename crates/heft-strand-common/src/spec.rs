@@ -81,6 +81,16 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             "Flexural rigidity E I; 0 = a chain that bends freely.",
         ),
         ParamSpec::number(
+            "tip_thickness",
+            Dimension::Dimensionless,
+            1.0,
+            (0.05, 20.0),
+            "The strand's thickness at its tip over its thickness at the root, tapering linearly: a cone of one \
+             material, so along the strand the mass per length and `stretch_stiffness` scale with the thickness \
+             squared and `bending_stiffness` with its fourth power (hair thins toward its tip). The three are \
+             given at the root; 1 = uniform.",
+        ),
+        ParamSpec::number(
             "damping",
             Dimension::Rate,
             0.5,

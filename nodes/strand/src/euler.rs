@@ -32,7 +32,7 @@ impl Method for EulerMethod {
         let p = setup.particles;
         let h = env.h;
         let inv_h = 1.0 / h;
-        let (k_s, l0, c_b) = (setup.spring_k, setup.rest_length, setup.bending_k);
+        let (k_s, l0, c_b) = (&setup.segment_k[..], setup.rest_length, &setup.bend_c[..]);
         let colliders = env.has_colliders();
         let start = !self.started;
         self.started = true;

@@ -231,7 +231,7 @@ impl Method for VerletMethod {
         let start = !self.started;
         self.started = true;
         let p = setup.particles;
-        let (l0, c_b) = (setup.rest_length, setup.bending_k);
+        let (l0, c_b) = (setup.rest_length, &setup.bend_c[..]);
         let colliders = env.has_colliders();
         let mut s0 = 0;
         while s0 < setup.strands {
@@ -329,7 +329,7 @@ impl Method for VerletMethod {
 
     /// Only bending (explicit) and damping limit the step; the constraints do not.
     fn stability_limit(setup: &Setup, wind: bool) -> Option<f64> {
-        step_limit(setup.omega_max_of(0.0, setup.bending_k), setup.damping_rate(wind))
+        step_limit(setup.omega_max_of(false), setup.damping_rate(wind))
     }
 
     const LIMIT_NAME: &'static str = "the stability limit of the explicit bending and damping terms";

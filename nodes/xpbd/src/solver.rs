@@ -809,13 +809,12 @@ pub struct SummaryModel<'a> {
     pub gravity: [f64; 3],
     /// The substep the steps were taken with, s.
     pub h: f64,
-    /// Segment spring constant k = E A / l0 (N/m), rest length l0 (m), bending constant
-    /// c = E I / l0^3 (N/m) of the contract's energies.
-    pub stretch_k: f64,
+    /// Each segment's spring constant k_j = (E A)_j / l0 (N/m) of the contract's energies.
+    pub stretch_k: &'a [f64],
     /// Rest length l0, m.
     pub rest_length: f64,
-    /// Bending constant c, N/m.
-    pub bending_k: f64,
+    /// Each interior particle's bending constant c_i = (E I)_i / l0^3 (N/m, at index i - 1).
+    pub bending_k: &'a [f64],
     /// The frame loop's blow-up limits: segment length (m) and speed (m/s).
     pub max_length: f64,
     /// See `max_length`.
@@ -972,15 +971,16 @@ impl<T: Real, const N: usize> Lanes<T, N> {
                         let d = [0, 1, 2].map(|k| q[0][k][l].wide() - p[0][k][l].wide());
                         let l2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2];
                         let e = l2.sqrt() - m.rest_length;
-                        es[l] += 0.5 * m.stretch_k * e * e;
+                        es[l] += 0.5 * m.stretch_k[i - 1] * e * e;
                         ok &= l2 <= max_l2;
                     }
                 }
-                if i >= 2 && m.bending_k != 0.0 {
+                if i >= 2 && m.bending_k[i - 2] != 0.0 {
                     let (p, r) = (&xs[i - 2], &xs[i - 1]);
+                    let c = m.bending_k[i - 2];
                     for l in 0..N {
                         let b = [0, 1, 2].map(|k| p[0][k][l].wide() - 2.0 * r[0][k][l].wide() + q[0][k][l].wide());
-                        eb[l] += 0.5 * m.bending_k * (b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
+                        eb[l] += 0.5 * c * (b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
                     }
                 }
             }

@@ -281,9 +281,9 @@ impl<T: Real, const N: usize> Group<T, N> {
             mass: &setup.mass,
             gravity: setup.gravity,
             h,
-            stretch_k: setup.spring_k,
+            stretch_k: &setup.segment_k,
             rest_length: setup.rest_length,
-            bending_k: setup.bending_k,
+            bending_k: &setup.bend_c,
             max_length: heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
             max_speed: heft_strand_common::BLOW_UP_SPEED,
         };
@@ -521,9 +521,12 @@ impl<T: Real> Xpbd<T> {
         Model {
             rest_length: setup.rest_length,
             inv_mass: setup.inv_mass.clone(),
-            stretch_compliance: vec![1.0 / setup.spring_k; setup.segments],
-            bend_compliance: (setup.bending_stiffness > 0.0)
-                .then(|| vec![setup.rest_length / setup.bending_stiffness; setup.segments.saturating_sub(1)]),
+            stretch_compliance: setup.segment_k.iter().map(|k| 1.0 / k).collect(),
+            // alpha_b = l0 / (E I)_i = 1 / (c_i l0^2).
+            bend_compliance: (setup.bending_stiffness > 0.0).then(|| {
+                let l0 = setup.rest_length;
+                setup.bend_c.iter().map(|c| 1.0 / (c * l0 * l0)).collect()
+            }),
             damping_rate: setup.damping_rate(wind),
             gravity: setup.gravity,
         }

@@ -98,3 +98,67 @@ fn a_rigid_strand_stretches_by_its_stiffness_whatever_the_step() {
         }
     }
 }
+
+/// A tapered strand: `tip_thickness` 0.3 makes it a cone of one material, so the mass per
+/// length and E A fall as the thickness squared toward the tip. Hanging at rest, segment j
+/// stretches by the weight below it over its own spring constant; summed, the elongation tends
+/// to the continuum's integral_0^L T(s) / EA(s) ds with T(s) = g mu_0 (d(s)^3 - d_tip^3) / (3 a)
+/// for d(s) = 1 - a s, a = (1 - 0.3) / L (statics of a hanging cone, Hooke's law), computed
+/// here by Simpson's rule on 20 000 intervals. 40 segments: to 0.2 % (the lumped masses'
+/// second-order discretisation error, measured 0.067 %); the uniform strand's elongation
+/// mu g L^2 / (2 E A) is 1.87 times as large.
+#[test]
+fn a_tapered_strand_stretches_as_a_hanging_cone() {
+    let (segments, ea, mu, tip) = (40usize, 20.0, MU, 0.3);
+    let tl = timeline(24, 480);
+    let r = run(
+        &[
+            int("segments", segments as i64),
+            num("length", LENGTH),
+            num("mass_per_length", mu),
+            num("stretch_stiffness", ea),
+            num("bending_stiffness", 0.0),
+            num("tip_thickness", tip),
+            num("damping", 4.0),
+            num("relative_damping", 0.0),
+        ],
+        tl,
+        &[("anchor", fixed_anchor(tl, [0.0, 0.0, 2.0]))],
+    )
+    .expect("runs");
+    let last = r.frames() - 1;
+    let length: f64 = (0..segments)
+        .map(|j| {
+            let (a, b) = (r.x(last, j), r.x(last, j + 1));
+            ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2) + (b[2] - a[2]).powi(2)).sqrt()
+        })
+        .sum();
+    let a = (1.0 - tip) / LENGTH;
+    let strain = |s: f64| {
+        let d = 1.0 - a * s;
+        G * mu * (d.powi(3) - tip.powi(3)) / (3.0 * a) / (ea * d * d)
+    };
+    let n = 20_000;
+    let h = LENGTH / n as f64;
+    let cone: f64 = (0..=n)
+        .map(|i| {
+            let w = if i == 0 || i == n {
+                1.0
+            } else if i % 2 == 1 {
+                4.0
+            } else {
+                2.0
+            };
+            w * strain(i as f64 * h)
+        })
+        .sum::<f64>()
+        * h
+        / 3.0;
+    let got = length - LENGTH;
+    assert!(
+        (got / cone - 1.0).abs() < 2e-3,
+        "elongation {got:e} m vs the cone's {cone:e} m"
+    );
+    let uniform = mu * G * LENGTH * LENGTH / (2.0 * ea);
+    assert!(uniform / got > 1.5, "{uniform:e} vs {got:e}");
+}
