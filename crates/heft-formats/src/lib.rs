@@ -8,6 +8,7 @@
 
 pub mod character;
 pub mod commit;
+pub mod csv_out;
 pub mod gltf_out;
 pub mod output;
 pub mod plots;

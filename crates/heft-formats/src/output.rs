@@ -12,6 +12,8 @@ pub use crate::commit::OutputDir;
 use heft_runtime::check::Plan;
 use heft_runtime::eval::{Evaluation, columns};
 
+use crate::csv_out::CsvWriter;
+
 /// Why outputs could not be written.
 #[derive(Debug)]
 pub struct WriteError {
@@ -36,32 +38,15 @@ fn werr(path: &Path, e: impl std::fmt::Display) -> WriteError {
     }
 }
 
-/// The CSV text of one output. Its columns carry the node's name and the output's
-/// (`braid.positions.p0.x [m]`), so that files merged by a data tool keep apart.
+/// The CSV text of one output, in memory (see [`crate::csv_out::CsvWriter`], which
+/// [`write_all`] streams into the file instead).
 pub fn csv_text(plan: &Plan, eval: &Evaluation, node: usize, output: usize) -> Result<Vec<u8>, String> {
-    let pn = &plan.nodes[node];
-    let port = &pn.ty.spec().outputs[output];
-    let shape = pn.outputs[output];
-    let values = &eval.values[node][output];
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let mut header = vec!["frame".to_owned(), "time [s]".to_owned()];
-    header.extend(columns(
-        &format!("{}.{}", pn.name, port.name),
-        shape,
-        port.dimension,
-        &port.codes,
-    ));
-    w.write_record(&header).map_err(|e| e.to_string())?;
-    let width = shape.width();
-    let mut row: Vec<String> = Vec::with_capacity(width + 2);
-    for i in 0..plan.timeline.frames() {
-        row.clear();
-        row.push(plan.timeline.frame_number(i).to_string());
-        row.push(format!("{}", plan.timeline.time(i)));
-        row.extend(values[i * width..(i + 1) * width].iter().map(|v| format!("{v}")));
-        w.write_record(&row).map_err(|e| e.to_string())?;
-    }
-    w.into_inner().map_err(|e| e.to_string())
+    let w = CsvWriter::new(plan, node, output)?;
+    let mut text = Vec::new();
+    w.write_header(&mut text).map_err(|e| e.to_string())?;
+    w.write_rows(&mut text, 0..plan.timeline.frames(), &eval.values[node][output])
+        .map_err(|e| e.to_string())?;
+    Ok(text)
 }
 
 #[derive(Serialize)]
@@ -193,8 +178,12 @@ pub fn write_all(
     let mut outputs = Vec::new();
     for w in &plan.writes {
         let path = dir.join(format!("{}.csv", w.stem));
-        let text = csv_text(plan, eval, w.node, w.output).map_err(|e| werr(&path, e))?;
-        staged.stage(&path, &[&text])?;
+        let csv = CsvWriter::new(plan, w.node, w.output).map_err(|e| werr(&path, e))?;
+        let mut file = staged.create(&path)?;
+        csv.write_header(&mut file)
+            .and_then(|()| csv.write_rows(&mut file, 0..plan.timeline.frames(), &eval.values[w.node][w.output]))
+            .map_err(|e| werr(&path, e))?;
+        staged.add(file)?;
         let pn = &plan.nodes[w.node];
         let port = &pn.ty.spec().outputs[w.output];
         outputs.push(OutputEntry {
