@@ -13,6 +13,8 @@ use heft_runtime::check::Plan;
 use heft_runtime::eval::{Evaluation, columns};
 
 use crate::csv_out::CsvWriter;
+use crate::parquet_out::ParquetWriter;
+use heft_runtime::check::WriteFormat;
 
 /// Why outputs could not be written.
 #[derive(Debug)]
@@ -96,6 +98,9 @@ struct OutputEntry {
     node: String,
     port: String,
     kind: String,
+    /// For a `write`: `csv` or `parquet`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    format: Option<&'static str>,
     columns: Vec<String>,
 }
 
@@ -176,27 +181,43 @@ pub fn write_all(
     let dir = out.path();
     let mut staged = out.transaction();
     let mut outputs = Vec::new();
+    let frames = 0..plan.timeline.frames();
     for w in &plan.writes {
-        let path = dir.join(format!("{}.csv", w.stem));
-        let csv = CsvWriter::new(plan, w.node, w.output).map_err(|e| werr(&path, e))?;
+        let path = dir.join(w.file());
+        let values = &eval.values[w.node][w.output];
         let mut file = staged.create(&path)?;
-        csv.write_header(&mut file)
-            .and_then(|()| csv.write_rows(&mut file, 0..plan.timeline.frames(), &eval.values[w.node][w.output]))
-            .map_err(|e| werr(&path, e))?;
-        staged.add(file)?;
         let pn = &plan.nodes[w.node];
         let port = &pn.ty.spec().outputs[w.output];
+        let columns = match w.format {
+            WriteFormat::Csv => {
+                let csv = CsvWriter::new(plan, w.node, w.output).map_err(|e| werr(&path, e))?;
+                csv.write_header(&mut file)
+                    .and_then(|()| csv.write_rows(&mut file, frames.clone(), values))
+                    .map_err(|e| werr(&path, e))?;
+                columns(
+                    &format!("{}.{}", pn.name, port.name),
+                    pn.outputs[w.output],
+                    port.dimension,
+                    &port.codes,
+                )
+            }
+            WriteFormat::Parquet => {
+                let parquet = ParquetWriter::new(plan, w).map_err(|e| werr(&path, e))?;
+                let mut table = parquet.start(file).map_err(|e| werr(&path, e))?;
+                table.write_frames(frames.clone(), values).map_err(|e| werr(&path, e))?;
+                file = table.finish().map_err(|e| werr(&path, e))?;
+                // As for CSV: the columns after `frame` and `time [s]`.
+                parquet.column_names()[2..].to_vec()
+            }
+        };
+        staged.add(file)?;
         outputs.push(OutputEntry {
-            file: format!("{}.csv", w.stem),
+            file: w.file(),
             node: pn.name.clone(),
             port: port.name.clone(),
             kind: pn.outputs[w.output].to_string(),
-            columns: columns(
-                &format!("{}.{}", pn.name, port.name),
-                pn.outputs[w.output],
-                port.dimension,
-                &port.codes,
-            ),
+            format: Some(w.format.extension()),
+            columns,
         });
     }
     for bake in &plan.bakes {
@@ -210,6 +231,7 @@ pub fn write_all(
                 node: String::new(),
                 port: String::new(),
                 kind: "glTF 2.0".to_owned(),
+                format: None,
                 columns: bake.items.iter().map(|i| i.name.clone()).collect(),
             });
         }
@@ -224,6 +246,7 @@ pub fn write_all(
             node: String::new(),
             port: String::new(),
             kind: "plot".to_owned(),
+            format: None,
             columns: plot.items.iter().map(|i| i.name.clone()).collect(),
         });
     }
