@@ -258,6 +258,28 @@ fn write_csv(c: &mut Criterion) {
         "the same CSV as heft wrote it before (format! and the csv crate)",
         |b| b.iter(|| black_box(formatted_as_before(&plan, values, csv.width()).len())),
     );
+    // The same positions as a Parquet long table (one row per frame and particle).
+    let (plan, eval) = strands(120, "write hair.positions format parquet\n");
+    let w = &plan.writes[0];
+    let parquet = heft_formats::parquet_out::ParquetWriter::new(&plan, w).expect("writer");
+    let values = &eval.values[w.node][w.output];
+    let write = |out: Vec<u8>| -> Vec<u8> {
+        let mut f = parquet.start(out).expect("start");
+        f.write_frames(0..frames, values).expect("rows");
+        f.finish().expect("finish")
+    };
+    let mut out = write(Vec::new());
+    g.throughput(Throughput::Bytes(out.len() as u64));
+    g.bench_function(
+        "write the Parquet table of 1000 strands x 17 points x 120 frames",
+        |b| {
+            b.iter(|| {
+                out.clear();
+                out = write(std::mem::take(&mut out));
+                black_box(out.len())
+            })
+        },
+    );
     g.finish();
 }
 
