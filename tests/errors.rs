@@ -148,7 +148,10 @@ c = ballistic
             ("t.graph:5:33", "`m/s!` is not a unit"),
             ("t.graph:6:21", "unexpected text after the value"),
             ("t.graph:7:14", "expected a value after `=`"),
-            ("t.graph:8:23", "unexpected text at the end of the line"),
+            (
+                "t.graph:8:23",
+                "expected `as NAME`, `format FORMAT` or the end of the line"
+            ),
             ("t.graph:9:18", "expected a file name after `as`"),
             ("t.graph:10:5", "expected a node type as `plugin.node`"),
         ])
@@ -694,6 +697,54 @@ write a.acceleration
             ("t.graph:10:7".to_owned(), "first written here"),
         ]
     );
+}
+
+/// A `write` line's format: an unknown one is named at its place with the formats heft
+/// writes, a missing one at the `format` word; a CSV and a Parquet file of one output are two
+/// files, two Parquet files of one name are one too many.
+#[test]
+fn unknown_and_missing_write_formats_are_located() {
+    let p = body_problems(
+        "a = trajectory.ballistic
+write a.position format feather
+write a.velocity format
+write a.position as p format parquet
+write a.position as p
+write a.acceleration format parquet
+write a.acceleration format parquet
+write a.velocity format csv as v
+",
+    );
+    assert_eq!(
+        located(&p),
+        expect(&[
+            ("t.graph:6:18", "expected a file format after `format`"),
+            (
+                "t.graph:11:29",
+                "expected `as NAME`, `format FORMAT` or the end of the line"
+            ),
+            ("t.graph:5:25", "`feather` is not a file format heft writes"),
+            (
+                "t.graph:10:7",
+                "two outputs would be written to `a.acceleration.parquet`"
+            ),
+        ])
+    );
+    assert_eq!(help(&p[0]), "formats: csv, parquet");
+    assert_eq!(
+        help(&p[1]),
+        "a write reads `write node.port [as NAME] [format FORMAT]`; formats: csv, parquet"
+    );
+    assert_eq!(help(&p[2]), "formats: csv, parquet");
+    // The same output as CSV and as Parquet under one name: two files, both planned.
+    let plan = plan_with(
+        "a = trajectory.ballistic\nwrite a.position as p format parquet\nwrite a.position as p\n",
+        &[],
+        None,
+    )
+    .expect("plans");
+    let files: Vec<String> = plan.writes.iter().map(|w| w.file()).collect();
+    assert_eq!(files, ["p.parquet", "p.csv"]);
 }
 
 #[test]

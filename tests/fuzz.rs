@@ -155,6 +155,12 @@ fn exercise(path: &Path) {
                 }
                 for w in &plan.writes {
                     let _ = heft_formats::output::csv_text(&plan, &e, w.node, w.output);
+                    if let Ok(t) = heft_formats::parquet_out::ParquetWriter::new(&plan, w)
+                        && let Ok(mut f) = t.start(Vec::new())
+                    {
+                        let _ = f.write_frames(0..plan.timeline.frames(), &e.values[w.node][w.output]);
+                        let _ = f.finish();
+                    }
                 }
             }
         }

@@ -46,7 +46,8 @@ enum Command {
     Run {
         #[command(flatten)]
         graph: GraphArgs,
-        /// Folder for the outputs (created if missing).
+        /// Folder for the outputs (created if missing): a CSV file per `write` line (or a
+        /// Parquet table with `format parquet`), the bakes and plots, and run.json.
         #[arg(long, value_name = "DIR", default_value = "out")]
         out: PathBuf,
         /// Worker threads, 1 to 1024 (default: one per core). Results do not depend on it.

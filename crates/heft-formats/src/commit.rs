@@ -211,6 +211,37 @@ fn rollback(dir: &Path, entries: &[Entry]) -> std::io::Result<()> {
     Ok(())
 }
 
+/// The buffer between a writer and its staged file: large enough that a writer's many small
+/// writes reach the system as few large ones.
+const STAGE_BUFFER: usize = 1 << 20;
+
+/// A file being written beside its target (see [`Transaction::create`]): a buffered
+/// [`Write`] to its temporary file.
+#[derive(Debug)]
+pub struct StagedFile {
+    file: std::io::BufWriter<tempfile::NamedTempFile>,
+    target: PathBuf,
+}
+
+impl StagedFile {
+    /// The file this one will replace.
+    pub fn target(&self) -> &Path {
+        &self.target
+    }
+}
+
+impl Write for StagedFile {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        self.file.write(buf)
+    }
+    fn write_all(&mut self, buf: &[u8]) -> std::io::Result<()> {
+        self.file.write_all(buf)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.file.flush()
+    }
+}
+
 /// A set of files written in full, waiting to be committed together.
 #[derive(Debug)]
 pub struct Transaction<'a> {
@@ -239,17 +270,36 @@ impl Transaction<'_> {
 
     /// Writes a file given as consecutive parts in full to a temporary file beside `target`.
     pub fn stage(&mut self, target: &Path, parts: &[&[u8]]) -> Result<(), WriteError> {
+        let mut file = self.create(target)?;
+        for bytes in parts {
+            file.write_all(bytes).map_err(|e| werr(target, e))?;
+        }
+        self.add(file)
+    }
+
+    /// A temporary file beside `target` (its folder created if missing) to write into through
+    /// a buffer, in as many calls as the writer likes (a writer that streams its rows, or,
+    /// later, a window of frames at a time); [`Transaction::add`] then joins it to the files
+    /// committed together. A file never added is removed when dropped.
+    pub fn create(&self, target: &Path) -> Result<StagedFile, WriteError> {
         let parent = self.parent_of(target)?;
-        let mut tmp = tempfile::Builder::new()
+        let tmp = tempfile::Builder::new()
             .prefix(PREFIX)
             .suffix(".partial")
             .tempfile_in(&parent)
             .map_err(|e| werr(&parent, format!("cannot create a file in the output folder: {e}")))?;
-        for bytes in parts {
-            tmp.write_all(bytes).map_err(|e| werr(target, e))?;
-        }
-        tmp.as_file().sync_all().map_err(|e| werr(target, e))?;
-        self.staged.push((tmp.into_temp_path(), target.to_path_buf()));
+        Ok(StagedFile {
+            file: std::io::BufWriter::with_capacity(STAGE_BUFFER, tmp),
+            target: target.to_path_buf(),
+        })
+    }
+
+    /// Flushes and syncs a file made by [`Transaction::create`] and stages it for the commit.
+    pub fn add(&mut self, file: StagedFile) -> Result<(), WriteError> {
+        let target = file.target;
+        let tmp = file.file.into_inner().map_err(|e| werr(&target, e.error()))?;
+        tmp.as_file().sync_all().map_err(|e| werr(&target, e))?;
+        self.staged.push((tmp.into_temp_path(), target));
         Ok(())
     }
 

@@ -73,6 +73,13 @@ const Y: [f64; 3] = [0.0, 1.0, 0.0];
 /// rotation whose +Y is turned onto the first segment.
 pub fn transport(points: &[[f64; 3]], root: Quat) -> Vec<Quat> {
     let mut out = Vec::with_capacity(points.len());
+    transport_into(points, root, &mut out);
+    out
+}
+
+/// [`transport`] into `out` (cleared first), so that a caller keeps one buffer for every frame.
+fn transport_into(points: &[[f64; 3]], root: Quat, out: &mut Vec<Quat>) {
+    out.clear();
     let mut frame = root;
     for j in 0..points.len() {
         if j + 1 < points.len()
@@ -84,7 +91,6 @@ pub fn transport(points: &[[f64; 3]], root: Quat) -> Vec<Quat> {
         }
         out.push(frame);
     }
-    out
 }
 
 /// Keeps consecutive quaternions in one hemisphere, so linear interpolation takes the short way.
@@ -148,10 +154,13 @@ impl Builder {
             self.bin.push(0);
         }
         let offset = self.bin.len();
-        self.bin.resize(offset + 4 * len, 0);
-        for (bytes, v) in self.bin[offset..].chunks_exact_mut(4).zip(data) {
-            bytes.copy_from_slice(&v.to_le_bytes());
+        // Appended in one pass (no zeroing first): the buffer's pages are touched once.
+        self.bin.reserve(4 * len);
+        for v in data.take(len) {
+            self.bin.extend_from_slice(&v.to_le_bytes());
         }
+        // Never short: a short source is padded with zeros, as the accessor's count says.
+        self.bin.resize(offset + 4 * len, 0);
         self.views
             .push(json!({"buffer": 0, "byteOffset": offset, "byteLength": len * 4}));
         let mut acc = json!({
@@ -175,6 +184,20 @@ impl Builder {
             .push(json!({"input": self.time_accessor, "output": output, "interpolation": "LINEAR"}));
         self.channels
             .push(json!({"sampler": self.samplers.len() - 1, "target": {"node": node, "path": path}}));
+    }
+
+    /// Room in the buffer for a channel of `count` keys of `width` floats on `node`'s `path`,
+    /// as one accessor (with its sampler and channel), zero-filled; returns its byte offset, for
+    /// the caller to fill key by key with [`put`].
+    fn channel_space(&mut self, node: usize, path: &str, width: usize, count: usize) -> usize {
+        let at = self.bin.len().next_multiple_of(4);
+        let ty = if width == 4 { "VEC4" } else { "VEC3" };
+        let output = self.floats_of(std::iter::empty(), width * count, ty, count, None);
+        self.samplers
+            .push(json!({"input": self.time_accessor, "output": output, "interpolation": "LINEAR"}));
+        self.channels
+            .push(json!({"sampler": self.samplers.len() - 1, "target": {"node": node, "path": path}}));
+        at
     }
 
     /// A node with a unique tool-safe name made from `name`, heft's extras and a parent.
@@ -238,6 +261,13 @@ impl Builder {
         self.rest(node, None, None, s.first().copied());
         let data = s.iter().flat_map(|p| p.map(|c| c as f32));
         self.channel_of(node, "scale", data, 3, s.len());
+    }
+}
+
+/// Writes `values` little-endian at byte `at` of `bin`.
+fn put<const N: usize>(bin: &mut [u8], at: usize, values: [f32; N]) {
+    for (bytes, v) in bin[at..at + 4 * N].chunks_exact_mut(4).zip(values) {
+        bytes.copy_from_slice(&v.to_le_bytes());
     }
 }
 
@@ -493,11 +523,34 @@ impl Bake<'_> {
         // Everything below is in the bake's axes (`parent_world` too), where each joint aims its +Y.
         let nf = self.frames.len();
         let mut pts = vec![[0.0; 3]; c];
+        let mut rots = Vec::with_capacity(c);
+        // Frame 0's world transforms, for the inverse bind matrices.
+        let mut bind: Vec<(Quat, [f64; 3])> = Vec::with_capacity(c);
         for s in 0..strands {
-            // World rotations per frame per joint, carried from frame to frame.
-            let mut world: Vec<Vec<Quat>> = vec![Vec::with_capacity(nf); c];
-            let mut points: Vec<Vec<[f64; 3]>> = vec![Vec::with_capacity(nf); c];
+            // The strand's joints, then its channels: a translation and a rotation per joint,
+            // laid out in the buffer now (their places depend only on the frame count) and
+            // filled frame by frame below, so that the strand's state (the root's frame, each
+            // joint's last rotation) is all that is carried from one frame to the next.
+            let mut joints = Vec::with_capacity(c);
+            let mut parent_node = parent;
+            let mut places = Vec::with_capacity(c);
+            for j in 0..c {
+                let name = format!("{}.s{s}.j{j}", item.name);
+                let n = self.b.node(
+                    &name,
+                    Some(json!({"name": name, "series": item.name, "point": s * c + j})),
+                    Some(parent_node),
+                );
+                let t = self.b.channel_space(n, "translation", 3, nf);
+                let r = self.b.channel_space(n, "rotation", 4, nf);
+                places.push((t, r));
+                joints.push(n);
+                parent_node = n;
+            }
             let mut prev_root: Option<Quat> = None;
+            let mut last_r: Vec<Quat> = vec![[0.0, 0.0, 0.0, 1.0]; c];
+            // The first joint (in chain order) whose translation leaves f32, with its key.
+            let mut overflow: Option<(usize, usize, f64)> = None;
             for (k, i) in self.frames.clone().enumerate() {
                 let f = self.frame(item.node, item.output, i);
                 for (j, p) in pts.iter_mut().enumerate() {
@@ -513,49 +566,52 @@ impl Bake<'_> {
                         normalise(mul(turn, prev))
                     }
                 };
-                let rots = transport(&pts, start);
+                transport_into(&pts, start, &mut rots);
                 prev_root = Some(rots[0]);
-                for j in 0..c {
-                    world[j].push(rots[j]);
-                    points[j].push(pts[j]);
+                if k == 0 {
+                    bind.clear();
+                    bind.extend(rots.iter().copied().zip(pts.iter().copied()));
                 }
-            }
-            // Local transforms.
-            let (mut t, mut r) = (Vec::with_capacity(nf), Vec::with_capacity(nf));
-            let mut joints = Vec::with_capacity(c);
-            let mut parent_node = parent;
-            for j in 0..c {
-                let name = format!("{}.s{s}.j{j}", item.name);
-                let n = self.b.node(
-                    &name,
-                    Some(json!({"name": name, "series": item.name, "point": s * c + j})),
-                    Some(parent_node),
-                );
-                t.clear();
-                r.clear();
-                for k in 0..nf {
+                // Local transforms: each joint in its parent's frame (the anchor's for the root).
+                for j in 0..c {
                     let up = if j == 0 {
                         parent_world[k]
                     } else {
                         Rigid {
-                            r: world[j - 1][k],
-                            t: points[j - 1][k],
+                            r: rots[j - 1],
+                            t: pts[j - 1],
                         }
                     };
-                    let (lr, lt) = up.local(world[j][k], points[j][k]);
-                    t.push(lt);
-                    r.push(lr);
+                    let (mut lr, lt) = up.local(rots[j], pts[j]);
+                    // Consecutive keys in one hemisphere, so linear interpolation takes the
+                    // short way.
+                    if k > 0 && (0..4).map(|m| lr[m] * last_r[j][m]).sum::<f64>() < 0.0 {
+                        lr = lr.map(|v| -v);
+                    }
+                    last_r[j] = lr;
+                    if k == 0 {
+                        self.b.rest(joints[j], Some(lt), Some(lr), None);
+                    }
+                    if overflow.is_none_or(|(first, _, _)| j < first)
+                        && let Some(v) = lt.into_iter().find(|v| !(*v as f32).is_finite())
+                    {
+                        overflow = Some((j, k, v));
+                    }
+                    let (tp, rp) = places[j];
+                    put(&mut self.b.bin, tp + 12 * k, lt.map(|v| v as f32));
+                    put(&mut self.b.bin, rp + 16 * k, lr.map(|v| v as f32));
                 }
-                self.b.animate_t(n, &t);
-                self.b.animate_r(n, &mut r);
-                joints.push(n);
-                parent_node = n;
+            }
+            if let Some((j, k, v)) = overflow
+                && self.b.overflow.is_none()
+            {
+                let name = self.b.nodes[joints[j]]["name"].as_str().unwrap_or("?").to_owned();
+                self.b.overflow = Some((format!("the translation of `{name}`"), k, v));
             }
             // Inverse bind matrices: the inverse world transform of each joint at the first
             // baked frame, column-major.
             let mut ibm: Vec<f32> = Vec::with_capacity(16 * c);
-            for j in 0..c {
-                let (r, p) = (world[j][0], points[j][0]);
+            for &(r, p) in &bind {
                 let inv = conj(r);
                 let m = crate::character::rotation_matrix(inv);
                 let t = rotate(inv, p).map(|v| -v);
@@ -778,10 +834,15 @@ pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<
         characters: BTreeMap::new(),
         base: bake.base,
     };
-    // Room for every channel: a translation and a rotation per point (a joint or a node) per
-    // frame, so the buffer grows once.
+    // Room for every channel, so that the buffer is never moved (a move copies it whole and
+    // touches twice its size): a translation and a rotation per point (a joint or a node) per
+    // frame, an inverse bind matrix per joint, the times, a quarter more for a character's own
+    // joints and the anchors' scales and the alignment, and the base file's own data.
+    // Reserving touches no memory: only what is written is.
     let per_frame: usize = bake.items.iter().map(|i| 7 * i.shape.points.max(1)).sum();
-    bk.b.bin.reserve(4 * per_frame * frames.len() + 4 * times.len());
+    let matrices: usize = bake.items.iter().map(|i| 16 * i.shape.points).sum();
+    let floats = per_frame * frames.len() + matrices + times.len();
+    bk.b.bin.reserve(4 * (floats + floats / 4) + (1 << 20));
     let (tmin, tmax) = (
         times.first().copied().unwrap_or(0.0),
         times.last().copied().unwrap_or(0.0),

@@ -8,8 +8,10 @@
 
 pub mod character;
 pub mod commit;
+pub mod csv_out;
 pub mod gltf_out;
 pub mod output;
+pub mod parquet_out;
 pub mod plots;
 pub mod plugin_lock;
 pub mod quat;

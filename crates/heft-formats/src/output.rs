@@ -12,6 +12,10 @@ pub use crate::commit::OutputDir;
 use heft_runtime::check::Plan;
 use heft_runtime::eval::{Evaluation, columns};
 
+use crate::csv_out::CsvWriter;
+use crate::parquet_out::ParquetWriter;
+use heft_runtime::check::WriteFormat;
+
 /// Why outputs could not be written.
 #[derive(Debug)]
 pub struct WriteError {
@@ -36,32 +40,15 @@ fn werr(path: &Path, e: impl std::fmt::Display) -> WriteError {
     }
 }
 
-/// The CSV text of one output. Its columns carry the node's name and the output's
-/// (`braid.positions.p0.x [m]`), so that files merged by a data tool keep apart.
+/// The CSV text of one output, in memory (see [`crate::csv_out::CsvWriter`], which
+/// [`write_all`] streams into the file instead).
 pub fn csv_text(plan: &Plan, eval: &Evaluation, node: usize, output: usize) -> Result<Vec<u8>, String> {
-    let pn = &plan.nodes[node];
-    let port = &pn.ty.spec().outputs[output];
-    let shape = pn.outputs[output];
-    let values = &eval.values[node][output];
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let mut header = vec!["frame".to_owned(), "time [s]".to_owned()];
-    header.extend(columns(
-        &format!("{}.{}", pn.name, port.name),
-        shape,
-        port.dimension,
-        &port.codes,
-    ));
-    w.write_record(&header).map_err(|e| e.to_string())?;
-    let width = shape.width();
-    let mut row: Vec<String> = Vec::with_capacity(width + 2);
-    for i in 0..plan.timeline.frames() {
-        row.clear();
-        row.push(plan.timeline.frame_number(i).to_string());
-        row.push(format!("{}", plan.timeline.time(i)));
-        row.extend(values[i * width..(i + 1) * width].iter().map(|v| format!("{v}")));
-        w.write_record(&row).map_err(|e| e.to_string())?;
-    }
-    w.into_inner().map_err(|e| e.to_string())
+    let w = CsvWriter::new(plan, node, output)?;
+    let mut text = Vec::new();
+    w.write_header(&mut text).map_err(|e| e.to_string())?;
+    w.write_rows(&mut text, 0..plan.timeline.frames(), &eval.values[node][output])
+        .map_err(|e| e.to_string())?;
+    Ok(text)
 }
 
 #[derive(Serialize)]
@@ -111,6 +98,9 @@ struct OutputEntry {
     node: String,
     port: String,
     kind: String,
+    /// For a `write`: `csv` or `parquet`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    format: Option<&'static str>,
     columns: Vec<String>,
 }
 
@@ -191,23 +181,43 @@ pub fn write_all(
     let dir = out.path();
     let mut staged = out.transaction();
     let mut outputs = Vec::new();
+    let frames = 0..plan.timeline.frames();
     for w in &plan.writes {
-        let path = dir.join(format!("{}.csv", w.stem));
-        let text = csv_text(plan, eval, w.node, w.output).map_err(|e| werr(&path, e))?;
-        staged.stage(&path, &[&text])?;
+        let path = dir.join(w.file());
+        let values = &eval.values[w.node][w.output];
+        let mut file = staged.create(&path)?;
         let pn = &plan.nodes[w.node];
         let port = &pn.ty.spec().outputs[w.output];
+        let columns = match w.format {
+            WriteFormat::Csv => {
+                let csv = CsvWriter::new(plan, w.node, w.output).map_err(|e| werr(&path, e))?;
+                csv.write_header(&mut file)
+                    .and_then(|()| csv.write_rows(&mut file, frames.clone(), values))
+                    .map_err(|e| werr(&path, e))?;
+                columns(
+                    &format!("{}.{}", pn.name, port.name),
+                    pn.outputs[w.output],
+                    port.dimension,
+                    &port.codes,
+                )
+            }
+            WriteFormat::Parquet => {
+                let parquet = ParquetWriter::new(plan, w).map_err(|e| werr(&path, e))?;
+                let mut table = parquet.start(file).map_err(|e| werr(&path, e))?;
+                table.write_frames(frames.clone(), values).map_err(|e| werr(&path, e))?;
+                file = table.finish().map_err(|e| werr(&path, e))?;
+                // As for CSV: the columns after `frame` and `time [s]`.
+                parquet.column_names()[2..].to_vec()
+            }
+        };
+        staged.add(file)?;
         outputs.push(OutputEntry {
-            file: format!("{}.csv", w.stem),
+            file: w.file(),
             node: pn.name.clone(),
             port: port.name.clone(),
             kind: pn.outputs[w.output].to_string(),
-            columns: columns(
-                &format!("{}.{}", pn.name, port.name),
-                pn.outputs[w.output],
-                port.dimension,
-                &port.codes,
-            ),
+            format: Some(w.format.extension()),
+            columns,
         });
     }
     for bake in &plan.bakes {
@@ -221,6 +231,7 @@ pub fn write_all(
                 node: String::new(),
                 port: String::new(),
                 kind: "glTF 2.0".to_owned(),
+                format: None,
                 columns: bake.items.iter().map(|i| i.name.clone()).collect(),
             });
         }
@@ -235,6 +246,7 @@ pub fn write_all(
             node: String::new(),
             port: String::new(),
             kind: "plot".to_owned(),
+            format: None,
             columns: plot.items.iter().map(|i| i.name.clone()).collect(),
         });
     }

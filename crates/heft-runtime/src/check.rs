@@ -46,6 +46,33 @@ pub struct PlannedNode {
     pub at: String,
 }
 
+/// The file format of a `write` line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WriteFormat {
+    /// CSV: a header row, then one row per frame with every value of the output.
+    Csv,
+    /// Apache Parquet: a long table, one row per frame (per frame and point for points).
+    Parquet,
+}
+
+impl WriteFormat {
+    /// The format a `format` word names (see [`crate::graph::WRITE_FORMATS`]).
+    pub fn from_name(name: &str) -> Option<WriteFormat> {
+        match name {
+            "csv" => Some(WriteFormat::Csv),
+            "parquet" => Some(WriteFormat::Parquet),
+            _ => None,
+        }
+    }
+    /// The file name extension, without the dot.
+    pub fn extension(self) -> &'static str {
+        match self {
+            WriteFormat::Csv => "csv",
+            WriteFormat::Parquet => "parquet",
+        }
+    }
+}
+
 /// An output to write.
 #[derive(Debug, Clone)]
 pub struct PlannedWrite {
@@ -53,8 +80,20 @@ pub struct PlannedWrite {
     pub node: usize,
     /// Output index.
     pub output: usize,
-    /// File stem (without `.csv`).
+    /// File stem (without the extension).
     pub stem: String,
+    /// The file format.
+    pub format: WriteFormat,
+    /// For the points of a strand node: joints per strand (its `segments` plus one), so that
+    /// a long table can say which strand and joint each point is.
+    pub chain: Option<usize>,
+}
+
+impl PlannedWrite {
+    /// The file name in the output folder: the stem and the format's extension.
+    pub fn file(&self) -> String {
+        format!("{}.{}", self.stem, self.format.extension())
+    }
 }
 
 /// A checked graph: everything needed to evaluate it.
@@ -1301,22 +1340,47 @@ pub fn check(
             problems.push(port_problem(&wd.port, ty, true));
             continue;
         };
+        let format = match &wd.format {
+            None => WriteFormat::Csv,
+            Some(f) => match WriteFormat::from_name(&f.value) {
+                Some(format) => format,
+                None => {
+                    problems.push(
+                        Problem::at(srcs, f.span, format!("`{}` is not a file format heft writes", f.value))
+                            .label("unknown format")
+                            .help(format!("formats: {}", crate::graph::WRITE_FORMATS.join(", "))),
+                    );
+                    continue;
+                }
+            },
+        };
         let stem = wd.name.as_ref().map_or_else(|| wd.port.text(), |s| s.value.clone());
         let stem_span = wd.name.as_ref().map_or(wd.port.span(), |s| s.span);
-        if let Some(first) = stems.get(&stem) {
+        let file = format!("{stem}.{}", format.extension());
+        if let Some(first) = stems.get(&file) {
             problems.push(
-                Problem::at(srcs, stem_span, format!("two outputs would be written to `{stem}.csv`"))
+                Problem::at(srcs, stem_span, format!("two outputs would be written to `{file}`"))
                     .label("same file")
                     .also(place(*first), "first written here")
                     .help("give one of them another name with `as NAME`"),
             );
             continue;
         }
-        stems.insert(stem.clone(), stem_span);
+        stems.insert(file, stem_span);
+        let shape = ty.spec().outputs[k].kind;
+        let chain = match shape {
+            PortKind::Points => shapes[i]
+                .as_ref()
+                .and_then(|o| o.get(k))
+                .and_then(|o| strand_joints(&states[i], o.points)),
+            _ => None,
+        };
         writes.push(PlannedWrite {
             node: i,
             output: k,
             stem,
+            format,
+            chain,
         });
     }
 

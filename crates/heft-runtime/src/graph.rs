@@ -13,6 +13,7 @@
 //! toss.position -> follow.target    # a wire from an output port to an input port
 //! write toss.position               # an output: out/toss.position.csv
 //! write toss.velocity as toss_speed # ... or out/toss_speed.csv
+//! write toss.position format parquet # out/toss.position.parquet, a long table
 //! ```
 //!
 //! Parsing only checks the shape of each line; what the names mean is checked against the
@@ -27,7 +28,7 @@ pub const FORMAT_VERSION: u32 = 1;
 
 /// The statements of the language, for help texts.
 const STATEMENTS: &str = "statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in`, \
-                          `write node.port`, `bake \"file.glb\"`, `plot \"file.svg\"` and `include \"recipe.graph\" as name`";
+                          `write node.port [as NAME] [format csv|parquet]`, `bake \"file.glb\"`, `plot \"file.svg\"` and `include \"recipe.graph\" as name`";
 
 /// Words that start a statement and cannot name a node.
 pub const KEYWORDS: &[&str] = &["format", "rate", "frames", "write", "as", "bake", "plot", "include"];
@@ -154,13 +155,19 @@ pub struct Wire {
     pub to: PortRef,
 }
 
-/// `write node.port [as name]`.
+/// The file formats of a `write` line, the first the default: `csv` (one row per frame, one
+/// column per value) and `parquet` (a long table: one row per frame, or per frame and point).
+pub const WRITE_FORMATS: &[&str] = &["csv", "parquet"];
+
+/// `write node.port [as name] [format csv|parquet]`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct WriteDecl {
     /// The output port to write.
     pub port: PortRef,
     /// File stem, if given.
     pub name: Option<Spanned<String>>,
+    /// File format as written (one of [`WRITE_FORMATS`] once checked), if given.
+    pub format: Option<Spanned<String>>,
     /// The whole statement.
     pub span: Span,
 }
@@ -757,21 +764,32 @@ fn statement(
         "write" => {
             let port = port_ref(line, source, "the output to write")?;
             let mut name = None;
-            if !line.done() {
+            let mut format = None;
+            while !line.done() {
                 let at = line.at();
                 match line.ident() {
-                    Some(w) if w.value == "as" => {
+                    Some(w) if w.value == "as" && name.is_none() && format.is_none() => {
                         name =
                             Some(line.ident().ok_or_else(|| {
                                 problem(source, line.span_from(at), "expected a file name after `as`")
                             })?);
                     }
+                    Some(w) if w.value == "format" && format.is_none() => {
+                        format = Some(line.ident().ok_or_else(|| {
+                            problem(source, line.span_from(at), "expected a file format after `format`")
+                                .help(format!("formats: {}", WRITE_FORMATS.join(", ")))
+                        })?);
+                    }
                     _ => {
                         return Err(problem(
                             source,
                             Span::new(at, line.base + line.text.len()),
-                            "expected `as NAME` or the end of the line",
-                        ));
+                            "expected `as NAME`, `format FORMAT` or the end of the line",
+                        )
+                        .help(format!(
+                            "a write reads `write node.port [as NAME] [format FORMAT]`; formats: {}",
+                            WRITE_FORMATS.join(", ")
+                        )));
                     }
                 }
             }
@@ -779,6 +797,7 @@ fn statement(
             graph.writes.push(WriteDecl {
                 port,
                 name,
+                format,
                 span: line.span_from(start),
             });
         }

@@ -70,6 +70,9 @@ fn remap(g: &mut GraphFile, k: u16) {
         if let Some(n) = &mut w.name {
             n.span = n.span.in_file(k);
         }
+        if let Some(f) = &mut w.format {
+            f.span = f.span.in_file(k);
+        }
     }
     for b in &mut g.blocks {
         b.file.span = b.file.span.in_file(k);
