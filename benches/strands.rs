@@ -1,31 +1,32 @@
-//! Strand throughput: `xpbd.strand`, `xpbd.strand_fast`, `strand.verlet` and `strand.euler` called through their
-//! plugin function tables, against the same chains built in rapier3d (a general-purpose
-//! rigid-body engine from crates.io) with spherical impulse joints. Before the benches it prints
-//! the first-mode frequency of a hanging chain measured in `xpbd.strand` and in rapier3d, with
-//! their relative errors against Bernoulli's value; after them, the rates of this run and their
-//! ratios to rapier3d (read back from this run's criterion estimates; machines are shared and
-//! noisy, so only ratios within one run mean anything).
+//! Strand throughput at matched accuracy: `xpbd.strand` and `xpbd.strand_fast`, called through
+//! their plugin function table, against the same chains built in rapier3d (a general-purpose
+//! rigid-body engine from crates.io) with spherical impulse joints, each engine at the step that
+//! makes it accurate; then the rates of every strand node at the default step, and the longest
+//! chain the contract allows.
 //!
-//! Run: `cargo bench -p heft-benches --bench strands` (about 2 minutes).
+//! Run: `cargo bench -p heft-benches --bench strands` (a few minutes).
 //!
-//! What is measured (criterion prints elements/s; an element is one particle advanced by one
-//! substep, pinned root particles included; a call's first output frame is the initial state,
-//! so a call over 25 frames simulates 24):
-//!
-//! - `strands_1024x32`: 1024 strands of 32 particles (`count` = 1024, `segments` = 31,
-//!   `length` = 0.4 m, `placement` = line, `pin` = one_end, other parameters at their defaults)
-//!   on an anchor swaying 2 cm at 0.5 Hz along X, 24 frames of 20 substeps at 24 fps
-//!   (h = 1/480 s). rapier3d takes about half a minute for those 480 steps of 32768 bodies, so
-//!   it runs the same chains at the same h for 2 frames (40 steps) a call.
-//! - `strand_1x257`: one long chain, 24 frames of 20 substeps for every engine. XPBD with one
-//!   sweep a substep carries a chain's weight only with a top-segment stretch of about
-//!   h^2 g (n - 1) (the node notes): at this h a 0.4 m chain of 257 particles already hangs with
-//!   its top segment about 7 rest lengths long, and a longer one would pass the blow-up limit of
-//!   10, so the long chain stays at 257 particles (the contract allows 4097).
-//! - A method whose stability limit is below h (`strand.euler`'s explicit springs at both sizes,
-//!   `strand.verlet`'s explicit bending on the long chain) runs at the fewest substeps its limit
-//!   allows plus 25 %, over fewer frames (at least one) to keep a call near 480 substeps; the
-//!   schedule is printed before each bench. The rate per particle-substep is what compares.
+//! 1. Accuracy first (printed before the benches): a 1 m hanging chain of 32 particles released
+//!    in its first mode, run by each engine at h = 1/240, 1/480, ... 1/15360 s. An engine is
+//!    accurate at a step when the first mode is within 0.2 % of the discrete chain's (the model
+//!    all of them simulate: Bernoulli's n-body hanging chain) and the chain stays within 0.5 % of
+//!    its length at every frame; the largest such step is the engine's matched step.
+//! 2. `matched_1024x32`: one second of 1024 strands of 32 particles (`count` = 1024,
+//!    `segments` = 31, `length` = 0.4 m, `placement` = line, `pin` = one_end, other parameters at
+//!    their defaults) on an anchor swaying 2 cm at 0.5 Hz along X, each engine at its matched
+//!    step. criterion times the nodes' whole second (24 frames); rapier3d takes about 50 ms a
+//!    step of those 32768 bodies, so it is timed over 4 steps a call and its second projected
+//!    from that (its time per step does not change over a run: no sleeping, no contacts). The
+//!    report gives the seconds per simulated second and our speed over rapier3d's.
+//! 3. `strands_1024x32`: the same strands in every strand node at the default 20 substeps
+//!    (h = 1/480 s), particle-substeps per second (an element is one particle advanced by one
+//!    substep, pinned root particles included; a call's first output frame is the initial
+//!    state, so a call over 25 frames simulates 24). A method whose stability limit is below
+//!    h (`strand.euler`'s explicit springs) runs at the fewest substeps its limit allows plus
+//!    25 %, over fewer frames (at least one) to keep a call near 480 substeps; the schedule is
+//!    printed before each bench.
+//! 4. `strand_1x4097`: one chain of 4097 particles in the XPBD nodes at 80 substeps, the step
+//!    that keeps it within 1 % of its length (nodes/xpbd/tests/inextensible.rs).
 //!
 //! Everything runs on one thread: the strand nodes are single-threaded, and rapier3d is built
 //! without its `parallel` feature. No `-C target-cpu` is set: the XPBD nodes pick AVX2 at run
@@ -44,7 +45,7 @@
 //! `dt` = h, one `PhysicsWorld::step` per substep, linear damping 0.5 /s like the nodes'
 //! `damping` (rapier has no counterpart of `relative_damping`); `rapier` keeps rapier's default
 //! of 4 solver iterations a step (internal substeps of dt / 4), `rapier_1_iteration` makes one,
-//! as `xpbd.strand` makes one constraint sweep a substep. Bodies never sleep (a hanging chain at
+//! as `xpbd.strand` makes one solve of its constraints a substep. Bodies never sleep (a hanging chain at
 //! rest would otherwise be skipped). World construction is not timed.
 
 use std::hint::black_box;
@@ -52,7 +53,7 @@ use std::path::PathBuf;
 use std::sync::OnceLock;
 use std::time::{Duration, SystemTime};
 
-use criterion::{BatchSize, Criterion, SamplingMode, Throughput};
+use criterion::{Criterion, SamplingMode, Throughput};
 use heft_node_sdk::host::Plugin;
 use heft_node_sdk::{ParamValue, Params, PortKind, STANDARD_GRAVITY, Timeline};
 use heft_strand_common::{Method, Setup, step_limit};
@@ -470,11 +471,12 @@ fn frequency_from_crossings(samples: &[f64], dt: f64) -> Option<f64> {
 }
 
 /// What one mode run gives: frequency, tip amplitude at the end over the start, and the chain's
-/// mean length over the run relative to its rest length.
+/// largest stretch over the run.
 struct ModeRun {
     omega: f64,
     amplitude_ratio: f64,
-    length_ratio: f64,
+    /// The largest |chain length / rest length - 1| over the run.
+    stretch: f64,
 }
 
 fn mode_stats(tip_x: &[f64], lengths: &[f64], dt: f64, period: f64, rest_length: f64) -> ModeRun {
@@ -485,7 +487,7 @@ fn mode_stats(tip_x: &[f64], lengths: &[f64], dt: f64, period: f64, rest_length:
     ModeRun {
         omega,
         amplitude_ratio: end / start,
-        length_ratio: lengths.iter().sum::<f64>() / lengths.len() as f64 / rest_length,
+        stretch: lengths.iter().fold(0.0f64, |a, l| a.max((l / rest_length - 1.0).abs())),
     }
 }
 
@@ -545,9 +547,9 @@ impl ModeSetup {
         1.0 / f64::from(self.fps)
     }
 
-    /// `xpbd.strand` with `substeps` a frame: the anchor still at the origin, the contract's
-    /// default stretch stiffness (E A = 200 N), no bending, no damping.
-    fn xpbd(&self, substeps: usize) -> ModeRun {
+    /// `xpbd.strand` (or `xpbd.strand_fast`) with `substeps` a frame: the anchor still at the
+    /// origin, the contract's default stretch stiffness (E A = 200 N), no bending, no damping.
+    fn xpbd(&self, kind: Kind, substeps: usize) -> ModeRun {
         let tl = timeline(self.frames, self.fps);
         let still: Vec<f64> = (0..self.frames)
             .flat_map(|_| [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0])
@@ -556,7 +558,7 @@ impl ModeSetup {
             .flat_map(|_| self.shape.iter().flatten().copied())
             .collect();
         let mut call = NodeCall::new(
-            Kind::Xpbd,
+            kind,
             &[
                 ("length", ParamValue::Number(self.length)),
                 ("segments", ParamValue::Integer(self.particles as i64 - 1)),
@@ -610,15 +612,49 @@ impl ModeSetup {
     }
 }
 
-/// Measures the first hanging-chain mode in `xpbd.strand` and in rapier3d and prints both
-/// relative errors against Bernoulli's omega_1 (and against the 31-link discrete chain, to
-/// separate the methods' errors from the discretisation's). The bench's step is h = 1/480 s
-/// (2 substeps a frame at 240 frames/s, the same h as 20 substeps at 24 frames/s); a run at
-/// h / 4 shows how each error converges.
-fn report_modes() {
+/// The accuracy every engine is brought to before it is timed: the hanging chain's first mode
+/// within 0.2 % of the discrete chain's (the model every engine here simulates; the 31-link
+/// chain itself is within 0.2 % of Bernoulli's continuous one) and the chain's length within
+/// 0.5 % of its rest length at every frame.
+const MODE_ERROR: f64 = 0.002;
+/// See [`MODE_ERROR`].
+const STRETCH: f64 = 0.005;
+
+/// Steps a 240 frames/s frame is divided into, tried in order until an engine is accurate.
+const LADDER: [usize; 7] = [1, 2, 4, 8, 16, 32, 64];
+
+/// An engine compared at matched accuracy.
+#[derive(Clone, Copy)]
+enum Engine {
+    Node(Kind),
+    /// rapier3d with this many solver iterations a step.
+    Rapier(usize),
+}
+
+impl Engine {
+    fn name(self) -> String {
+        match self {
+            Engine::Node(k) => k.name().to_owned(),
+            Engine::Rapier(i) => rapier_name(i),
+        }
+    }
+}
+
+/// The engines compared at matched accuracy.
+const MATCHED: [Engine; 4] = [
+    Engine::Node(Kind::Xpbd),
+    Engine::Node(Kind::XpbdF32),
+    Engine::Rapier(4),
+    Engine::Rapier(1),
+];
+
+/// Runs the hanging chain's first mode in every engine at the steps of [`LADDER`], prints each
+/// run's errors, and returns for each engine of [`MATCHED`] the largest step (as steps a
+/// 240 frames/s frame) at which it is within [`MODE_ERROR`] and [`STRETCH`]; `None` if no step
+/// of the ladder is.
+fn matched_steps() -> Vec<Option<usize>> {
     let (setup, omega_d) = ModeSetup::new();
     let omega_b = bernoulli_omega1(setup.length, STANDARD_GRAVITY);
-    let err = |w: f64| (w - omega_b) / omega_b;
     eprintln!(
         "hanging chain, first mode: L = {} m, {} particles, {} kg/m, released in the first mode (1 cm at the tip), \
          6 periods, tip x sampled at {} frames/s",
@@ -631,54 +667,157 @@ fn report_modes() {
     eprintln!(
         "  discrete 31-link chain with the nodes' lumped masses (Bernoulli's n-body chain, linearised): \
          omega_1 = {omega_d:.5} rad/s ({:+.3} % from Bernoulli)",
-        100.0 * err(omega_d)
+        100.0 * (omega_d - omega_b) / omega_b
     );
-    let runs = [
-        ("xpbd.strand, h = 1/480 s (20 substeps at 24 fps)", setup.xpbd(2)),
-        (
-            "rapier3d,    h = 1/480 s, 4 solver iterations (its default)",
-            setup.rapier(2, 4),
-        ),
-        ("xpbd.strand, h = 1/1920 s", setup.xpbd(8)),
-        ("rapier3d,    h = 1/480 s, 1 solver iteration", setup.rapier(2, 1)),
-    ];
-    for (name, r) in &runs {
-        eprintln!(
-            "  {name}: omega_1 = {:.5} rad/s, error {:+.3} % against Bernoulli ({:+.3} % against the discrete \
-             chain); tip amplitude, 6th period over 1st, x {:.3}; mean chain length x {:.5}",
-            r.omega,
-            100.0 * err(r.omega),
-            100.0 * (r.omega - omega_d) / omega_d,
-            r.amplitude_ratio,
-            r.length_ratio
-        );
-    }
-    // Sanity bounds only (the figures printed above are the result): every run within 5 % of
-    // Bernoulli, and the discrete chain within 1 % of the continuous one at 31 links.
-    for (name, r) in &runs {
-        assert!(err(r.omega).abs() < 0.05, "{name}: first mode off by more than 5 %");
-    }
     assert!(
-        err(omega_d).abs() < 0.01,
+        ((omega_d - omega_b) / omega_b).abs() < 0.01,
         "the discrete chain's first mode is off by more than 1 %"
     );
+    eprintln!(
+        "  matched accuracy: first mode within {} % of the discrete chain's and length within {} % at every frame",
+        100.0 * MODE_ERROR,
+        100.0 * STRETCH
+    );
+    MATCHED
+        .iter()
+        .map(|&e| {
+            for steps in LADDER {
+                let r = match e {
+                    Engine::Node(k) => setup.xpbd(k, steps),
+                    Engine::Rapier(i) => setup.rapier(steps, i),
+                };
+                let err = (r.omega - omega_d) / omega_d;
+                let ok = err.abs() < MODE_ERROR && r.stretch < STRETCH;
+                eprintln!(
+                    "  {:<22} h = 1/{:<5} s: first mode {:+.3} % (against Bernoulli {:+.3} %), longest {:+.3} %, \
+                     tip amplitude after 6 periods x {:.3}{}",
+                    e.name(),
+                    240 * steps,
+                    100.0 * err,
+                    100.0 * (r.omega - omega_b) / omega_b,
+                    100.0 * r.stretch,
+                    r.amplitude_ratio,
+                    if ok { "  <- matched" } else { "" }
+                );
+                // A sanity bound only: the figures above are the result.
+                assert!(err.abs() < 0.05, "{}: first mode off by more than 5 %", e.name());
+                if ok {
+                    return Some(steps);
+                }
+            }
+            None
+        })
+        .collect()
+}
+
+/// The strands timed at matched accuracy: 1024 strands of 32 particles, 0.4 m, on the swaying
+/// anchor, one second (24 frames at 24 frames/s).
+const MATCHED_CASE: Case = Case {
+    group: "matched_1024x32",
+    strands: 1024,
+    particles: 32,
+    length: 0.4,
+    kinds: &XPBD,
+    substeps: SUBSTEPS,
+};
+
+/// rapier3d steps timed a call at matched accuracy (its time per step does not change over a
+/// run: no sleeping, no contacts), from which one second is projected.
+const RAPIER_STEPS_TIMED: usize = 4;
+
+/// Substeps a 24 frames/s frame for `steps` steps a 240 frames/s frame (the same h).
+fn substeps_at_24(steps: usize) -> usize {
+    10 * steps
+}
+
+/// Times one second of [`MATCHED_CASE`] in every matched engine at its matched step: criterion
+/// measures a whole second for the nodes, and [`RAPIER_STEPS_TIMED`] steps for rapier3d.
+fn bench_matched(c: &mut Criterion, steps: &[Option<usize>]) {
+    let case = MATCHED_CASE;
+    let mut g = c.benchmark_group(case.group);
+    g.sampling_mode(SamplingMode::Flat)
+        .sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(4));
+    for (&e, s) in MATCHED.iter().zip(steps) {
+        let Some(s) = *s else {
+            eprintln!(
+                "{}/{}: no step of the ladder is accurate enough; not timed",
+                case.group,
+                e.name()
+            );
+            continue;
+        };
+        let substeps = substeps_at_24(s);
+        let h = 1.0 / f64::from(FPS) / substeps as f64;
+        match e {
+            Engine::Node(kind) => {
+                let tl = timeline(FRAMES + 1, FPS);
+                let mut call = NodeCall::new(
+                    kind,
+                    &overrides(case, substeps),
+                    tl,
+                    vec![("anchor", anchor_series(tl))],
+                );
+                call.run().unwrap_or_else(|err| panic!("{} fails: {err}", kind.name()));
+                g.throughput(Throughput::Elements(
+                    (case.strands * case.particles * FRAMES * substeps) as u64,
+                ));
+                g.bench_function(e.name(), |b| b.iter(|| black_box(call.run())));
+            }
+            Engine::Rapier(iterations) => {
+                let mut chains = RapierChains::hanging(case.strands, case.particles, case.length, 0.05, 0.5, h);
+                chains.world.integration_parameters.num_solver_iterations = iterations;
+                let mut t = 0.0;
+                g.throughput(Throughput::Elements(
+                    (case.strands * case.particles * RAPIER_STEPS_TIMED) as u64,
+                ));
+                g.bench_function(e.name(), |b| {
+                    b.iter(|| {
+                        chains.frame(t, t + h * RAPIER_STEPS_TIMED as f64, RAPIER_STEPS_TIMED);
+                        t += h * RAPIER_STEPS_TIMED as f64;
+                        black_box(&chains.out);
+                    })
+                });
+            }
+        }
+    }
+    g.finish();
+}
+
+/// Seconds to simulate one second of [`MATCHED_CASE`] in each matched engine, from this run's
+/// criterion means (`None` where it did not run).
+fn matched_seconds(steps: &[Option<usize>], since: SystemTime) -> Vec<Option<f64>> {
+    MATCHED
+        .iter()
+        .zip(steps)
+        .map(|(&e, s)| {
+            let substeps = substeps_at_24((*s)?);
+            let ns = mean_ns(MATCHED_CASE.group, &e.name(), since)?;
+            Some(match e {
+                Engine::Node(_) => ns * 1e-9,
+                Engine::Rapier(_) => ns * 1e-9 * (FPS as usize * substeps) as f64 / RAPIER_STEPS_TIMED as f64,
+            })
+        })
+        .collect()
 }
 
 // ---------------------------------------------------------------------------------------------
 // The benches.
 
-/// A strand case: strands of `particles` particles, `length` m long; rapier3d runs
-/// `rapier_frames` frames (fewer than the nodes' 24 where it would take minutes).
+/// A strand case: strands of `particles` particles, `length` m long, run by `kinds` at
+/// `substeps` a frame for one second.
 #[derive(Clone, Copy)]
 struct Case {
     group: &'static str,
     strands: usize,
     particles: usize,
     length: f64,
-    rapier_frames: usize,
+    kinds: &'static [Kind],
+    substeps: usize,
 }
 
-/// Frames the nodes run at the bench's 20 substeps.
+/// Frames the nodes run: one second.
 const FRAMES: usize = 24;
 
 /// The node's parameters for a case, the substeps given.
@@ -699,23 +838,25 @@ fn schedule(kind: Kind, case: Case) -> (usize, usize) {
     let (plugin, index) = kind.plugin();
     let spec = &plugin.descriptor().nodes[index as usize];
     let mut params = Params::defaults(spec).expect("defaults");
-    for (n, v) in overrides(case, SUBSTEPS) {
+    for (n, v) in overrides(case, case.substeps) {
         params = params.with(n, v).expect("known parameter");
     }
     let frame = 1.0 / f64::from(FPS);
     let substeps = match kind.step_limit(&params) {
-        Some(limit) if frame / SUBSTEPS as f64 > limit / 1.25 => (1.25 * frame / limit).ceil() as usize,
-        _ => SUBSTEPS,
+        Some(limit) if frame / case.substeps as f64 > limit / 1.25 => (1.25 * frame / limit).ceil() as usize,
+        _ => case.substeps,
     };
-    (substeps, (FRAMES * SUBSTEPS / substeps).max(1))
+    (substeps, (FRAMES * case.substeps / substeps).max(1))
 }
 
-/// The node types benched, in order.
+/// The node types benched at the default step, in order.
 const KINDS: [Kind; 4] = [Kind::Xpbd, Kind::XpbdF32, Kind::Verlet, Kind::Euler];
+/// The XPBD nodes.
+const XPBD: [Kind; 2] = [Kind::Xpbd, Kind::XpbdF32];
 
 /// The benches of one case: (name, particle-substeps per iteration).
 fn bench_names(case: Case) -> Vec<(String, u64)> {
-    let mut names: Vec<(String, u64)> = KINDS
+    case.kinds
         .iter()
         .map(|&k| {
             let (substeps, frames) = schedule(k, case);
@@ -724,19 +865,8 @@ fn bench_names(case: Case) -> Vec<(String, u64)> {
                 (case.strands * case.particles * frames * substeps) as u64,
             )
         })
-        .collect();
-    for iterations in RAPIER_ITERATIONS {
-        names.push((
-            rapier_name(iterations),
-            (case.strands * case.particles * case.rapier_frames * SUBSTEPS) as u64,
-        ));
-    }
-    names
+        .collect()
 }
-
-/// rapier3d's solver iterations a step: its default (4), and 1 (one solver pass a step, as
-/// `xpbd.strand` makes one constraint sweep a substep).
-const RAPIER_ITERATIONS: [usize; 2] = [4, 1];
 
 fn rapier_name(iterations: usize) -> String {
     if iterations == 4 {
@@ -753,7 +883,7 @@ fn bench_case(c: &mut Criterion, case: Case) {
         .warm_up_time(Duration::from_secs(1))
         .measurement_time(Duration::from_secs(4));
     let names = bench_names(case);
-    for (kind, (name, elements)) in KINDS.into_iter().zip(&names) {
+    for (&kind, (name, elements)) in case.kinds.iter().zip(&names) {
         let (substeps, frames) = schedule(kind, case);
         eprintln!(
             "{}/{name}: {} strands x {} particles, {frames} frames x {substeps} substeps (h = {:.3e} s)",
@@ -772,28 +902,6 @@ fn bench_case(c: &mut Criterion, case: Case) {
         call.run().unwrap_or_else(|e| panic!("{} fails: {e}", kind.name()));
         g.throughput(Throughput::Elements(*elements));
         g.bench_function(name.as_str(), |b| b.iter(|| black_box(call.run())));
-    }
-    let h = 1.0 / f64::from(FPS) / SUBSTEPS as f64;
-    for (iterations, (name, elements)) in RAPIER_ITERATIONS.into_iter().zip(&names[KINDS.len()..]) {
-        g.throughput(Throughput::Elements(*elements));
-        g.bench_function(name.as_str(), |b| {
-            b.iter_batched(
-                || {
-                    let mut chains = RapierChains::hanging(case.strands, case.particles, case.length, 0.05, 0.5, h);
-                    chains.world.integration_parameters.num_solver_iterations = iterations;
-                    chains
-                },
-                |mut chains| {
-                    for f in 0..case.rapier_frames {
-                        let t0 = f as f64 / f64::from(FPS);
-                        chains.frame(t0, t0 + 1.0 / f64::from(FPS), SUBSTEPS);
-                    }
-                    black_box(&chains.out);
-                    chains
-                },
-                BatchSize::PerIteration,
-            )
-        });
     }
     g.finish();
 }
@@ -827,62 +935,71 @@ fn mean_ns(group: &str, bench: &str, since: SystemTime) -> Option<f64> {
     v["mean"]["point_estimate"].as_f64()
 }
 
-/// Prints the rates of this run and the ratios to rapier3d with its default solver settings.
-fn report_ratios(cases: &[Case], since: SystemTime) {
+/// Prints the matched-accuracy seconds and ratios, then the rates of this run, from this run's
+/// criterion means.
+fn report(steps: &[Option<usize>], cases: &[Case], since: SystemTime) {
+    eprintln!(
+        "\none second of {} strands x {} particles at matched accuracy (one thread, from criterion's means; \
+         rapier3d projected from {RAPIER_STEPS_TIMED} steps):",
+        MATCHED_CASE.strands, MATCHED_CASE.particles
+    );
+    let seconds = matched_seconds(steps, since);
+    let peer = seconds[2];
+    for ((e, s), t) in MATCHED.iter().zip(steps).zip(&seconds) {
+        let (Some(s), Some(t)) = (s, t) else {
+            eprintln!("  {}: not run", e.name());
+            continue;
+        };
+        let mut line = format!(
+            "  {:<22} h = 1/{:<5} s ({} substeps at 24 fps): {t:.3} s",
+            e.name(),
+            240 * s,
+            substeps_at_24(*s)
+        );
+        if let (Engine::Node(_), Some(p)) = (e, peer) {
+            line += &format!(", {:.0} x as fast as rapier3d (4 iterations)", p / t);
+        }
+        eprintln!("{line}");
+    }
     eprintln!("\nstrand rates of this run (particle-substeps per second on one thread, from criterion's means):");
     for &case in cases {
-        let rates: Vec<(String, Option<f64>)> = bench_names(case)
-            .into_iter()
-            .map(|(n, el)| {
-                let rate = mean_ns(case.group, &n, since).map(|ns| el as f64 / (ns * 1e-9));
-                (n, rate)
-            })
-            .collect();
-        let rate_of = |name: &str| rates.iter().find(|r| r.0 == name).and_then(|r| r.1);
-        let (peer, peer_1) = (rate_of("rapier"), rate_of(&rapier_name(1)));
-        for (n, rate) in &rates {
-            let Some(r) = rate else {
-                eprintln!("  {}/{n}: not run in this run", case.group);
-                continue;
-            };
-            let mut line = format!("  {}/{n}: {r:.3e} /s", case.group);
-            if !n.starts_with("rapier") {
-                if let Some(p) = peer {
-                    line += &format!(", {:.1} x rapier3d (4 iterations)", r / p);
-                }
-                if let Some(p) = peer_1 {
-                    line += &format!(", {:.1} x rapier3d (1 iteration)", r / p);
-                }
+        for (n, el) in bench_names(case) {
+            match mean_ns(case.group, &n, since) {
+                Some(ns) => eprintln!("  {}/{n}: {:.3e} /s", case.group, el as f64 / (ns * 1e-9)),
+                None => eprintln!("  {}/{n}: not run in this run", case.group),
             }
-            eprintln!("{line}");
         }
     }
 }
 
 fn main() {
     let started = SystemTime::now();
-    report_modes();
+    let steps = matched_steps();
     let cases = [
         Case {
             group: "strands_1024x32",
             strands: 1024,
             particles: 32,
             length: 0.4,
-            // rapier3d takes 40-60 ms a step here (about 1 s a frame): 2 frames (40 steps) a call.
-            rapier_frames: 2,
+            kinds: &KINDS,
+            substeps: SUBSTEPS,
         },
+        // The longest chain the contract allows, at the substeps that keep it within 1 % of its
+        // length (nodes/xpbd/tests/inextensible.rs).
         Case {
-            group: "strand_1x257",
+            group: "strand_1x4097",
             strands: 1,
-            particles: 257,
+            particles: 4097,
             length: 0.4,
-            rapier_frames: FRAMES,
+            kinds: &XPBD,
+            substeps: 80,
         },
     ];
     let mut c = Criterion::default().configure_from_args();
+    bench_matched(&mut c, &steps);
     for &case in &cases {
         bench_case(&mut c, case);
     }
     c.final_summary();
-    report_ratios(&cases, started);
+    report(&steps, &cases, started);
 }
