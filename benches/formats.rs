@@ -103,50 +103,7 @@ fn read_character(c: &mut Criterion) {
 }
 
 fn write_glb(c: &mut Criterion) {
-    let mut reg = heft_formats::registry();
-    reg.add_static(heft_xpbd::plugin_table(), "xpbd (linked)")
-        .expect("xpbd");
-    let text = "format 1\nrate 24 fps\nframes 0..719\n\
-                hair = xpbd.strand_fast\n    count = 1000\n    segments = 16\n    placement = line\n\
-                bake \"hair.glb\"\n    hair.positions\n";
-    let plan = heft_runtime::plan_text("bench.graph", text, &reg, &Overrides::default()).expect("plans");
-    // Strands swaying in the plane of their line: the writer's work does not depend on the
-    // motion, only on its size.
-    let frames = plan.timeline.frames();
-    let points = plan.nodes[0].outputs[0].points;
-    let mut positions = Vec::with_capacity(frames * points * 3);
-    for f in 0..frames {
-        for p in 0..points {
-            let (s, j) = (p / 17, p % 17);
-            let a = 0.3 * (f as f64 * 0.1 + s as f64 * 0.01).sin() * j as f64 / 16.0;
-            let r = 0.025 * j as f64;
-            positions.extend([0.02 * s as f64 + r * a.sin(), 0.0, 1.5 - r * a.cos()]);
-        }
-    }
-    let values: Vec<Vec<Vec<f64>>> = plan
-        .nodes
-        .iter()
-        .map(|n| {
-            n.outputs
-                .iter()
-                .enumerate()
-                .map(|(k, s)| {
-                    if k == 0 {
-                        positions.clone()
-                    } else {
-                        vec![0.0; frames * s.width()]
-                    }
-                })
-                .collect()
-        })
-        .collect();
-    let eval = Evaluation {
-        values,
-        node_time: vec![Duration::ZERO; plan.nodes.len()],
-        summaries: vec![Vec::new(); plan.nodes.len()],
-        warnings: Vec::new(),
-        wall: Duration::ZERO,
-    };
+    let (plan, eval) = strands(720, "bake \"hair.glb\"\n    hair.positions\n");
     let bytes: usize = heft_formats::gltf_out::bake_files(&plan, &eval, &plan.bakes[0]).expect("bakes")[0]
         .1
         .iter()

@@ -1019,21 +1019,26 @@ mod tests {
         }
     }
 
+    /// The input of a substep of `n` free particles with nothing but their constraints: no
+    /// pins, no gravity, spin, wind or colliders (`zero` is the prediction's base).
+    fn free_of_everything(zero: &Lanes3<f64, 1>, n: usize) -> SubstepInput<'_, f64, 1> {
+        SubstepInput {
+            pin_root: None,
+            pin_tip: None,
+            base: zero,
+            spin: None,
+            wind: None,
+            colliders: None,
+            free: (0, n),
+        }
+    }
+
     /// One substep of one lane with nothing but the constraints: no gravity, no pins, steps 0.
     fn constraints_only(c: &Coeffs<f64>, at: &[[f64; 3]]) -> Vec<[f64; 3]> {
         let zero: Lanes3<f64, 1> = [[0.0], [0.0], [0.0]];
         let mut x: Vec<Particle<f64, 1>> = at.iter().map(|p| [p.map(|v| [v]), zero]).collect();
         let mut scratch = Scratch::new(at.len());
-        let input = SubstepInput {
-            pin_root: None,
-            pin_tip: None,
-            base: &zero,
-            spin: None,
-            wind: None,
-            colliders: None,
-            free: (0, at.len()),
-        };
-        substep(c, &input, &mut x, &mut scratch);
+        substep(c, &free_of_everything(&zero, at.len()), &mut x, &mut scratch);
         x.iter().map(|p| [p[0][0][0], p[0][1][0], p[0][2][0]]).collect()
     }
 
@@ -1137,15 +1142,7 @@ mod tests {
             [0, 1, 2].map(|k| x.iter().zip(&m.inv_mass).map(|(q, w)| q[1][k][0] / w).sum::<f64>())
         };
         let zero: Lanes3<f64, 1> = [[0.0], [0.0], [0.0]];
-        let input = SubstepInput {
-            pin_root: None,
-            pin_tip: None,
-            base: &zero,
-            spin: None,
-            wind: None,
-            colliders: None,
-            free: (0, n),
-        };
+        let input = free_of_everything(&zero, n);
         let before = momentum(&x);
         let moved: Vec<[f64; 3]> = x.iter().map(|q| [q[0][0][0], q[0][1][0], q[0][2][0]]).collect();
         let mut scratch = Scratch::new(n);
