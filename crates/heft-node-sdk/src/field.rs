@@ -133,11 +133,19 @@ impl<'a> FieldView<'a> {
                 origin[0], origin[1], origin[2]
             ));
         }
+        let samples = &values[3 * HEADER_POINTS..];
+        if let Some(k) = samples.iter().position(|v| !v.is_finite()) {
+            return Err(format!(
+                "field sample {} has a non-finite velocity ({})",
+                k / 3,
+                samples[k]
+            ));
+        }
         Ok(FieldView {
             dims,
             spacing,
             origin,
-            samples: &values[3 * HEADER_POINTS..],
+            samples,
         })
     }
 
@@ -172,56 +180,69 @@ impl<'a> FieldView<'a> {
     /// the box is flat: only points on that plane are inside.
     #[inline]
     pub fn sample(&self, p: [f64; 3]) -> [f64; 3] {
-        let mut lower = [0usize; 3];
-        let mut upper = [0usize; 3];
-        let mut frac = [0.0f64; 3];
+        self.sample_lanes(&p.map(|c| [c])).map(|c| c[0])
+    }
+
+    /// [`FieldView::sample`] at `N` points at once, `p[axis][lane]`, the result laid out the
+    /// same way. Each lane gets exactly [`FieldView::sample`]'s value. The cell and weight
+    /// arithmetic runs lane by lane in loops the compiler vectorises; only the reads of the
+    /// eight corners are per lane. Strand solvers that hold their particles across SIMD lanes
+    /// sample a whole lane group in one call (inlined, so that it is compiled for the
+    /// instruction set their caller runs on).
+    #[inline(always)]
+    pub fn sample_lanes<const N: usize>(&self, p: &[[f64; N]; 3]) -> [[f64; N]; 3] {
+        let mut inside = [true; N];
+        let mut lower = [[0usize; N]; 3];
+        let mut step = [[0usize; N]; 3];
+        let mut frac = [[0.0f64; N]; 3];
+        let [nx, ny, _] = self.dims;
+        let stride = [3, 3 * nx, 3 * nx * ny];
         for a in 0..3 {
             let n = self.dims[a];
             let top = (n - 1) as f64;
-            let mut u = (p[a] - self.origin[a]) / self.spacing;
-            if !(u >= -SNAP_CELLS && u <= top + SNAP_CELLS) {
-                return [0.0; 3];
-            }
-            // u >= -SNAP_CELLS here, so u + 0.5 > 0 and truncation is the floor: the nearest
-            // sample (ties, far from any snap, go up), without a call to the C library's
-            // round or floor on targets whose baseline has no rounding instruction.
-            let nearest = (u + 0.5) as usize as f64;
-            if (u - nearest).abs() <= SNAP_CELLS {
-                u = nearest;
-            }
-            let u = u.clamp(0.0, top);
-            let i = (u as usize).min(n.saturating_sub(2));
-            lower[a] = i;
-            upper[a] = (i + 1).min(n - 1);
-            frac[a] = u - i as f64;
-        }
-        // The eight corners: the lower sample's index plus, per axis, the step to the upper
-        // one (zero along an axis with one sample).
-        let [nx, ny, _] = self.dims;
-        let base = 3 * (lower[0] + nx * (lower[1] + ny * lower[2]));
-        let step = [
-            3 * (upper[0] - lower[0]),
-            3 * nx * (upper[1] - lower[1]),
-            3 * nx * ny * (upper[2] - lower[2]),
-        ];
-        let mut v = [0.0; 3];
-        for corner in 0..8usize {
-            let mut w = 1.0;
-            let mut idx = base;
-            for a in 0..3 {
-                if corner >> a & 1 == 1 {
-                    w *= frac[a];
-                    idx += step[a];
-                } else {
-                    w *= 1.0 - frac[a];
+            let (o, last) = (self.origin[a], n.saturating_sub(2));
+            for l in 0..N {
+                let mut u = (p[a][l] - o) / self.spacing;
+                inside[l] &= u >= -SNAP_CELLS && u <= top + SNAP_CELLS;
+                // Where u >= -SNAP_CELLS, u + 0.5 > 0 and truncation is the floor: the nearest
+                // sample (ties, far from any snap, go up), without a call to the C library's
+                // round or floor on targets whose baseline has no rounding instruction. Lanes
+                // outside (or not finite) compute a clamped cell and are zeroed below.
+                let nearest = (u + 0.5) as usize as f64;
+                if (u - nearest).abs() <= SNAP_CELLS {
+                    u = nearest;
                 }
+                let u = u.clamp(0.0, top);
+                let i = (u as usize).min(last);
+                lower[a][l] = i;
+                // The step to the upper sample: zero along an axis with one sample.
+                step[a][l] = stride[a] * ((i + 1).min(n - 1) - i);
+                frac[a][l] = u - i as f64;
             }
-            if w == 0.0 {
+        }
+        let mut v = [[0.0f64; N]; 3];
+        for l in 0..N {
+            if !inside[l] {
                 continue;
             }
-            let s = &self.samples[idx..idx + 3];
-            for c in 0..3 {
-                v[c] += w * s[c];
+            let base = 3 * (lower[0][l] + nx * (lower[1][l] + ny * lower[2][l]));
+            let (fx, fy, fz) = (frac[0][l], frac[1][l], frac[2][l]);
+            let (gx, gy, gz) = (1.0 - fx, 1.0 - fy, 1.0 - fz);
+            let (sx, sy, sz) = (step[0][l], step[1][l], step[2][l]);
+            // The eight corners in the order x fastest, each weight the product of its axes'
+            // factors in x, y, z order, read as four pairs along x (one slice each: adjacent
+            // in memory unless the grid has one sample along x). Samples are finite
+            // (`from_frame` checks), so a corner of weight zero adds zero.
+            let rows = [(gy, gz, 0), (fy, gz, sy), (gy, fz, sz), (fy, fz, sy + sz)];
+            for (wy, wz, off) in rows {
+                let r = &self.samples[base + off..][..sx + 3];
+                let (w0, w1) = (gx * wy * wz, fx * wy * wz);
+                for c in 0..3 {
+                    v[c][l] += w0 * r[c];
+                }
+                for c in 0..3 {
+                    v[c][l] += w1 * r[sx + c];
+                }
             }
         }
         v
@@ -370,5 +391,47 @@ mod tests {
         assert_eq!(points_for(8, 8, 8), 515);
         assert_eq!(points_for(1, 1, 1), 4);
         assert_eq!(points_for(usize::MAX, 2, 1), usize::MAX);
+    }
+
+    /// A sample that is not finite is refused when the frame is read, naming the sample (so
+    /// that sampling never meets it).
+    #[test]
+    fn a_non_finite_sample_is_refused() {
+        let mut f = frame([2, 2, 2], 1.0, [0.0; 3], |_| [1.0, 2.0, 3.0]);
+        let at = 3 * HEADER_POINTS + 3 * 5 + 1;
+        f[at] = f64::INFINITY;
+        let e = FieldView::from_frame(&f).unwrap_err();
+        assert_eq!(e, "field sample 5 has a non-finite velocity (inf)");
+    }
+
+    /// Lanes sample as the one-point call does, bit for bit, inside, on the faces, outside and
+    /// for a non-finite point, whatever lane a point is in.
+    #[test]
+    fn lanes_sample_as_one_point_does() {
+        let f = frame([4, 3, 2], 0.5, [-1.0, 0.0, 2.0], |p| {
+            [p[0] * p[1], p[2] - p[0], (p[1] + 1.0).sqrt()]
+        });
+        let view = FieldView::from_frame(&f).expect("valid");
+        let points: [[f64; 3]; 8] = [
+            [-0.3, 0.2, 2.4],
+            [0.5, 1.0, 2.5],
+            [-1.0, 0.0, 2.0],
+            [0.1, 0.7, 2.1],
+            [0.6, 0.2, 2.2],
+            [-1.2, 0.1, 2.1],
+            [f64::NAN, 0.3, 2.2],
+            [0.25, 0.25, 2.25],
+        ];
+        let lanes: [[f64; 8]; 3] = std::array::from_fn(|a| std::array::from_fn(|l| points[l][a]));
+        let got = view.sample_lanes(&lanes);
+        for (l, p) in points.iter().enumerate() {
+            let one = view.sample(*p);
+            for a in 0..3 {
+                assert_eq!(got[a][l].to_bits(), one[a].to_bits(), "lane {l}, axis {a}");
+            }
+        }
+        assert_eq!(view.sample(points[5]), [0.0; 3]);
+        // The corner sample itself: f(-1, 0, 2).
+        assert_eq!(view.sample(points[2]), [0.0, 3.0, 1.0]);
     }
 }

@@ -119,6 +119,19 @@ impl Ambient<'_> {
         a
     }
 
+    /// [`Ambient::wind`] at `N` points at once (`x[axis][lane]`), each lane's value exactly
+    /// [`Ambient::wind`]'s, through [`FieldView::sample_lanes`].
+    #[inline(always)]
+    pub fn wind_lanes<const N: usize>(&self, x: &[[f64; N]; 3]) -> [[f64; N]; 3] {
+        match self.wind {
+            Some((w0, w1, frac, _)) => {
+                let (a, b) = (w0.sample_lanes(x), w1.sample_lanes(x));
+                std::array::from_fn(|c| std::array::from_fn(|l| a[c][l] * (1.0 - frac) + b[c][l] * frac))
+            }
+            None => [[0.0; N]; 3],
+        }
+    }
+
     /// The wind velocity at `x` (zero without wind), m/s.
     #[inline]
     pub fn wind(&self, x: V3) -> V3 {

@@ -374,12 +374,13 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
             }
             if env.has_wind() {
                 let ambient = env.ambient(k);
+                // The whole lane group's particle at once (FieldView::sample_lanes).
                 for (xi, wi) in x.iter().zip(wind.iter_mut()) {
-                    for l in 0..N {
-                        let p = [0, 1, 2].map(|c| origin[c][l] + xi[0][c][l].wide());
-                        let w = ambient.wind(p);
-                        for c in 0..3 {
-                            wi[c][l] = T::of(wind_gain * w[c]);
+                    let p = std::array::from_fn(|c| std::array::from_fn(|l| origin[c][l] + xi[0][c][l].wide()));
+                    let w = ambient.wind_lanes::<N>(&p);
+                    for c in 0..3 {
+                        for l in 0..N {
+                            wi[c][l] = T::of(wind_gain * w[c][l]);
                         }
                     }
                 }
