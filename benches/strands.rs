@@ -27,6 +27,8 @@
 //!    printed before each bench.
 //! 4. `strand_1x4097`: one chain of 4097 particles in the XPBD nodes at 80 substeps, the step
 //!    that keeps it within 1 % of its length (nodes/xpbd/tests/inextensible.rs).
+//! 5. `wind_1024x32`: `xpbd.strand_fast` on the strands of 3 with and without a 16^3 wind field;
+//!    the report gives the share of the run the wind's sampling takes.
 //!
 //! Everything runs on one thread: the strand nodes are single-threaded, and rapier3d is built
 //! without its `parallel` feature. No `-C target-cpu` is set: the XPBD nodes pick AVX2 at run
@@ -906,6 +908,59 @@ fn bench_case(c: &mut Criterion, case: Case) {
     g.finish();
 }
 
+/// A wind field for every frame of `tl`: a 16^3 grid 20 cm apart centred on the strands (3 m
+/// across), a breeze of 0.4 m/s with a gust that varies in space and time.
+fn wind_series(tl: Timeline) -> Vec<f64> {
+    let per_frame = 3 * heft_node_sdk::field::points_for(16, 16, 16);
+    let mut out = vec![0.0; per_frame * tl.frames()];
+    for (i, frame) in out.chunks_exact_mut(per_frame).enumerate() {
+        let t = tl.time(i);
+        heft_node_sdk::field::write_frame(frame, [16, 16, 16], 0.2, [-1.5, -1.5, 0.0], |p| {
+            [
+                0.4 + 0.3 * (3.0 * p[2] + t).sin(),
+                0.2 * (2.0 * p[0] - t).cos(),
+                0.1 * (p[1] * 4.0).sin(),
+            ]
+        });
+    }
+    out
+}
+
+/// `wind_1024x32`: the strands of `strands_1024x32` in `xpbd.strand_fast` at 20 substeps
+/// with and without a wind field (`drag` 2 /s): the share of a run the wind's sampling takes
+/// (every particle, every substep, at the frame's two fields).
+fn bench_wind(c: &mut Criterion) {
+    let case = Case {
+        group: "wind_1024x32",
+        strands: 1024,
+        particles: 32,
+        length: 0.4,
+        kinds: &[Kind::XpbdF32],
+        substeps: SUBSTEPS,
+    };
+    let mut g = c.benchmark_group(case.group);
+    g.sampling_mode(SamplingMode::Flat)
+        .sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(4));
+    let tl = timeline(FRAMES + 1, FPS);
+    let mut params = overrides(case, SUBSTEPS);
+    params.push(("drag", ParamValue::Number(2.0)));
+    for (name, wind) in [("still", false), ("in_wind", true)] {
+        let mut inputs = vec![("anchor", anchor_series(tl))];
+        if wind {
+            inputs.push(("wind", wind_series(tl)));
+        }
+        let mut call = NodeCall::new(Kind::XpbdF32, &params, tl, inputs);
+        call.run().expect("xpbd.strand_fast runs in the wind");
+        g.throughput(Throughput::Elements(
+            (case.strands * case.particles * FRAMES * SUBSTEPS) as u64,
+        ));
+        g.bench_function(name, |b| b.iter(|| black_box(call.run())));
+    }
+    g.finish();
+}
+
 /// Criterion's output folder, as criterion finds it ($CRITERION_HOME, else
 /// $CARGO_TARGET_DIR/criterion, else the target folder holding this executable).
 fn criterion_dir() -> Option<PathBuf> {
@@ -1000,6 +1055,18 @@ fn main() {
     for &case in &cases {
         bench_case(&mut c, case);
     }
+    bench_wind(&mut c);
     c.final_summary();
     report(&steps, &cases, started);
+    let (still, wind) = (
+        mean_ns("wind_1024x32", "still", started),
+        mean_ns("wind_1024x32", "in_wind", started),
+    );
+    if let (Some(a), Some(b)) = (still, wind) {
+        eprintln!(
+            "\nwind: xpbd_f32 takes {:.2} times as long in a 16^3 wind field; the sampling is {:.0} % of the run",
+            b / a,
+            100.0 * (b - a) / b
+        );
+    }
 }

@@ -644,7 +644,10 @@ pub const ELIMINATION_LAG: usize = 2;
 /// **Cleaning up.** Last, one Gauss-Seidel sweep of the same constraints from the multipliers
 /// of the solve (XPBD eq. 18 with lambda = dlambda_j): each projection is exact along its
 /// segment, so it takes out the second-order remainder of the linear solve and what the
-/// spreading left, and leaves a solved segment (-C = alpha_tilde lambda) as it is.
+/// spreading left, and leaves a solved segment (-C = alpha_tilde lambda) as it is. The
+/// strands' stretch hardly needs it (at 32, 256 and 4096 segments the figures agree to 0.03 %
+/// of the length without it), but f32 lanes do: without it they drift 4.2e-4 m from the f64
+/// lanes over 2 s of a busy scene (tests/precision.rs), with it 1.9e-6 m.
 ///
 /// **Order.** Pass 1, root to tip: place particle j + 1 (predict, or pin), project the
 /// bending constraint centred on j (Gauss-Seidel: bending is linear and local), eliminate

@@ -115,9 +115,9 @@ fn largest_gap(a: &Run, b: &Run, offset: [f64; 3]) -> f64 {
 /// Positions are held relative to each strand's particle 0, so a strand 5.9 km from the world
 /// origin (where the f32 spacing is 4.9e-4 m) moves as it does at the origin: the same scene
 /// shifted by (5000, -3000, 800) m and shifted back agrees with the unshifted one to 1e-6 m in
-/// f32 lanes and 1e-9 m in f64. Measured: 2.4e-7 m in f32 (the pins' offsets from the origins
+/// f32 lanes and 1e-9 m in f64. Measured: 5.2e-7 m in f32 (the pins' offsets from the origins
 /// differ in the last f64 bit between the two scenes, which flips an occasional f32 rounding)
-/// and 6.9e-12 m in f64.
+/// and 1.5e-11 m in f64.
 #[test]
 fn a_strand_far_from_the_origin_moves_as_it_does_at_the_origin() {
     let offset = [5000.0, -3000.0, 800.0];
@@ -137,7 +137,7 @@ fn a_strand_far_from_the_origin_moves_as_it_does_at_the_origin() {
 
 /// f32 lanes follow f64 lanes closely over two seconds of the busy scene: largest position
 /// difference 1e-4 m allowed (the strands are 0.45 m long and swing by tens of cm; measured
-/// 2.4e-6 m), and no output particle inside the collider in either.
+/// 1.9e-6 m), and no output particle inside the collider in either.
 #[test]
 fn f32_lanes_follow_f64_lanes() {
     let (a, b) = (scene(run, [0.0; 3]), scene(run_f32, [0.0; 3]));
