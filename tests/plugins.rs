@@ -237,8 +237,7 @@ fn a_node_is_given_its_share_of_the_threads() {
         let e = evaluate(&plan, Some(threads)).expect("evaluates");
         for k in 0..nodes {
             assert_eq!(
-                e.values[k][0],
-                [each as f64; 2],
+                e.values[k][0], [each as f64; 2],
                 "{nodes} nodes at --threads {threads}: node t{k}"
             );
         }
