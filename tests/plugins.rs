@@ -219,6 +219,31 @@ fn an_output_left_unwritten_is_an_error_naming_node_and_port() {
     evaluate(&plan, Some(1)).expect("all written");
 }
 
+/// The host shares its threads among the plugin nodes of a level, which run at the same time:
+/// all of them to a node alone, half each to two, one each when there are more nodes than
+/// threads, and one at `--threads 1` (a sweep point).
+#[test]
+fn a_node_is_given_its_share_of_the_threads() {
+    let reg = with_probe();
+    let graph = |nodes: usize| {
+        let mut g = "format 1\nrate 24 fps\nframes 1..2\n".to_owned();
+        for k in 0..nodes {
+            g += &format!("t{k} = probe.threads\nwrite t{k}.count\n");
+        }
+        g
+    };
+    for (nodes, threads, each) in [(1, 4, 4), (2, 4, 2), (3, 4, 1), (2, 5, 2), (1, 1, 1), (4, 3, 1)] {
+        let plan = plan_text("t.graph", &graph(nodes), &reg, &Overrides::default()).expect("checks");
+        let e = evaluate(&plan, Some(threads)).expect("evaluates");
+        for k in 0..nodes {
+            assert_eq!(
+                e.values[k][0], [each as f64; 2],
+                "{nodes} nodes at --threads {threads}: node t{k}"
+            );
+        }
+    }
+}
+
 /// A plugin built with panic = "abort" does not build: a panic in it would end heft unnamed.
 #[test]
 fn a_plugin_built_to_abort_on_panic_does_not_build() {

@@ -15,8 +15,9 @@ use std::ffi::c_void;
 
 /// Incremented on any change that is not a pure append.
 pub const ABI_MAJOR: u32 = 1;
-/// Incremented when fields are appended to [`PluginTable`] or [`Call`]. 1: `check`.
-pub const ABI_MINOR: u32 = 1;
+/// Incremented when fields are appended to [`PluginTable`] or [`Call`]. 1: `check`. 2:
+/// [`Call::threads`].
+pub const ABI_MINOR: u32 = 2;
 /// The one symbol a plugin exports (the major version is part of the name).
 pub const ENTRY_SYMBOL: &str = "heft_plugin_entry_v1";
 
@@ -160,7 +161,15 @@ pub struct Call {
     pub summaries: *mut f64,
     /// Number of summary values.
     pub summary_count: usize,
+    /// ABI 1.2: how many threads the node may use for this call, at least 1 (the host's share
+    /// of its threads for the node). A plugin reads it only when `struct_size` covers it
+    /// ([`CALL_SIZE_1_1`] is the size without it) and takes 1 otherwise; it reads 0 as 1.
+    pub threads: usize,
 }
+
+/// The size of a [`Call`] of ABI 1.1, before `threads` was appended: a call of this size comes
+/// from a host that gives every node one thread.
+pub const CALL_SIZE_1_1: usize = std::mem::offset_of!(Call, threads);
 
 /// The function table a plugin exports. Fields are only ever appended.
 #[repr(C)]
@@ -205,6 +214,24 @@ mod tests {
         assert_eq!(offset_of!(PluginTable, describe), 8 + size_of::<usize>());
         assert_eq!(offset_of!(PluginTable, check), TABLE_SIZE_1_0);
         assert_eq!(size_of::<PluginTable>(), 8 + 5 * size_of::<usize>());
+    }
+
+    /// The call's fields never move: a plugin reads the fields of the version it was built for
+    /// from a host's larger call, and a host's older, smaller call holds exactly the fields
+    /// before `threads` (ABI 1.1's call).
+    #[test]
+    fn the_call_layout_is_frozen() {
+        let w = size_of::<usize>();
+        assert_eq!(offset_of!(Call, struct_size), 0);
+        assert_eq!(offset_of!(Call, node_index), w);
+        assert_eq!(offset_of!(Call, params), 2 * w);
+        assert_eq!(offset_of!(Call, timeline), 4 * w);
+        assert_eq!(offset_of!(Call, inputs), 4 * w + 24);
+        assert_eq!(offset_of!(Call, message), 8 * w + 24);
+        assert_eq!(offset_of!(Call, summary_count), 13 * w + 24);
+        assert_eq!(CALL_SIZE_1_1, 14 * w + 24);
+        assert_eq!(offset_of!(Call, threads), CALL_SIZE_1_1);
+        assert_eq!(size_of::<Call>(), CALL_SIZE_1_1 + w);
     }
 
     /// Status codes are part of the ABI.

@@ -222,6 +222,7 @@ pub struct Io<'a> {
     widths: Vec<usize>,
     warnings: Vec<String>,
     summaries: Vec<f64>,
+    threads: usize,
 }
 
 impl<'a> Io<'a> {
@@ -243,7 +244,19 @@ impl<'a> Io<'a> {
             widths,
             warnings: Vec::new(),
             summaries: vec![f64::NAN; spec.summaries.len()],
+            threads: 1,
         }
+    }
+    /// The same evaluation, allowed `threads` threads (0 is taken as 1); [`Io::new`] allows one.
+    pub fn with_threads(mut self, threads: usize) -> Io<'a> {
+        self.threads = threads.max(1);
+        self
+    }
+    /// How many threads the node may use for this call, at least 1: the host's share of its
+    /// threads for this node (1 from a host older than ABI 1.2). A node may use fewer, but must
+    /// give the same bits for any count.
+    pub fn threads(&self) -> usize {
+        self.threads
     }
     /// The frames to compute.
     pub fn timeline(&self) -> Timeline {
@@ -532,6 +545,82 @@ fn decode_call<E: Exports>(call: &Call) -> Result<Decoded, (Status, String)> {
     Ok(Decoded { entry, spec, params })
 }
 
+/// The host's call, read as far as the host's `struct_size` says it goes: the fields of a
+/// version the host predates (`threads` before ABI 1.2) are left at their defaults (1 thread),
+/// never read past the host's struct. `None` when the call is too small to be any version's,
+/// or the pointer is null.
+///
+/// # Safety
+/// `call` is null or points to a call of at least the `struct_size` bytes it starts with (and
+/// at least that one field), alive for the read.
+unsafe fn read_call(call: *const Call) -> Option<Call> {
+    if call.is_null() {
+        return None;
+    }
+    // SAFETY: every version of the call starts with its size (the caller's contract).
+    let size = unsafe { call.cast::<usize>().read_unaligned() };
+    if size >= std::mem::size_of::<Call>() {
+        // SAFETY: the host's call holds every field of this version's.
+        return Some(unsafe { call.read() });
+    }
+    // Older versions: the fields up to the last whole version boundary the host's struct
+    // covers, copied over a call of defaults.
+    let before_summaries = std::mem::offset_of!(Call, summaries);
+    let bytes = if size >= crate::abi::CALL_SIZE_1_1 {
+        crate::abi::CALL_SIZE_1_1
+    } else if size >= before_summaries {
+        before_summaries
+    } else {
+        return None;
+    };
+    unsafe extern "C" fn drop_bytes(_: *mut std::ffi::c_void, _: *const u8, _: usize) {}
+    let none = ByteSink {
+        ctx: std::ptr::null_mut(),
+        write: drop_bytes,
+    };
+    let mut out = Call {
+        struct_size: size,
+        node_index: 0,
+        params: crate::abi::ByteView {
+            data: std::ptr::null(),
+            len: 0,
+        },
+        timeline: Timeline {
+            start_frame: 0,
+            frame_count: 0,
+            rate_num: 1,
+            rate_den: 1,
+        },
+        inputs: std::ptr::null(),
+        input_count: 0,
+        outputs: std::ptr::null(),
+        output_count: 0,
+        message: none,
+        warning: none,
+        summaries: std::ptr::null_mut(),
+        summary_count: 0,
+        threads: 1,
+    };
+    // SAFETY: `bytes` is at most `size`, so the host's struct holds them (the caller's contract);
+    // it ends on a field boundary of `Call`, and fields are only ever appended, so the bytes are
+    // whole fields of the same types at the same offsets, written by the host as valid values.
+    // `out` is a distinct local of `size_of::<Call>()` bytes.
+    unsafe {
+        std::ptr::copy_nonoverlapping(call.cast::<u8>(), (&raw mut out).cast::<u8>(), bytes);
+    }
+    Some(out)
+}
+
+/// The threads the host gives the call: its `threads` when its call is large enough to hold the
+/// field (ABI 1.2), else 1; never 0.
+fn call_threads(call: &Call) -> usize {
+    if call.struct_size >= std::mem::offset_of!(Call, threads) + std::mem::size_of::<usize>() {
+        call.threads.max(1)
+    } else {
+        1
+    }
+}
+
 fn input_views(call: &Call) -> &[SeriesView] {
     if call.input_count == 0 {
         return &[];
@@ -541,8 +630,11 @@ fn input_views(call: &Call) -> &[SeriesView] {
 }
 
 unsafe extern "C" fn output_points<E: Exports>(call: *const Call, points: *mut usize, count: usize) -> i32 {
-    // SAFETY: the host passes a pointer to a `Call` that lives for the duration of this call.
-    let call = unsafe { &*call };
+    // SAFETY: the host passes a pointer to a `Call` of its own version, alive for this call.
+    let Some(call) = (unsafe { read_call(call) }) else {
+        return Status::BadCall as i32;
+    };
+    let call = &call;
     guarded(call.message, || {
         let d = decode_call::<E>(call)?;
         let widths: Vec<usize> = input_views(call).iter().map(|v| v.width).collect();
@@ -565,8 +657,11 @@ unsafe extern "C" fn output_points<E: Exports>(call: *const Call, points: *mut u
 }
 
 unsafe extern "C" fn check<E: Exports>(call: *const Call, problems: ByteSink) -> i32 {
-    // SAFETY: the host passes a pointer to a `Call` that lives for the duration of this call.
-    let call = unsafe { &*call };
+    // SAFETY: the host passes a pointer to a `Call` of its own version, alive for this call.
+    let Some(call) = (unsafe { read_call(call) }) else {
+        return Status::BadCall as i32;
+    };
+    let call = &call;
     guarded(call.message, || {
         let d = decode_call::<E>(call)?;
         let widths: Vec<usize> = input_views(call).iter().map(|v| v.width).collect();
@@ -578,8 +673,11 @@ unsafe extern "C" fn check<E: Exports>(call: *const Call, problems: ByteSink) ->
 }
 
 unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
-    // SAFETY: the host passes a pointer to a `Call` that lives for the duration of this call.
-    let call = unsafe { &*call };
+    // SAFETY: the host passes a pointer to a `Call` of its own version, alive for this call.
+    let Some(call) = (unsafe { read_call(call) }) else {
+        return Status::BadCall as i32;
+    };
+    let call = &call;
     guarded(call.message, || {
         let d = decode_call::<E>(call)?;
         if call.input_count != d.spec.inputs.len() || call.output_count != d.spec.outputs.len() {
@@ -624,7 +722,7 @@ unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
             outputs.push(data);
             widths.push(view.width);
         }
-        let mut io = Io::new(call.timeline, d.spec, inputs, outputs, widths);
+        let mut io = Io::new(call.timeline, d.spec, inputs, outputs, widths).with_threads(call_threads(call));
         let result = (d.entry.evaluate)(&d.params, &mut io);
         for w in io.warnings() {
             send(call.warning, w.as_bytes());
@@ -745,7 +843,165 @@ mod tests {
         }
     }
 
-    crate::export_plugin!(name: "unit", nodes: [Ramp]);
+    /// Writes the thread count it was given at every frame.
+    #[derive(Debug)]
+    struct Threads;
+    impl Node for Threads {
+        fn spec() -> NodeSpec {
+            NodeSpec {
+                name: "threads".into(),
+                doc: "Its thread budget.".into(),
+                notes: String::new(),
+                summaries: vec![],
+                inputs: vec![],
+                outputs: vec![PortSpec::new(
+                    "count",
+                    PortKind::Scalar,
+                    Dimension::Dimensionless,
+                    "Threads.",
+                )],
+                params: vec![],
+            }
+        }
+        fn evaluate(_: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
+            let n = io.threads() as f64;
+            io.fill("count", |_, out| out[0] = n)
+        }
+    }
+
+    crate::export_plugin!(name: "unit", nodes: [Ramp, Threads]);
+
+    /// The call as a host of ABI 1.1 built it: every field before `threads`.
+    #[repr(C)]
+    struct Call11 {
+        struct_size: usize,
+        node_index: u32,
+        params: crate::abi::ByteView,
+        timeline: Timeline,
+        inputs: *const SeriesView,
+        input_count: usize,
+        outputs: *const SeriesViewMut,
+        output_count: usize,
+        message: ByteSink,
+        warning: ByteSink,
+        summaries: *mut f64,
+        summary_count: usize,
+    }
+
+    unsafe extern "C" fn keep_bytes(ctx: *mut std::ffi::c_void, data: *const u8, len: usize) {
+        // SAFETY: the tests below pass a `&mut Vec<u8>` as `ctx`, and the glue `len` bytes at `data`.
+        unsafe { (*ctx.cast::<Vec<u8>>()).extend_from_slice(std::slice::from_raw_parts(data, len)) };
+    }
+
+    /// The `threads` node evaluated over 3 frames by a host of ABI 1.1, whose call ends before
+    /// `threads`, and by the one before it, whose call also ends before `summaries`.
+    fn threads_from_an_old_host(size: usize) -> (i32, Vec<f64>, String) {
+        let mut out = [f64::NAN; 3];
+        let views = [SeriesViewMut {
+            data: out.as_mut_ptr(),
+            len: 3,
+            width: 1,
+        }];
+        let params = Plugin::encode_params(&[]).expect("encodes");
+        let mut message = Vec::new();
+        let sink = ByteSink {
+            ctx: (&raw mut message).cast(),
+            write: keep_bytes,
+        };
+        let call = Call11 {
+            struct_size: size,
+            node_index: 1,
+            params: crate::abi::ByteView {
+                data: params.as_ptr(),
+                len: params.len(),
+            },
+            timeline: tl(3),
+            inputs: std::ptr::null(),
+            input_count: 0,
+            outputs: views.as_ptr(),
+            output_count: 1,
+            message: sink,
+            warning: sink,
+            summaries: std::ptr::null_mut(),
+            summary_count: 0,
+        };
+        // SAFETY: `call` has the layout of a 1.1 host's call, at least `size` bytes long (the
+        // sizes passed below), and everything it points to lives across the call.
+        let code = unsafe { (plugin_table().evaluate)((&raw const call).cast()) };
+        (code, out.to_vec(), String::from_utf8_lossy(&message).into_owned())
+    }
+
+    /// A host built before ABI 1.2 passes a call without `threads`: the node is given one thread,
+    /// and nothing past the host's call is read. A call too small to be any version's is refused.
+    #[test]
+    fn a_host_before_abi_1_2_gives_one_thread() {
+        assert_eq!(std::mem::size_of::<Call11>(), crate::abi::CALL_SIZE_1_1);
+        for size in [crate::abi::CALL_SIZE_1_1, std::mem::offset_of!(Call, summaries)] {
+            let (code, out, message) = threads_from_an_old_host(size);
+            assert_eq!((code, message.as_str()), (Status::Ok as i32, ""), "size {size}");
+            assert_eq!(out, [1.0, 1.0, 1.0], "size {size}");
+        }
+        let (code, out, _) = threads_from_an_old_host(std::mem::offset_of!(Call, summaries) - 1);
+        assert_eq!(code, Status::BadCall as i32);
+        assert!(out.iter().all(|v| v.is_nan()), "{out:?}");
+    }
+
+    /// This host gives the node the threads it is asked to (0 taken as 1); `evaluate` gives one.
+    #[test]
+    fn the_host_gives_the_threads_it_is_asked_to() {
+        let p = Plugin::from_static(plugin_table(), "unit").expect("loads");
+        let run = |threads: Option<usize>| {
+            let mut out = vec![f64::NAN; 2];
+            match threads {
+                Some(n) => p.evaluate_with_threads(1, &[0], tl(2), &[], &mut [(&mut out, 1)], &mut [], n),
+                None => p.evaluate(1, &[0], tl(2), &[], &mut [(&mut out, 1)], &mut []),
+            }
+            .expect("evaluates");
+            out
+        };
+        assert_eq!(run(None), [1.0, 1.0]);
+        assert_eq!(run(Some(0)), [1.0, 1.0]);
+        assert_eq!(run(Some(3)), [3.0, 3.0]);
+        assert_eq!(run(Some(64)), [64.0, 64.0]);
+    }
+
+    /// A plugin built for ABI 1.1 reads the call through its own, shorter layout: this host's
+    /// call of 1.2 starts with exactly those fields, so it evaluates as before with any thread
+    /// count.
+    unsafe extern "C" fn evaluate_as_1_1(call: *const Call) -> i32 {
+        // SAFETY: the host's call is at least as large as a 1.1 call (fields are only appended).
+        let call = unsafe { &*call.cast::<Call11>() };
+        if call.output_count != 1 || call.struct_size < std::mem::size_of::<Call11>() {
+            return Status::BadCall as i32;
+        }
+        // SAFETY: the host passes one output view, and its `len` values, alive for the call.
+        let out = unsafe {
+            let view = &*call.outputs;
+            std::slice::from_raw_parts_mut(view.data, view.len)
+        };
+        for (i, v) in out.iter_mut().enumerate() {
+            *v = (call.timeline.start_frame + i as i64) as f64;
+        }
+        Status::Ok as i32
+    }
+    static TABLE_1_1: PluginTable = PluginTable {
+        abi_minor: 1,
+        evaluate: evaluate_as_1_1,
+        ..table::<__HeftExports>()
+    };
+
+    #[test]
+    fn a_plugin_of_abi_1_1_evaluates_under_this_host() {
+        let p = Plugin::from_static(&TABLE_1_1, "abi 1.1").expect("loads");
+        let mut out = vec![f64::NAN; 4];
+        let timeline = Timeline {
+            start_frame: 10,
+            ..tl(4)
+        };
+        p.evaluate_with_threads(1, &[0], timeline, &[], &mut [(&mut out, 1)], &mut [], 4)
+            .expect("evaluates");
+        assert_eq!(out, [10.0, 11.0, 12.0, 13.0]);
+    }
 
     /// A table whose description is bytes no SDK wrote (a plugin of another SDK that kept the
     /// ABI number): its functions other than `describe` are never called.

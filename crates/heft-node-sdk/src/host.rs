@@ -317,6 +317,7 @@ impl Plugin {
             },
             summaries: std::ptr::null_mut(),
             summary_count: 0,
+            threads: 1,
         }
     }
 
@@ -382,7 +383,7 @@ impl Plugin {
         }
     }
 
-    /// Evaluates a node over `timeline`. Inputs are (values, width); outputs are
+    /// Evaluates a node over `timeline` on one thread. Inputs are (values, width); outputs are
     /// host-allocated buffers of frames times width; `summaries` has room for the node
     /// type's summary values (left NaN where the node reports none). Returns the warnings.
     pub fn evaluate(
@@ -393,6 +394,22 @@ impl Plugin {
         inputs: &[(&[f64], usize)],
         outputs: &mut [(&mut [f64], usize)],
         summaries: &mut [f64],
+    ) -> Result<Vec<String>, CallError> {
+        self.evaluate_with_threads(node_index, params, timeline, inputs, outputs, summaries, 1)
+    }
+
+    /// [`Plugin::evaluate`], letting the node use up to `threads` threads (`Call::threads`, ABI
+    /// 1.2; 0 is taken as 1). A plugin built before 1.2 does not see it and uses one.
+    #[allow(clippy::too_many_arguments)]
+    pub fn evaluate_with_threads(
+        &self,
+        node_index: u32,
+        params: &[u8],
+        timeline: Timeline,
+        inputs: &[(&[f64], usize)],
+        outputs: &mut [(&mut [f64], usize)],
+        summaries: &mut [f64],
+        threads: usize,
     ) -> Result<Vec<String>, CallError> {
         let in_views: Vec<SeriesView> = inputs
             .iter()
@@ -421,6 +438,7 @@ impl Plugin {
         call.warning = text_sink(&mut warnings);
         call.summaries = summaries.as_mut_ptr();
         call.summary_count = summaries.len();
+        call.threads = threads.max(1);
         // SAFETY: every pointer in `call` refers to data borrowed for this function: inputs
         // shared, outputs and summaries exclusively (`&mut`), distinct slices; the sinks'
         // buffers live here.

@@ -1,6 +1,8 @@
 //! Evaluating a [`Plan`]: level by level, the nodes of a level in parallel (rayon). Each
 //! node is a pure function of its parameters and inputs, and every buffer it sees is
-//! fixed before it runs, so results are bit-identical for any thread count.
+//! fixed before it runs, so results are bit-identical for any thread count. A node is given
+//! the evaluation's threads shared among the plugin nodes of its level ([`node_threads`]), and
+//! must give the same bits for any count it is given.
 
 use std::time::{Duration, Instant};
 
@@ -137,7 +139,14 @@ fn check_finite(plan: &Plan, i: usize, outputs: &[Vec<f64>]) -> Result<(), EvalE
 /// the node left unwritten is told from a NaN it computed.
 const UNWRITTEN: f64 = f64::from_bits(0x7ff8_0000_dead_beef);
 
-fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeResult, EvalError> {
+/// The threads each plugin node of a level may use (`Call::threads`): the evaluation's
+/// `threads` shared evenly among the level's `nodes` plugin nodes, which run at the same time,
+/// at least 1 (a level of more nodes than threads gives each one).
+pub fn node_threads(threads: usize, nodes: usize) -> usize {
+    (threads / nodes.max(1)).max(1)
+}
+
+fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>], threads: usize) -> Result<NodeResult, EvalError> {
     let node = &plan.nodes[i];
     let spec = node.ty.spec();
     let frames = plan.timeline.frames();
@@ -199,13 +208,14 @@ fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>]) -> Result<NodeRe
             .collect();
         plugin
             .plugin
-            .evaluate(
+            .evaluate_with_threads(
                 *index,
                 &node.params_bytes,
                 plan.timeline,
                 &inputs,
                 &mut views,
                 &mut summaries,
+                threads,
             )
             .map_err(|e| EvalError::Node {
                 node: node.name.clone(),
@@ -258,11 +268,15 @@ pub fn evaluate_observed(
             Some(builder.build().map_err(|e| EvalError::Threads(e.to_string()))?)
         }
     };
+    let total = pool.as_ref().map_or(1, rayon::ThreadPool::current_num_threads);
     let started = Instant::now();
     let mut done: Vec<Option<NodeResult>> = (0..plan.nodes.len()).map(|_| None).collect();
     for level in &plan.levels {
+        // Host nodes (tracks read when the graph was checked) only copy their data.
+        let plugin_nodes = level.iter().filter(|&&i| plan.nodes[i].host_data.is_none()).count();
+        let threads = node_threads(total, plugin_nodes);
         let one = |&i: &usize| {
-            let r = run_node(plan, i, &done);
+            let r = run_node(plan, i, &done, threads);
             node_done(i);
             r
         };

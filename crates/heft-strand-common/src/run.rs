@@ -30,7 +30,8 @@ pub trait Method: Sized {
 
     /// Advances every strand by one frame: `env.substeps` steps of `env.h`. Pinned particles
     /// must end each substep k (1..=substeps) on `env.pin_target(s, slot, k)`, and every free
-    /// particle must be passed through `env.project(k, ..)` after each substep.
+    /// particle must be passed through `env.project(k, ..)` after each substep. It may split the
+    /// strands across up to `env.threads` threads, and must give the same bits for any count.
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>);
 
     /// The elastic energy of the method's model, J; by default stretch plus bending as
@@ -176,6 +177,9 @@ pub struct FrameEnv<'a> {
     pub frame: usize,
     /// Gravity vector, m/s^2.
     pub gravity: V3,
+    /// How many threads the method may use for the frame, at least 1 (the node's
+    /// `Io::threads`); the method must give the same bits for any count.
+    pub threads: usize,
     anchor: Option<Track>,
     /// The anchor's angular velocity at the start and end of the frame (central differences
     /// of the frames around each).
@@ -656,6 +660,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
     if frames == 0 {
         return Ok(());
     }
+    let threads = io.threads();
     let n = setup.total_particles();
     let inputs = Inputs {
         anchor: connected(io, "anchor", frames, Some(7))?,
@@ -771,7 +776,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
 
     let mut warnings = Vec::new();
     if setup.settled_start {
-        settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &moving)?;
+        settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &moving, threads)?;
         // A rest shape inside a collider: said, with the place and the depth.
         for (idx, x) in state.x.iter().enumerate() {
             for (k, shape) in c0.shapes.iter().enumerate() {
@@ -849,6 +854,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             frame_dt: dt,
             frame: i,
             gravity: setup.gravity,
+            threads,
             anchor,
             anchor_angular_ends,
             end,
@@ -1191,6 +1197,7 @@ fn settle<M: Method>(
     tl: &Timeline,
     poses: [Pose; 2],
     moving: &[Moving],
+    threads: usize,
 ) -> Result<(), NodeError> {
     let mut damped = setup.clone();
     damped.damping = setup.damping.max(SETTLE_DAMPING);
@@ -1218,6 +1225,7 @@ fn settle<M: Method>(
         frame_dt: dt,
         frame: 1,
         gravity: sub(setup.gravity, a0),
+        threads,
         anchor: still_a,
         anchor_angular_ends: [[0.0; 3]; 2],
         end: still_b.or(still_a),

@@ -183,10 +183,9 @@ struct Group<T: Real, const N: usize> {
     /// Per group: the start and end pin offsets of each lane (anchor-local), m.
     start: Vec<Lanes3<f64, N>>,
     end: Vec<Lanes3<f64, N>>,
-    /// Scratch: wind per particle, colliders near each lane, the chain solve's segments.
-    wind: Vec<Lanes3<T, N>>,
-    near: Vec<Near<T, N>>,
-    scratch: Scratch<T, N>,
+    /// The scratch of each thread that runs lane groups (the first is the calling thread's),
+    /// made as threads are first used.
+    workers: Vec<Worker<T, N>>,
     /// True once the lanes hold the state: the frame loop hands every call the state the
     /// previous call left, so later frames only move the origins (see [`GroupRun`]).
     loaded: bool,
@@ -194,6 +193,112 @@ struct Group<T: Real, const N: usize> {
     summary: Option<Summary>,
     /// The substep of the last frame (the lanes hold h v).
     stored_h: f64,
+}
+
+/// The scratch one thread reuses from lane group to lane group: wind per particle, colliders
+/// near each lane, the chain solve's segments. Every group overwrites what it reads of it, so
+/// a group's result does not depend on which thread ran it, or what ran before.
+#[derive(Debug)]
+struct Worker<T: Real, const N: usize> {
+    wind: Vec<Lanes3<T, N>>,
+    near: Vec<Near<T, N>>,
+    scratch: Scratch<T, N>,
+}
+
+impl<T: Real, const N: usize> Worker<T, N> {
+    fn new(particles: usize) -> Worker<T, N> {
+        Worker {
+            wind: vec![[[T::ZERO; N]; 3]; particles],
+            near: Vec::with_capacity(3),
+            scratch: Scratch::new(particles),
+        }
+    }
+}
+
+/// The least work a thread is given, in lane-group particle-substeps (a group of `N` lanes
+/// advancing one particle by one substep): below it, starting a thread for the frame costs more
+/// than it saves. benches/threads.rs times the least split it allows (208 strands of 32 particles
+/// at 20 substeps: 4160 a thread): 1.11 times one thread in a quiet run.
+const MIN_WORK_PER_THREAD: usize = 4096;
+
+/// How many threads run a frame's `groups` lane groups of `particles` particles over `substeps`
+/// substeps when `allowed` may: at most one per group, each with at least
+/// [`MIN_WORK_PER_THREAD`], at least 1.
+fn threads_for(allowed: usize, groups: usize, particles: usize, substeps: usize) -> usize {
+    let work = groups.saturating_mul(particles).saturating_mul(substeps);
+    allowed.min(groups).min(work / MIN_WORK_PER_THREAD).max(1)
+}
+
+/// The lane groups thread `k` of `threads` runs: contiguous ranges, in order, that differ in
+/// size by at most one and together cover `0..groups`.
+fn share(k: usize, threads: usize, groups: usize) -> std::ops::Range<usize> {
+    k * groups / threads..(k + 1) * groups / threads
+}
+
+/// Lanes per group for `strands` strands (see `Method::new` of [`Xpbd`]).
+fn lanes_for(strands: usize) -> usize {
+    match strands {
+        0..=2 => strands.max(1),
+        3..=4 => 4,
+        5..=8 => 8,
+        _ => 16,
+    }
+}
+
+/// How many threads run each frame of the strands of `setup` when the node may use `allowed`:
+/// one per lane group at most, and only as many as have enough work to pay for starting them.
+/// Results are the same bits for any count.
+pub fn frame_threads(setup: &Setup, allowed: usize) -> usize {
+    let groups = setup.strands.div_ceil(lanes_for(setup.strands));
+    threads_for(allowed, groups, setup.particles, setup.substeps)
+}
+
+/// What every lane group of a frame shares (see [`GroupRun`]).
+#[derive(Clone, Copy)]
+struct FrameJob<'a, T: Real> {
+    arch: pulp::Arch,
+    env: &'a FrameEnv<'a>,
+    coeffs: &'a Coeffs<T>,
+    shared: &'a [([f64; 3], Option<[f64; 3]>)],
+    root: bool,
+    tip: bool,
+    free: (usize, usize),
+    wind_gain: f64,
+    reorigin: bool,
+}
+
+impl<T: Real> FrameJob<'_, T> {
+    /// Runs the frame's substeps for consecutive lane groups: their origins, particles
+    /// (`origin.len()` groups of `particles` each) and pin offsets, with one thread's scratch.
+    fn run<const N: usize>(
+        &self,
+        origin: &mut [Lanes3<f64, N>],
+        x: &mut [Particle<T, N>],
+        start: &[Lanes3<f64, N>],
+        end: &[Lanes3<f64, N>],
+        worker: &mut Worker<T, N>,
+    ) {
+        let particles = x.len() / origin.len().max(1);
+        for (g, (origin, x)) in origin.iter_mut().zip(x.chunks_exact_mut(particles)).enumerate() {
+            self.arch.dispatch(GroupRun {
+                origin,
+                x,
+                start: &start[g],
+                end: &end[g],
+                wind: &mut worker.wind,
+                near: &mut worker.near,
+                scratch: &mut worker.scratch,
+                env: self.env,
+                coeffs: self.coeffs,
+                shared: self.shared,
+                root: self.root,
+                tip: self.tip,
+                free: self.free,
+                wind_gain: self.wind_gain,
+                reorigin: self.reorigin,
+            });
+        }
+    }
 }
 
 impl<T: Real, const N: usize> Group<T, N> {
@@ -208,9 +313,7 @@ impl<T: Real, const N: usize> Group<T, N> {
         Group {
             start: per_lane(&setup.start_offsets),
             end: per_lane(&setup.end_offsets),
-            wind: vec![[[T::ZERO; N]; 3]; setup.particles],
-            near: Vec::with_capacity(3),
-            scratch: Scratch::new(setup.particles),
+            workers: vec![Worker::new(setup.particles)],
             loaded: false,
             summary: None,
             stored_h: 1.0,
@@ -247,25 +350,56 @@ impl<T: Real, const N: usize> Group<T, N> {
         let root = setup.pin != Pin::Free;
         let tip = setup.pin == Pin::BothEnds;
         let free = (usize::from(root), n - usize::from(tip));
-        for g in 0..self.lanes.groups() {
-            let (origin, x) = self.lanes.group_mut(g);
-            arch.dispatch(GroupRun {
-                origin,
-                x,
-                start: &self.start[g],
-                end: &self.end[g],
-                wind: &mut self.wind,
-                near: &mut self.near,
-                scratch: &mut self.scratch,
-                env,
-                coeffs,
-                shared,
-                root,
-                tip,
-                free,
-                wind_gain: coeffs.h2_decay * setup.drag,
-                reorigin,
-            });
+        let job = FrameJob {
+            arch,
+            env,
+            coeffs,
+            shared,
+            root,
+            tip,
+            free,
+            wind_gain: coeffs.h2_decay * setup.drag,
+            reorigin,
+        };
+        // Lane groups are independent within a frame: contiguous ranges of them run on
+        // `threads` threads, each with its own scratch, and every group computes the same bits
+        // whichever thread runs it.
+        let groups = self.lanes.groups();
+        let threads = threads_for(env.threads, groups, n, env.substeps);
+        while self.workers.len() < threads {
+            self.workers.push(Worker::new(n));
+        }
+        let mut origin: &mut [Lanes3<f64, N>] = &mut self.lanes.origin;
+        let mut x: &mut [Particle<T, N>] = &mut self.lanes.x;
+        let (mut start, mut end): (&[Lanes3<f64, N>], &[Lanes3<f64, N>]) = (&self.start, &self.end);
+        let mut parts = Vec::with_capacity(threads);
+        for (k, worker) in self.workers.iter_mut().take(threads).enumerate() {
+            let count = share(k, threads, groups).len();
+            let (o, o_rest) = std::mem::take(&mut origin).split_at_mut(count);
+            let (p, p_rest) = std::mem::take(&mut x).split_at_mut(count * n);
+            let (a, a_rest) = start.split_at(count);
+            let (b, b_rest) = end.split_at(count);
+            (origin, x, start, end) = (o_rest, p_rest, a_rest, b_rest);
+            parts.push((o, p, a, b, worker));
+        }
+        let mut parts = parts.into_iter();
+        if let Some((o, p, a, b, worker)) = parts.next() {
+            if threads == 1 {
+                job.run(o, p, a, b, worker);
+            } else {
+                std::thread::scope(|scope| {
+                    let others: Vec<_> = parts
+                        .map(|(o, p, a, b, worker)| scope.spawn(move || job.run(o, p, a, b, worker)))
+                        .collect();
+                    job.run(o, p, a, b, worker);
+                    for handle in others {
+                        // A panic in a worker reaches the node's caller with its own message.
+                        if let Err(payload) = handle.join() {
+                            std::panic::resume_unwind(payload);
+                        }
+                    }
+                });
+            }
         }
         // The state stays in the lanes: the frame loop asks for it through `Method::store`.
         self.stored_h = h;
@@ -543,11 +677,11 @@ impl<T: Real> Method for Xpbd<T> {
         // independent chains of dependent projections are in flight while a group's state
         // (16 lanes x 32 particles x position and step: 12 KB in f32, 24 KB in f64) stays in
         // the L1 cache. Measured in benches/strands.rs: 8 and 32 lanes are slower for both types.
-        let engine = match setup.strands {
+        let engine = match lanes_for(setup.strands) {
             1 => Engine::L1(Group::new(setup)),
             2 => Engine::L2(Group::new(setup)),
-            3..=4 => Engine::L4(Group::new(setup)),
-            5..=8 => Engine::L8(Group::new(setup)),
+            4 => Engine::L4(Group::new(setup)),
+            8 => Engine::L8(Group::new(setup)),
             _ => Engine::L16(Group::new(setup)),
         };
         Xpbd {
@@ -634,5 +768,47 @@ impl<T: Real> Method for Xpbd<T> {
     /// XPBD has no step limit (see the node notes).
     fn stability_limit(_setup: &Setup, _wind: bool) -> Option<f64> {
         None
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The threads' shares are contiguous, in order, cover every group once, and differ in
+    /// size by at most one: 13 groups on 4 threads are 3, 3, 3 and 4.
+    #[test]
+    fn shares_are_contiguous_and_even() {
+        let sizes: Vec<usize> = (0..4).map(|k| share(k, 4, 13).len()).collect();
+        assert_eq!(sizes, [3, 3, 3, 4]);
+        for (threads, groups) in [(1, 1), (2, 2), (2, 3), (3, 64), (4, 5), (7, 100)] {
+            let mut next = 0;
+            for k in 0..threads {
+                let r = share(k, threads, groups);
+                assert_eq!(r.start, next, "{threads} threads, {groups} groups: thread {k}");
+                assert!(r.len() == groups / threads || r.len() == groups / threads + 1);
+                next = r.end;
+            }
+            assert_eq!(next, groups);
+        }
+    }
+
+    /// A frame runs on at most one thread per lane group, and on no more threads than have
+    /// `MIN_WORK_PER_THREAD` each: 1024 strands of 32 particles at 20 substeps (64 groups, 40960
+    /// group particle-substeps) use 8 of 8 allowed; 208 strands (13 groups, 8320) 2 of 8; 16
+    /// strands (one group) 1.
+    #[test]
+    fn a_frame_uses_threads_only_for_enough_work() {
+        assert_eq!(threads_for(8, 64, 32, 20), 8);
+        assert_eq!(threads_for(2, 64, 32, 20), 2);
+        assert_eq!(threads_for(8, 13, 32, 20), 2);
+        assert_eq!(threads_for(8, 1, 4096, 80), 1);
+        assert_eq!(threads_for(8, 3, 2, 1), 1);
+        assert_eq!(threads_for(1, 64, 32, 20), 1);
+        assert_eq!(lanes_for(1), 1);
+        assert_eq!(lanes_for(2), 2);
+        assert_eq!(lanes_for(3), 4);
+        assert_eq!(lanes_for(8), 8);
+        assert_eq!(lanes_for(9), 16);
     }
 }

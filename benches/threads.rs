@@ -1,0 +1,273 @@
+//! Threads: `xpbd.strand_fast` with its lane groups split across the threads the host gives a
+//! node (`Call::threads`, ABI 1.2), called through its plugin function table with 1 thread and
+//! with 2. After the benches it prints the speed-up of 2 threads over 1 in this run (read back
+//! from this run's criterion estimates; the machine is shared and noisy, so only a ratio within
+//! one run means anything, and it can be no better than the cores the run really had).
+//!
+//! Run: `cargo bench -p heft-benches --bench threads` (about half a minute).
+//!
+//! What is measured (criterion prints elements/s; an element is one particle advanced by one
+//! substep, pinned roots included; a call's first output frame is the initial state, so a call
+//! over 25 frames simulates 24), at 24 fps and 20 substeps a frame (h = 1/480 s), `placement` =
+//! line, `pin` = one_end, other parameters at their defaults, on an anchor swaying 2 cm at
+//! 0.5 Hz along X:
+//!
+//! - `threads_1024x32`: 1024 strands of 32 particles (64 lane groups of 16), the case.
+//! - `threads_208x32`: 208 strands of 32 particles (13 lane groups): the least work a frame
+//!   splits across 2 threads (the node's `MIN_WORK_PER_THREAD`, 4096 lane-group
+//!   particle-substeps a thread; here 4160): the threads are started every frame, so this shows
+//!   whether starting them pays at the smallest split allowed.
+//!
+//! The results are the same bits at any thread count (nodes/xpbd/tests/threads.rs checks it);
+//! each configuration is run once, and its outputs compared with the one-thread run's, before
+//! it is timed.
+
+use std::hint::black_box;
+use std::path::PathBuf;
+use std::time::{Duration, SystemTime};
+
+use criterion::{Criterion, SamplingMode, Throughput};
+use heft_node_sdk::host::Plugin;
+use heft_node_sdk::{ParamValue, Params, PortKind, Timeline};
+
+/// Frames per second.
+const FPS: u32 = 24;
+/// Substeps per frame (the contract's default).
+const SUBSTEPS: usize = 20;
+/// Frames simulated per call.
+const FRAMES: usize = 24;
+/// Thread counts compared.
+const THREADS: [usize; 2] = [1, 2];
+
+/// One prepared evaluation of `xpbd.strand_fast`.
+struct NodeCall {
+    plugin: Plugin,
+    index: u32,
+    params: Vec<u8>,
+    timeline: Timeline,
+    anchor: Vec<f64>,
+    inputs: usize,
+    anchor_at: usize,
+    outputs: Vec<(Vec<f64>, usize)>,
+}
+
+impl NodeCall {
+    fn new(strands: usize, particles: usize) -> NodeCall {
+        let plugin = Plugin::from_static(heft_xpbd::plugin_table(), "xpbd (linked)").expect("the xpbd table loads");
+        let index = plugin
+            .descriptor()
+            .nodes
+            .iter()
+            .position(|n| n.name == "strand_fast")
+            .expect("xpbd.strand_fast");
+        let spec = plugin.descriptor().nodes[index].clone();
+        let mut params = Params::defaults(&spec).expect("defaults");
+        for (name, value) in [
+            ("count", ParamValue::Integer(strands as i64)),
+            ("placement", ParamValue::Choice("line".to_owned())),
+            ("segments", ParamValue::Integer(particles as i64 - 1)),
+            ("substeps", ParamValue::Integer(SUBSTEPS as i64)),
+        ] {
+            params = params.with(name, value).expect("known parameter");
+        }
+        let timeline = Timeline {
+            start_frame: 0,
+            frame_count: FRAMES as u64 + 1,
+            rate_num: FPS,
+            rate_den: 1,
+        };
+        let anchor: Vec<f64> = (0..timeline.frames())
+            .flat_map(|i| {
+                let t = timeline.time(i);
+                let x = 0.02 * (std::f64::consts::PI * t).sin();
+                [x, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0]
+            })
+            .collect();
+        let anchor_at = spec
+            .inputs
+            .iter()
+            .position(|p| p.name == "anchor")
+            .expect("anchor input");
+        let params = Plugin::encode_params(params.values()).expect("encodes");
+        let widths: Vec<usize> = (0..spec.inputs.len())
+            .map(|k| if k == anchor_at { 7 } else { 0 })
+            .collect();
+        let points = plugin
+            .output_points(index as u32, &params, timeline, &widths, spec.outputs.len())
+            .expect("output shapes");
+        let outputs = spec
+            .outputs
+            .iter()
+            .zip(points)
+            .map(|(port, n)| {
+                let width = if port.kind == PortKind::Points {
+                    3 * n
+                } else {
+                    port.kind.width(0)
+                };
+                (vec![0.0; timeline.frames() * width], width)
+            })
+            .collect();
+        NodeCall {
+            plugin,
+            index: index as u32,
+            params,
+            timeline,
+            anchor,
+            inputs: spec.inputs.len(),
+            anchor_at,
+            outputs,
+        }
+    }
+
+    fn run(&mut self, threads: usize) {
+        let inputs: Vec<(&[f64], usize)> = (0..self.inputs)
+            .map(|k| {
+                if k == self.anchor_at {
+                    (self.anchor.as_slice(), 7)
+                } else {
+                    (&[][..], 0)
+                }
+            })
+            .collect();
+        let mut outputs: Vec<(&mut [f64], usize)> =
+            self.outputs.iter_mut().map(|(d, w)| (d.as_mut_slice(), *w)).collect();
+        self.plugin
+            .evaluate_with_threads(
+                self.index,
+                &self.params,
+                self.timeline,
+                &inputs,
+                &mut outputs,
+                &mut [],
+                threads,
+            )
+            .expect("xpbd.strand_fast evaluates");
+    }
+
+    fn bits(&self) -> Vec<u64> {
+        self.outputs
+            .iter()
+            .flat_map(|(d, _)| d.iter().map(|v| v.to_bits()))
+            .collect()
+    }
+}
+
+#[derive(Clone, Copy)]
+struct Case {
+    group: &'static str,
+    strands: usize,
+    particles: usize,
+}
+
+fn bench_name(threads: usize) -> String {
+    if threads == 1 {
+        "1_thread".to_owned()
+    } else {
+        format!("{threads}_threads")
+    }
+}
+
+fn elements(case: Case) -> u64 {
+    (case.strands * case.particles * SUBSTEPS * FRAMES) as u64
+}
+
+fn bench_case(c: &mut Criterion, case: Case) {
+    let mut call = NodeCall::new(case.strands, case.particles);
+    call.run(1);
+    let one = call.bits();
+    for threads in THREADS {
+        call.run(threads);
+        assert!(
+            call.bits() == one,
+            "{}: {threads} threads give other bits than 1",
+            case.group
+        );
+    }
+    let mut g = c.benchmark_group(case.group);
+    g.sampling_mode(SamplingMode::Flat)
+        .sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(4))
+        .throughput(Throughput::Elements(elements(case)));
+    for threads in THREADS {
+        g.bench_function(bench_name(threads).as_str(), |b| {
+            b.iter(|| {
+                call.run(threads);
+                black_box(&call.outputs);
+            })
+        });
+    }
+    g.finish();
+}
+
+/// Criterion's output folder, as criterion finds it ($CRITERION_HOME, else
+/// $CARGO_TARGET_DIR/criterion, else the target folder holding this executable).
+fn criterion_dir() -> Option<PathBuf> {
+    if let Some(home) = std::env::var_os("CRITERION_HOME") {
+        return Some(PathBuf::from(home));
+    }
+    if let Some(target) = std::env::var_os("CARGO_TARGET_DIR") {
+        return Some(PathBuf::from(target).join("criterion"));
+    }
+    let exe = std::env::current_exe().ok()?;
+    Some(exe.parent()?.parent()?.parent()?.join("criterion"))
+}
+
+/// Mean time per iteration (ns) of one bench, from criterion's estimates file, if that file was
+/// written by this run (after `since`).
+fn mean_ns(group: &str, bench: &str, since: SystemTime) -> Option<f64> {
+    let path = criterion_dir()?
+        .join(group)
+        .join(bench)
+        .join("new")
+        .join("estimates.json");
+    if std::fs::metadata(&path).and_then(|m| m.modified()).ok()? < since {
+        return None;
+    }
+    let text = std::fs::read_to_string(path).ok()?;
+    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
+    v["mean"]["point_estimate"].as_f64()
+}
+
+fn main() {
+    let started = SystemTime::now();
+    let cores = std::thread::available_parallelism().map_or(0, usize::from);
+    let cases = [
+        Case {
+            group: "threads_1024x32",
+            strands: 1024,
+            particles: 32,
+        },
+        Case {
+            group: "threads_208x32",
+            strands: 208,
+            particles: 32,
+        },
+    ];
+    let mut c = Criterion::default().configure_from_args();
+    for &case in &cases {
+        bench_case(&mut c, case);
+    }
+    c.final_summary();
+    eprintln!("\nthis run ({cores} cores available; shared and noisy: compare only within one run):");
+    for case in cases {
+        let one = mean_ns(case.group, &bench_name(1), started);
+        for threads in THREADS {
+            let Some(ns) = mean_ns(case.group, &bench_name(threads), started) else {
+                eprintln!("  {}/{}: not run in this run", case.group, bench_name(threads));
+                continue;
+            };
+            let mut line = format!(
+                "  {}/{}: {:.3e} particle-substeps/s",
+                case.group,
+                bench_name(threads),
+                elements(case) as f64 / (ns * 1e-9)
+            );
+            if let (Some(one), true) = (one, threads > 1) {
+                line += &format!(", {:.2} x 1 thread", one / ns);
+            }
+            eprintln!("{line}");
+        }
+    }
+}
