@@ -872,6 +872,16 @@ impl<T: Real, const N: usize> Lanes<T, N> {
         }
     }
 
+    /// Number of strands.
+    pub fn strands(&self) -> usize {
+        self.strands
+    }
+
+    /// Particles per strand.
+    pub fn particles(&self) -> usize {
+        self.particles
+    }
+
     /// Number of lane groups.
     pub fn groups(&self) -> usize {
         self.strands.div_ceil(N)
@@ -910,14 +920,22 @@ impl<T: Real, const N: usize> Lanes<T, N> {
     /// Stores world positions o + x and the velocities v = s (1 / h) (in f64), strand-major,
     /// three values a particle.
     pub fn store(&self, x: &mut [f64], v: &mut [f64], h: f64) {
+        self.store_strands(0..self.strands, x, v, h);
+    }
+
+    /// [`Lanes::store`] for the strands `strands` only, into `x` and `v` that hold just those
+    /// strands (their first value is strand `strands.start`'s), so that threads can store
+    /// disjoint ranges.
+    pub fn store_strands(&self, strands: std::ops::Range<usize>, x: &mut [f64], v: &mut [f64], h: f64) {
         let n = self.particles;
         let inv_h = 1.0 / h;
-        for s in 0..self.strands {
+        let first = strands.start;
+        for s in strands {
             let (g, l) = (s / N, s % N);
             let o = self.origin[g];
             for i in 0..n {
                 let [a, b] = &self.x[g * n + i];
-                let at = 3 * (s * n + i);
+                let at = 3 * ((s - first) * n + i);
                 for k in 0..3 {
                     x[at + k] = o[k][l] + a[k][l].wide();
                     v[at + k] = b[k][l].wide() * inv_h;

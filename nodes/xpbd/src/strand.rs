@@ -193,6 +193,8 @@ struct Group<T: Real, const N: usize> {
     summary: Option<Summary>,
     /// The substep of the last frame (the lanes hold h v).
     stored_h: f64,
+    /// The threads the last frame ran on (its store is split the same way).
+    threads: usize,
 }
 
 /// The scratch one thread reuses from lane group to lane group: wind per particle, colliders
@@ -302,6 +304,46 @@ impl<T: Real> FrameJob<'_, T> {
 }
 
 impl<T: Real, const N: usize> Group<T, N> {
+    /// Writes the state the last frame left (see [`Lanes::store`]), split across the threads
+    /// that frame ran on: each stores the strands of its lane groups into its own part of the
+    /// outputs, so the values are the same whatever the split.
+    fn store(&self, x: &mut [f64], v: &mut [f64]) {
+        let (groups, per_strand) = (self.lanes.groups(), 3 * self.lanes.particles());
+        let strands = self.lanes.strands();
+        if self.threads <= 1 {
+            self.lanes.store(x, v, self.stored_h);
+            return;
+        }
+        std::thread::scope(|scope| {
+            let (mut x, mut v) = (x, v);
+            let mut handles = Vec::with_capacity(self.threads);
+            let mut own = None;
+            for k in 0..self.threads {
+                let g = share(k, self.threads, groups);
+                let range = (g.start * N).min(strands)..(g.end * N).min(strands);
+                let (xa, xb) = std::mem::take(&mut x).split_at_mut(range.len() * per_strand);
+                let (va, vb) = std::mem::take(&mut v).split_at_mut(range.len() * per_strand);
+                (x, v) = (xb, vb);
+                let lanes = &self.lanes;
+                let h = self.stored_h;
+                if k == 0 {
+                    // The calling thread stores the first range itself.
+                    own = Some((range, xa, va));
+                } else {
+                    handles.push(scope.spawn(move || lanes.store_strands(range, xa, va, h)));
+                }
+            }
+            if let Some((range, xa, va)) = own {
+                self.lanes.store_strands(range, xa, va, self.stored_h);
+            }
+            for handle in handles {
+                if let Err(payload) = handle.join() {
+                    std::panic::resume_unwind(payload);
+                }
+            }
+        });
+    }
+
     fn new(setup: &Setup) -> Group<T, N> {
         let lanes = Lanes::<T, N>::new(setup.strands, setup.particles);
         let groups = lanes.groups();
@@ -317,6 +359,7 @@ impl<T: Real, const N: usize> Group<T, N> {
             loaded: false,
             summary: None,
             stored_h: 1.0,
+            threads: 1,
             lanes,
         }
     }
@@ -366,6 +409,7 @@ impl<T: Real, const N: usize> Group<T, N> {
         // whichever thread runs it.
         let groups = self.lanes.groups();
         let threads = threads_for(env.threads, groups, n, env.substeps);
+        self.threads = threads;
         while self.workers.len() < threads {
             self.workers.push(Worker::new(n));
         }
@@ -734,11 +778,11 @@ impl<T: Real> Method for Xpbd<T> {
     /// From the lanes.
     fn store(&self, x: &mut [f64], v: &mut [f64]) {
         match &self.engine {
-            Engine::L1(e) => e.lanes.store(x, v, e.stored_h),
-            Engine::L2(e) => e.lanes.store(x, v, e.stored_h),
-            Engine::L4(e) => e.lanes.store(x, v, e.stored_h),
-            Engine::L8(e) => e.lanes.store(x, v, e.stored_h),
-            Engine::L16(e) => e.lanes.store(x, v, e.stored_h),
+            Engine::L1(e) => e.store(x, v),
+            Engine::L2(e) => e.store(x, v),
+            Engine::L4(e) => e.store(x, v),
+            Engine::L8(e) => e.store(x, v),
+            Engine::L16(e) => e.store(x, v),
         }
     }
 
