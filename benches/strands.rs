@@ -51,7 +51,6 @@
 //! rest would otherwise be skipped). World construction is not timed.
 
 use std::hint::black_box;
-use std::path::PathBuf;
 use std::sync::OnceLock;
 use std::time::{Duration, SystemTime};
 
@@ -795,7 +794,7 @@ fn matched_seconds(steps: &[Option<usize>], since: SystemTime) -> Vec<Option<f64
         .zip(steps)
         .map(|(&e, s)| {
             let substeps = substeps_at_24((*s)?);
-            let ns = mean_ns(MATCHED_CASE.group, &e.name(), since)?;
+            let ns = heft_benches::mean_ns(MATCHED_CASE.group, &e.name(), since)?;
             Some(match e {
                 Engine::Node(_) => ns * 1e-9,
                 Engine::Rapier(_) => ns * 1e-9 * (FPS as usize * substeps) as f64 / RAPIER_STEPS_TIMED as f64,
@@ -961,35 +960,6 @@ fn bench_wind(c: &mut Criterion) {
     g.finish();
 }
 
-/// Criterion's output folder, as criterion finds it ($CRITERION_HOME, else
-/// $CARGO_TARGET_DIR/criterion, else the target folder holding this executable).
-fn criterion_dir() -> Option<PathBuf> {
-    if let Some(home) = std::env::var_os("CRITERION_HOME") {
-        return Some(PathBuf::from(home));
-    }
-    if let Some(target) = std::env::var_os("CARGO_TARGET_DIR") {
-        return Some(PathBuf::from(target).join("criterion"));
-    }
-    let exe = std::env::current_exe().ok()?;
-    Some(exe.parent()?.parent()?.parent()?.join("criterion"))
-}
-
-/// Mean time per iteration (ns) of one bench, from criterion's estimates file, if that file was
-/// written by this run (after `since`).
-fn mean_ns(group: &str, bench: &str, since: SystemTime) -> Option<f64> {
-    let path = criterion_dir()?
-        .join(group)
-        .join(bench)
-        .join("new")
-        .join("estimates.json");
-    if std::fs::metadata(&path).and_then(|m| m.modified()).ok()? < since {
-        return None;
-    }
-    let text = std::fs::read_to_string(path).ok()?;
-    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
-    v["mean"]["point_estimate"].as_f64()
-}
-
 /// Prints the matched-accuracy seconds and ratios, then the rates of this run, from this run's
 /// criterion means.
 fn report(steps: &[Option<usize>], cases: &[Case], since: SystemTime) {
@@ -1019,7 +989,7 @@ fn report(steps: &[Option<usize>], cases: &[Case], since: SystemTime) {
     eprintln!("\nstrand rates of this run (particle-substeps per second on one thread, from criterion's means):");
     for &case in cases {
         for (n, el) in bench_names(case) {
-            match mean_ns(case.group, &n, since) {
+            match heft_benches::mean_ns(case.group, &n, since) {
                 Some(ns) => eprintln!("  {}/{n}: {:.3e} /s", case.group, el as f64 / (ns * 1e-9)),
                 None => eprintln!("  {}/{n}: not run in this run", case.group),
             }
@@ -1059,8 +1029,8 @@ fn main() {
     c.final_summary();
     report(&steps, &cases, started);
     let (still, wind) = (
-        mean_ns("wind_1024x32", "still", started),
-        mean_ns("wind_1024x32", "in_wind", started),
+        heft_benches::mean_ns("wind_1024x32", "still", started),
+        heft_benches::mean_ns("wind_1024x32", "in_wind", started),
     );
     if let (Some(a), Some(b)) = (still, wind) {
         eprintln!(

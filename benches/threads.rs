@@ -23,7 +23,6 @@
 //! it is timed.
 
 use std::hint::black_box;
-use std::path::PathBuf;
 use std::time::{Duration, SystemTime};
 
 use criterion::{Criterion, SamplingMode, Throughput};
@@ -201,35 +200,6 @@ fn bench_case(c: &mut Criterion, case: Case) {
     g.finish();
 }
 
-/// Criterion's output folder, as criterion finds it ($CRITERION_HOME, else
-/// $CARGO_TARGET_DIR/criterion, else the target folder holding this executable).
-fn criterion_dir() -> Option<PathBuf> {
-    if let Some(home) = std::env::var_os("CRITERION_HOME") {
-        return Some(PathBuf::from(home));
-    }
-    if let Some(target) = std::env::var_os("CARGO_TARGET_DIR") {
-        return Some(PathBuf::from(target).join("criterion"));
-    }
-    let exe = std::env::current_exe().ok()?;
-    Some(exe.parent()?.parent()?.parent()?.join("criterion"))
-}
-
-/// Mean time per iteration (ns) of one bench, from criterion's estimates file, if that file was
-/// written by this run (after `since`).
-fn mean_ns(group: &str, bench: &str, since: SystemTime) -> Option<f64> {
-    let path = criterion_dir()?
-        .join(group)
-        .join(bench)
-        .join("new")
-        .join("estimates.json");
-    if std::fs::metadata(&path).and_then(|m| m.modified()).ok()? < since {
-        return None;
-    }
-    let text = std::fs::read_to_string(path).ok()?;
-    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
-    v["mean"]["point_estimate"].as_f64()
-}
-
 fn main() {
     let started = SystemTime::now();
     let cores = std::thread::available_parallelism().map_or(0, usize::from);
@@ -252,9 +222,9 @@ fn main() {
     c.final_summary();
     eprintln!("\nthis run ({cores} cores available; shared and noisy: compare only within one run):");
     for case in cases {
-        let one = mean_ns(case.group, &bench_name(1), started);
+        let one = heft_benches::mean_ns(case.group, &bench_name(1), started);
         for threads in THREADS {
-            let Some(ns) = mean_ns(case.group, &bench_name(threads), started) else {
+            let Some(ns) = heft_benches::mean_ns(case.group, &bench_name(threads), started) else {
                 eprintln!("  {}/{}: not run in this run", case.group, bench_name(threads));
                 continue;
             };

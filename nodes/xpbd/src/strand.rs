@@ -266,6 +266,7 @@ struct FrameJob<'a, T: Real> {
     tip: bool,
     free: (usize, usize),
     wind_gain: f64,
+    /// Move each lane's origin to its particle 0 before the substeps (as a load would).
     reorigin: bool,
 }
 
@@ -290,14 +291,7 @@ impl<T: Real> FrameJob<'_, T> {
                 wind: &mut worker.wind,
                 near: &mut worker.near,
                 scratch: &mut worker.scratch,
-                env: self.env,
-                coeffs: self.coeffs,
-                shared: self.shared,
-                root: self.root,
-                tip: self.tip,
-                free: self.free,
-                wind_gain: self.wind_gain,
-                reorigin: self.reorigin,
+                job: *self,
             });
         }
     }
@@ -482,15 +476,8 @@ struct GroupRun<'a, T: Real, const N: usize> {
     wind: &'a mut [Lanes3<T, N>],
     near: &'a mut Vec<Near<T, N>>,
     scratch: &'a mut Scratch<T, N>,
-    env: &'a FrameEnv<'a>,
-    coeffs: &'a Coeffs<T>,
-    shared: &'a [([f64; 3], Option<[f64; 3]>)],
-    root: bool,
-    tip: bool,
-    free: (usize, usize),
-    wind_gain: f64,
-    /// Move each lane's origin to its particle 0 before the substeps (as a load would).
-    reorigin: bool,
+    /// What every group of the frame shares.
+    job: FrameJob<'a, T>,
 }
 
 impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
@@ -506,14 +493,18 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
             wind,
             near,
             scratch,
-            env,
-            coeffs,
-            shared,
-            root,
-            tip,
-            free,
-            wind_gain,
-            reorigin,
+            job:
+                FrameJob {
+                    env,
+                    coeffs,
+                    shared,
+                    root,
+                    tip,
+                    free,
+                    wind_gain,
+                    reorigin,
+                    ..
+                },
         } = self;
         if reorigin {
             // o += x_0 (exact in f64), x -= x_0: relative positions stay within a strand
