@@ -58,8 +58,9 @@ use std::sync::OnceLock;
 use std::time::{Duration, SystemTime};
 
 use criterion::{Criterion, SamplingMode, Throughput};
+use heft_benches::NodeCall;
 use heft_node_sdk::host::Plugin;
-use heft_node_sdk::{ParamValue, Params, PortKind, STANDARD_GRAVITY, Timeline};
+use heft_node_sdk::{ParamValue, Params, STANDARD_GRAVITY, Timeline};
 use heft_strand_common::{Method, Setup, step_limit};
 use heft_xpbd::Xpbd;
 use rapier3d::prelude::{
@@ -147,89 +148,15 @@ impl Kind {
     }
 }
 
-/// One prepared node evaluation: parameters encoded, inputs and output buffers allocated.
-struct NodeCall {
-    plugin: Plugin,
-    index: u32,
-    params: Vec<u8>,
+/// One prepared evaluation of a strand node type (see [`heft_benches::NodeCall`]).
+fn node_call(
+    kind: Kind,
+    overrides: &[(&str, ParamValue)],
     timeline: Timeline,
-    inputs: Vec<(Vec<f64>, usize)>,
-    outputs: Vec<(Vec<f64>, usize)>,
-    output_names: Vec<String>,
-}
-
-impl NodeCall {
-    /// The node's defaults with `overrides`, and the named inputs connected (the rest empty).
-    fn new(kind: Kind, overrides: &[(&str, ParamValue)], timeline: Timeline, connected: Vec<(&str, Vec<f64>)>) -> Self {
-        let (plugin, index) = kind.plugin();
-        let spec = plugin.descriptor().nodes[index as usize].clone();
-        let mut params = Params::defaults(&spec).expect("every strand parameter has a default");
-        for (name, value) in overrides {
-            params = params.with(name, value.clone()).expect("known parameter");
-        }
-        let frames = timeline.frames();
-        let mut connected = connected;
-        let inputs: Vec<(Vec<f64>, usize)> = spec
-            .inputs
-            .iter()
-            .map(|port| match connected.iter().position(|(n, _)| *n == port.name) {
-                Some(k) => {
-                    let data = connected.swap_remove(k).1;
-                    let width = data.len() / frames;
-                    (data, width)
-                }
-                None => (Vec::new(), 0),
-            })
-            .collect();
-        assert!(
-            connected.is_empty(),
-            "unknown inputs {:?}",
-            connected.iter().map(|c| c.0).collect::<Vec<_>>()
-        );
-        let bytes = Plugin::encode_params(params.values()).expect("encodes");
-        let widths: Vec<usize> = inputs.iter().map(|(_, w)| *w).collect();
-        let points = plugin
-            .output_points(index, &bytes, timeline, &widths, spec.outputs.len())
-            .expect("output shapes");
-        let outputs = spec
-            .outputs
-            .iter()
-            .zip(points)
-            .map(|(port, n)| {
-                let width = if port.kind == PortKind::Points {
-                    3 * n
-                } else {
-                    port.kind.width(0)
-                };
-                (vec![0.0; frames * width], width)
-            })
-            .collect();
-        NodeCall {
-            plugin,
-            index,
-            params: bytes,
-            timeline,
-            inputs,
-            outputs,
-            output_names: spec.outputs.iter().map(|p| p.name.clone()).collect(),
-        }
-    }
-
-    fn run(&mut self) -> Result<(), String> {
-        let inputs: Vec<(&[f64], usize)> = self.inputs.iter().map(|(d, w)| (d.as_slice(), *w)).collect();
-        let mut outputs: Vec<(&mut [f64], usize)> =
-            self.outputs.iter_mut().map(|(d, w)| (d.as_mut_slice(), *w)).collect();
-        self.plugin
-            .evaluate(self.index, &self.params, self.timeline, &inputs, &mut outputs, &mut [])
-            .map(|_| ())
-            .map_err(|e| e.to_string())
-    }
-
-    /// An output series and its width.
-    fn output(&self, name: &str) -> (&[f64], usize) {
-        let k = self.output_names.iter().position(|n| n == name).expect("output name");
-        (&self.outputs[k].0, self.outputs[k].1)
-    }
+    connected: Vec<(&str, Vec<f64>)>,
+) -> NodeCall {
+    let (plugin, index) = kind.plugin();
+    NodeCall::new(plugin, index, overrides, timeline, connected)
 }
 
 /// A timeline of `frames` frames from frame 0 at `fps`.
@@ -561,7 +488,7 @@ impl ModeSetup {
         let initial: Vec<f64> = (0..self.frames)
             .flat_map(|_| self.shape.iter().flatten().copied())
             .collect();
-        let mut call = NodeCall::new(
+        let mut call = node_call(
             kind,
             &[
                 ("length", ParamValue::Number(self.length)),
@@ -796,7 +723,7 @@ fn bench_matched(c: &mut Criterion, steps: &[[Option<usize>; 2]]) {
             match e {
                 Engine::Node(kind) => {
                     let tl = timeline(FRAMES + 1, FPS);
-                    let mut call = NodeCall::new(
+                    let mut call = node_call(
                         kind,
                         &overrides(case, substeps),
                         tl,
@@ -930,7 +857,7 @@ fn bench_case(c: &mut Criterion, case: Case) {
             1.0 / f64::from(FPS) / substeps as f64
         );
         let tl = timeline(frames + 1, FPS);
-        let mut call = NodeCall::new(
+        let mut call = node_call(
             kind,
             &overrides(case, substeps),
             tl,
@@ -986,7 +913,7 @@ fn bench_wind(c: &mut Criterion) {
         if wind {
             inputs.push(("wind", wind_series(tl)));
         }
-        let mut call = NodeCall::new(Kind::XpbdF32, &params, tl, inputs);
+        let mut call = node_call(Kind::XpbdF32, &params, tl, inputs);
         call.run().expect("xpbd.strand_fast runs in the wind");
         g.throughput(Throughput::Elements(
             (case.strands * case.particles * FRAMES * SUBSTEPS) as u64,

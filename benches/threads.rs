@@ -26,8 +26,9 @@ use std::hint::black_box;
 use std::time::{Duration, SystemTime};
 
 use criterion::{Criterion, SamplingMode, Throughput};
+use heft_benches::NodeCall;
 use heft_node_sdk::host::Plugin;
-use heft_node_sdk::{ParamValue, Params, PortKind, Timeline};
+use heft_node_sdk::{ParamValue, Timeline};
 
 /// Frames per second.
 const FPS: u32 = 24;
@@ -38,118 +39,41 @@ const FRAMES: usize = 24;
 /// Thread counts compared.
 const THREADS: [usize; 2] = [1, 2];
 
-/// One prepared evaluation of `xpbd.strand_fast`.
-struct NodeCall {
-    plugin: Plugin,
-    index: u32,
-    params: Vec<u8>,
-    timeline: Timeline,
-    anchor: Vec<f64>,
-    inputs: usize,
-    anchor_at: usize,
-    outputs: Vec<(Vec<f64>, usize)>,
-}
-
-impl NodeCall {
-    fn new(strands: usize, particles: usize) -> NodeCall {
-        let plugin = Plugin::from_static(heft_xpbd::plugin_table(), "xpbd (linked)").expect("the xpbd table loads");
-        let index = plugin
-            .descriptor()
-            .nodes
-            .iter()
-            .position(|n| n.name == "strand_fast")
-            .expect("xpbd.strand_fast");
-        let spec = plugin.descriptor().nodes[index].clone();
-        let mut params = Params::defaults(&spec).expect("defaults");
-        for (name, value) in [
+/// One prepared evaluation of `xpbd.strand_fast`: `strands` strands of `particles` particles
+/// on the swaying anchor.
+fn node_call(strands: usize, particles: usize) -> NodeCall {
+    let plugin = Plugin::from_static(heft_xpbd::plugin_table(), "xpbd (linked)").expect("the xpbd table loads");
+    let index = plugin
+        .descriptor()
+        .nodes
+        .iter()
+        .position(|n| n.name == "strand_fast")
+        .expect("xpbd.strand_fast") as u32;
+    let timeline = Timeline {
+        start_frame: 0,
+        frame_count: FRAMES as u64 + 1,
+        rate_num: FPS,
+        rate_den: 1,
+    };
+    let anchor: Vec<f64> = (0..timeline.frames())
+        .flat_map(|i| {
+            let t = timeline.time(i);
+            let x = 0.02 * (std::f64::consts::PI * t).sin();
+            [x, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0]
+        })
+        .collect();
+    NodeCall::new(
+        plugin,
+        index,
+        &[
             ("count", ParamValue::Integer(strands as i64)),
             ("placement", ParamValue::Choice("line".to_owned())),
             ("segments", ParamValue::Integer(particles as i64 - 1)),
             ("substeps", ParamValue::Integer(SUBSTEPS as i64)),
-        ] {
-            params = params.with(name, value).expect("known parameter");
-        }
-        let timeline = Timeline {
-            start_frame: 0,
-            frame_count: FRAMES as u64 + 1,
-            rate_num: FPS,
-            rate_den: 1,
-        };
-        let anchor: Vec<f64> = (0..timeline.frames())
-            .flat_map(|i| {
-                let t = timeline.time(i);
-                let x = 0.02 * (std::f64::consts::PI * t).sin();
-                [x, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0]
-            })
-            .collect();
-        let anchor_at = spec
-            .inputs
-            .iter()
-            .position(|p| p.name == "anchor")
-            .expect("anchor input");
-        let params = Plugin::encode_params(params.values()).expect("encodes");
-        let widths: Vec<usize> = (0..spec.inputs.len())
-            .map(|k| if k == anchor_at { 7 } else { 0 })
-            .collect();
-        let points = plugin
-            .output_points(index as u32, &params, timeline, &widths, spec.outputs.len())
-            .expect("output shapes");
-        let outputs = spec
-            .outputs
-            .iter()
-            .zip(points)
-            .map(|(port, n)| {
-                let width = if port.kind == PortKind::Points {
-                    3 * n
-                } else {
-                    port.kind.width(0)
-                };
-                (vec![0.0; timeline.frames() * width], width)
-            })
-            .collect();
-        NodeCall {
-            plugin,
-            index: index as u32,
-            params,
-            timeline,
-            anchor,
-            inputs: spec.inputs.len(),
-            anchor_at,
-            outputs,
-        }
-    }
-
-    fn run(&mut self, threads: usize) {
-        let inputs: Vec<(&[f64], usize)> = (0..self.inputs)
-            .map(|k| {
-                if k == self.anchor_at {
-                    (self.anchor.as_slice(), 7)
-                } else {
-                    (&[][..], 0)
-                }
-            })
-            .collect();
-        let mut outputs: Vec<(&mut [f64], usize)> =
-            self.outputs.iter_mut().map(|(d, w)| (d.as_mut_slice(), *w)).collect();
-        self.plugin
-            .evaluate_with_threads(
-                self.index,
-                &self.params,
-                self.timeline,
-                &inputs,
-                &mut outputs,
-                &mut [],
-                threads,
-            )
-            .expect("xpbd.strand_fast evaluates");
-    }
-
-    fn bits(&self) -> Vec<u64> {
-        self.outputs
-            .iter()
-            .flat_map(|(d, _)| d.iter().map(|v| v.to_bits()))
-            .collect()
-    }
+        ],
+        timeline,
+        vec![("anchor", anchor)],
+    )
 }
 
 #[derive(Clone, Copy)]
@@ -172,11 +96,11 @@ fn elements(case: Case) -> u64 {
 }
 
 fn bench_case(c: &mut Criterion, case: Case) {
-    let mut call = NodeCall::new(case.strands, case.particles);
-    call.run(1);
+    let mut call = node_call(case.strands, case.particles);
+    call.run_with_threads(1).expect("xpbd.strand_fast evaluates");
     let one = call.bits();
     for threads in THREADS {
-        call.run(threads);
+        call.run_with_threads(threads).expect("xpbd.strand_fast evaluates");
         assert!(
             call.bits() == one,
             "{}: {threads} threads give other bits than 1",
@@ -191,10 +115,7 @@ fn bench_case(c: &mut Criterion, case: Case) {
         .throughput(Throughput::Elements(elements(case)));
     for threads in THREADS {
         g.bench_function(bench_name(threads).as_str(), |b| {
-            b.iter(|| {
-                call.run(threads);
-                black_box(&call.outputs);
-            })
+            b.iter(|| black_box(call.run_with_threads(threads)))
         });
     }
     g.finish();

@@ -126,12 +126,7 @@ where
                     .label(name)
                     .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2)));
             }
-            chart
-                .configure_series_labels()
-                .background_style(WHITE.mix(0.85))
-                .border_style(BLACK)
-                .draw()
-                .map_err(err)?;
+            legend(&mut chart)?;
         }
         Style::Weight => {
             let mass = plot.mass.unwrap_or(1.0);
@@ -258,12 +253,7 @@ where
                 }
             }
             if !many {
-                chart
-                    .configure_series_labels()
-                    .background_style(WHITE.mix(0.85))
-                    .border_style(BLACK)
-                    .draw()
-                    .map_err(err)?;
+                legend(&mut chart)?;
             }
         }
     }
@@ -298,16 +288,25 @@ fn curve_over_weight<'a, DB: DrawingBackend + 'a>(
         .map_err(err)?
         .label(curve_label)
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[0].stroke_width(2)));
+    legend(chart)
+}
+
+/// Every plot's legend: a white box with a black border holding the labelled series.
+fn legend<'a, DB: DrawingBackend + 'a>(
+    chart: &mut ChartContext<
+        'a,
+        DB,
+        Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+    >,
+) -> Result<(), String> {
     chart
         .configure_series_labels()
         .background_style(WHITE.mix(0.85))
         .border_style(BLACK)
         .draw()
-        .map_err(err)?;
-    Ok(())
+        .map_err(|e| e.to_string())
 }
 
-/// A padded range holding every value (never empty).
 /// The time spans (first and last frame's times) of the runs of frames where `on` holds.
 fn spans(times: &[f64], n: usize, on: impl Fn(usize) -> bool) -> Vec<(f64, f64)> {
     let mut out = Vec::new();

@@ -73,17 +73,14 @@ pub struct Setup {
     pub placement: Placement,
     /// Axial rigidity E A at the root, N.
     pub stretch_stiffness: f64,
-    /// Spring constant of a segment at the root, k = E A / l0, N/m.
-    pub spring_k: f64,
     /// Flexural rigidity E I at the root, N m^2.
     pub bending_stiffness: f64,
-    /// Bending coefficient c = E I / l0^3 of the discrete energy (c / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2, N/m.
-    pub bending_k: f64,
-    /// Spring constant of each segment, k_j = (E A)_j / l0, N/m: `spring_k` scaled by the
+    /// Spring constant of each segment, k_j = (E A)_j / l0, N/m: E A at the root scaled by the
     /// taper (see `tip_thickness`).
     pub segment_k: Vec<f64>,
-    /// Bending coefficient of each interior particle i (at index i - 1), c_i = (E I)_i / l0^3,
-    /// N/m: `bending_k` scaled by the taper.
+    /// Bending coefficient of each interior particle i (at index i - 1), c_i = (E I)_i / l0^3 of
+    /// the discrete energy (c_i / 2) |x_{i-1} - 2 x_i + x_{i+1}|^2, N/m: E I at the root scaled
+    /// by the taper.
     pub bend_c: Vec<f64>,
     /// Thickness at the tip over thickness at the root (1: uniform).
     pub tip_thickness: f64,
@@ -263,9 +260,7 @@ impl Setup {
             pin,
             placement,
             stretch_stiffness: ea,
-            spring_k: ea / l0,
             bending_stiffness: ei,
-            bending_k: ei / (l0 * l0 * l0),
             segment_k,
             bend_c,
             tip_thickness: tip,
@@ -463,7 +458,7 @@ mod tests {
         assert_eq!(s.mass[0], 0.5 * s.mass[1]);
         assert_eq!((s.inv_mass[0], s.inv_mass[12]), (0.0, 0.0));
         assert_eq!(s.pins, [0, 12]);
-        assert_eq!(s.spring_k, 200.0 / (0.4 / 12.0));
+        assert_eq!(s.segment_k, vec![200.0 / (0.4 / 12.0); 12]);
     }
 
     #[test]
@@ -523,7 +518,7 @@ mod tests {
             ("segments", ParamValue::Integer(1)),
             ("bending_stiffness", ParamValue::Number(0.0)),
         ]);
-        assert!((s.omega_max() - (s.spring_k / s.mass[1]).sqrt()).abs() < 1e-9);
+        assert!((s.omega_max() - (s.segment_k[0] / s.mass[1]).sqrt()).abs() < 1e-9);
     }
 
     #[test]
