@@ -16,8 +16,8 @@ use std::ffi::c_void;
 /// Incremented on any change that is not a pure append.
 pub const ABI_MAJOR: u32 = 1;
 /// Incremented when fields are appended to [`PluginTable`] or [`Call`]. 1: `check`. 2:
-/// [`Call::threads`].
-pub const ABI_MINOR: u32 = 2;
+/// [`Call::threads`]. 3: `advance` and `release` (evaluation in windows of frames).
+pub const ABI_MINOR: u32 = 3;
 /// The one symbol a plugin exports (the major version is part of the name).
 pub const ENTRY_SYMBOL: &str = "heft_plugin_entry_v1";
 
@@ -171,6 +171,17 @@ pub struct Call {
 /// from a host that gives every node one thread.
 pub const CALL_SIZE_1_1: usize = std::mem::offset_of!(Call, threads);
 
+/// The frames of the timeline whose outputs one `advance` call computes: timeline frames
+/// `first .. first + count` (indices into the call's timeline, not frame numbers).
+#[repr(C)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Window {
+    /// Index of the window's first frame in the timeline.
+    pub first: u64,
+    /// How many frames.
+    pub count: u64,
+}
+
 /// The function table a plugin exports. Fields are only ever appended.
 #[repr(C)]
 #[derive(Debug)]
@@ -193,10 +204,25 @@ pub struct PluginTable {
     /// `heft check` reports them at the graph's lines. A host reads it only from a table that
     /// is large enough ([`TABLE_SIZE_1_0`] is the size without it).
     pub check: unsafe extern "C" fn(call: *const Call, problems: ByteSink) -> i32,
+    /// ABI 1.3: evaluates the frames of `window` only, for a node type the descriptor says runs
+    /// in windows. The call's inputs hold the whole timeline; its outputs hold `window.count`
+    /// frames. `carry` points to the host's slot for what the node carries from one window to
+    /// the next: null before the first window (the plugin stores its own pointer there), the
+    /// plugin's pointer after. Windows come in order, from frame 0, without gaps, and every
+    /// call of one carry has the same node type, parameters, timeline and inputs. Summaries are
+    /// read after the last window. A host reads it only from a table large enough
+    /// ([`TABLE_SIZE_1_2`] is the size without it).
+    pub advance: unsafe extern "C" fn(call: *const Call, window: Window, carry: *mut *mut c_void) -> i32,
+    /// ABI 1.3: frees a carry `advance` stored (the host calls it once per carry, after the
+    /// last window or when the evaluation stops early); `node_index` is the carry's node type.
+    pub release: unsafe extern "C" fn(node_index: u32, carry: *mut c_void),
 }
 
 /// The size of a table of ABI 1.0, before `check` was appended: the least a host accepts.
 pub const TABLE_SIZE_1_0: usize = 8 + 4 * std::mem::size_of::<usize>();
+
+/// The size of a table of ABI 1.2, before `advance` and `release` were appended.
+pub const TABLE_SIZE_1_2: usize = TABLE_SIZE_1_0 + std::mem::size_of::<usize>();
 
 #[cfg(test)]
 mod tests {
@@ -213,7 +239,10 @@ mod tests {
         assert_eq!(offset_of!(PluginTable, table_size), 8);
         assert_eq!(offset_of!(PluginTable, describe), 8 + size_of::<usize>());
         assert_eq!(offset_of!(PluginTable, check), TABLE_SIZE_1_0);
-        assert_eq!(size_of::<PluginTable>(), 8 + 5 * size_of::<usize>());
+        assert_eq!(offset_of!(PluginTable, advance), TABLE_SIZE_1_2);
+        assert_eq!(offset_of!(PluginTable, release), TABLE_SIZE_1_2 + size_of::<usize>());
+        assert_eq!(size_of::<PluginTable>(), 8 + 7 * size_of::<usize>());
+        assert_eq!(size_of::<Window>(), 16);
     }
 
     /// The call's fields never move: a plugin reads the fields of the version it was built for

@@ -33,6 +33,7 @@ mod tests {
         PluginDescriptor {
             name: "sample".into(),
             version: "1.2.3".into(),
+            windowed: Vec::new(),
             nodes: vec![NodeSpec {
                 name: "n".into(),
                 doc: "d".into(),

@@ -384,6 +384,11 @@ pub struct PluginDescriptor {
     pub version: String,
     /// The node types, in order; a call names a node type by its index here.
     pub nodes: Vec<NodeSpec>,
+    /// ABI 1.3: the indices of the node types that can be evaluated in windows of frames
+    /// (`PluginTable::advance`), in order. Not part of the descriptor's own layout: it follows
+    /// it on the wire (see [`encode_descriptor`]).
+    #[serde(skip)]
+    pub windowed: Vec<u32>,
 }
 
 /// What follows the descriptor on the wire: additions made after the descriptor's layout was
@@ -401,6 +406,13 @@ struct ParamAdditions {
     /// (node index, parameter index, other parameter, factor) of every parameter whose
     /// default scales with another.
     scaled_defaults: Vec<(u32, u32, String, f64)>,
+}
+
+/// The third addition, after [`ParamAdditions`].
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+struct WindowAdditions {
+    /// The indices of the node types that run in windows of frames.
+    windowed: Vec<u32>,
 }
 
 /// The bytes of a descriptor at the boundary: the descriptor, then its additions.
@@ -424,6 +436,9 @@ pub fn encode_descriptor(d: &PluginDescriptor) -> Result<Vec<u8>, String> {
     }
     bytes.extend(crate::codec::encode(&add)?);
     bytes.extend(crate::codec::encode(&params)?);
+    bytes.extend(crate::codec::encode(&WindowAdditions {
+        windowed: d.windowed.clone(),
+    })?);
     Ok(bytes)
 }
 
@@ -435,11 +450,23 @@ pub fn decode_descriptor(bytes: &[u8]) -> Result<PluginDescriptor, String> {
         return Ok(d);
     }
     let (add, more): (Additions, usize) = crate::codec::decode_prefix(&bytes[used..])?;
-    let params: ParamAdditions = if used + more == bytes.len() {
-        ParamAdditions::default()
+    let rest = &bytes[used + more..];
+    let (params, windows): (ParamAdditions, WindowAdditions) = if rest.is_empty() {
+        Default::default()
     } else {
-        crate::codec::decode(&bytes[used + more..])?
+        let (params, n): (ParamAdditions, usize) = crate::codec::decode_prefix(rest)?;
+        if n == rest.len() {
+            (params, WindowAdditions::default())
+        } else {
+            (params, crate::codec::decode(&rest[n..])?)
+        }
     };
+    if let Some(&i) = windows.windowed.iter().find(|&&i| i as usize >= d.nodes.len()) {
+        return Err(format!(
+            "node type {i} runs in windows, but the descriptor does not have it"
+        ));
+    }
+    d.windowed = windows.windowed;
     for (i, k, names) in add.output_codes {
         let port = d
             .nodes

@@ -5,7 +5,9 @@
 use std::panic::{AssertUnwindSafe, catch_unwind};
 use std::sync::Arc;
 
-use crate::abi::{ABI_MAJOR, ABI_MINOR, ByteSink, Call, PluginTable, SeriesView, SeriesViewMut, Status, Timeline};
+use crate::abi::{
+    ABI_MAJOR, ABI_MINOR, ByteSink, Call, PluginTable, SeriesView, SeriesViewMut, Status, Timeline, Window,
+};
 use crate::codec;
 use crate::descriptor::{CheckProblem, NodeSpec, ParamValue, PluginDescriptor, PortKind};
 
@@ -52,6 +54,50 @@ pub trait Node: 'static {
     fn check(params: &Params, inputs: &[usize], timeline: Timeline) -> Vec<CheckProblem> {
         let _ = (params, inputs, timeline);
         Vec::new()
+    }
+
+    /// True for a node type that can be evaluated in windows of frames ([`Node::advance`]), so
+    /// that a long shot's outputs need not be held whole (ABI 1.3). False by default: the host
+    /// then calls [`Node::evaluate`] once for the whole timeline.
+    const WINDOWED: bool = false;
+
+    /// For a node type with [`Node::WINDOWED`]: computes the outputs of the frames
+    /// `io.window()` only (the output slices hold those frames; the inputs hold the whole
+    /// timeline), carrying what the next window needs in `carry` (empty at the first window,
+    /// which starts at frame 0; windows follow in order without gaps, with the same
+    /// parameters and inputs). The outputs must be the bits [`Node::evaluate`] gives for those
+    /// frames, whatever the windows; summary values are read after the last window.
+    fn advance(params: &Params, carry: &mut Carry, io: &mut Io<'_>) -> Result<(), NodeError> {
+        let _ = (params, carry, io);
+        Err(NodeError::new("this node type does not run in windows of frames"))
+    }
+}
+
+/// What a node evaluated in windows carries from one window to the next ([`Node::advance`]):
+/// any value of the node's own type, kept by the plugin between calls and dropped by it when
+/// the host is done with the node.
+#[derive(Default)]
+pub struct Carry(Option<Box<dyn std::any::Any + Send>>);
+
+impl std::fmt::Debug for Carry {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(if self.0.is_some() { "Carry(..)" } else { "Carry(empty)" })
+    }
+}
+
+impl Carry {
+    /// The carried value, when one of type `T` is held.
+    pub fn get<T: std::any::Any + Send>(&mut self) -> Option<&mut T> {
+        self.0.as_mut().and_then(|b| b.downcast_mut::<T>())
+    }
+    /// Holds `value` (replacing what was held) and returns it.
+    pub fn set<T: std::any::Any + Send>(&mut self, value: T) -> &mut T {
+        self.0 = Some(Box::new(value));
+        self.get::<T>().expect("the value just stored")
+    }
+    /// True when nothing is held (before the first window).
+    pub fn is_empty(&self) -> bool {
+        self.0.is_none()
     }
 }
 
@@ -223,6 +269,7 @@ pub struct Io<'a> {
     warnings: Vec<String>,
     summaries: Vec<f64>,
     threads: usize,
+    window: std::ops::Range<usize>,
 }
 
 impl<'a> Io<'a> {
@@ -245,7 +292,20 @@ impl<'a> Io<'a> {
             warnings: Vec::new(),
             summaries: vec![f64::NAN; spec.summaries.len()],
             threads: 1,
+            window: 0..timeline.frames(),
         }
+    }
+    /// The same evaluation of the frames `window` only (indices into the timeline): the
+    /// output slices hold those frames ([`Node::advance`]); [`Io::new`] takes every frame.
+    pub fn with_window(mut self, window: std::ops::Range<usize>) -> Io<'a> {
+        self.window = window;
+        self
+    }
+    /// The frames whose outputs this call computes, as indices into the timeline: every frame
+    /// for [`Node::evaluate`], a window of them for [`Node::advance`]. Output frame `k` is
+    /// timeline frame `window().start + k`; inputs always hold the whole timeline.
+    pub fn window(&self) -> std::ops::Range<usize> {
+        self.window.clone()
     }
     /// The same evaluation, allowed `threads` threads (0 is taken as 1); [`Io::new`] allows one.
     pub fn with_threads(mut self, threads: usize) -> Io<'a> {
@@ -330,14 +390,16 @@ impl<'a> Io<'a> {
             None => Err(NodeError::new(format!("output `{name}` was not passed"))),
         }
     }
-    /// Writes a whole output from a function of the frame index.
+    /// Writes a whole output from a function of the frame index (the timeline's index: within
+    /// [`Io::window`]).
     pub fn fill(&mut self, name: &str, mut f: impl FnMut(usize, &mut [f64])) -> Result<(), NodeError> {
+        let first = self.window.start;
         let (buf, w) = self.output(name)?;
         if w == 0 {
             return Ok(());
         }
         for (i, chunk) in buf.chunks_exact_mut(w).enumerate() {
-            f(i, chunk);
+            f(first + i, chunk);
         }
         Ok(())
     }
@@ -377,6 +439,10 @@ pub struct NodeEntry {
     pub evaluate: fn(&Params, &mut Io<'_>) -> Result<(), NodeError>,
     /// The node's check-time problems.
     pub check: fn(&Params, &[usize], Timeline) -> Vec<CheckProblem>,
+    /// Whether it runs in windows of frames.
+    pub windowed: bool,
+    /// Its evaluation of one window.
+    pub advance: fn(&Params, &mut Carry, &mut Io<'_>) -> Result<(), NodeError>,
 }
 
 impl NodeEntry {
@@ -387,6 +453,8 @@ impl NodeEntry {
             output_points: N::output_points,
             evaluate: N::evaluate,
             check: N::check,
+            windowed: N::WINDOWED,
+            advance: N::advance,
         }
     }
 }
@@ -427,6 +495,11 @@ pub fn descriptor<E: Exports>() -> PluginDescriptor {
         name: E::NAME.to_owned(),
         version: E::VERSION.to_owned(),
         nodes: E::nodes().iter().map(|n| (n.spec)()).collect(),
+        windowed: (0..)
+            .zip(E::nodes())
+            .filter(|(_, n)| n.windowed)
+            .map(|(i, _)| i)
+            .collect(),
     }
 }
 
@@ -440,6 +513,8 @@ pub const fn table<E: Exports>() -> PluginTable {
         output_points: output_points::<E>,
         evaluate: evaluate::<E>,
         check: check::<E>,
+        advance: advance::<E>,
+        release: release::<E>,
     }
 }
 
@@ -678,67 +753,130 @@ unsafe extern "C" fn evaluate<E: Exports>(call: *const Call) -> i32 {
         return Status::BadCall as i32;
     };
     let call = &call;
+    guarded(call.message, || evaluate_call::<E>(call, None))
+}
+
+unsafe extern "C" fn advance<E: Exports>(call: *const Call, window: Window, carry: *mut *mut std::ffi::c_void) -> i32 {
+    // SAFETY: the host passes a pointer to a `Call` of its own version, alive for this call.
+    let Some(call) = (unsafe { read_call(call) }) else {
+        return Status::BadCall as i32;
+    };
+    let call = &call;
     guarded(call.message, || {
-        let d = decode_call::<E>(call)?;
-        if call.input_count != d.spec.inputs.len() || call.output_count != d.spec.outputs.len() {
-            return Err(bad("port count does not match the node type"));
+        if carry.is_null() {
+            return Err(bad("no slot for the node's carry"));
         }
-        let frames = call.timeline.frames();
-        let mut inputs = Vec::with_capacity(call.input_count);
-        for (view, port) in input_views(call).iter().zip(&d.spec.inputs) {
-            if view.len == 0 {
-                inputs.push(Series::new(&[], view.width));
-                continue;
-            }
-            if Some(view.len) != frames.checked_mul(view.width) {
-                return Err(bad(format!("input `{}` has the wrong length", port.name)));
-            }
-            // SAFETY: the host passes `len` initialised values per view, alive for the call
-            // and not written by anyone during it.
-            let data = unsafe { std::slice::from_raw_parts(view.data, view.len) };
-            inputs.push(Series::new(data, view.width));
-        }
-        let out_views: &[SeriesViewMut] = if call.output_count == 0 {
-            &[]
+        // SAFETY: the host passes its slot for this node's carry, exclusively for the call:
+        // null before the first window, else the pointer stored below at an earlier window of
+        // the same node, not yet released.
+        let slot = unsafe { &mut *carry };
+        let held: &mut Carry = if slot.is_null() {
+            let fresh = Box::into_raw(Box::new(Carry::default()));
+            *slot = fresh.cast();
+            // SAFETY: just allocated, owned by the slot until `release`.
+            unsafe { &mut *fresh }
         } else {
-            // SAFETY: the host passes `output_count` views that live for the call.
-            unsafe { std::slice::from_raw_parts(call.outputs, call.output_count) }
+            // SAFETY: a pointer this function stored from `Box<Carry>`, alive until `release`.
+            unsafe { &mut *slot.cast::<Carry>() }
         };
-        let mut outputs = Vec::with_capacity(out_views.len());
-        let mut widths = Vec::with_capacity(out_views.len());
-        for (view, port) in out_views.iter().zip(&d.spec.outputs) {
-            if Some(view.len) != frames.checked_mul(view.width)
-                || (port.kind != PortKind::Points && view.width != port.kind.width(0))
-            {
-                return Err(bad(format!("output `{}` has the wrong size", port.name)));
-            }
-            let data: &mut [f64] = if view.len == 0 {
-                &mut []
-            } else {
-                // SAFETY: the host allocates each output separately (no two views overlap
-                // and none overlaps an input), `len` values long, exclusively for this call.
-                unsafe { std::slice::from_raw_parts_mut(view.data, view.len) }
-            };
-            outputs.push(data);
-            widths.push(view.width);
-        }
-        let mut io = Io::new(call.timeline, d.spec, inputs, outputs, widths).with_threads(call_threads(call));
-        let result = (d.entry.evaluate)(&d.params, &mut io);
-        for w in io.warnings() {
-            send(call.warning, w.as_bytes());
-        }
-        let has_summaries =
-            call.struct_size >= std::mem::offset_of!(Call, summary_count) + std::mem::size_of::<usize>();
-        if has_summaries && call.summary_count > 0 {
-            if call.summary_count != io.summaries().len() {
-                return Err(bad("summary count does not match the node type"));
-            }
-            // SAFETY: the host passes room for `summary_count` values, alive and exclusive for the call.
-            let out = unsafe { std::slice::from_raw_parts_mut(call.summaries, call.summary_count) };
-            out.copy_from_slice(io.summaries());
-        }
-        result.map_err(|e| (Status::NodeError, e.0))
+        evaluate_call::<E>(call, Some((window, held)))
     })
+}
+
+unsafe extern "C" fn release<E: Exports>(_node_index: u32, carry: *mut std::ffi::c_void) {
+    if carry.is_null() {
+        return;
+    }
+    // A node's value that panics as it is dropped must not unwind into the host.
+    let _ = catch_unwind(AssertUnwindSafe(|| {
+        // SAFETY: `carry` is a pointer `advance` stored from `Box<Carry>`, which the host
+        // releases once.
+        drop(unsafe { Box::from_raw(carry.cast::<Carry>()) });
+    }));
+}
+
+/// Evaluates a call: the whole timeline, or with `window` the frames of one window with the
+/// node's carry.
+fn evaluate_call<E: Exports>(call: &Call, window: Option<(Window, &mut Carry)>) -> Result<(), (Status, String)> {
+    let d = decode_call::<E>(call)?;
+    if call.input_count != d.spec.inputs.len() || call.output_count != d.spec.outputs.len() {
+        return Err(bad("port count does not match the node type"));
+    }
+    let frames = call.timeline.frames();
+    let (range, carry) = match window {
+        None => (0..frames, None),
+        Some((w, carry)) => {
+            if !d.entry.windowed {
+                return Err(bad(format!("node `{}` does not run in windows of frames", d.spec.name)));
+            }
+            let first = usize::try_from(w.first).ok();
+            let end = first
+                .zip(usize::try_from(w.count).ok())
+                .and_then(|(a, n)| a.checked_add(n));
+            match (first, end) {
+                (Some(a), Some(b)) if b <= frames => (a..b, Some(carry)),
+                _ => return Err(bad("a window outside the timeline")),
+            }
+        }
+    };
+    let mut inputs = Vec::with_capacity(call.input_count);
+    for (view, port) in input_views(call).iter().zip(&d.spec.inputs) {
+        if view.len == 0 {
+            inputs.push(Series::new(&[], view.width));
+            continue;
+        }
+        if Some(view.len) != frames.checked_mul(view.width) {
+            return Err(bad(format!("input `{}` has the wrong length", port.name)));
+        }
+        // SAFETY: the host passes `len` initialised values per view, alive for the call
+        // and not written by anyone during it.
+        let data = unsafe { std::slice::from_raw_parts(view.data, view.len) };
+        inputs.push(Series::new(data, view.width));
+    }
+    let out_views: &[SeriesViewMut] = if call.output_count == 0 {
+        &[]
+    } else {
+        // SAFETY: the host passes `output_count` views that live for the call.
+        unsafe { std::slice::from_raw_parts(call.outputs, call.output_count) }
+    };
+    let mut outputs = Vec::with_capacity(out_views.len());
+    let mut widths = Vec::with_capacity(out_views.len());
+    for (view, port) in out_views.iter().zip(&d.spec.outputs) {
+        if Some(view.len) != range.len().checked_mul(view.width)
+            || (port.kind != PortKind::Points && view.width != port.kind.width(0))
+        {
+            return Err(bad(format!("output `{}` has the wrong size", port.name)));
+        }
+        let data: &mut [f64] = if view.len == 0 {
+            &mut []
+        } else {
+            // SAFETY: the host allocates each output separately (no two views overlap
+            // and none overlaps an input), `len` values long, exclusively for this call.
+            unsafe { std::slice::from_raw_parts_mut(view.data, view.len) }
+        };
+        outputs.push(data);
+        widths.push(view.width);
+    }
+    let mut io = Io::new(call.timeline, d.spec, inputs, outputs, widths)
+        .with_threads(call_threads(call))
+        .with_window(range);
+    let result = match carry {
+        None => (d.entry.evaluate)(&d.params, &mut io),
+        Some(carry) => (d.entry.advance)(&d.params, carry, &mut io),
+    };
+    for w in io.warnings() {
+        send(call.warning, w.as_bytes());
+    }
+    let has_summaries = call.struct_size >= std::mem::offset_of!(Call, summary_count) + std::mem::size_of::<usize>();
+    if has_summaries && call.summary_count > 0 {
+        if call.summary_count != io.summaries().len() {
+            return Err(bad("summary count does not match the node type"));
+        }
+        // SAFETY: the host passes room for `summary_count` values, alive and exclusive for the call.
+        let out = unsafe { std::slice::from_raw_parts_mut(call.summaries, call.summary_count) };
+        out.copy_from_slice(io.summaries());
+    }
+    result.map_err(|e| (Status::NodeError, e.0))
 }
 
 /// Exports a plugin: the entry symbol and a safe `plugin_table()` for static linking.
@@ -869,7 +1007,231 @@ mod tests {
         }
     }
 
-    crate::export_plugin!(name: "unit", nodes: [Ramp, Threads]);
+    thread_local! {
+        /// Carried values alive on this thread (made by `Sum::advance`, dropped by `release`;
+        /// a statically linked plugin runs on the test's thread).
+        static LIVE: std::cell::Cell<isize> = const { std::cell::Cell::new(0) };
+    }
+
+    /// What `Sum` carries: the running total and the next frame it expects.
+    struct Running {
+        total: f64,
+        next: usize,
+    }
+    impl Drop for Running {
+        fn drop(&mut self) {
+            LIVE.with(|l| l.set(l.get() - 1));
+        }
+    }
+
+    /// The running sum of the input: a node with state that runs in windows.
+    #[derive(Debug)]
+    struct Sum;
+    impl Node for Sum {
+        fn spec() -> NodeSpec {
+            NodeSpec {
+                name: "sum".into(),
+                doc: "A running sum.".into(),
+                notes: String::new(),
+                summaries: vec![SummarySpec::new("total", Dimension::Length, "The sum.")],
+                inputs: vec![PortSpec::new("value", PortKind::Scalar, Dimension::Length, "Summed.")],
+                outputs: vec![PortSpec::new("sum", PortKind::Scalar, Dimension::Length, "So far.")],
+                params: vec![],
+            }
+        }
+        const WINDOWED: bool = true;
+        fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
+            Sum::advance(params, &mut Carry::default(), io)
+        }
+        fn advance(_: &Params, carry: &mut Carry, io: &mut Io<'_>) -> Result<(), NodeError> {
+            let input = io.input("value")?;
+            let window = io.window();
+            if carry.is_empty() {
+                LIVE.with(|l| l.set(l.get() + 1));
+                carry.set(Running { total: 0.0, next: 0 });
+            }
+            let run = carry
+                .get::<Running>()
+                .ok_or_else(|| NodeError::new("a carry of another type"))?;
+            if window.start != run.next {
+                return Err(NodeError::new(format!(
+                    "window from frame {} after frame {}",
+                    window.start, run.next
+                )));
+            }
+            let mut total = run.total;
+            let (out, _) = io.output("sum")?;
+            for (o, i) in out.iter_mut().zip(window.clone()) {
+                total += input.frame(i)[0];
+                *o = total;
+            }
+            let run = carry
+                .get::<Running>()
+                .ok_or_else(|| NodeError::new("a carry of another type"))?;
+            (run.total, run.next) = (total, window.end);
+            if window.end == io.frames() {
+                io.summary("total", total)?;
+            }
+            Ok(())
+        }
+    }
+
+    crate::export_plugin!(name: "unit", nodes: [Ramp, Threads, Sum]);
+
+    /// A windowed node gives the bits of its whole evaluation in windows of any sizes, through
+    /// the plugin table; its carry is freed when the host drops it, after the last window or
+    /// after an early stop; a window out of order is the node's error.
+    #[test]
+    fn a_node_in_windows_gives_the_bits_of_its_whole_evaluation() {
+        use crate::abi::Window;
+        use crate::host::Carry as HostCarry;
+        let p = Plugin::from_static(plugin_table(), "unit").expect("loads");
+        assert!(p.windowed(2) && !p.windowed(0) && !p.windowed(1));
+        assert_eq!(p.descriptor().windowed, [2]);
+        let frames = 11;
+        let input: Vec<f64> = (0..frames)
+            .map(|i| 0.1 * f64::from(i) + 1.0 / (1.0 + f64::from(i)))
+            .collect();
+        let mut whole = vec![f64::NAN; frames as usize];
+        let mut total = [f64::NAN];
+        p.evaluate(
+            2,
+            &[0],
+            tl(frames as u64),
+            &[(&input, 1)],
+            &mut [(&mut whole, 1)],
+            &mut total,
+        )
+        .expect("evaluates");
+        for sizes in [vec![11], vec![1; 11], vec![3, 3, 3, 2], vec![5, 1, 5]] {
+            let mut carry = HostCarry::new(2);
+            let mut joined = Vec::new();
+            let mut first = 0u64;
+            let mut summary = [f64::NAN];
+            for n in sizes.iter().map(|&n| n as u64) {
+                let mut out = vec![f64::NAN; n as usize];
+                let window = Window { first, count: n };
+                p.advance(
+                    2,
+                    &[0],
+                    tl(frames as u64),
+                    window,
+                    &[(&input, 1)],
+                    &mut [(&mut out, 1)],
+                    &mut summary,
+                    1,
+                    &mut carry,
+                )
+                .expect("advances");
+                joined.extend(out);
+                first += n;
+                assert_eq!(LIVE.with(std::cell::Cell::get), 1, "one carry alive");
+            }
+            drop(carry);
+            assert_eq!(
+                joined.iter().map(|v| v.to_bits()).collect::<Vec<_>>(),
+                whole.iter().map(|v| v.to_bits()).collect::<Vec<_>>(),
+                "{sizes:?}"
+            );
+            assert_eq!(summary[0].to_bits(), total[0].to_bits());
+        }
+        // Stopped after one window, and a window out of order.
+        let mut carry = HostCarry::new(2);
+        let mut out = vec![f64::NAN; 2];
+        let mut summary = [f64::NAN];
+        let w = |first, count| Window { first, count };
+        p.advance(
+            2,
+            &[0],
+            tl(11),
+            w(0, 2),
+            &[(&input, 1)],
+            &mut [(&mut out, 1)],
+            &mut summary,
+            1,
+            &mut carry,
+        )
+        .expect("advances");
+        let e = p
+            .advance(
+                2,
+                &[0],
+                tl(11),
+                w(4, 2),
+                &[(&input, 1)],
+                &mut [(&mut out, 1)],
+                &mut summary,
+                1,
+                &mut carry,
+            )
+            .expect_err("out of order");
+        assert!(e.to_string().contains("window from frame 4 after frame 2"), "{e}");
+        let e = p
+            .advance(
+                2,
+                &[0],
+                tl(11),
+                w(10, 2),
+                &[(&input, 1)],
+                &mut [(&mut out, 1)],
+                &mut summary,
+                1,
+                &mut carry,
+            )
+            .expect_err("past the end");
+        assert!(e.to_string().contains("outside the timeline"), "{e}");
+        drop(carry);
+        assert_eq!(
+            LIVE.load(std::sync::atomic::Ordering::SeqCst),
+            0,
+            "every carry released"
+        );
+        // A node type that does not run in windows is refused by the host before any call.
+        let mut carry = HostCarry::new(0);
+        let e = p
+            .advance(
+                0,
+                &[0],
+                tl(2),
+                w(0, 2),
+                &[],
+                &mut [(&mut out, 1)],
+                &mut summary,
+                1,
+                &mut carry,
+            )
+            .expect_err("not windowed");
+        assert!(e.to_string().contains("does not run in windows"), "{e}");
+    }
+
+    /// A plugin built for ABI 1.2 (a table ending at `check`) loads, keeps its check, and runs
+    /// whole: no node type of it is windowed, even one its descriptor names.
+    static TABLE_1_2: crate::host::Table12 = {
+        let t = table::<__HeftExports>();
+        crate::host::Table12 {
+            abi_major: 1,
+            abi_minor: 2,
+            table_size: crate::abi::TABLE_SIZE_1_2,
+            describe: t.describe,
+            output_points: t.output_points,
+            evaluate: t.evaluate,
+            check: t.check,
+        }
+    };
+
+    #[test]
+    fn a_plugin_of_abi_1_2_loads_checks_and_runs_whole() {
+        // SAFETY: `TABLE_1_2` is a static with the 1.2 layout, valid for the whole program.
+        let p = unsafe { Plugin::from_raw((&raw const TABLE_1_2).cast(), "abi 1.2".into()) }.expect("loads");
+        assert!(!p.windowed(2));
+        let params = Plugin::encode_params(&[ParamValue::Number(-2.0)]).expect("encodes");
+        assert_eq!(p.check(0, &params, tl(4), &[]).expect("checks").len(), 1);
+        let input = [1.0, 2.0];
+        let mut out = vec![f64::NAN; 2];
+        p.evaluate(2, &[0], tl(2), &[(&input, 1)], &mut [(&mut out, 1)], &mut [f64::NAN])
+            .expect("evaluates whole");
+        assert_eq!(out, [1.0, 3.0]);
+    }
 
     /// The call as a host of ABI 1.1 built it: every field before `threads`.
     #[repr(C)]

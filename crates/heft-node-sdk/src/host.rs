@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 
 use crate::abi::{
     ABI_MAJOR, ABI_MINOR, ByteSink, ByteView, Call, ENTRY_SYMBOL, EntryFn, PluginTable, SeriesView, SeriesViewMut,
-    Status, TABLE_SIZE_1_0, Timeline,
+    Status, TABLE_SIZE_1_0, TABLE_SIZE_1_2, Timeline, Window,
 };
 use crate::codec;
 use crate::descriptor::{CheckProblem, ParamValue, PluginDescriptor, decode_descriptor};
@@ -121,6 +121,48 @@ struct Functions {
     output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
     evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
     check: Option<unsafe extern "C" fn(call: *const Call, problems: ByteSink) -> i32>,
+    windows: Option<(AdvanceFn, ReleaseFn)>,
+}
+
+type AdvanceFn = unsafe extern "C" fn(call: *const Call, window: Window, carry: *mut *mut c_void) -> i32;
+type ReleaseFn = unsafe extern "C" fn(node_index: u32, carry: *mut c_void);
+
+/// What a node evaluated in windows carries from one window to the next (ABI 1.3): the
+/// plugin's own pointer, freed by the plugin's `release` when this value is dropped.
+#[derive(Debug)]
+pub struct Carry {
+    ptr: *mut c_void,
+    node_index: u32,
+    release: Option<ReleaseFn>,
+}
+
+// SAFETY: the pointer is only handed back to the plugin that made it, by one thread at a time
+// (`advance` takes `&mut Carry`); a plugin built with this SDK keeps a `Send` value behind it
+// (`guest::Carry` holds only `Box<dyn Any + Send>`), and the ABI asks the same of any plugin.
+unsafe impl Send for Carry {}
+
+impl Carry {
+    /// An empty carry for a node of type `node_index`, before its first window.
+    pub fn new(node_index: u32) -> Carry {
+        Carry {
+            ptr: std::ptr::null_mut(),
+            node_index,
+            release: None,
+        }
+    }
+}
+
+impl Drop for Carry {
+    fn drop(&mut self) {
+        if let Some(release) = self.release
+            && !self.ptr.is_null()
+        {
+            // SAFETY: `ptr` was stored by this plugin's `advance` for this node type and has
+            // not been released (it is released only here, once).
+            unsafe { release(self.node_index, self.ptr) };
+            self.ptr = std::ptr::null_mut();
+        }
+    }
 }
 
 /// A table of ABI 1.0: the layout every later table starts with.
@@ -132,6 +174,19 @@ pub(crate) struct Table10 {
     pub(crate) describe: unsafe extern "C" fn(sink: ByteSink) -> i32,
     pub(crate) output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
     pub(crate) evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
+}
+
+/// A table of ABI 1.1 and 1.2: 1.0's and `check`.
+#[cfg(test)]
+#[repr(C)]
+pub(crate) struct Table12 {
+    pub(crate) abi_major: u32,
+    pub(crate) abi_minor: u32,
+    pub(crate) table_size: usize,
+    pub(crate) describe: unsafe extern "C" fn(sink: ByteSink) -> i32,
+    pub(crate) output_points: unsafe extern "C" fn(call: *const Call, points: *mut usize, count: usize) -> i32,
+    pub(crate) evaluate: unsafe extern "C" fn(call: *const Call) -> i32,
+    pub(crate) check: unsafe extern "C" fn(call: *const Call, problems: ByteSink) -> i32,
 }
 
 /// The fields every table version starts with.
@@ -243,10 +298,18 @@ impl Plugin {
         // SAFETY: same major version and a table at least as large as ABI 1.0's: its first
         // fields have the 1.0 layout (fields are only appended), and only those are read.
         let t10 = unsafe { &*table.cast::<Table10>() };
-        let check = if header.table_size >= ours {
+        let check = if header.table_size >= TABLE_SIZE_1_2 {
+            // SAFETY: the table holds every field up to and including `check` (ABI 1.1 and
+            // later), at the offsets `PluginTable` gives them (fields are only appended); only
+            // that field is read, through the raw pointer.
+            Some(unsafe { (&raw const (*table).check).read() })
+        } else {
+            None
+        };
+        let windows = if header.table_size >= ours {
             // SAFETY: the table is as large as this host's: every field of `PluginTable` is
             // there with the layout it expects.
-            Some(unsafe { (*table).check })
+            Some(unsafe { ((*table).advance, (*table).release) })
         } else {
             None
         };
@@ -255,6 +318,7 @@ impl Plugin {
             output_points: t10.output_points,
             evaluate: t10.evaluate,
             check,
+            windows,
         };
         let mut bytes = Vec::new();
         // SAFETY: the sink's context is `bytes`, alive across the call.
@@ -443,6 +507,95 @@ impl Plugin {
         // shared, outputs and summaries exclusively (`&mut`), distinct slices; the sinks'
         // buffers live here.
         let code = unsafe { (self.table.evaluate)(&call) };
+        match Status::from_code(code) {
+            Status::Ok => Ok(warnings),
+            status => Err(CallError {
+                status,
+                message: String::from_utf8_lossy(&message).into_owned(),
+            }),
+        }
+    }
+
+    /// Whether node type `node_index` can be evaluated in windows of frames
+    /// ([`Plugin::advance`]): the plugin has ABI 1.3's functions and its descriptor says so.
+    pub fn windowed(&self, node_index: u32) -> bool {
+        self.table.windows.is_some() && self.descriptor.windowed.contains(&node_index)
+    }
+
+    /// Evaluates the frames of `window` of a node type that runs in windows: `inputs` hold the
+    /// whole timeline, `outputs` `window.count` frames; `carry` is what the node carried from
+    /// the window before ([`Carry::new`] for the first). Windows must come in order from frame
+    /// 0; the summaries are the node's after the last window. Returns the warnings.
+    #[allow(clippy::too_many_arguments)]
+    pub fn advance(
+        &self,
+        node_index: u32,
+        params: &[u8],
+        timeline: Timeline,
+        window: Window,
+        inputs: &[(&[f64], usize)],
+        outputs: &mut [(&mut [f64], usize)],
+        summaries: &mut [f64],
+        threads: usize,
+        carry: &mut Carry,
+    ) -> Result<Vec<String>, CallError> {
+        let refuse = |message: String| CallError {
+            status: Status::BadCall,
+            message,
+        };
+        let Some((advance, release)) = self.table.windows.filter(|_| self.windowed(node_index)) else {
+            return Err(refuse(format!(
+                "node type {node_index} does not run in windows of frames"
+            )));
+        };
+        if carry.node_index != node_index {
+            return Err(refuse("a carry of another node type".to_owned()));
+        }
+        let fits = window
+            .first
+            .checked_add(window.count)
+            .is_some_and(|end| end <= timeline.frame_count);
+        let sized = outputs.iter().all(|(data, width)| {
+            usize::try_from(window.count).ok().and_then(|c| c.checked_mul(*width)) == Some(data.len())
+        });
+        if !fits || !sized {
+            return Err(refuse(
+                "a window outside the timeline, or outputs not sized to it".to_owned(),
+            ));
+        }
+        let in_views: Vec<SeriesView> = inputs
+            .iter()
+            .map(|(data, width)| SeriesView {
+                data: data.as_ptr(),
+                len: data.len(),
+                width: *width,
+            })
+            .collect();
+        let out_views: Vec<SeriesViewMut> = outputs
+            .iter_mut()
+            .map(|(data, width)| SeriesViewMut {
+                data: data.as_mut_ptr(),
+                len: data.len(),
+                width: *width,
+            })
+            .collect();
+        let mut message = Vec::new();
+        let mut warnings = Vec::new();
+        let mut call = Plugin::call(node_index, params, timeline);
+        call.inputs = in_views.as_ptr();
+        call.input_count = in_views.len();
+        call.outputs = out_views.as_ptr();
+        call.output_count = out_views.len();
+        call.message = byte_sink(&mut message);
+        call.warning = text_sink(&mut warnings);
+        call.summaries = summaries.as_mut_ptr();
+        call.summary_count = summaries.len();
+        call.threads = threads.max(1);
+        carry.release = Some(release);
+        // SAFETY: as in `evaluate_with_threads`; `carry.ptr` is null or the pointer this
+        // plugin stored for this node type at the window before, and the slot is exclusively
+        // ours for the call.
+        let code = unsafe { advance(&call, window, &raw mut carry.ptr) };
         match Status::from_code(code) {
             Status::Ok => Ok(warnings),
             status => Err(CallError {
