@@ -30,7 +30,7 @@ pub use abi::Timeline;
 pub use descriptor::{
     CheckProblem, NodeSpec, ParamSpec, ParamType, ParamValue, PluginDescriptor, PortKind, PortSpec, Shape, SummarySpec,
 };
-pub use guest::{Io, Node, NodeError, Params, Series};
+pub use guest::{Carry, Io, Node, NodeError, Params, Series};
 pub use units::Dimension;
 
 /// Standard gravity g_n = 9.80665 m/s^2, exact by definition (3rd CGPM, 1901).

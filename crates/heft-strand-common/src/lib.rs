@@ -12,7 +12,8 @@
 //!   ([`Ambient`]; the wind field is read with `heft_node_sdk::field::FieldView`).
 //! - [`Method`]: advances all strands by one frame.
 //! - [`evaluate`]: the whole frame loop (initial state, outputs, momentum, energy, blow-up
-//!   detection); [`evaluate_with`] takes a prepared [`Setup`].
+//!   detection); [`evaluate_with`] takes a prepared [`Setup`]; [`advance`] runs it in windows of
+//!   frames, carrying the simulation from one to the next ([`Running`]).
 //! - [`forces`]: stretch and bending forces and energies for explicit methods.
 //!
 //! World space is right-handed, Z up, SI units. Strands are numbered from 0 in messages, as
@@ -28,8 +29,8 @@ pub mod testing;
 
 pub use geometry::{Capsule, CapsuleContact, Collider, Colliders, Ground, Pose, RigidVelocity, Sphere, Track, V3};
 pub use run::{
-    Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, FrameEnv, Method, State, blow_up_cause, blow_up_message,
-    blown_strand, check, evaluate, evaluate_with, hanging_stretch, rest_state,
+    Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, FrameEnv, Method, Running, State, advance, advance_with,
+    blow_up_cause, blow_up_message, blown_strand, check, evaluate, evaluate_with, hanging_stretch, rest_state,
 };
 pub use setup::{ColliderParams, Pin, Placement, Setup, step_limit};
 pub use spec::{INPUTS, OUTPUTS, PINS, PLACEMENTS, node_spec, output_points, particle_count};

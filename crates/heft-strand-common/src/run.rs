@@ -24,7 +24,7 @@ pub struct State {
 
 /// A strand integrator. One value lives for a whole evaluation, so it may keep its own
 /// layout and scratch buffers (allocated in `new`) across frames.
-pub trait Method: Sized {
+pub trait Method: Sized + Send + 'static {
     /// Prepares the method for these parameters (allocate scratch here, not in `frame`).
     fn new(setup: &Setup) -> Self;
 
@@ -655,10 +655,67 @@ pub fn evaluate<M: Method>(params: &Params, io: &mut Io<'_>) -> Result<(), NodeE
 /// Evaluates with a given setup (for tests of idealised models, e.g. a setup whose masses
 /// were changed with [`Setup::set_particle_mass`]).
 pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), NodeError> {
+    advance_with::<M>(setup, &mut None, io)
+}
+
+/// What a strand node carries from one window of frames to the next: its setup and, once
+/// the first frame is written, the running simulation.
+struct Carried<M> {
+    setup: Setup,
+    run: Option<Running<M>>,
+}
+
+/// A strand simulation between windows: everything the frame loop keeps from frame to frame.
+pub struct Running<M> {
+    state: State,
+    method: M,
+    tables: Tables,
+    moving: Vec<Moving>,
+    pinned_inside: Option<i64>,
+    /// The next frame (timeline index) the loop computes.
+    next: usize,
+}
+
+impl<M> std::fmt::Debug for Running<M> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Running")
+            .field("next", &self.next)
+            .finish_non_exhaustive()
+    }
+}
+
+/// Evaluates the frames of `io.window()` ([`heft_node_sdk::Node::advance`]), carrying the
+/// simulation in `carry` from window to window: the outputs are the bits of [`evaluate`] for
+/// those frames.
+pub fn advance<M: Method>(params: &Params, carry: &mut heft_node_sdk::Carry, io: &mut Io<'_>) -> Result<(), NodeError> {
+    if carry.is_empty() {
+        carry.set(Carried::<M> {
+            setup: Setup::from_params(params)?,
+            run: None,
+        });
+    }
+    let c = carry
+        .get::<Carried<M>>()
+        .ok_or_else(|| NodeError::new("the carried state is not a strand node's"))?;
+    advance_with::<M>(&c.setup, &mut c.run, io)
+}
+
+/// The frame loop over `io.window()`: starts the simulation at frame 0 when `run` is empty,
+/// continues it otherwise.
+pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: &mut Io<'_>) -> Result<(), NodeError> {
     let tl = io.timeline();
     let frames = tl.frames();
-    if frames == 0 {
+    let window = io.window();
+    if frames == 0 || window.is_empty() {
         return Ok(());
+    }
+    let expected = run.as_ref().map_or(0, |r| r.next);
+    if window.start != expected {
+        return Err(NodeError::new(format!(
+            "asked for frames from index {} where the simulation stands at {expected}: windows come in order from \
+             the first frame",
+            window.start
+        )));
     }
     let threads = io.threads();
     let n = setup.total_particles();
@@ -700,9 +757,10 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
         ("energy", 1),
     ] {
         let (buf, w) = io.output(name)?;
-        if w != width || buf.len() != frames * width {
+        let count = window.len();
+        if w != width || buf.len() != count * width {
             return Err(NodeError::new(format!(
-                "output `{name}` has {w} values per frame and {} values, expected {width} per frame for {frames} frames",
+                "output `{name}` has {w} values per frame and {} values, expected {width} per frame for {count} frames",
                 buf.len()
             )));
         }
@@ -720,94 +778,115 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
     let wind_used = inputs.wind.is_some();
     let end_on_b = setup.pin == Pin::BothEnds && inputs.anchor_b.is_some();
 
-    // The initial state (frame 0).
-    let pose0 = match &inputs.anchor {
-        Some(s) => still(s, "anchor", &tl)?.pose(0.0),
-        None => Pose::IDENTITY,
-    };
-    let pose0_b = match (&inputs.anchor_b, end_on_b) {
-        (Some(s), true) => still(s, "anchor_b", &tl)?.pose(0.0),
-        _ => pose0,
-    };
-    let mut state = rest_state(setup, &pose0, &pose0_b);
-    if let Some(s) = &inputs.initial_positions {
-        for (p, c) in state.x.iter_mut().zip(s.frame(0).chunks_exact(3)) {
-            *p = [c[0], c[1], c[2]];
-        }
-    }
-    if let Some(s) = &inputs.initial_velocities {
-        for (p, c) in state.v.iter_mut().zip(s.frame(0).chunks_exact(3)) {
-            *p = [c[0], c[1], c[2]];
-        }
-    }
-    if state.x.iter().chain(&state.v).flatten().any(|c| !c.is_finite()) {
-        return Err(NodeError::new(
-            "`initial_positions` or `initial_velocities` holds a value that is not finite",
-        ));
-    }
-    for s in 0..setup.strands {
-        for (slot, &i) in setup.pins.iter().enumerate() {
-            let pose = if slot == 0 { &pose0 } else { &pose0_b };
-            let off = if slot == 0 {
-                setup.start_offsets[s]
-            } else {
-                setup.end_offsets[s]
-            };
-            state.x[s * setup.particles + i] = pose.apply(off);
-            state.v[s * setup.particles + i] = [0.0; 3];
-        }
-    }
-    let mut moving = Vec::new();
-    moving_over(&inputs, &tl, 0, &mut moving)?;
-    let mut c0 = Colliders::default();
-    colliders_at(setup, &moving, 0.0, &mut c0);
-    let mut pinned_inside: Option<i64> = None;
-    if !c0.is_empty() {
-        for (idx, (x, v)) in state.x.iter_mut().zip(state.v.iter_mut()).enumerate() {
-            if setup.pinned[idx % setup.particles] {
-                if c0.contains(*x) && pinned_inside.is_none() {
-                    pinned_inside = Some(tl.frame_number(0));
-                }
-                continue;
+    if run.is_none() {
+        // The initial state (frame 0).
+        let pose0 = match &inputs.anchor {
+            Some(s) => still(s, "anchor", &tl)?.pose(0.0),
+            None => Pose::IDENTITY,
+        };
+        let pose0_b = match (&inputs.anchor_b, end_on_b) {
+            (Some(s), true) => still(s, "anchor_b", &tl)?.pose(0.0),
+            _ => pose0,
+        };
+        let mut state = rest_state(setup, &pose0, &pose0_b);
+        if let Some(s) = &inputs.initial_positions {
+            for (p, c) in state.x.iter_mut().zip(s.frame(0).chunks_exact(3)) {
+                *p = [c[0], c[1], c[2]];
             }
-            c0.project(x, v);
         }
-    }
+        if let Some(s) = &inputs.initial_velocities {
+            for (p, c) in state.v.iter_mut().zip(s.frame(0).chunks_exact(3)) {
+                *p = [c[0], c[1], c[2]];
+            }
+        }
+        if state.x.iter().chain(&state.v).flatten().any(|c| !c.is_finite()) {
+            return Err(NodeError::new(
+                "`initial_positions` or `initial_velocities` holds a value that is not finite",
+            ));
+        }
+        for s in 0..setup.strands {
+            for (slot, &i) in setup.pins.iter().enumerate() {
+                let pose = if slot == 0 { &pose0 } else { &pose0_b };
+                let off = if slot == 0 {
+                    setup.start_offsets[s]
+                } else {
+                    setup.end_offsets[s]
+                };
+                state.x[s * setup.particles + i] = pose.apply(off);
+                state.v[s * setup.particles + i] = [0.0; 3];
+            }
+        }
+        let mut moving = Vec::new();
+        moving_over(&inputs, &tl, 0, &mut moving)?;
+        let mut c0 = Colliders::default();
+        colliders_at(setup, &moving, 0.0, &mut c0);
+        let mut pinned_inside: Option<i64> = None;
+        if !c0.is_empty() {
+            for (idx, (x, v)) in state.x.iter_mut().zip(state.v.iter_mut()).enumerate() {
+                if setup.pinned[idx % setup.particles] {
+                    if c0.contains(*x) && pinned_inside.is_none() {
+                        pinned_inside = Some(tl.frame_number(0));
+                    }
+                    continue;
+                }
+                c0.project(x, v);
+            }
+        }
 
-    let mut warnings = Vec::new();
-    if setup.settled_start {
-        settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &moving, threads)?;
-        // A rest shape inside a collider: said, with the place and the depth.
-        for (idx, x) in state.x.iter().enumerate() {
-            for (k, shape) in c0.shapes.iter().enumerate() {
-                let (mut p, mut v) = (*x, [0.0; 3]);
-                if shape.contains(*x) && shape.project(&mut p, &mut v) {
-                    let what = match moving.get(k) {
-                        Some(m) => m.name(),
-                        None => "the ground".to_owned(),
-                    };
-                    warnings.push(format!(
-                        "strand {} particle {} starts {:.3e} m inside {what} even settled (pinned there, or held \
-                         by its neighbours): move the pin or the collider",
-                        idx / setup.particles,
-                        idx % setup.particles,
-                        norm(sub(p, *x))
-                    ));
+        let mut warnings = Vec::new();
+        if setup.settled_start {
+            settle::<M>(setup, &mut state, &inputs, &tl, [pose0, pose0_b], &moving, threads)?;
+            // A rest shape inside a collider: said, with the place and the depth.
+            for (idx, x) in state.x.iter().enumerate() {
+                for (k, shape) in c0.shapes.iter().enumerate() {
+                    let (mut p, mut v) = (*x, [0.0; 3]);
+                    if shape.contains(*x) && shape.project(&mut p, &mut v) {
+                        let what = match moving.get(k) {
+                            Some(m) => m.name(),
+                            None => "the ground".to_owned(),
+                        };
+                        warnings.push(format!(
+                            "strand {} particle {} starts {:.3e} m inside {what} even settled (pinned there, or held \
+                             by its neighbours): move the pin or the collider",
+                            idx / setup.particles,
+                            idx % setup.particles,
+                            norm(sub(p, *x))
+                        ));
+                    }
                 }
             }
         }
+        for w in warnings {
+            io.warn(&w);
+        }
+        let method = M::new(setup);
+        write_frame(io, 0, setup, &state, &method, true)?;
+        *run = Some(Running {
+            state,
+            method,
+            tables: Tables::new(setup.substeps),
+            moving,
+            pinned_inside,
+            next: 1,
+        });
     }
-    for w in warnings {
-        io.warn(&w);
-    }
-    let mut method = M::new(setup);
-    write_frame(io, 0, setup, &state, &method, true)?;
+    let Some(Running {
+        state,
+        method,
+        tables,
+        moving,
+        pinned_inside,
+        next,
+    }) = run.as_mut()
+    else {
+        return Err(NodeError::new("the simulation did not start"));
+    };
 
     let substeps = setup.substeps;
     let dt = tl.dt();
     let h = dt / substeps as f64;
-    let mut tables = Tables::new(substeps);
-    for i in 1..frames {
+    let first = window.start;
+    for i in window.start.max(1)..window.end {
         let anchor = match &inputs.anchor {
             Some(s) => Some(track(s, "anchor", &tl, i)?),
             None => None,
@@ -823,7 +902,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             (Some(s), true) => Some(track(s, "anchor_b", &tl, i)?),
             _ => anchor,
         };
-        moving_over(&inputs, &tl, i, &mut moving)?;
+        moving_over(&inputs, &tl, i, moving)?;
         let wind = match &inputs.wind {
             Some(s) => {
                 let view = |f: usize| {
@@ -844,7 +923,7 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                     tables.pose_a[k]
                 };
             }
-            colliders_at(setup, &moving, frac, &mut tables.colliders[k]);
+            colliders_at(setup, moving, frac, &mut tables.colliders[k]);
             tables.colliders[k].friction.step = h;
         }
         let env = FrameEnv {
@@ -858,11 +937,11 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
             anchor,
             anchor_angular_ends,
             end,
-            moving: &moving,
+            moving,
             wind,
-            tables: &tables,
+            tables,
         };
-        method.frame(setup, &mut state, &env);
+        method.frame(setup, state, &env);
         let mut filled = method.fills_state();
         let mut fill = |state: &mut State| {
             if !filled {
@@ -870,16 +949,16 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                 filled = true;
             }
         };
-        if !method.surely_intact(setup, &state) {
-            fill(&mut state);
-            if let Err(e) = check_blow_up::<M>(setup, &state, &tl, i, h, wind_used) {
+        if !method.surely_intact(setup, state) {
+            fill(state);
+            if let Err(e) = check_blow_up::<M>(setup, state, &tl, i, h, wind_used) {
                 // A strand torn apart by its anchor jumping (a glitch in the motion data) is
                 // the data's fault, not the step's: say so, naming the anchor and the frame.
                 return Err(anchor_jump(&inputs, &tl, i)?.unwrap_or(e));
             }
         }
         if pinned_inside.is_none() && !tables.colliders[substeps].is_empty() {
-            fill(&mut state);
+            fill(state);
             let c = &tables.colliders[substeps];
             let inside = state
                 .x
@@ -887,12 +966,15 @@ pub fn evaluate_with<M: Method>(setup: &Setup, io: &mut Io<'_>) -> Result<(), No
                 .enumerate()
                 .any(|(idx, x)| setup.pinned[idx % setup.particles] && c.contains(*x));
             if inside {
-                pinned_inside = Some(tl.frame_number(i));
+                *pinned_inside = Some(tl.frame_number(i));
             }
         }
-        write_frame(io, i, setup, &state, &method, filled)?;
+        write_frame(io, i - first, setup, state, method, filled)?;
     }
-    if let Some(f) = pinned_inside {
+    *next = window.end;
+    if let Some(f) = *pinned_inside
+        && window.end == frames
+    {
         io.warn(format!(
             "a pinned particle is inside a collider from frame {f}: pins follow their anchor and are not pushed out"
         ));

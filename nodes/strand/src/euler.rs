@@ -150,4 +150,10 @@ impl Node for Euler {
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
         heft_strand_common::evaluate::<EulerMethod>(params, io)
     }
+
+    const WINDOWED: bool = true;
+
+    fn advance(params: &Params, carry: &mut heft_node_sdk::Carry, io: &mut Io<'_>) -> Result<(), NodeError> {
+        heft_strand_common::advance::<EulerMethod>(params, carry, io)
+    }
 }

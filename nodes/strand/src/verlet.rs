@@ -392,6 +392,12 @@ impl Node for Verlet {
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
         heft_strand_common::evaluate::<VerletMethod>(params, io)
     }
+
+    const WINDOWED: bool = true;
+
+    fn advance(params: &Params, carry: &mut heft_node_sdk::Carry, io: &mut Io<'_>) -> Result<(), NodeError> {
+        heft_strand_common::advance::<VerletMethod>(params, carry, io)
+    }
 }
 
 #[cfg(test)]

@@ -150,6 +150,12 @@ impl<T: Precision> Node for XpbdNode<T> {
     fn evaluate(params: &Params, io: &mut Io<'_>) -> Result<(), NodeError> {
         heft_strand_common::evaluate::<Xpbd<T>>(params, io)
     }
+
+    const WINDOWED: bool = true;
+
+    fn advance(params: &Params, carry: &mut heft_node_sdk::Carry, io: &mut Io<'_>) -> Result<(), NodeError> {
+        heft_strand_common::advance::<Xpbd<T>>(params, carry, io)
+    }
 }
 
 /// The XPBD method for [`heft_strand_common::evaluate`], with lanes of `T` (f64 or f32).

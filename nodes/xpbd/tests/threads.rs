@@ -25,6 +25,17 @@ fn changes() -> Vec<(&'static str, heft_node_sdk::ParamValue)> {
 /// Every output of the node type `name` over 9 frames on a swaying anchor, in a wind that varies
 /// in space and time, against a sphere some strands swing into, allowed `threads` threads.
 fn outputs(name: &str, threads: usize) -> Vec<Vec<f64>> {
+    outputs_in(name, threads, &[], &[])
+}
+
+/// [`outputs`] with more parameter changes, evaluated in windows of the given frame counts
+/// (`Plugin::advance`, ABI 1.3) and joined; whole when `windows` is empty.
+fn outputs_in(
+    name: &str,
+    threads: usize,
+    more: &[(&'static str, heft_node_sdk::ParamValue)],
+    windows: &[usize],
+) -> Vec<Vec<f64>> {
     let plugin = Plugin::from_static(heft_xpbd::plugin_table(), "xpbd (linked)").expect("loads");
     let index = plugin
         .descriptor()
@@ -33,7 +44,9 @@ fn outputs(name: &str, threads: usize) -> Vec<Vec<f64>> {
         .position(|n| n.name == name)
         .expect("the node type");
     let spec = &plugin.descriptor().nodes[index];
-    let p = params(spec, &changes());
+    let mut all = changes();
+    all.extend(more.iter().cloned());
+    let p = params(spec, &all);
     let bytes = Plugin::encode_params(p.values()).expect("encodes");
     let tl = timeline(24, 9);
     let anchor = transform(tl, |t| ([0.0, 0.2 * t, 1.0 + 0.1 * t * t], [0.0, 0.0, 0.0, 1.0]));
@@ -75,6 +88,43 @@ fn outputs(name: &str, threads: usize) -> Vec<Vec<f64>> {
         )
         .expect("shapes");
     let widths = [3 * points[0], 3 * points[1], 3, 1];
+    if !windows.is_empty() {
+        assert_eq!(windows.iter().sum::<usize>(), tl.frames());
+        assert!(plugin.windowed(index as u32), "{name} runs in windows");
+        let mut carry = heft_node_sdk::host::Carry::new(index as u32);
+        let mut joined: Vec<Vec<f64>> = vec![Vec::new(); 4];
+        let mut first = 0;
+        for &n in windows {
+            let mut bufs: Vec<Vec<f64>> = widths.iter().map(|w| vec![f64::NAN; w * n]).collect();
+            let mut views: Vec<(&mut [f64], usize)> = bufs
+                .iter_mut()
+                .zip(widths)
+                .map(|(b, w)| (b.as_mut_slice(), w))
+                .collect();
+            let window = heft_node_sdk::abi::Window {
+                first: first as u64,
+                count: n as u64,
+            };
+            plugin
+                .advance(
+                    index as u32,
+                    &bytes,
+                    tl,
+                    window,
+                    &inputs,
+                    &mut views,
+                    &mut [],
+                    threads,
+                    &mut carry,
+                )
+                .expect("advances");
+            for (j, b) in joined.iter_mut().zip(bufs) {
+                j.extend(b);
+            }
+            first += n;
+        }
+        return joined;
+    }
     let mut bufs: Vec<Vec<f64>> = widths.iter().map(|w| vec![f64::NAN; w * tl.frames()]).collect();
     let mut views: Vec<(&mut [f64], usize)> = bufs
         .iter_mut()
@@ -124,6 +174,24 @@ fn many_strands_give_the_same_bits_on_any_number_of_threads() {
                     "{name}: `{port}` differs between 1 and {threads} threads"
                 );
             }
+        }
+    }
+}
+
+/// A node evaluated in windows of frames (ABI 1.3, as `heft run` evaluates long shots) gives
+/// the bits of its whole evaluation, whatever the windows, with threads, wind, a collider and a
+/// settled start (whose relaxation runs in the first window only).
+#[test]
+fn windows_of_any_size_give_the_bits_of_the_whole_evaluation() {
+    let settled = [choice("start", "settled")];
+    for name in ["strand", "strand_fast"] {
+        let whole = bits(&outputs_in(name, 2, &settled, &[]));
+        for windows in [&[9][..], &[1; 9], &[4, 4, 1], &[2, 5, 2]] {
+            assert_eq!(
+                bits(&outputs_in(name, 2, &settled, windows)),
+                whole,
+                "{name} in windows {windows:?}"
+            );
         }
     }
 }
