@@ -53,6 +53,11 @@ enum Command {
         /// Worker threads, 1 to 1024 (default: one per core). Results do not depend on it.
         #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..=1024))]
         threads: Option<u16>,
+        /// Frames evaluated at once by the nodes that run in windows (strands), whose streamed
+        /// outputs are written as each window is done (default: as many as fit in 32 MiB of
+        /// their outputs). Results do not depend on it; memory does.
+        #[arg(long, value_name = "FRAMES", value_parser = clap::value_parser!(u32).range(1..))]
+        window: Option<u32>,
     },
     /// Evaluate a graph at every point of a parameter grid, each point into its own folder,
     /// with a CSV table of the summary values per point.
@@ -202,7 +207,12 @@ fn main() -> ExitCode {
             cli.quiet,
             color,
         ),
-        Command::Run { graph, out, threads } => {
+        Command::Run {
+            graph,
+            out,
+            threads,
+            window,
+        } => {
             let started = Instant::now();
             let Some(plan) = plan(&registry, graph, color, cli.quiet) else {
                 return ExitCode::from(FAILED);
@@ -214,7 +224,21 @@ fn main() -> ExitCode {
                 quiet: cli.quiet,
                 verbose: cli.verbose,
             };
-            run(&plan, &graph.graph, out, threads.map(usize::from), started, say)
+            let mut schedule = eval::Schedule::windows(&plan, WINDOW_BYTES);
+            if let Some(w) = *window {
+                schedule.window = usize::try_from(w)
+                    .unwrap_or(usize::MAX)
+                    .min(plan.timeline.frames().max(1));
+            }
+            run(
+                &plan,
+                &schedule,
+                &graph.graph,
+                out,
+                threads.map(usize::from),
+                started,
+                say,
+            )
         }
     }
 }
@@ -274,7 +298,18 @@ struct Say {
     verbose: bool,
 }
 
-fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: Instant, say: Say) -> ExitCode {
+/// The outputs of the nodes that run in windows held at once, by default (`--window`).
+const WINDOW_BYTES: u64 = 32 << 20;
+
+fn run(
+    plan: &Plan,
+    schedule: &eval::Schedule,
+    graph: &Path,
+    out: &Path,
+    threads: Option<usize>,
+    started: Instant,
+    say: Say,
+) -> ExitCode {
     let quiet = say.quiet;
     // The output folder is made ready and locked before the evaluation: an unusable folder, or
     // one another run is writing into, is found before any work is done.
@@ -296,7 +331,7 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
             eprintln!("level {k}: {}", names.join(", "));
         }
     }
-    if let Err(e) = fits_in_memory(plan) {
+    if let Err(e) = fits_in_memory(plan, schedule) {
         eprintln!("error: {e}");
         return ExitCode::from(FAILED);
     }
@@ -316,7 +351,11 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
             b.inc(1);
         }
     };
-    let evaluation = eval::evaluate_observed(plan, threads, &done);
+    // The streamed outputs are written window by window as the evaluation goes; the rest after.
+    let mut writer = output::Writer::new(plan, &out, schedule.clone());
+    let evaluation = eval::evaluate_in_windows(plan, threads, schedule, &done, &mut |frames| {
+        writer.window(frames).map_err(|e| e.to_string())
+    });
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
@@ -337,7 +376,7 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
             eprintln!("warning: node `{node}`: {w}");
         }
     }
-    match output::write_all(plan, &evaluation, graph, &out, started.elapsed()) {
+    match writer.finish(&evaluation, graph, started.elapsed()) {
         Ok(paths) => {
             if !quiet {
                 println!(
@@ -360,8 +399,8 @@ fn run(plan: &Plan, graph: &Path, out: &Path, threads: Option<usize>, started: I
 
 /// Refuses a run whose outputs alone would not fit in the memory the system has free, before
 /// anything is allocated, naming the largest output.
-fn fits_in_memory(plan: &Plan) -> Result<(), String> {
-    let need = plan.footprint();
+fn fits_in_memory(plan: &Plan, schedule: &eval::Schedule) -> Result<(), String> {
+    let need = schedule.footprint(plan);
     heft_runtime::check_memory(need.total).map_err(|e| {
         let largest = need
             .largest

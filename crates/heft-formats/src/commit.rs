@@ -228,6 +228,55 @@ impl StagedFile {
     pub fn target(&self) -> &Path {
         &self.target
     }
+
+    /// Sets the file's length (a longer file reads as zeros where nothing was written).
+    pub fn set_len(&mut self, len: u64) -> std::io::Result<()> {
+        self.file.flush()?;
+        self.file.get_ref().as_file().set_len(len)
+    }
+
+    /// Writes `bytes` at byte `at` of the file (after what was written through the buffer),
+    /// for a writer that fills a file laid out before its data is known.
+    pub fn write_at(&mut self, at: u64, bytes: &[u8]) -> std::io::Result<()> {
+        if !self.file.buffer().is_empty() {
+            self.file.flush()?;
+        }
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::FileExt;
+            self.file.get_ref().as_file().write_all_at(bytes, at)
+        }
+        #[cfg(not(unix))]
+        {
+            use std::io::{Seek, SeekFrom};
+            let f = self.file.get_mut().as_file_mut();
+            f.seek(SeekFrom::Start(at))?;
+            f.write_all(bytes)
+        }
+    }
+
+    /// Appends the whole of `from` (written and flushed) to this file, by the system's copy
+    /// where it has one.
+    pub fn append_file(&mut self, from: &mut StagedFile) -> std::io::Result<u64> {
+        use std::io::{Seek, SeekFrom};
+        from.file.flush()?;
+        self.file.flush()?;
+        let src = from.file.get_mut().as_file_mut();
+        src.seek(SeekFrom::Start(0))?;
+        let dst = self.file.get_mut().as_file_mut();
+        dst.seek(SeekFrom::End(0))?;
+        std::io::copy(src, dst)
+    }
+
+    /// Reads up to `buf.len()` bytes from byte `at` of the file (what was written and flushed);
+    /// returns how many were read (0 at the end).
+    pub fn read_at(&mut self, at: u64, buf: &mut [u8]) -> std::io::Result<usize> {
+        use std::io::{Read, Seek, SeekFrom};
+        self.file.flush()?;
+        let f = self.file.get_mut().as_file_mut();
+        f.seek(SeekFrom::Start(at))?;
+        f.read(buf)
+    }
 }
 
 impl Write for StagedFile {

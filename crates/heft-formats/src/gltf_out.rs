@@ -31,16 +31,20 @@ use std::collections::{BTreeMap, BTreeSet};
 
 use base64::Engine;
 use heft_node_sdk::PortKind;
+use serde::Serialize;
 use serde_json::{Value, json};
 
 use heft_runtime::blocks::{BakeAnchor, BakeFormat, BakeItem, PlannedBake};
 use heft_runtime::check::Plan;
-use heft_runtime::eval::Evaluation;
+use heft_runtime::eval::{Evaluation, Frames};
 
 use std::sync::Arc;
 
 use crate::character::{Affine, Axes, Character};
+use crate::commit::{StagedFile, Transaction};
+use crate::output::WriteError;
 use crate::quat::{Quat, conj, mul, normalise, rotate};
+use std::io::Write;
 
 /// The shortest rotation taking the unit vector `a` to the unit vector `b`.
 pub fn arc(a: [f64; 3], b: [f64; 3]) -> Quat {
@@ -109,15 +113,161 @@ pub fn tool_name(name: &str) -> String {
     if s.is_empty() { "node".to_owned() } else { s }
 }
 
+/// An entry of one of the document's lists: as read from a character's own file, or made by
+/// the bake. The bake's own are typed, not `Value`s: a bake of thousands of joints holds
+/// hundreds of thousands of them, and a `Value` tree takes about twenty times its text.
+#[derive(Debug, Clone, Serialize)]
+#[serde(untagged)]
+enum Entry<T> {
+    Read(Value),
+    Made(T),
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct View {
+    buffer: u32,
+    #[serde(rename = "byteOffset")]
+    byte_offset: usize,
+    #[serde(rename = "byteLength")]
+    byte_length: usize,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Accessor {
+    #[serde(rename = "bufferView")]
+    view: usize,
+    #[serde(rename = "componentType")]
+    component: u32,
+    count: usize,
+    #[serde(rename = "type")]
+    ty: &'static str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    min: Option<Vec<f32>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    max: Option<Vec<f32>>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Sampler {
+    input: usize,
+    output: usize,
+    interpolation: &'static str,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Target {
+    node: usize,
+    path: &'static str,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Channel {
+    sampler: usize,
+    target: Target,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Skin {
+    name: String,
+    joints: Vec<usize>,
+    skeleton: usize,
+    #[serde(rename = "inverseBindMatrices")]
+    matrices: usize,
+}
+
+/// heft's own names for a node, in its `extras.heft`.
+#[derive(Debug, Clone, Default, Serialize)]
+struct Names {
+    name: String,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    series: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    point: Option<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    file_name: Option<String>,
+}
+
+impl Names {
+    fn of(name: &str) -> Names {
+        Names {
+            name: name.to_owned(),
+            ..Names::default()
+        }
+    }
+    fn series(mut self, series: &str) -> Names {
+        self.series = Some(series.to_owned());
+        self
+    }
+    fn point(mut self, point: usize) -> Names {
+        self.point = Some(point);
+        self
+    }
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Extras {
+    heft: Names,
+}
+
+#[derive(Debug, Clone, Serialize)]
+struct Node {
+    name: String,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    children: Vec<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    translation: Option<[f32; 3]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    rotation: Option<[f32; 4]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    scale: Option<[f32; 3]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    extras: Option<Extras>,
+}
+
+/// A bake's whole document: what it keeps of a character's own file (`rest`), and the lists it
+/// made or extended, typed.
+#[derive(Debug, Serialize)]
+struct Document {
+    #[serde(flatten)]
+    rest: serde_json::Map<String, Value>,
+    nodes: Vec<Entry<Node>>,
+    accessors: Vec<Entry<Accessor>>,
+    #[serde(rename = "bufferViews")]
+    views: Vec<Entry<View>>,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    skins: Vec<Entry<Skin>>,
+    animations: Vec<Animation>,
+    buffers: Vec<Value>,
+}
+
+/// An animation of the document: one read from a character's own file, or the bake's (the
+/// clip it was read from, with the bake's channels added to its own).
+#[derive(Debug, Serialize)]
+#[serde(untagged)]
+enum Animation {
+    Read(Value),
+    Made {
+        #[serde(flatten)]
+        rest: serde_json::Map<String, Value>,
+        channels: Vec<Entry<Channel>>,
+        samplers: Vec<Entry<Sampler>>,
+    },
+}
+
 struct Builder {
-    bin: Vec<u8>,
-    views: Vec<Value>,
-    accessors: Vec<Value>,
-    nodes: Vec<Value>,
+    /// Bytes known when the bake is laid out (the base file's own data, the times, whole series
+    /// and a character's own channels), at their byte offsets in the buffer; the points' channels
+    /// are filled window by window into the places laid out for them.
+    pieces: Vec<(usize, Vec<u8>)>,
+    /// The buffer's length so far.
+    len: usize,
+    views: Vec<Entry<View>>,
+    accessors: Vec<Entry<Accessor>>,
+    nodes: Vec<Entry<Node>>,
     roots: Vec<usize>,
-    samplers: Vec<Value>,
-    channels: Vec<Value>,
-    skins: Vec<Value>,
+    samplers: Vec<Entry<Sampler>>,
+    channels: Vec<Entry<Channel>>,
+    skins: Vec<Entry<Skin>>,
     time_accessor: usize,
     names: BTreeSet<String>,
     /// The first value that did not fit a 32-bit float: (what, key, value).
@@ -125,7 +275,7 @@ struct Builder {
 }
 
 impl Builder {
-    fn floats(&mut self, data: &[f32], ty: &str, count: usize, min_max: Option<(Vec<f32>, Vec<f32>)>) -> usize {
+    fn floats(&mut self, data: &[f32], ty: &'static str, count: usize, min_max: Option<(Vec<f32>, Vec<f32>)>) -> usize {
         self.floats_of(data.iter().copied(), data.len(), ty, count, min_max)
     }
 
@@ -136,72 +286,89 @@ impl Builder {
             return;
         }
         if let Some((k, v)) = values.enumerate().find(|(_, v)| !(*v as f32).is_finite()) {
-            let name = self.nodes[node]["name"].as_str().unwrap_or("?");
+            let name = self.node_name(node);
             self.overflow = Some((format!("the {what} of `{name}`"), k / width.max(1), v));
         }
     }
 
-    /// `len` floats from `data` into the buffer, little-endian, as one accessor.
+    /// `len` floats from `data` (none: room left zero for a later fill) into the buffer,
+    /// little-endian, 4-byte aligned, as one accessor.
     fn floats_of(
         &mut self,
         data: impl Iterator<Item = f32>,
         len: usize,
-        ty: &str,
+        ty: &'static str,
         count: usize,
         min_max: Option<(Vec<f32>, Vec<f32>)>,
     ) -> usize {
-        while !self.bin.len().is_multiple_of(4) {
-            self.bin.push(0);
-        }
-        let offset = self.bin.len();
-        // Appended in one pass (no zeroing first): the buffer's pages are touched once.
-        self.bin.reserve(4 * len);
+        let offset = self.len.next_multiple_of(4);
+        let mut bytes = Vec::new();
         for v in data.take(len) {
-            self.bin.extend_from_slice(&v.to_le_bytes());
+            bytes.extend_from_slice(&v.to_le_bytes());
         }
-        // Never short: a short source is padded with zeros, as the accessor's count says.
-        self.bin.resize(offset + 4 * len, 0);
-        self.views
-            .push(json!({"buffer": 0, "byteOffset": offset, "byteLength": len * 4}));
-        let mut acc = json!({
-            "bufferView": self.views.len() - 1,
-            "componentType": 5126,
-            "count": count,
-            "type": ty,
-        });
-        if let Some((min, max)) = min_max {
-            acc["min"] = json!(min);
-            acc["max"] = json!(max);
+        if !bytes.is_empty() {
+            // Never short: a short source is padded with zeros, as the accessor's count says.
+            bytes.resize(4 * len, 0);
+            self.pieces.push((offset, bytes));
         }
-        self.accessors.push(acc);
+        self.len = offset + 4 * len;
+        self.views.push(Entry::Made(View {
+            buffer: 0,
+            byte_offset: offset,
+            byte_length: len * 4,
+        }));
+        let (min, max) = min_max.unzip();
+        self.accessors.push(Entry::Made(Accessor {
+            view: self.views.len() - 1,
+            component: 5126,
+            count,
+            ty,
+            min,
+            max,
+        }));
         self.accessors.len() - 1
     }
 
-    fn channel_of(&mut self, node: usize, path: &str, data: impl Iterator<Item = f32>, width: usize, count: usize) {
+    fn channel_of(
+        &mut self,
+        node: usize,
+        path: &'static str,
+        data: impl Iterator<Item = f32>,
+        width: usize,
+        count: usize,
+    ) {
         let ty = if width == 4 { "VEC4" } else { "VEC3" };
         let output = self.floats_of(data, width * count, ty, count, None);
-        self.samplers
-            .push(json!({"input": self.time_accessor, "output": output, "interpolation": "LINEAR"}));
-        self.channels
-            .push(json!({"sampler": self.samplers.len() - 1, "target": {"node": node, "path": path}}));
+        self.samplers.push(Entry::Made(Sampler {
+            input: self.time_accessor,
+            output,
+            interpolation: "LINEAR",
+        }));
+        self.channels.push(Entry::Made(Channel {
+            sampler: self.samplers.len() - 1,
+            target: Target { node, path },
+        }));
     }
 
     /// Room in the buffer for a channel of `count` keys of `width` floats on `node`'s `path`,
-    /// as one accessor (with its sampler and channel), zero-filled; returns its byte offset, for
-    /// the caller to fill key by key with [`put`].
-    fn channel_space(&mut self, node: usize, path: &str, width: usize, count: usize) -> usize {
-        let at = self.bin.len().next_multiple_of(4);
-        let ty = if width == 4 { "VEC4" } else { "VEC3" };
-        let output = self.floats_of(std::iter::empty(), width * count, ty, count, None);
-        self.samplers
-            .push(json!({"input": self.time_accessor, "output": output, "interpolation": "LINEAR"}));
-        self.channels
-            .push(json!({"sampler": self.samplers.len() - 1, "target": {"node": node, "path": path}}));
+    /// as one accessor (with its sampler and channel), zero until filled; returns its byte
+    /// offset, for the windows to fill.
+    fn channel_space(&mut self, node: usize, path: &'static str, width: usize, count: usize) -> usize {
+        let at = self.len.next_multiple_of(4);
+        self.channel_of(node, path, std::iter::empty(), width, count);
         at
     }
 
+    /// A node's name in the document.
+    fn node_name(&self, node: usize) -> String {
+        match &self.nodes[node] {
+            Entry::Made(n) => n.name.clone(),
+            Entry::Read(v) => v["name"].as_str().unwrap_or("?").to_owned(),
+        }
+    }
+
     /// A node with a unique tool-safe name made from `name`, heft's extras and a parent.
-    fn node(&mut self, name: &str, extras: Option<Value>, parent: Option<usize>) -> usize {
+    fn node(&mut self, name: &str, extras: Option<Names>, parent: Option<usize>) -> usize {
         let base = tool_name(name);
         let mut unique = base.clone();
         let mut k = 2;
@@ -209,17 +376,19 @@ impl Builder {
             unique = format!("{base}_{k}");
             k += 1;
         }
-        let mut n = json!({"name": unique});
-        if let Some(e) = extras {
-            n["extras"] = json!({"heft": e});
-        }
-        self.nodes.push(n);
+        self.nodes.push(Entry::Made(Node {
+            name: unique,
+            children: Vec::new(),
+            translation: None,
+            rotation: None,
+            scale: None,
+            extras: extras.map(|heft| Extras { heft }),
+        }));
         let i = self.nodes.len() - 1;
-        match parent {
-            Some(p) => {
-                let children = self.nodes[p]
-                    .as_object_mut()
-                    .map(|o| o.entry("children").or_insert(json!([])));
+        match parent.map(|p| &mut self.nodes[p]) {
+            Some(Entry::Made(n)) => n.children.push(i),
+            Some(Entry::Read(v)) => {
+                let children = v.as_object_mut().map(|o| o.entry("children").or_insert(json!([])));
                 if let Some(Value::Array(c)) = children {
                     c.push(json!(i));
                 }
@@ -231,14 +400,26 @@ impl Builder {
 
     /// Sets a node's rest TRS (the first baked frame).
     fn rest(&mut self, node: usize, t: Option<[f64; 3]>, r: Option<Quat>, s: Option<[f64; 3]>) {
-        if let Some(t) = t {
-            self.nodes[node]["translation"] = json!(t.map(|c| c as f32));
-        }
-        if let Some(r) = r {
-            self.nodes[node]["rotation"] = json!(normalise(r).map(|c| c as f32));
-        }
-        if let Some(s) = s {
-            self.nodes[node]["scale"] = json!(s.map(|c| c as f32));
+        let t = t.map(|t| t.map(|c| c as f32));
+        let r = r.map(|r| normalise(r).map(|c| c as f32));
+        let s = s.map(|s| s.map(|c| c as f32));
+        match &mut self.nodes[node] {
+            Entry::Made(n) => {
+                n.translation = t.or(n.translation);
+                n.rotation = r.or(n.rotation);
+                n.scale = s.or(n.scale);
+            }
+            Entry::Read(v) => {
+                if let Some(t) = t {
+                    v["translation"] = json!(t);
+                }
+                if let Some(r) = r {
+                    v["rotation"] = json!(r);
+                }
+                if let Some(s) = s {
+                    v["scale"] = json!(s);
+                }
+            }
         }
     }
 
@@ -261,13 +442,6 @@ impl Builder {
         self.rest(node, None, None, s.first().copied());
         let data = s.iter().flat_map(|p| p.map(|c| c as f32));
         self.channel_of(node, "scale", data, 3, s.len());
-    }
-}
-
-/// Writes `values` little-endian at byte `at` of `bin`.
-fn put<const N: usize>(bin: &mut [u8], at: usize, values: [f32; N]) {
-    for (bytes, v) in bin[at..at + 4 * N].chunks_exact_mut(4).zip(values) {
-        bytes.copy_from_slice(&v.to_le_bytes());
     }
 }
 
@@ -315,9 +489,10 @@ struct CharacterNodes {
     root: usize,
 }
 
+/// A bake being laid out: its nodes, accessors and the data known before the windows.
 struct Bake<'a> {
     plan: &'a Plan,
-    eval: &'a Evaluation,
+    src: &'a Frames<'a>,
     frames: std::ops::Range<usize>,
     y_up: bool,
     b: Builder,
@@ -329,25 +504,18 @@ struct Bake<'a> {
 
 impl Bake<'_> {
     fn pos(&self, p: [f64; 3]) -> [f64; 3] {
-        if self.y_up { p } else { [p[0], p[2], -p[1]] }
+        self.axes().pos(p)
     }
     fn rot(&self, q: Quat) -> Quat {
-        if self.y_up { q } else { [q[0], q[2], -q[1], q[3]] }
+        self.axes().rot(q)
     }
-    fn frame(&self, node: usize, output: usize, i: usize) -> &[f64] {
-        let w = self.plan.nodes[node].outputs[output].width();
-        &self.eval.values[node][output][i * w..(i + 1) * w]
+    fn axes(&self) -> BakeAxes {
+        BakeAxes { y_up: self.y_up }
     }
     /// The rigid transform of a transform (or vec3) series at frame `i`, in heft's world.
     fn rigid(&self, node: usize, output: usize, i: usize) -> Rigid {
-        let f = self.frame(node, output, i);
-        let t = [f[0], f[1], f[2]];
-        let r = if f.len() >= 7 {
-            normalise([f[3], f[4], f[5], f[6]])
-        } else {
-            [0.0, 0.0, 0.0, 1.0]
-        };
-        Rigid { r, t }
+        let w = self.plan.nodes[node].outputs[output].width();
+        rigid_of(self.src.frame(node, output, i, w))
     }
     fn series_name(&self, node: usize, output: usize) -> String {
         let pn = &self.plan.nodes[node];
@@ -361,7 +529,7 @@ impl Bake<'_> {
         }
         let name = self.series_name(node, output);
         let kind = self.plan.nodes[node].outputs[output].kind;
-        let n = self.b.node(&name, Some(json!({"name": name, "series": name})), None);
+        let n = self.b.node(&name, Some(Names::of(&name).series(&name)), None);
         let t: Vec<[f64; 3]> = self
             .frames
             .clone()
@@ -434,7 +602,10 @@ impl Bake<'_> {
         let heft_name = format!("{}.{}", self.plan.nodes[node].name, cn.port);
         let n = self.b.node(
             &cn.name,
-            Some(json!({"name": heft_name, "series": heft_name, "file_name": cn.name})),
+            Some(Names {
+                file_name: Some(cn.name.clone()),
+                ..Names::of(&heft_name).series(&heft_name)
+            }),
             Some(parent),
         );
         let local = &ch.local[joint];
@@ -450,26 +621,16 @@ impl Bake<'_> {
         n
     }
 
-    /// Bakes one points item as chains of `c` joints.
-    fn chains(&mut self, item: &BakeItem, c: usize) -> Result<(), String> {
+    /// Lays out one points item as chains of `c` joints: the nodes, their channels and each
+    /// strand's skin, whose data the windows fill ([`ChainFill::window`]).
+    fn chains(&mut self, item: &BakeItem, c: usize) -> Result<ChainFill, String> {
         let strands = item.shape.points / c;
-        // The parent of every chain, and its rigid world transform per frame (heft's world).
-        let parent_world: Vec<Rigid>;
-        let parent = match &item.anchor {
+        // The parent of every chain, and where its world transform per frame comes from.
+        let (parent, anchor) = match &item.anchor {
             BakeAnchor::Series { node, output } => {
                 let (node, output) = (*node, *output);
-                parent_world = self
-                    .frames
-                    .clone()
-                    .map(|i| {
-                        let w = self.rigid(node, output, i);
-                        Rigid {
-                            r: self.rot(w.r),
-                            t: self.pos(w.t),
-                        }
-                    })
-                    .collect();
-                self.series_node(node, output)
+                let width = self.plan.nodes[node].outputs[output].width();
+                (self.series_node(node, output), Anchor::Series { node, output, width })
             }
             BakeAnchor::Joint { node, output } => {
                 let (node, output) = (*node, *output);
@@ -483,21 +644,11 @@ impl Bake<'_> {
                 // The bone's own frame in the bake: the character's scene turned into the bake's
                 // axes, then the bone's world transform in its file (rotation and position).
                 let turn = self.scene_turn(&ch);
-                let mut bone_world = Vec::with_capacity(self.frames.len());
-                for i in self.frames.clone() {
-                    let w = &ch.world[joint][i];
-                    let q = w.rotation_scale().map_or([0.0, 0.0, 0.0, 1.0], |(q, _)| q);
-                    bone_world.push(Rigid {
-                        r: normalise(mul(turn, q)),
-                        t: rotate(turn, w.t),
-                    });
-                }
-                parent_world = bone_world;
                 let bone = self.character_node(node, &ch, joint);
                 // A node under the bone that cancels its scale: its world is the bone's rotation
                 // and position only.
                 let name = format!("{}.anchor", item.name);
-                let rigid = self.b.node(&name, Some(json!({"name": name})), Some(bone));
+                let rigid = self.b.node(&name, Some(Names::of(&name)), Some(bone));
                 let mut scales = Vec::with_capacity(self.frames.len());
                 for i in self.frames.clone() {
                     let w: &Affine = &ch.world[joint][i];
@@ -512,70 +663,228 @@ impl Bake<'_> {
                     scales.push(s.map(|v| 1.0 / v));
                 }
                 self.b.animate_s(rigid, &scales);
-                rigid
+                (rigid, Anchor::Joint { ch, joint, turn })
             }
             BakeAnchor::None => {
-                parent_world = vec![Rigid::IDENTITY; self.frames.len()];
                 let name = format!("{}.strands", item.name);
-                self.b.node(&name, Some(json!({"name": name})), None)
+                (self.b.node(&name, Some(Names::of(&name)), None), Anchor::None)
             }
         };
-        // Everything below is in the bake's axes (`parent_world` too), where each joint aims its +Y.
         let nf = self.frames.len();
-        let mut pts = vec![[0.0; 3]; c];
-        let mut rots = Vec::with_capacity(c);
-        // Frame 0's world transforms, for the inverse bind matrices.
-        let mut bind: Vec<(Quat, [f64; 3])> = Vec::with_capacity(c);
+        let mut fill = ChainFill {
+            node: item.node,
+            output: item.output,
+            c,
+            strands,
+            anchor,
+            joints: Vec::with_capacity(strands * c),
+            places: Vec::with_capacity(strands * c),
+            matrices: Vec::with_capacity(strands),
+            prev_root: vec![None; strands],
+            last_r: vec![[0.0, 0.0, 0.0, 1.0]; strands * c],
+            prev_parent: None,
+        };
         for s in 0..strands {
-            // The strand's joints, then its channels: a translation and a rotation per joint,
-            // laid out in the buffer now (their places depend only on the frame count) and
-            // filled frame by frame below, so that the strand's state (the root's frame, each
-            // joint's last rotation) is all that is carried from one frame to the next.
-            let mut joints = Vec::with_capacity(c);
+            // The strand's joints, then its channels (a translation and a rotation per joint),
+            // then its inverse bind matrices: their places depend only on the frame count.
             let mut parent_node = parent;
-            let mut places = Vec::with_capacity(c);
+            let mut joints = Vec::with_capacity(c);
             for j in 0..c {
                 let name = format!("{}.s{s}.j{j}", item.name);
                 let n = self.b.node(
                     &name,
-                    Some(json!({"name": name, "series": item.name, "point": s * c + j})),
+                    Some(Names::of(&name).series(&item.name).point(s * c + j)),
                     Some(parent_node),
                 );
                 let t = self.b.channel_space(n, "translation", 3, nf);
                 let r = self.b.channel_space(n, "rotation", 4, nf);
-                places.push((t, r));
+                fill.places.push((t, r));
                 joints.push(n);
                 parent_node = n;
             }
-            let mut prev_root: Option<Quat> = None;
-            let mut last_r: Vec<Quat> = vec![[0.0, 0.0, 0.0, 1.0]; c];
-            // The first joint (in chain order) whose translation leaves f32, with its key.
-            let mut overflow: Option<(usize, usize, f64)> = None;
-            for (k, i) in self.frames.clone().enumerate() {
-                let f = self.frame(item.node, item.output, i);
+            let at = self.b.len.next_multiple_of(4);
+            let acc = self.b.floats_of(std::iter::empty(), 16 * c, "MAT4", c, None);
+            fill.matrices.push(at);
+            self.b.skins.push(Entry::Made(Skin {
+                name: tool_name(&format!("{}.s{s}", item.name)),
+                skeleton: joints[0],
+                joints: joints.clone(),
+                matrices: acc,
+            }));
+            fill.joints.extend(joints);
+        }
+        Ok(fill)
+    }
+}
+
+/// Where a chain's parent frame comes from, frame by frame.
+enum Anchor {
+    /// A still parent at the origin.
+    None,
+    /// A transform series of the plan (evaluated before the windows, so whole).
+    Series { node: usize, output: usize, width: usize },
+    /// A joint of a glTF character: its world transform, turned from the file's axes.
+    Joint {
+        ch: Arc<Character>,
+        joint: usize,
+        turn: Quat,
+    },
+}
+
+/// The channels of one points item baked as chains, filled window by window: where each lies,
+/// and what each strand carries from one frame to the next (the root's frame and each joint's
+/// last rotation, so frames neither flip nor jump between windows).
+struct ChainFill {
+    node: usize,
+    output: usize,
+    c: usize,
+    strands: usize,
+    anchor: Anchor,
+    /// The bake's node of every joint, strand-major.
+    joints: Vec<usize>,
+    /// Byte offsets of every joint's translation and rotation channels, strand-major.
+    places: Vec<(usize, usize)>,
+    /// Byte offset of each strand's inverse bind matrices.
+    matrices: Vec<usize>,
+    prev_root: Vec<Option<Quat>>,
+    last_r: Vec<Quat>,
+    /// The parent's frame at the last frame filled.
+    prev_parent: Option<Rigid>,
+}
+
+/// The bake's axes: positions and rotations from heft's Z-up world into them.
+#[derive(Debug, Clone, Copy)]
+struct BakeAxes {
+    y_up: bool,
+}
+
+impl BakeAxes {
+    fn pos(self, p: [f64; 3]) -> [f64; 3] {
+        if self.y_up { p } else { [p[0], p[2], -p[1]] }
+    }
+    fn rot(self, q: Quat) -> Quat {
+        if self.y_up { q } else { [q[0], q[2], -q[1], q[3]] }
+    }
+}
+
+impl ChainFill {
+    /// The chain's parent frame at timeline frame `i`, in the bake's axes.
+    fn parent_at(&self, src: &Frames<'_>, axes: BakeAxes, i: usize) -> Rigid {
+        match &self.anchor {
+            Anchor::None => Rigid::IDENTITY,
+            Anchor::Series { node, output, width } => {
+                let w = rigid_of(src.frame(*node, *output, i, *width));
+                Rigid {
+                    r: axes.rot(w.r),
+                    t: axes.pos(w.t),
+                }
+            }
+            Anchor::Joint { ch, joint, turn } => {
+                let w = &ch.world[*joint][i];
+                let q = w.rotation_scale().map_or([0.0, 0.0, 0.0, 1.0], |(q, _)| q);
+                Rigid {
+                    r: normalise(mul(*turn, q)),
+                    t: rotate(*turn, w.t),
+                }
+            }
+        }
+    }
+}
+
+/// The rigid transform of a transform (or vec3) frame, in heft's world.
+fn rigid_of(f: &[f64]) -> Rigid {
+    if f.len() < 3 {
+        return Rigid::IDENTITY;
+    }
+    let t = [f[0], f[1], f[2]];
+    let r = if f.len() >= 7 {
+        normalise([f[3], f[4], f[5], f[6]])
+    } else {
+        [0.0, 0.0, 0.0, 1.0]
+    };
+    Rigid { r, t }
+}
+
+impl ChainFill {
+    /// Fills timeline frames `range` (inside the baked frames `baked`): each joint's local
+    /// translation and rotation keys, and at the first baked frame the rest pose (into `b`'s
+    /// nodes) and each strand's inverse bind matrices, written into `store` a strand at a time.
+    /// Stops at the first translation that does not fit a 32-bit float: `Ok(Some((joint node,
+    /// key, value)))`.
+    #[allow(clippy::too_many_arguments)]
+    fn window(
+        &mut self,
+        src: &Frames<'_>,
+        axes: BakeAxes,
+        baked: &std::ops::Range<usize>,
+        range: std::ops::Range<usize>,
+        width: usize,
+        b: &mut Builder,
+        store: &mut BinStore,
+    ) -> Result<Option<(usize, usize, f64)>, String> {
+        let c = self.c;
+        let k0 = range.start - baked.start;
+        let nk = range.len();
+        let parents: Vec<Rigid> = range.clone().map(|i| self.parent_at(src, axes, i)).collect();
+        let mut pts = vec![[0.0; 3]; c];
+        let mut rots = Vec::with_capacity(c);
+        let mut t_keys: Vec<Vec<u8>> = vec![Vec::new(); c];
+        let mut r_keys: Vec<Vec<u8>> = vec![Vec::new(); c];
+        for s in 0..self.strands {
+            for (t, r) in t_keys.iter_mut().zip(&mut r_keys) {
+                t.clear();
+                t.reserve(12 * nk);
+                r.clear();
+                r.reserve(16 * nk);
+            }
+            for (kk, i) in range.clone().enumerate() {
+                let k = k0 + kk;
+                let f = src.frame(self.node, self.output, i, width);
                 for (j, p) in pts.iter_mut().enumerate() {
                     let q = 3 * (s * c + j);
-                    *p = self.pos([f[q], f[q + 1], f[q + 2]]);
+                    *p = axes.pos([f[q], f[q + 1], f[q + 2]]);
                 }
                 // The root's frame before it is aimed: at the first frame the anchor's frame,
                 // then last frame's root turned as the anchor turned since.
-                let start = match prev_root {
-                    None => parent_world[k].r,
+                let start = match self.prev_root[s] {
+                    None => parents[kk].r,
                     Some(prev) => {
-                        let turn = mul(parent_world[k].r, conj(parent_world[k - 1].r));
+                        let before = if kk == 0 {
+                            self.prev_parent.unwrap_or(parents[kk])
+                        } else {
+                            parents[kk - 1]
+                        };
+                        let turn = mul(parents[kk].r, conj(before.r));
                         normalise(mul(turn, prev))
                     }
                 };
                 transport_into(&pts, start, &mut rots);
-                prev_root = Some(rots[0]);
+                self.prev_root[s] = Some(rots[0]);
                 if k == 0 {
-                    bind.clear();
-                    bind.extend(rots.iter().copied().zip(pts.iter().copied()));
+                    // Inverse bind matrices: the inverse world transform of each joint at the
+                    // first baked frame, column-major.
+                    let mut ibm: Vec<u8> = Vec::with_capacity(64 * c);
+                    for (&r, &p) in rots.iter().zip(&pts) {
+                        let inv = conj(r);
+                        let m = crate::character::rotation_matrix(inv);
+                        let t = rotate(inv, p).map(|v| -v);
+                        // Column-major: column c holds m[0][c], m[1][c], m[2][c].
+                        let [r0, r1, r2] = m;
+                        for ((a, b), c) in r0.iter().zip(&r1).zip(&r2) {
+                            for v in [*a as f32, *b as f32, *c as f32, 0.0] {
+                                ibm.extend_from_slice(&v.to_le_bytes());
+                            }
+                        }
+                        for v in [t[0] as f32, t[1] as f32, t[2] as f32, 1.0] {
+                            ibm.extend_from_slice(&v.to_le_bytes());
+                        }
+                    }
+                    store.write_at(self.matrices[s], &ibm)?;
                 }
                 // Local transforms: each joint in its parent's frame (the anchor's for the root).
                 for j in 0..c {
                     let up = if j == 0 {
-                        parent_world[k]
+                        parents[kk]
                     } else {
                         Rigid {
                             r: rots[j - 1],
@@ -583,54 +892,36 @@ impl Bake<'_> {
                         }
                     };
                     let (mut lr, lt) = up.local(rots[j], pts[j]);
+                    let last = &mut self.last_r[s * c + j];
                     // Consecutive keys in one hemisphere, so linear interpolation takes the
                     // short way.
-                    if k > 0 && (0..4).map(|m| lr[m] * last_r[j][m]).sum::<f64>() < 0.0 {
+                    if k > 0 && (0..4).map(|m| lr[m] * last[m]).sum::<f64>() < 0.0 {
                         lr = lr.map(|v| -v);
                     }
-                    last_r[j] = lr;
+                    *last = lr;
+                    let joint = self.joints[s * c + j];
                     if k == 0 {
-                        self.b.rest(joints[j], Some(lt), Some(lr), None);
+                        b.rest(joint, Some(lt), Some(lr), None);
                     }
-                    if overflow.is_none_or(|(first, _, _)| j < first)
-                        && let Some(v) = lt.into_iter().find(|v| !(*v as f32).is_finite())
-                    {
-                        overflow = Some((j, k, v));
+                    if let Some(v) = lt.into_iter().find(|v| !(*v as f32).is_finite()) {
+                        return Ok(Some((joint, k, v)));
                     }
-                    let (tp, rp) = places[j];
-                    put(&mut self.b.bin, tp + 12 * k, lt.map(|v| v as f32));
-                    put(&mut self.b.bin, rp + 16 * k, lr.map(|v| v as f32));
+                    for v in lt {
+                        t_keys[j].extend_from_slice(&(v as f32).to_le_bytes());
+                    }
+                    for v in lr {
+                        r_keys[j].extend_from_slice(&(v as f32).to_le_bytes());
+                    }
                 }
             }
-            if let Some((j, k, v)) = overflow
-                && self.b.overflow.is_none()
-            {
-                let name = self.b.nodes[joints[j]]["name"].as_str().unwrap_or("?").to_owned();
-                self.b.overflow = Some((format!("the translation of `{name}`"), k, v));
+            for j in 0..c {
+                let (tp, rp) = self.places[s * c + j];
+                store.write_at(tp + 12 * k0, &t_keys[j])?;
+                store.write_at(rp + 16 * k0, &r_keys[j])?;
             }
-            // Inverse bind matrices: the inverse world transform of each joint at the first
-            // baked frame, column-major.
-            let mut ibm: Vec<f32> = Vec::with_capacity(16 * c);
-            for &(r, p) in &bind {
-                let inv = conj(r);
-                let m = crate::character::rotation_matrix(inv);
-                let t = rotate(inv, p).map(|v| -v);
-                // Column-major: column c holds m[0][c], m[1][c], m[2][c].
-                let [r0, r1, r2] = m;
-                for ((a, b), c) in r0.iter().zip(&r1).zip(&r2) {
-                    ibm.extend([*a as f32, *b as f32, *c as f32, 0.0]);
-                }
-                ibm.extend([t[0] as f32, t[1] as f32, t[2] as f32, 1.0]);
-            }
-            let acc = self.b.floats(&ibm, "MAT4", c, None);
-            self.b.skins.push(json!({
-                "name": tool_name(&format!("{}.s{s}", item.name)),
-                "joints": joints,
-                "skeleton": joints[0],
-                "inverseBindMatrices": acc,
-            }));
         }
-        Ok(())
+        self.prev_parent = parents.last().copied();
+        Ok(None)
     }
 }
 
@@ -760,229 +1051,552 @@ fn load_base(ch: &Character) -> Result<Base, String> {
 /// buffer is never copied into place behind the header).
 pub type FileParts = (String, Vec<Vec<u8>>);
 
-/// The files of one bake; a separate-buffer .gltf adds its .bin file.
-pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<Vec<FileParts>, String> {
-    let tl = plan.timeline;
-    let frames = baked_frames(plan, bake);
-    if frames.is_empty() {
-        return Err("the bake's frame range holds no frame of the run".to_owned());
-    }
-    let base_ch: Option<Arc<Character>> = bake.base.and_then(|i| character_of(plan, i));
-    let (y_up, times, base) = match &base_ch {
-        None => {
-            let t0 = tl.time(frames.start);
-            let times: Vec<f32> = frames.clone().map(|i| (tl.time(i) - t0) as f32).collect();
-            (bake.y_up_source, times, None)
-        }
-        Some(ch) => {
-            // Keys at the clip's own times, in the file's own axes.
-            let times: Vec<f32> = frames.clone().map(|i| ch.clip_times[i] as f32).collect();
-            if let Some(k) = times.windows(2).position(|w| w[1] <= w[0]) {
-                return Err(format!(
-                    "a bake into {} keys its frames at the clip's times, which must increase, but frames {} and {} \
-                     read the clip at {} s and {} s (held or looped): bake a range of frames inside the clip with `frames = A..B`",
-                    ch.path.display(),
-                    tl.frame_number(frames.start + k),
-                    tl.frame_number(frames.start + k + 1),
-                    times[k],
-                    times[k + 1]
-                ));
+/// Where a bake's binary buffer is kept while it is filled.
+#[derive(Debug)]
+pub enum BinStore {
+    /// In memory (a whole evaluation's bake, for callers that want the bytes).
+    Memory(Vec<u8>),
+    /// A staged file in the output folder, filled at known offsets window by window, so that a
+    /// long shot's bake never sits in memory: the separate-buffer `.bin` itself, or a scratch
+    /// file that the `.glb` or embedded `.gltf` is written from at the end.
+    File(StagedFile),
+}
+
+impl BinStore {
+    fn write_at(&mut self, at: usize, bytes: &[u8]) -> Result<(), String> {
+        match self {
+            BinStore::Memory(v) => {
+                let end = at + bytes.len();
+                if v.len() < end {
+                    v.resize(end, 0);
+                }
+                v[at..end].copy_from_slice(bytes);
+                Ok(())
             }
-            (ch.axes == Axes::ZUp, times, Some(load_base(ch)?))
+            BinStore::File(f) => f
+                .write_at(at as u64, bytes)
+                .map_err(|e| format!("cannot write the bake's buffer: {e}")),
         }
-    };
-    let mut builder = Builder {
-        bin: Vec::new(),
-        views: Vec::new(),
-        accessors: Vec::new(),
-        nodes: Vec::new(),
-        roots: Vec::new(),
-        samplers: Vec::new(),
-        channels: Vec::new(),
-        skins: Vec::new(),
-        time_accessor: 0,
-        names: BTreeSet::new(),
-        overflow: None,
-    };
-    if let Some(base) = &base {
-        let list = |key: &str| base.doc.get(key).and_then(Value::as_array).cloned().unwrap_or_default();
-        builder.bin = base.bin.clone();
-        builder.views = list("bufferViews");
-        builder.accessors = list("accessors");
-        builder.nodes = list("nodes");
-        builder.skins = list("skins");
-        builder.roots = base.doc["scenes"][base.scene]["nodes"]
-            .as_array()
-            .map(|a| a.iter().filter_map(|v| v.as_u64().map(|i| i as usize)).collect())
-            .unwrap_or_default();
-        let anim = &base.doc["animations"][base.anim];
-        builder.samplers = anim["samplers"].as_array().cloned().unwrap_or_default();
-        builder.channels = anim["channels"].as_array().cloned().unwrap_or_default();
-        builder.names = builder
-            .nodes
-            .iter()
-            .filter_map(|n| n["name"].as_str().map(str::to_owned))
-            .collect();
     }
-    let mut bk = Bake {
-        plan,
-        eval,
-        frames: frames.clone(),
-        y_up,
-        b: builder,
-        series_nodes: BTreeMap::new(),
-        characters: BTreeMap::new(),
-        base: bake.base,
-    };
-    // Room for every channel, so that the buffer is never moved (a move copies it whole and
-    // touches twice its size): a translation and a rotation per point (a joint or a node) per
-    // frame, an inverse bind matrix per joint, the times, a quarter more for a character's own
-    // joints and the anchors' scales and the alignment, and the base file's own data.
-    // Reserving touches no memory: only what is written is.
-    let per_frame: usize = bake.items.iter().map(|i| 7 * i.shape.points.max(1)).sum();
-    let matrices: usize = bake.items.iter().map(|i| 16 * i.shape.points).sum();
-    let floats = per_frame * frames.len() + matrices + times.len();
-    bk.b.bin.reserve(4 * (floats + floats / 4) + (1 << 20));
-    let (tmin, tmax) = (
-        times.first().copied().unwrap_or(0.0),
-        times.last().copied().unwrap_or(0.0),
-    );
-    bk.b.time_accessor =
-        bk.b.floats(&times, "SCALAR", times.len(), Some((vec![tmin], vec![tmax])));
-    for item in &bake.items {
-        match item.shape.kind {
-            PortKind::Vec3 | PortKind::Transform => {
-                bk.series_node(item.node, item.output);
+    fn set_len(&mut self, len: usize) -> Result<(), String> {
+        match self {
+            BinStore::Memory(v) => {
+                v.resize(len, 0);
+                Ok(())
             }
-            PortKind::Points => match item.chain {
-                None => {
-                    for p in 0..item.shape.points {
-                        let name = format!("{}.p{p}", item.name);
-                        let n = bk.b.node(
-                            &name,
-                            Some(json!({"name": name, "series": item.name, "point": p})),
-                            None,
-                        );
-                        let t: Vec<[f64; 3]> = frames
-                            .clone()
-                            .map(|i| {
-                                let f = bk.frame(item.node, item.output, i);
-                                bk.pos([f[3 * p], f[3 * p + 1], f[3 * p + 2]])
-                            })
-                            .collect();
-                        bk.b.animate_t(n, &t);
+            BinStore::File(f) => f
+                .set_len(len as u64)
+                .map_err(|e| format!("cannot make room for the bake's buffer: {e}")),
+        }
+    }
+}
+
+/// What a bake fills window by window.
+enum Fill {
+    /// A points item baked as one node per point: each point's translation channel (its
+    /// node, its byte offset).
+    Points {
+        node: usize,
+        output: usize,
+        width: usize,
+        points: Vec<(usize, usize)>,
+    },
+    /// A points item baked as chains.
+    Chains { fill: Box<ChainFill>, width: usize },
+}
+
+/// One bake written window by window: laid out (every node, accessor and channel, which
+/// depend only on the frame count) when opened, its points' channels filled as the windows
+/// come, and its document written when finished. Series, anchors and characters come from
+/// nodes evaluated before the windows (see `heft_runtime::eval::Schedule`) and are written
+/// when it opens.
+pub struct BakeWriter<'p> {
+    plan: &'p Plan,
+    bake: &'p PlannedBake,
+    frames: std::ops::Range<usize>,
+    y_up: bool,
+    b: Builder,
+    fills: Vec<Fill>,
+    store: BinStore,
+    /// The character's own document the bake is written into: (document, clip, scene).
+    base: Option<(Value, usize, usize)>,
+}
+
+impl std::fmt::Debug for BakeWriter<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("BakeWriter")
+            .field("file", &self.bake.file)
+            .field("bytes", &self.b.len)
+            .finish_non_exhaustive()
+    }
+}
+
+/// The largest buffer a `.glb` holds with a document of `json` bytes: its lengths are 32-bit
+/// (glTF 2.0, section 4.4.3).
+fn glb_fits(json: usize, bin: usize) -> bool {
+    u32::try_from(12 + 8 + json.next_multiple_of(4) + 8 + bin.next_multiple_of(4)).is_ok()
+}
+
+impl<'p> BakeWriter<'p> {
+    /// Lays out `bake`, writing what is known before the windows (from `src`: every node
+    /// evaluated before them, whole) into `store`.
+    pub fn open(plan: &'p Plan, bake: &'p PlannedBake, src: &Frames<'_>, mut store: BinStore) -> Result<Self, String> {
+        let tl = plan.timeline;
+        let frames = baked_frames(plan, bake);
+        if frames.is_empty() {
+            return Err("the bake's frame range holds no frame of the run".to_owned());
+        }
+        let base_ch: Option<Arc<Character>> = bake.base.and_then(|i| character_of(plan, i));
+        let (y_up, times, base) = match &base_ch {
+            None => {
+                let t0 = tl.time(frames.start);
+                let times: Vec<f32> = frames.clone().map(|i| (tl.time(i) - t0) as f32).collect();
+                (bake.y_up_source, times, None)
+            }
+            Some(ch) => {
+                // Keys at the clip's own times, in the file's own axes.
+                let times: Vec<f32> = frames.clone().map(|i| ch.clip_times[i] as f32).collect();
+                if let Some(k) = times.windows(2).position(|w| w[1] <= w[0]) {
+                    return Err(format!(
+                        "a bake into {} keys its frames at the clip's times, which must increase, but frames {} and {} \
+                         read the clip at {} s and {} s (held or looped): bake a range of frames inside the clip with `frames = A..B`",
+                        ch.path.display(),
+                        tl.frame_number(frames.start + k),
+                        tl.frame_number(frames.start + k + 1),
+                        times[k],
+                        times[k + 1]
+                    ));
+                }
+                (ch.axes == Axes::ZUp, times, Some(load_base(ch)?))
+            }
+        };
+        let mut builder = Builder {
+            pieces: Vec::new(),
+            len: 0,
+            views: Vec::new(),
+            accessors: Vec::new(),
+            nodes: Vec::new(),
+            roots: Vec::new(),
+            samplers: Vec::new(),
+            channels: Vec::new(),
+            skins: Vec::new(),
+            time_accessor: 0,
+            names: BTreeSet::new(),
+            overflow: None,
+        };
+        let mut kept_base = None;
+        if let Some(mut base) = base {
+            fn list<T>(doc: &Value, key: &str) -> Vec<Entry<T>> {
+                let read = doc.get(key).and_then(Value::as_array).cloned().unwrap_or_default();
+                read.into_iter().map(Entry::Read).collect()
+            }
+            builder.views = list(&base.doc, "bufferViews");
+            builder.accessors = list(&base.doc, "accessors");
+            builder.nodes = list(&base.doc, "nodes");
+            builder.skins = list(&base.doc, "skins");
+            builder.roots = base.doc["scenes"][base.scene]["nodes"]
+                .as_array()
+                .map(|a| a.iter().filter_map(|v| v.as_u64().map(|i| i as usize)).collect())
+                .unwrap_or_default();
+            let anim = &base.doc["animations"][base.anim];
+            builder.samplers = list(anim, "samplers");
+            builder.channels = list(anim, "channels");
+            builder.names = (0..builder.nodes.len()).map(|i| builder.node_name(i)).collect();
+            builder.len = base.bin.len();
+            builder.pieces.push((0, std::mem::take(&mut base.bin)));
+            kept_base = Some((base.doc, base.anim, base.scene));
+        }
+        let mut bk = Bake {
+            plan,
+            src,
+            frames: frames.clone(),
+            y_up,
+            b: builder,
+            series_nodes: BTreeMap::new(),
+            characters: BTreeMap::new(),
+            base: bake.base,
+        };
+        let (tmin, tmax) = (
+            times.first().copied().unwrap_or(0.0),
+            times.last().copied().unwrap_or(0.0),
+        );
+        bk.b.time_accessor =
+            bk.b.floats(&times, "SCALAR", times.len(), Some((vec![tmin], vec![tmax])));
+        let mut fills = Vec::new();
+        for item in &bake.items {
+            let width = plan.nodes[item.node].outputs[item.output].width();
+            match item.shape.kind {
+                PortKind::Vec3 | PortKind::Transform => {
+                    bk.series_node(item.node, item.output);
+                }
+                PortKind::Points => match item.chain {
+                    None => {
+                        let mut points = Vec::with_capacity(item.shape.points);
+                        for p in 0..item.shape.points {
+                            let name = format!("{}.p{p}", item.name);
+                            let n =
+                                bk.b.node(&name, Some(Names::of(&name).series(&item.name).point(p)), None);
+                            points.push((n, bk.b.channel_space(n, "translation", 3, frames.len())));
+                        }
+                        fills.push(Fill::Points {
+                            node: item.node,
+                            output: item.output,
+                            width,
+                            points,
+                        });
+                    }
+                    Some(c) => fills.push(Fill::Chains {
+                        fill: Box::new(bk.chains(item, c)?),
+                        width,
+                    }),
+                },
+                PortKind::Scalar | PortKind::Flag => return Err(format!("`{}` cannot be baked", item.name)),
+            }
+        }
+        if let Some(e) = overflow_error(plan, &frames, bk.b.overflow.as_ref()) {
+            return Err(e);
+        }
+        let mut b = bk.b;
+        // The buffer laid out whole, zero where the windows will write; what is known now in
+        // place. A .glb's lengths are 32-bit: a bake too large for one is refused before any
+        // frame is evaluated into it.
+        if bake.format == BakeFormat::Glb && !glb_fits(1 << 20, b.len) {
+            return Err(format!(
+                "the bake needs {:.2} GiB of buffer, more than a .glb file can hold (4 GiB, glTF 2.0 section 4.4.3): \
+                 bake fewer strands, joints or frames, or bake to a .gltf with a separate .bin",
+                b.len as f64 / (1u64 << 30) as f64
+            ));
+        }
+        store.set_len(b.len)?;
+        for (at, bytes) in std::mem::take(&mut b.pieces) {
+            store.write_at(at, &bytes)?;
+        }
+        Ok(BakeWriter {
+            plan,
+            bake,
+            frames,
+            y_up,
+            b,
+            fills,
+            store,
+            base: kept_base,
+        })
+    }
+
+    /// Fills the baked frames of `src`'s window.
+    pub fn window(&mut self, src: &Frames<'_>) -> Result<(), String> {
+        let range = src.range.start.max(self.frames.start)..src.range.end.min(self.frames.end);
+        if range.is_empty() {
+            return Ok(());
+        }
+        let axes = BakeAxes { y_up: self.y_up };
+        let k0 = range.start - self.frames.start;
+        for fill in &mut self.fills {
+            match fill {
+                Fill::Points {
+                    node,
+                    output,
+                    width,
+                    points,
+                } => {
+                    for (p, &(n, at)) in points.iter().enumerate() {
+                        let mut keys = Vec::with_capacity(12 * range.len());
+                        for (kk, i) in range.clone().enumerate() {
+                            let f = src.frame(*node, *output, i, *width);
+                            let t = axes.pos([f[3 * p], f[3 * p + 1], f[3 * p + 2]]);
+                            if k0 + kk == 0 {
+                                self.b.rest(n, Some(t), None, None);
+                            }
+                            if let Some(v) = t.into_iter().find(|v| !(*v as f32).is_finite()) {
+                                self.b.fits("translation", n, std::iter::once(v), 1);
+                                let e = (self.b.overflow.take().map(|(w, _, v)| (w, k0 + kk, v)))
+                                    .and_then(|o| overflow_error(self.plan, &self.frames, Some(&o)));
+                                return Err(e.unwrap_or_default());
+                            }
+                            for v in t {
+                                keys.extend_from_slice(&(v as f32).to_le_bytes());
+                            }
+                        }
+                        self.store.write_at(at + 12 * k0, &keys)?;
                     }
                 }
-                Some(c) => bk.chains(item, c)?,
-            },
-            PortKind::Scalar | PortKind::Flag => return Err(format!("`{}` cannot be baked", item.name)),
+                Fill::Chains { fill, width } => {
+                    if let Some((joint, k, v)) = fill.window(
+                        src,
+                        axes,
+                        &self.frames,
+                        range.clone(),
+                        *width,
+                        &mut self.b,
+                        &mut self.store,
+                    )? {
+                        let name = self.b.node_name(joint);
+                        let o = (format!("the translation of `{name}`"), k, v);
+                        return Err(overflow_error(self.plan, &self.frames, Some(&o)).unwrap_or_default());
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// The finished document (its buffer described, its data not in it).
+    fn document(&mut self) -> Document {
+        let tl = self.plan.timeline;
+        let stem = std::path::Path::new(&self.bake.file)
+            .file_stem()
+            .and_then(|s| s.to_str())
+            .unwrap_or("bake")
+            .to_owned();
+        let b = &mut self.b;
+        let first_frame = tl.frame_number(self.frames.start);
+        let rate = format!("{}/{}", tl.rate_num, tl.rate_den);
+        let heft_extras = json!({
+            "first_frame": first_frame,
+            "frame_count": self.frames.len(),
+            "frame_rate": rate,
+            "fps": tl.fps(),
+            "axes": if self.y_up { "y_up" } else { "z_up" },
+            "time_accessor": b.time_accessor,
+            "clip": self.base.as_ref().map_or(0, |b| b.1),
+        });
+        let channels = std::mem::take(&mut b.channels);
+        let samplers = std::mem::take(&mut b.samplers);
+        let (mut rest, animations) = match self.base.take() {
+            None => {
+                let rest = json!({
+                    "asset": {
+                        "version": "2.0",
+                        "generator": concat!("heft ", env!("CARGO_PKG_VERSION")),
+                    },
+                    "scene": 0,
+                    "scenes": [{"name": tool_name(&stem), "nodes": b.roots}],
+                });
+                let mut named = serde_json::Map::new();
+                named.insert("name".to_owned(), json!(tool_name(&stem)));
+                let ours = Animation::Made {
+                    rest: named,
+                    channels,
+                    samplers,
+                };
+                (rest, vec![ours])
+            }
+            Some((mut doc, anim, scene)) => {
+                doc["scenes"][scene]["nodes"] = json!(b.roots);
+                let read = doc
+                    .as_object_mut()
+                    .and_then(|o| o.remove("animations"))
+                    .and_then(|a| if let Value::Array(a) = a { Some(a) } else { None })
+                    .unwrap_or_default();
+                let mut animations = Vec::with_capacity(read.len());
+                let (mut channels, mut samplers) = (Some(channels), Some(samplers));
+                for (k, a) in read.into_iter().enumerate() {
+                    if k == anim {
+                        let mut rest = if let Value::Object(o) = a {
+                            o
+                        } else {
+                            serde_json::Map::new()
+                        };
+                        rest.remove("channels");
+                        rest.remove("samplers");
+                        animations.push(Animation::Made {
+                            rest,
+                            channels: channels.take().unwrap_or_default(),
+                            samplers: samplers.take().unwrap_or_default(),
+                        });
+                    } else {
+                        animations.push(Animation::Read(a));
+                    }
+                }
+                (doc, animations)
+            }
+        };
+        rest["asset"]["extras"]["heft"] = heft_extras;
+        let mut rest = if let Value::Object(o) = rest {
+            o
+        } else {
+            serde_json::Map::new()
+        };
+        for key in ["nodes", "accessors", "bufferViews", "skins", "buffers", "animations"] {
+            rest.remove(key);
+        }
+        Document {
+            rest,
+            nodes: std::mem::take(&mut b.nodes),
+            accessors: std::mem::take(&mut b.accessors),
+            views: std::mem::take(&mut b.views),
+            skins: std::mem::take(&mut b.skins),
+            animations,
+            buffers: vec![json!({"byteLength": b.len})],
         }
     }
-    if let Some((what, key, value)) = &bk.b.overflow {
-        return Err(format!(
+
+    /// The .glb's header, its document chunk and the header of its binary chunk.
+    fn glb_head(doc: &Document, len: usize) -> Result<Vec<u8>, String> {
+        let mut json_bytes = serde_json::to_vec(doc).map_err(|e| e.to_string())?;
+        while !json_bytes.len().is_multiple_of(4) {
+            json_bytes.push(b' ');
+        }
+        let bin = len.next_multiple_of(4);
+        if !glb_fits(json_bytes.len(), bin) {
+            return Err("the bake is larger than a .glb file can hold (4 GiB)".to_owned());
+        }
+        let total = (12 + 8 + json_bytes.len() + 8 + bin) as u32;
+        let mut head = Vec::with_capacity(12 + 8 + json_bytes.len() + 8);
+        head.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
+        head.extend_from_slice(&2u32.to_le_bytes());
+        head.extend_from_slice(&total.to_le_bytes());
+        head.extend_from_slice(&(json_bytes.len() as u32).to_le_bytes());
+        head.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
+        head.extend_from_slice(&json_bytes);
+        head.extend_from_slice(&(bin as u32).to_le_bytes());
+        head.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
+        Ok(head)
+    }
+
+    /// The name of the separate buffer of a `.gltf` bake, and its URI from the `.gltf`.
+    fn bin_name(&self) -> (String, String) {
+        let bin_name = std::path::Path::new(&self.bake.file).with_extension("bin");
+        let uri = bin_name
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        (bin_name.to_string_lossy().into_owned(), uri)
+    }
+
+    /// The files of a bake kept in memory ([`BinStore::Memory`]).
+    pub fn finish_in_memory(mut self) -> Result<Vec<FileParts>, String> {
+        let mut doc = self.document();
+        let BinStore::Memory(mut bin) = std::mem::replace(&mut self.store, BinStore::Memory(Vec::new())) else {
+            return Err("the bake's buffer is not in memory".to_owned());
+        };
+        match self.bake.format {
+            BakeFormat::Glb => {
+                let head = Self::glb_head(&doc, bin.len())?;
+                bin.resize(bin.len().next_multiple_of(4), 0);
+                Ok(vec![(self.bake.file.clone(), vec![head, bin])])
+            }
+            BakeFormat::GltfEmbedded => {
+                let data = base64::engine::general_purpose::STANDARD.encode(&bin);
+                doc.buffers[0]["uri"] = json!(format!("data:application/octet-stream;base64,{data}"));
+                Ok(vec![(
+                    self.bake.file.clone(),
+                    vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
+                )])
+            }
+            BakeFormat::GltfSeparate => {
+                let (bin_file, uri) = self.bin_name();
+                doc.buffers[0]["uri"] = json!(uri);
+                Ok(vec![
+                    (
+                        self.bake.file.clone(),
+                        vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
+                    ),
+                    (bin_file, vec![bin]),
+                ])
+            }
+        }
+    }
+
+    /// Stages the files of a bake kept in a file ([`BinStore::File`]) in `staged` (the `.bin`
+    /// itself for a separate buffer; the `.glb` or embedded `.gltf` written from it), and
+    /// returns their names.
+    pub fn finish_staged(
+        mut self,
+        staged: &mut Transaction<'_>,
+        dir: &std::path::Path,
+    ) -> Result<Vec<String>, WriteError> {
+        let target = dir.join(&self.bake.file);
+        let err = |e: String| WriteError {
+            path: target.clone(),
+            reason: e,
+        };
+        let mut doc = self.document();
+        let len = self.b.len;
+        let BinStore::File(mut bin) = std::mem::replace(&mut self.store, BinStore::Memory(Vec::new())) else {
+            return Err(err("the bake's buffer is not in a file".to_owned()));
+        };
+        let io = |e: std::io::Error| WriteError {
+            path: target.clone(),
+            reason: e.to_string(),
+        };
+        match self.bake.format {
+            BakeFormat::Glb => {
+                let head = Self::glb_head(&doc, len).map_err(err)?;
+                bin.set_len(len.next_multiple_of(4) as u64).map_err(io)?;
+                let mut file = staged.create(&target)?;
+                file.write_all(&head).map_err(io)?;
+                file.append_file(&mut bin).map_err(io)?;
+                staged.add(file)?;
+                Ok(vec![self.bake.file.clone()])
+            }
+            BakeFormat::GltfEmbedded => {
+                // The document around its data URI, the data streamed from the buffer's file in
+                // whole groups of 3 bytes (so the pieces join into one base64 text).
+                const MARK: &str = "heft-buffer-data";
+                doc.buffers[0]["uri"] = json!(format!("data:application/octet-stream;base64,{MARK}"));
+                let text = serde_json::to_vec_pretty(&doc).map_err(|e| err(e.to_string()))?;
+                let at = text
+                    .windows(MARK.len())
+                    .position(|w| w == MARK.as_bytes())
+                    .ok_or_else(|| err("the document lost its buffer".to_owned()))?;
+                let mut file = staged.create(&target)?;
+                file.write_all(&text[..at]).map_err(io)?;
+                let mut chunk = vec![0u8; 3 << 20];
+                let mut pos = 0u64;
+                loop {
+                    let mut filled = 0;
+                    while filled < chunk.len() {
+                        let n = bin.read_at(pos + filled as u64, &mut chunk[filled..]).map_err(io)?;
+                        if n == 0 {
+                            break;
+                        }
+                        filled += n;
+                    }
+                    if filled == 0 {
+                        break;
+                    }
+                    pos += filled as u64;
+                    let encoded = base64::engine::general_purpose::STANDARD.encode(&chunk[..filled]);
+                    file.write_all(encoded.as_bytes()).map_err(io)?;
+                    if filled < chunk.len() {
+                        break;
+                    }
+                }
+                file.write_all(&text[at + MARK.len()..]).map_err(io)?;
+                staged.add(file)?;
+                Ok(vec![self.bake.file.clone()])
+            }
+            BakeFormat::GltfSeparate => {
+                let (bin_file, uri) = self.bin_name();
+                doc.buffers[0]["uri"] = json!(uri);
+                let text = serde_json::to_vec_pretty(&doc).map_err(|e| err(e.to_string()))?;
+                staged.stage(&target, &[&text])?;
+                staged.add(bin)?;
+                Ok(vec![self.bake.file.clone(), bin_file])
+            }
+        }
+    }
+}
+
+/// The error for a value beyond a 32-bit float: (what, key within the bake, value).
+fn overflow_error(plan: &Plan, frames: &std::ops::Range<usize>, o: Option<&(String, usize, f64)>) -> Option<String> {
+    o.map(|(what, key, value)| {
+        format!(
             "{what} at frame {} is {value:e}, beyond what glTF's 32-bit floats hold (3.4e38): check the data \
              that drives it",
-            tl.frame_number(frames.start + key)
-        ));
-    }
-    let stem = std::path::Path::new(&bake.file)
-        .file_stem()
-        .and_then(|s| s.to_str())
-        .unwrap_or("bake")
-        .to_owned();
-    let b = bk.b;
-    let first_frame = tl.frame_number(frames.start);
-    let rate = format!("{}/{}", tl.rate_num, tl.rate_den);
-    let heft_extras = json!({
-        "first_frame": first_frame,
-        "frame_count": frames.len(),
-        "frame_rate": rate,
-        "fps": tl.fps(),
-        "axes": if y_up { "y_up" } else { "z_up" },
-        "time_accessor": b.time_accessor,
-        "clip": base.as_ref().map_or(0, |b| b.anim),
-    });
-    let mut doc = match base {
-        None => {
-            let mut doc = json!({
-                "asset": {
-                    "version": "2.0",
-                    "generator": concat!("heft ", env!("CARGO_PKG_VERSION")),
-                },
-                "scene": 0,
-                "scenes": [{"name": tool_name(&stem), "nodes": b.roots}],
-                "nodes": b.nodes,
-                "animations": [{"name": tool_name(&stem), "channels": b.channels, "samplers": b.samplers}],
-            });
-            if !b.skins.is_empty() {
-                doc["skins"] = json!(b.skins);
-            }
-            doc
-        }
-        Some(base) => {
-            let mut doc = base.doc;
-            doc["scenes"][base.scene]["nodes"] = json!(b.roots);
-            doc["nodes"] = json!(b.nodes);
-            doc["animations"][base.anim]["channels"] = json!(b.channels);
-            doc["animations"][base.anim]["samplers"] = json!(b.samplers);
-            if !b.skins.is_empty() {
-                doc["skins"] = json!(b.skins);
-            }
-            doc
-        }
-    };
-    doc["asset"]["extras"]["heft"] = heft_extras;
-    doc["accessors"] = json!(b.accessors);
-    doc["bufferViews"] = json!(b.views);
-    doc["buffers"] = json!([{"byteLength": b.bin.len()}]);
-    match bake.format {
-        BakeFormat::Glb => {
-            let mut json_bytes = serde_json::to_vec(&doc).map_err(|e| e.to_string())?;
-            while !json_bytes.len().is_multiple_of(4) {
-                json_bytes.push(b' ');
-            }
-            let mut bin = b.bin;
-            while !bin.len().is_multiple_of(4) {
-                bin.push(0);
-            }
-            let total = 12 + 8 + json_bytes.len() + 8 + bin.len();
-            let total = u32::try_from(total).map_err(|_| "the bake is larger than a .glb file can hold (4 GiB)")?;
-            let mut head = Vec::with_capacity(12 + 8 + json_bytes.len() + 8);
-            head.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
-            head.extend_from_slice(&2u32.to_le_bytes());
-            head.extend_from_slice(&total.to_le_bytes());
-            head.extend_from_slice(&(json_bytes.len() as u32).to_le_bytes());
-            head.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
-            head.extend_from_slice(&json_bytes);
-            head.extend_from_slice(&(bin.len() as u32).to_le_bytes());
-            head.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
-            Ok(vec![(bake.file.clone(), vec![head, bin])])
-        }
-        BakeFormat::GltfEmbedded => {
-            let data = base64::engine::general_purpose::STANDARD.encode(&b.bin);
-            doc["buffers"][0]["uri"] = json!(format!("data:application/octet-stream;base64,{data}"));
-            Ok(vec![(
-                bake.file.clone(),
-                vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
-            )])
-        }
-        BakeFormat::GltfSeparate => {
-            let bin_name = std::path::Path::new(&bake.file).with_extension("bin");
-            let bin_file = bin_name.to_string_lossy().into_owned();
-            let uri = bin_name
-                .file_name()
-                .map(|n| n.to_string_lossy().into_owned())
-                .unwrap_or_default();
-            doc["buffers"][0]["uri"] = json!(uri);
-            Ok(vec![
-                (
-                    bake.file.clone(),
-                    vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
-                ),
-                (bin_file, vec![b.bin]),
-            ])
-        }
-    }
+            plan.timeline.frame_number(frames.start + key)
+        )
+    })
+}
+
+/// The files of one bake of a whole evaluation, in memory; a separate-buffer .gltf adds its
+/// .bin file.
+pub fn bake_files(plan: &Plan, eval: &Evaluation, bake: &PlannedBake) -> Result<Vec<FileParts>, String> {
+    let all = Frames::of(eval, 0..plan.timeline.frames());
+    let mut w = BakeWriter::open(plan, bake, &all, BinStore::Memory(Vec::new()))?;
+    w.window(&all)?;
+    w.finish_in_memory()
 }
 
 #[cfg(test)]

@@ -72,14 +72,14 @@ pub struct ParquetWriter {
 }
 
 /// A Parquet file being written (see [`ParquetWriter::start`]).
-pub struct ParquetFile<'a, W: Write + Send> {
-    writer: &'a ParquetWriter,
+pub struct ParquetFile<W: Write + Send> {
+    writer: ParquetWriter,
     file: SerializedFileWriter<W>,
     /// The next frame expected: windows come in order, without gaps.
     next: Option<usize>,
 }
 
-impl<W: Write + Send> std::fmt::Debug for ParquetFile<'_, W> {
+impl<W: Write + Send> std::fmt::Debug for ParquetFile<W> {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.debug_struct("ParquetFile")
             .field("next", &self.next)
@@ -210,22 +210,22 @@ impl ParquetWriter {
     }
 
     /// Starts a file on `out` (the magic bytes are written at once).
-    pub fn start<W: Write + Send>(&self, out: W) -> Result<ParquetFile<'_, W>, String> {
+    pub fn start<W: Write + Send>(&self, out: W) -> Result<ParquetFile<W>, String> {
         let file = SerializedFileWriter::new(out, self.schema.clone(), self.properties.clone()).map_err(perr)?;
         Ok(ParquetFile {
-            writer: self,
+            writer: self.clone(),
             file,
             next: None,
         })
     }
 }
 
-impl<W: Write + Send> ParquetFile<'_, W> {
+impl<W: Write + Send> ParquetFile<W> {
     /// Appends the rows of the timeline's frames `frames` (in order after the frames written
     /// before), whose values are `values`: the output's values per frame, frame-major, the
     /// first frame of the range first.
     pub fn write_frames(&mut self, frames: Range<usize>, values: &[f64]) -> Result<(), String> {
-        let w = self.writer;
+        let w = &self.writer;
         if values.len() != frames.len() * w.width {
             return Err(format!(
                 "{} values for {} frames of {} values",
