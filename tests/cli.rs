@@ -342,7 +342,11 @@ fn impossible_requests_are_refused_before_any_work() {
     let graph = dir.path().join("huge.graph");
     std::fs::write(
         &graph,
-        "format 1\nrate 1000 fps\nframes 1..10000000\nhair = xpbd.strand\n    count = 4096\n    segments = 255\nwrite hair.positions\n",
+        // The strands' positions read whole by another node (a write alone would take them a
+        // window at a time).
+        "format 1\nrate 1000 fps\nframes 1..10000000\nhair = xpbd.strand\n    count = 4096\n    segments = 255\n    \
+         pin = free\ntail = xpbd.strand\n    count = 4096\n    segments = 255\n    pin = free\n\
+         hair.positions -> tail.initial_positions\nwrite hair.positions\n",
     )
     .expect("write");
     let o = heft()
