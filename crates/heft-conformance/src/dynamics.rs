@@ -860,7 +860,8 @@ fn wild_setup(subject: &Subject, d: &Dynamics, case: &WildCase) -> Setup {
 /// timeline, each optional anchor connected where the case leaves it unconnected and the other
 /// way round), and the case is called a third time: all
 /// three must agree bit for bit, every value must be finite, and an error must be the same each
-/// time. Fails also when the node refused every case.
+/// time. A node that runs in windows of frames (ABI 1.3) is also run in windows of one frame and
+/// of two, which must give the same bits. Fails also when the node refused every case.
 pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -> Result<(), Failure> {
     contract(subject, d)?;
     let optional: Vec<bool> = d
@@ -923,6 +924,42 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
             let b = subject.run_filled(&setup, SENTINEL);
             let _ = subject.run(&wild_setup(subject, d, &other));
             let c = subject.run(&setup);
+            // In windows, as `heft run` evaluates it: the same result, or the same error.
+            let windowed = || {
+                if !subject.windowed() {
+                    return None;
+                }
+                [1, 2].iter().find_map(|&w| {
+                    let r = subject.run_in_windows(&setup, w);
+                    let differs = match (&a, &r) {
+                        (Ok(x), Ok(y)) => compare(x, y).err().map(|v| match v {
+                            Verdict::Fail { message, frame, .. } => Verdict::Fail {
+                                message: format!(
+                                    "the result depends on the windows of frames it is evaluated in: in windows of \
+                                     {w} frame(s), {}",
+                                    message
+                                        .replacen("two identical calls differ: ", "", 1)
+                                        .replacen("the first time", "whole", 1)
+                                        .replacen("the second", "in windows", 1)
+                                ),
+                                frame,
+                                property: Some(Property::History),
+                            },
+                            r => r,
+                        }),
+                        (Err(x), Err(y)) if x == y => None,
+                        (x, y) => Some(
+                            Verdict::fail(format!(
+                                "whole and in windows of {w} frame(s) do not succeed or fail alike: {}, {}",
+                                outcome(x),
+                                outcome(y)
+                            ))
+                            .about(Property::History),
+                        ),
+                    };
+                    differs
+                })
+            };
             ran.set(ran.get() + 1);
             let verdict = match (&a, &b, &c) {
                 (Err(RunError::Setup(m)), _, _) => Err(Verdict::Reject(m.clone())),
@@ -966,6 +1003,8 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
                     outcome(&c)
                 ))),
             };
+            // Only a node that passes the rest is run in windows (its failure would be the rest's).
+            let verdict = verdict.and_then(|()| windowed().map_or(Ok(()), Err));
             verdict.map_err(|v| (v, text))
         },
     )?;

@@ -209,6 +209,22 @@ impl Subject {
     /// [`Subject::run`] with every output buffer pre-filled with `fill` (the host fills with
     /// zeros; a different fill shows values the node never writes).
     pub fn run_filled(&self, setup: &Setup, fill: f64) -> Result<Run, RunError> {
+        self.run_with(setup, fill, None)
+    }
+
+    /// True when the node type runs in windows of frames (ABI 1.3, `Node::WINDOWED`).
+    pub fn windowed(&self) -> bool {
+        self.plugin.windowed(self.index)
+    }
+
+    /// [`Subject::run`] in windows of `window` frames (the last may be shorter), through
+    /// `Plugin::advance` with one carry, the windows joined: what `heft run` does with a node
+    /// that runs in windows. A node that does not is run whole.
+    pub fn run_in_windows(&self, setup: &Setup, window: usize) -> Result<Run, RunError> {
+        self.run_with(setup, 0.0, Some(window.max(1)))
+    }
+
+    fn run_with(&self, setup: &Setup, fill: f64, window: Option<usize>) -> Result<Run, RunError> {
         let values = self.param_values(setup).map_err(RunError::Setup)?;
         let bytes = Plugin::encode_params(&values).map_err(RunError::Setup)?;
         let tl = setup.timeline;
@@ -263,7 +279,48 @@ impl Subject {
             .collect();
         let mut outputs: Vec<Vec<f64>> = shape.iter().map(|w| vec![fill; w * frames]).collect();
         let mut summaries = vec![f64::NAN; self.spec.summaries.len()];
-        let warnings = {
+        let node_error = |e: heft_node_sdk::host::CallError| RunError::Node {
+            status: e.status,
+            message: e.message,
+        };
+        let warnings = if let Some(step) = window.filter(|_| self.windowed()) {
+            let mut carry = heft_node_sdk::host::Carry::new(self.index);
+            let mut warnings = Vec::new();
+            let mut first = 0;
+            while first < frames {
+                let count = step.min(frames - first);
+                let mut part: Vec<Vec<f64>> = shape.iter().map(|w| vec![fill; w * count]).collect();
+                let mut views: Vec<(&mut [f64], usize)> = part
+                    .iter_mut()
+                    .zip(&shape)
+                    .map(|(v, w)| (v.as_mut_slice(), *w))
+                    .collect();
+                let w = heft_node_sdk::abi::Window {
+                    first: first as u64,
+                    count: count as u64,
+                };
+                warnings.extend(
+                    self.plugin
+                        .advance(
+                            self.index,
+                            &bytes,
+                            tl,
+                            w,
+                            &inputs,
+                            &mut views,
+                            &mut summaries,
+                            1,
+                            &mut carry,
+                        )
+                        .map_err(node_error)?,
+                );
+                for ((out, part), width) in outputs.iter_mut().zip(&part).zip(&shape) {
+                    out[first * width..(first + count) * width].copy_from_slice(part);
+                }
+                first += count;
+            }
+            warnings
+        } else {
             let mut views: Vec<(&mut [f64], usize)> = outputs
                 .iter_mut()
                 .zip(&shape)
@@ -271,10 +328,7 @@ impl Subject {
                 .collect();
             self.plugin
                 .evaluate(self.index, &bytes, tl, &inputs, &mut views, &mut summaries)
-                .map_err(|e| RunError::Node {
-                    status: e.status,
-                    message: e.message,
-                })?
+                .map_err(node_error)?
         };
         let n = self
             .spec

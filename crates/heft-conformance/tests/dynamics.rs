@@ -51,6 +51,24 @@ fn memory_across_calls_fails_independence_of_call_history() {
     );
 }
 
+/// A node that runs in windows of frames but forgets its state between them gives other results
+/// in windows than whole: found, as a result that depends on how it is called.
+#[test]
+fn forgetting_between_windows_fails_independence_of_call_history() {
+    let subject = open("leaky.forgetful");
+    assert!(subject.windowed());
+    let f = check_history(&subject, &follower(), &Tolerances::default()).expect_err("the forgetting is found");
+    assert_eq!(f.property, Property::History, "{f}");
+    assert!(
+        f.message
+            .starts_with("the result depends on the windows of frames it is evaluated in: in windows of 1 frame(s)"),
+        "{f}"
+    );
+    // The follower itself runs in windows too, and gives the same bits (it passes every
+    // property above).
+    assert!(open("leaky.follower").windowed());
+}
+
 #[test]
 fn a_declaration_that_does_not_fit_is_named_piece_by_piece() {
     let d = Dynamics::new("position", "speed", Mass::Each("weight".into()))
