@@ -931,7 +931,7 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
                 }
                 [1, 2].iter().find_map(|&w| {
                     let r = subject.run_in_windows(&setup, w);
-                    let differs = match (&a, &r) {
+                    match (&a, &r) {
                         (Ok(x), Ok(y)) => compare(x, y).err().map(|v| match v {
                             Verdict::Fail { message, frame, .. } => Verdict::Fail {
                                 message: format!(
@@ -956,8 +956,7 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
                             ))
                             .about(Property::History),
                         ),
-                    };
-                    differs
+                    }
                 })
             };
             ran.set(ran.get() + 1);

@@ -187,7 +187,7 @@ pub fn write_all(
 /// A planned `write` going out window by window.
 enum Stream {
     Csv(CsvWriter, StagedFile),
-    Parquet(ParquetFile<StagedFile>, Vec<String>),
+    Parquet(Box<ParquetFile<StagedFile>>, Vec<String>),
 }
 
 /// Where a bake's buffer is staged while it is filled: its `.bin` for a `.gltf` with a separate
@@ -264,7 +264,7 @@ impl<'a> Writer<'a> {
                     WriteFormat::Parquet => {
                         let parquet = ParquetWriter::new(plan, w).map_err(|e| werr(&path, e))?;
                         let names = parquet.column_names()[2..].to_vec();
-                        Stream::Parquet(parquet.start(file).map_err(|e| werr(&path, e))?, names)
+                        Stream::Parquet(Box::new(parquet.start(file).map_err(|e| werr(&path, e))?), names)
                     }
                 });
             }
