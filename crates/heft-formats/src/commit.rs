@@ -255,19 +255,6 @@ impl StagedFile {
         }
     }
 
-    /// Appends the whole of `from` (written and flushed) to this file, by the system's copy
-    /// where it has one.
-    pub fn append_file(&mut self, from: &mut StagedFile) -> std::io::Result<u64> {
-        use std::io::{Seek, SeekFrom};
-        from.file.flush()?;
-        self.file.flush()?;
-        let src = from.file.get_mut().as_file_mut();
-        src.seek(SeekFrom::Start(0))?;
-        let dst = self.file.get_mut().as_file_mut();
-        dst.seek(SeekFrom::End(0))?;
-        std::io::copy(src, dst)
-    }
-
     /// Reads up to `buf.len()` bytes from byte `at` of the file (what was written and flushed);
     /// returns how many were read (0 at the end).
     pub fn read_at(&mut self, at: u64, buf: &mut [u8]) -> std::io::Result<usize> {

@@ -227,16 +227,16 @@ struct Node {
 /// A bake's whole document: what it keeps of a character's own file (`rest`), and the lists it
 /// made or extended, typed.
 #[derive(Debug, Serialize)]
-struct Document {
+struct Document<'a> {
     #[serde(flatten)]
     rest: serde_json::Map<String, Value>,
-    nodes: Vec<Entry<Node>>,
-    accessors: Vec<Entry<Accessor>>,
+    nodes: &'a [Entry<Node>],
+    accessors: &'a [Entry<Accessor>],
     #[serde(rename = "bufferViews")]
-    views: Vec<Entry<View>>,
-    #[serde(skip_serializing_if = "Vec::is_empty")]
-    skins: Vec<Entry<Skin>>,
-    animations: Vec<Animation>,
+    views: &'a [Entry<View>],
+    #[serde(skip_serializing_if = "<[Entry<Skin>]>::is_empty")]
+    skins: &'a [Entry<Skin>],
+    animations: Vec<Animation<'a>>,
     buffers: Vec<Value>,
 }
 
@@ -244,13 +244,13 @@ struct Document {
 /// clip it was read from, with the bake's channels added to its own).
 #[derive(Debug, Serialize)]
 #[serde(untagged)]
-enum Animation {
+enum Animation<'a> {
     Read(Value),
     Made {
         #[serde(flatten)]
         rest: serde_json::Map<String, Value>,
-        channels: Vec<Entry<Channel>>,
-        samplers: Vec<Entry<Sampler>>,
+        channels: &'a [Entry<Channel>],
+        samplers: &'a [Entry<Sampler>],
     },
 }
 
@@ -808,7 +808,8 @@ fn rigid_of(f: &[f64]) -> Rigid {
 impl ChainFill {
     /// Fills timeline frames `range` (inside the baked frames `baked`): each joint's local
     /// translation and rotation keys, and at the first baked frame the rest pose (into `b`'s
-    /// nodes) and each strand's inverse bind matrices, written into `store` a strand at a time.
+    /// nodes) and each strand's inverse bind matrices, written into `store` (the buffer from
+    /// byte `base`) a strand at a time.
     /// Stops at the first translation that does not fit a 32-bit float: `Ok(Some((joint node,
     /// key, value)))`.
     #[allow(clippy::too_many_arguments)]
@@ -821,6 +822,7 @@ impl ChainFill {
         width: usize,
         b: &mut Builder,
         store: &mut BinStore,
+        base: usize,
     ) -> Result<Option<(usize, usize, f64)>, String> {
         let c = self.c;
         let k0 = range.start - baked.start;
@@ -879,7 +881,7 @@ impl ChainFill {
                             ibm.extend_from_slice(&v.to_le_bytes());
                         }
                     }
-                    store.write_at(self.matrices[s], &ibm)?;
+                    store.write_at(base + self.matrices[s], &ibm)?;
                 }
                 // Local transforms: each joint in its parent's frame (the anchor's for the root).
                 for j in 0..c {
@@ -916,8 +918,8 @@ impl ChainFill {
             }
             for j in 0..c {
                 let (tp, rp) = self.places[s * c + j];
-                store.write_at(tp + 12 * k0, &t_keys[j])?;
-                store.write_at(rp + 16 * k0, &r_keys[j])?;
+                store.write_at(base + tp + 12 * k0, &t_keys[j])?;
+                store.write_at(base + rp + 16 * k0, &r_keys[j])?;
             }
         }
         self.prev_parent = parents.last().copied();
@@ -1118,6 +1120,11 @@ pub struct BakeWriter<'p> {
     b: Builder,
     fills: Vec<Fill>,
     store: BinStore,
+    /// Where the buffer starts in `store`: for a .glb in a file, after the room kept for its
+    /// header, its document and its buffer's chunk header, so the one file becomes the .glb.
+    at: usize,
+    /// The room kept for a .glb's document (0 when the document is written apart).
+    room: usize,
     /// The character's own document the bake is written into: (document, clip, scene).
     base: Option<(Value, usize, usize)>,
 }
@@ -1140,7 +1147,7 @@ fn glb_fits(json: usize, bin: usize) -> bool {
 impl<'p> BakeWriter<'p> {
     /// Lays out `bake`, writing what is known before the windows (from `src`: every node
     /// evaluated before them, whole) into `store`.
-    pub fn open(plan: &'p Plan, bake: &'p PlannedBake, src: &Frames<'_>, mut store: BinStore) -> Result<Self, String> {
+    pub fn open(plan: &'p Plan, bake: &'p PlannedBake, src: &Frames<'_>, store: BinStore) -> Result<Self, String> {
         let tl = plan.timeline;
         let frames = baked_frames(plan, bake);
         if frames.is_empty() {
@@ -1267,11 +1274,8 @@ impl<'p> BakeWriter<'p> {
                 b.len as f64 / (1u64 << 30) as f64
             ));
         }
-        store.set_len(b.len)?;
-        for (at, bytes) in std::mem::take(&mut b.pieces) {
-            store.write_at(at, &bytes)?;
-        }
-        Ok(BakeWriter {
+        let pieces = std::mem::take(&mut b.pieces);
+        let mut w = BakeWriter {
             plan,
             bake,
             frames,
@@ -1279,8 +1283,63 @@ impl<'p> BakeWriter<'p> {
             b,
             fills,
             store,
+            at: 0,
+            room: 0,
             base: kept_base,
-        })
+        };
+        if bake.format == BakeFormat::Glb && matches!(w.store, BinStore::File(_)) {
+            w.room = w.document_bound()?;
+            w.at = 12 + 8 + w.room + 8;
+        }
+        w.store.set_len(w.at + w.b.len)?;
+        for (at, bytes) in pieces {
+            w.store.write_at(w.at + at, &bytes)?;
+        }
+        Ok(w)
+    }
+
+    /// A bound on the length of the finished document, whatever the windows fill in: the
+    /// document with every rest value the windows will set written as `1.0` (3 characters),
+    /// plus 13 characters for each (a 32-bit float takes at most 15 in the shortest form that
+    /// reads back to it, and 16 are counted), rounded up to 4 bytes.
+    fn document_bound(&mut self) -> Result<usize, String> {
+        let mut set: Vec<usize> = Vec::new();
+        for fill in &self.fills {
+            match fill {
+                Fill::Points { points, .. } => set.extend(points.iter().map(|(n, _)| *n)),
+                Fill::Chains { fill, .. } => set.extend(fill.joints.iter().copied()),
+            }
+        }
+        let mut floats = 0usize;
+        let mut changed = Vec::new();
+        for &n in &set {
+            if let Entry::Made(node) = &mut self.b.nodes[n] {
+                let (t, r) = (node.translation.is_none(), node.rotation.is_none());
+                if t {
+                    node.translation = Some([1.0; 3]);
+                    floats += 3;
+                }
+                if r {
+                    node.rotation = Some([1.0; 4]);
+                    floats += 4;
+                }
+                changed.push((n, t, r));
+            }
+        }
+        let mut counted = Counted(0);
+        serde_json::to_writer(&mut counted, &self.document()).map_err(|e| e.to_string())?;
+        let len = counted.0;
+        for (n, t, r) in changed {
+            if let Entry::Made(node) = &mut self.b.nodes[n] {
+                if t {
+                    node.translation = None;
+                }
+                if r {
+                    node.rotation = None;
+                }
+            }
+        }
+        Ok((len + 13 * floats).next_multiple_of(4))
     }
 
     /// Fills the baked frames of `src`'s window.
@@ -1317,7 +1376,7 @@ impl<'p> BakeWriter<'p> {
                                 keys.extend_from_slice(&(v as f32).to_le_bytes());
                             }
                         }
-                        self.store.write_at(at + 12 * k0, &keys)?;
+                        self.store.write_at(self.at + at + 12 * k0, &keys)?;
                     }
                 }
                 Fill::Chains { fill, width } => {
@@ -1329,6 +1388,7 @@ impl<'p> BakeWriter<'p> {
                         *width,
                         &mut self.b,
                         &mut self.store,
+                        self.at,
                     )? {
                         let name = self.b.node_name(joint);
                         let o = (format!("the translation of `{name}`"), k, v);
@@ -1341,14 +1401,14 @@ impl<'p> BakeWriter<'p> {
     }
 
     /// The finished document (its buffer described, its data not in it).
-    fn document(&mut self) -> Document {
+    fn document(&self) -> Document<'_> {
         let tl = self.plan.timeline;
         let stem = std::path::Path::new(&self.bake.file)
             .file_stem()
             .and_then(|s| s.to_str())
             .unwrap_or("bake")
             .to_owned();
-        let b = &mut self.b;
+        let b = &self.b;
         let first_frame = tl.frame_number(self.frames.start);
         let rate = format!("{}/{}", tl.rate_num, tl.rate_den);
         let heft_extras = json!({
@@ -1360,9 +1420,8 @@ impl<'p> BakeWriter<'p> {
             "time_accessor": b.time_accessor,
             "clip": self.base.as_ref().map_or(0, |b| b.1),
         });
-        let channels = std::mem::take(&mut b.channels);
-        let samplers = std::mem::take(&mut b.samplers);
-        let (mut rest, animations) = match self.base.take() {
+        let (channels, samplers) = (b.channels.as_slice(), b.samplers.as_slice());
+        let (mut rest, animations) = match self.base.clone() {
             None => {
                 let rest = json!({
                     "asset": {
@@ -1389,7 +1448,6 @@ impl<'p> BakeWriter<'p> {
                     .and_then(|a| if let Value::Array(a) = a { Some(a) } else { None })
                     .unwrap_or_default();
                 let mut animations = Vec::with_capacity(read.len());
-                let (mut channels, mut samplers) = (Some(channels), Some(samplers));
                 for (k, a) in read.into_iter().enumerate() {
                     if k == anim {
                         let mut rest = if let Value::Object(o) = a {
@@ -1401,8 +1459,8 @@ impl<'p> BakeWriter<'p> {
                         rest.remove("samplers");
                         animations.push(Animation::Made {
                             rest,
-                            channels: channels.take().unwrap_or_default(),
-                            samplers: samplers.take().unwrap_or_default(),
+                            channels,
+                            samplers,
                         });
                     } else {
                         animations.push(Animation::Read(a));
@@ -1422,17 +1480,17 @@ impl<'p> BakeWriter<'p> {
         }
         Document {
             rest,
-            nodes: std::mem::take(&mut b.nodes),
-            accessors: std::mem::take(&mut b.accessors),
-            views: std::mem::take(&mut b.views),
-            skins: std::mem::take(&mut b.skins),
+            nodes: &b.nodes,
+            accessors: &b.accessors,
+            views: &b.views,
+            skins: &b.skins,
             animations,
             buffers: vec![json!({"byteLength": b.len})],
         }
     }
 
     /// The .glb's header, its document chunk and the header of its binary chunk.
-    fn glb_head(doc: &Document, len: usize) -> Result<Vec<u8>, String> {
+    fn glb_head(doc: &Document<'_>, len: usize) -> Result<Vec<u8>, String> {
         let mut json_bytes = serde_json::to_vec(doc).map_err(|e| e.to_string())?;
         while !json_bytes.len().is_multiple_of(4) {
             json_bytes.push(b' ');
@@ -1465,19 +1523,20 @@ impl<'p> BakeWriter<'p> {
     }
 
     /// The files of a bake kept in memory ([`BinStore::Memory`]).
-    pub fn finish_in_memory(mut self) -> Result<Vec<FileParts>, String> {
-        let mut doc = self.document();
-        let BinStore::Memory(mut bin) = std::mem::replace(&mut self.store, BinStore::Memory(Vec::new())) else {
+    pub fn finish_in_memory(self) -> Result<Vec<FileParts>, String> {
+        let BinStore::Memory(bin) = &self.store else {
             return Err("the bake's buffer is not in memory".to_owned());
         };
+        let mut doc = self.document();
         match self.bake.format {
             BakeFormat::Glb => {
                 let head = Self::glb_head(&doc, bin.len())?;
+                let mut bin = bin.clone();
                 bin.resize(bin.len().next_multiple_of(4), 0);
                 Ok(vec![(self.bake.file.clone(), vec![head, bin])])
             }
             BakeFormat::GltfEmbedded => {
-                let data = base64::engine::general_purpose::STANDARD.encode(&bin);
+                let data = base64::engine::general_purpose::STANDARD.encode(bin);
                 doc.buffers[0]["uri"] = json!(format!("data:application/octet-stream;base64,{data}"));
                 Ok(vec![(
                     self.bake.file.clone(),
@@ -1492,56 +1551,87 @@ impl<'p> BakeWriter<'p> {
                         self.bake.file.clone(),
                         vec![serde_json::to_vec_pretty(&doc).map_err(|e| e.to_string())?],
                     ),
-                    (bin_file, vec![bin]),
+                    (bin_file, vec![bin.clone()]),
                 ])
             }
         }
     }
 
-    /// Stages the files of a bake kept in a file ([`BinStore::File`]) in `staged` (the `.bin`
-    /// itself for a separate buffer; the `.glb` or embedded `.gltf` written from it), and
-    /// returns their names.
-    pub fn finish_staged(
-        mut self,
-        staged: &mut Transaction<'_>,
-        dir: &std::path::Path,
-    ) -> Result<Vec<String>, WriteError> {
+    /// Stages the files of a bake kept in a file ([`BinStore::File`]) in `staged`, and returns
+    /// their names: a .glb is that file, its header and document written into the room kept for
+    /// them; a separate-buffer .gltf's `.bin` is that file; an embedded .gltf is written from it.
+    pub fn finish_staged(self, staged: &mut Transaction<'_>, dir: &std::path::Path) -> Result<Vec<String>, WriteError> {
         let target = dir.join(&self.bake.file);
         let err = |e: String| WriteError {
             path: target.clone(),
             reason: e,
         };
-        let mut doc = self.document();
-        let len = self.b.len;
-        let BinStore::File(mut bin) = std::mem::replace(&mut self.store, BinStore::Memory(Vec::new())) else {
-            return Err(err("the bake's buffer is not in a file".to_owned()));
-        };
         let io = |e: std::io::Error| WriteError {
             path: target.clone(),
             reason: e.to_string(),
         };
-        match self.bake.format {
+        let len = self.b.len;
+        let (bin_file, uri) = self.bin_name();
+        let text = {
+            let mut doc = self.document();
+            match self.bake.format {
+                BakeFormat::Glb => serde_json::to_vec(&doc),
+                BakeFormat::GltfEmbedded => {
+                    doc.buffers[0]["uri"] = json!(format!("data:application/octet-stream;base64,{MARK}"));
+                    serde_json::to_vec_pretty(&doc)
+                }
+                BakeFormat::GltfSeparate => {
+                    doc.buffers[0]["uri"] = json!(uri);
+                    serde_json::to_vec_pretty(&doc)
+                }
+            }
+            .map_err(|e| err(e.to_string()))?
+        };
+        let (format, at, room) = (self.bake.format, self.at, self.room);
+        let file_name = self.bake.file.clone();
+        let BinStore::File(mut bin) = self.store else {
+            return Err(err("the bake's buffer is not in a file".to_owned()));
+        };
+        match format {
             BakeFormat::Glb => {
-                let head = Self::glb_head(&doc, len).map_err(err)?;
-                bin.set_len(len.next_multiple_of(4) as u64).map_err(io)?;
-                let mut file = staged.create(&target)?;
-                file.write_all(&head).map_err(io)?;
-                file.append_file(&mut bin).map_err(io)?;
-                staged.add(file)?;
-                Ok(vec![self.bake.file.clone()])
+                if text.len() > room {
+                    return Err(err(format!(
+                        "the bake's document takes {} bytes, more than the {room} kept for it",
+                        text.len()
+                    )));
+                }
+                // The document padded with spaces to the room kept (white space after it is
+                // still JSON, and the chunk stays 4-byte aligned), the header in front, the
+                // buffer's chunk header after it.
+                let bin_len = len.next_multiple_of(4);
+                if !glb_fits(room, bin_len) {
+                    return Err(err("the bake is larger than a .glb file can hold (4 GiB)".to_owned()));
+                }
+                let mut head = Vec::with_capacity(20);
+                head.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
+                head.extend_from_slice(&2u32.to_le_bytes());
+                head.extend_from_slice(&((at + bin_len) as u32).to_le_bytes());
+                head.extend_from_slice(&(room as u32).to_le_bytes());
+                head.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
+                let mut tail = vec![b' '; room - text.len()];
+                tail.extend_from_slice(&(bin_len as u32).to_le_bytes());
+                tail.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
+                bin.write_at(0, &head).map_err(io)?;
+                bin.write_at(20, &text).map_err(io)?;
+                bin.write_at(20 + text.len() as u64, &tail).map_err(io)?;
+                bin.set_len((at + bin_len) as u64).map_err(io)?;
+                staged.add(bin)?;
+                Ok(vec![file_name])
             }
             BakeFormat::GltfEmbedded => {
                 // The document around its data URI, the data streamed from the buffer's file in
                 // whole groups of 3 bytes (so the pieces join into one base64 text).
-                const MARK: &str = "heft-buffer-data";
-                doc.buffers[0]["uri"] = json!(format!("data:application/octet-stream;base64,{MARK}"));
-                let text = serde_json::to_vec_pretty(&doc).map_err(|e| err(e.to_string()))?;
-                let at = text
+                let mark = text
                     .windows(MARK.len())
                     .position(|w| w == MARK.as_bytes())
                     .ok_or_else(|| err("the document lost its buffer".to_owned()))?;
                 let mut file = staged.create(&target)?;
-                file.write_all(&text[..at]).map_err(io)?;
+                file.write_all(&text[..mark]).map_err(io)?;
                 let mut chunk = vec![0u8; 3 << 20];
                 let mut pos = 0u64;
                 loop {
@@ -1563,21 +1653,35 @@ impl<'p> BakeWriter<'p> {
                         break;
                     }
                 }
-                file.write_all(&text[at + MARK.len()..]).map_err(io)?;
+                file.write_all(&text[mark + MARK.len()..]).map_err(io)?;
                 staged.add(file)?;
-                Ok(vec![self.bake.file.clone()])
+                Ok(vec![file_name])
             }
             BakeFormat::GltfSeparate => {
-                let (bin_file, uri) = self.bin_name();
-                doc.buffers[0]["uri"] = json!(uri);
-                let text = serde_json::to_vec_pretty(&doc).map_err(|e| err(e.to_string()))?;
                 staged.stage(&target, &[&text])?;
                 staged.add(bin)?;
-                Ok(vec![self.bake.file.clone(), bin_file])
+                Ok(vec![file_name, bin_file])
             }
         }
     }
 }
+
+/// Counts the bytes written to it (a document's length without holding its text).
+struct Counted(usize);
+
+impl std::io::Write for Counted {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        self.0 += buf.len();
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        Ok(())
+    }
+}
+
+/// What stands for an embedded buffer's base64 text in its document until the text is streamed
+/// in.
+const MARK: &str = "heft-buffer-data";
 
 /// The error for a value beyond a 32-bit float: (what, key within the bake, value).
 fn overflow_error(plan: &Plan, frames: &std::ops::Range<usize>, o: Option<&(String, usize, f64)>) -> Option<String> {
