@@ -10,6 +10,7 @@ pub mod character;
 pub mod commit;
 pub mod csv_out;
 pub mod gltf_out;
+pub mod motion;
 pub mod output;
 pub mod parquet_out;
 pub mod plots;
