@@ -16,6 +16,7 @@ pub mod parquet_out;
 pub mod plots;
 pub mod plugin_lock;
 pub mod quat;
+pub mod review_out;
 pub mod tracks;
 
 use std::path::PathBuf;

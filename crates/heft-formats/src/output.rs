@@ -250,6 +250,17 @@ pub fn write_all(
             columns: plot.items.iter().map(|i| i.name.clone()).collect(),
         });
     }
+    for (file, columns) in crate::review_out::stage_all(plan, eval, graph_path, dir, &mut staged)? {
+        let kind = "review page".to_owned();
+        outputs.push(OutputEntry {
+            file,
+            node: String::new(),
+            port: String::new(),
+            kind,
+            format: None,
+            columns,
+        });
+    }
     let mut plugins: Vec<PluginEntry> = Vec::new();
     for n in &plan.nodes {
         let Some(p) = n.ty.plugin() else { continue };
