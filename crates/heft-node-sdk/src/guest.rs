@@ -514,7 +514,7 @@ pub const fn table<E: Exports>() -> PluginTable {
         evaluate: evaluate::<E>,
         check: check::<E>,
         advance: advance::<E>,
-        release: release::<E>,
+        release,
     }
 }
 
@@ -783,7 +783,7 @@ unsafe extern "C" fn advance<E: Exports>(call: *const Call, window: Window, carr
     })
 }
 
-unsafe extern "C" fn release<E: Exports>(_node_index: u32, carry: *mut std::ffi::c_void) {
+unsafe extern "C" fn release(_node_index: u32, carry: *mut std::ffi::c_void) {
     if carry.is_null() {
         return;
     }
