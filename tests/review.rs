@@ -575,3 +575,28 @@ review \"f.html\"\n    title = \"nothing\"\n",
         assert!(err.contains(want), "missing `{want}` in:\n{err}");
     }
 }
+
+/// A title with markup in it is shown as text, and does not end the page's data early.
+#[test]
+fn a_title_with_markup_is_shown_as_text() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let graph = dir.path().join("t.graph");
+    let title = "<b>Odile</b> </script><!-- & co";
+    std::fs::write(
+        &graph,
+        format!("format 1\nrate 24 fps\nframes 0..12\nb = trajectory.jump\nreview \"t.html\"\n    title = \"{title}\"\n    body = b\n"),
+    )
+    .expect("write");
+    let out = dir.path().join("out");
+    run_into(&graph, &out);
+    let spec = json!({ "pages": [{
+        "file": out.join("t.html"),
+        "eval": ["document.querySelector('h1').textContent", "document.title", "heftReview.jointCount()"],
+    }]});
+    let (o, report) = browse(&spec, "title");
+    assert!(o.status.success(), "the browser check failed:\n{}", text(&o));
+    let r = &report["pages"][0]["results"];
+    assert_eq!(r[0], json!(title));
+    assert_eq!(r[1], json!(format!("{title} - heft review")));
+    assert!(r[2].as_u64().is_some_and(|n| n > 0), "{r}");
+}

@@ -329,11 +329,12 @@ pub fn write_page(
         escape(&review.title)
     )
     .map_err(io)?;
-    // In a script element only `</` could end it early; JSON may write it as `<\/`.
+    // In a script element `</` could end it early and `<!--` change how it is read: JSON writes
+    // every `<` (only ever inside a string) as `\u003c`.
     writeln!(
         out,
         "<script type=\"application/json\" id=\"heft-review\">{}</script>",
-        json.replace("</", "<\\/")
+        json.replace('<', "\\u003c")
     )
     .map_err(io)?;
     for (k, track) in tracks.iter().enumerate() {

@@ -96,7 +96,7 @@
   tubes.checked = page.strands === "tubes";
   const paths = el("input", { type: "checkbox", id: "paths" });
   paths.checked = true;
-  const canvas = el("canvas", { id: "view", "aria-label": "3D view of the run" });
+  const canvas = el("canvas", { id: "view", tabindex: "0", "aria-label": "3D view of the run" });
   const status = el("p", { class: "status" }, "reading the run's data...");
   const findingsList = el("ol", { class: "findings" });
   const chartsBox = el("div", { class: "charts" });
@@ -993,7 +993,9 @@
     setFrame(scrub.value);
   });
   document.addEventListener("keydown", (e) => {
-    if (e.target instanceof HTMLInputElement && e.target.type !== "range" && e.target.type !== "checkbox") return;
+    // Keys go to the page and the view; a focused control (the slider, a button, a finding)
+    // handles its own.
+    if (e.target !== document.body && e.target !== canvas) return;
     if (e.key === " ") { e.preventDefault(); state.playing ? pause() : play(); }
     else if (e.key === "ArrowRight") { e.preventDefault(); step(1); }
     else if (e.key === "ArrowLeft") { e.preventDefault(); step(-1); }
