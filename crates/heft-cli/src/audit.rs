@@ -8,8 +8,7 @@ use heft_audit::body::BodyModel;
 use heft_audit::skeleton::{Reading, parse_overrides};
 use heft_audit::{Limits, Motion, Report, Severity, audit};
 use heft_formats::character::{self, Axes, Outside, Request};
-use heft_formats::motion::{GraphBody, graph_motion, implied_weight, skeleton_of};
-use heft_node_sdk::ParamValue;
+use heft_formats::motion::{GraphBody, body_mass, graph_motion, implied_weight, skeleton_of};
 use heft_runtime::registry::Registry;
 use heft_runtime::{check, eval, read_graph};
 
@@ -422,20 +421,12 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
     }
     let mass = match args.mass {
         Some(m) => m,
-        None => spec
-            .params
-            .iter()
-            .position(|p| p.name == "body_mass")
-            .and_then(|k| match node.params.get(k) {
-                Some(ParamValue::Number(m)) => Some(*m),
-                _ => None,
-            })
-            .ok_or_else(|| {
-                format!(
-                    "node `{}` has no `body_mass`: give the body mass with --mass",
-                    node.name
-                )
-            })?,
+        None => body_mass(&plan, cn).ok_or_else(|| {
+            format!(
+                "node `{}` has no `body_mass`: give the body mass with --mass",
+                node.name
+            )
+        })?,
     };
     let model = body_model(args.body.as_deref(), BodyModel::Winter)?;
     let evaluation = eval::evaluate(&plan, None).map_err(|e| e.located(&plan))?;

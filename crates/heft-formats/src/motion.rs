@@ -141,7 +141,7 @@ pub fn body_of_node(plan: &Plan, node: usize, mass: Option<f64>) -> Result<Graph
         .position(|o| o.name == "contact" && o.kind == PortKind::Flag);
     let mass = match mass {
         Some(m) => m,
-        None => number_param(plan, node, "body_mass").ok_or_else(|| {
+        None => body_mass(plan, node).ok_or_else(|| {
             format!(
                 "`{}` has no `body_mass`: give the body mass with `mass = .. kg`",
                 n.name
@@ -161,10 +161,10 @@ pub fn body_of_node(plan: &Plan, node: usize, mass: Option<f64>) -> Result<Graph
 /// A foot within 3 cm of its lowest is on the ground (`heft audit --ground-clearance`).
 pub const DEFAULT_CLEARANCE: f64 = 0.03;
 
-/// A number parameter of a node, in SI.
-fn number_param(plan: &Plan, node: usize, name: &str) -> Option<f64> {
+/// A node's `body_mass` parameter (kg), when it has one.
+pub fn body_mass(plan: &Plan, node: usize) -> Option<f64> {
     let n = &plan.nodes[node];
-    let k = n.ty.spec().params.iter().position(|p| p.name == name)?;
+    let k = n.ty.spec().params.iter().position(|p| p.name == "body_mass")?;
     match n.params.get(k) {
         Some(ParamValue::Number(v)) => Some(*v),
         _ => None,
