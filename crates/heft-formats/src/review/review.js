@@ -209,7 +209,14 @@
     for (const m of [1, 2, 2.5, 5, 10]) if (m * p >= raw) return m * p;
     return 10 * p;
   }
-  const decimals = (stepSize) => Math.max(0, -Math.floor(Math.log10(stepSize) + 1e-9));
+  /** The decimals that write every multiple of `stepSize` exactly (0.25: 2, 0.2: 1, 5: 0). */
+  const decimals = (stepSize) => {
+    for (let d = 0; d < 12; d++) {
+      const scaled = stepSize * Math.pow(10, d);
+      if (Math.abs(scaled - Math.round(scaled)) < 1e-6 * Math.max(1, scaled)) return d;
+    }
+    return 12;
+  };
 
   const ctx = canvas.getContext("2d");
   let cssWidth = 0;
@@ -276,11 +283,13 @@
     // Labels along the grid's edges nearest the eye.
     const yEdge = view.eye[1] < (y0 + y1) / 2 ? y0 : y1;
     const xEdge = view.eye[0] < (x0 + x1) / 2 ? x0 : x1;
+    // A world coordinate on the grid, rounded to the grid (no "-0.0").
+    const label = (v) => (Math.round(v / s) * s + 0).toFixed(dec).replace(/^-(0\.?0*)$/, "$1");
     for (let i = 0; i <= nx; i += Math.max(1, Math.ceil(nx / 8))) {
-      text3([x0 + i * s, yEdge, groundZ], (x0 + i * s + page.origin[0]).toFixed(dec), "center", "top", 0, 4);
+      text3([x0 + i * s, yEdge, groundZ], label(x0 + i * s + page.origin[0]), "center", "top", 0, 4);
     }
     for (let j = 0; j <= ny; j += Math.max(1, Math.ceil(ny / 8))) {
-      text3([xEdge, y0 + j * s, groundZ], (y0 + j * s + page.origin[1]).toFixed(dec), "center", "top", 0, 4);
+      text3([xEdge, y0 + j * s, groundZ], label(y0 + j * s + page.origin[1]), "center", "top", 0, 4);
     }
     ctx.fillStyle = INK;
     ctx.font = "12px sans-serif";
