@@ -50,6 +50,7 @@ use serde::Serialize;
 use crate::commit::Transaction;
 use crate::motion;
 use crate::output::WriteError;
+use crate::plots::unit_label;
 
 /// The page's script: the 3D view, the charts, the controls and the test hook.
 pub const SCRIPT: &str = include_str!("review/review.js");
@@ -515,35 +516,31 @@ fn f32s(values: impl Iterator<Item = f64>) -> Vec<f32> {
     values.map(|v| v as f32).collect()
 }
 
-fn unit_suffix(d: Dimension) -> String {
-    match d.si_symbol() {
-        "" => String::new(),
-        s => format!(" [{s}]"),
-    }
-}
-
-/// A series listed in the review as a curve: its own chart.
-fn curve_chart(eval: &Evaluation, item: &ReviewItem, frames: std::ops::Range<usize>) -> Chart {
-    let values = &eval.values[item.node][item.output];
-    let w = item.shape.width();
-    let axes: &[&str] = if item.shape.kind == PortKind::Vec3 {
+/// The curves of a scalar or flag (one) or a vec3 (`name.x`, `.y`, `.z`) over the frames.
+fn curves(values: &[f64], shape: heft_node_sdk::Shape, name: &str, frames: std::ops::Range<usize>) -> Vec<Series> {
+    let w = shape.width();
+    let axes: &[&str] = if shape.kind == PortKind::Vec3 {
         &["x", "y", "z"]
     } else {
         &[""]
     };
-    let series = axes
-        .iter()
+    axes.iter()
         .enumerate()
         .map(|(k, a)| Series {
             name: if a.is_empty() {
-                item.name.clone()
+                name.to_owned()
             } else {
-                format!("{}.{a}", item.name)
+                format!("{name}.{a}")
             },
             values: f32s(frames.clone().map(|f| values[f * w + k])),
             y: None,
         })
-        .collect();
+        .collect()
+}
+
+/// A series listed in the review as a curve: its own chart.
+fn curve_chart(eval: &Evaluation, item: &ReviewItem, frames: std::ops::Range<usize>) -> Chart {
+    let series = curves(&eval.values[item.node][item.output], item.shape, &item.name, frames);
     let flag = item.shape.kind == PortKind::Flag;
     Chart {
         title: item.name.clone(),
@@ -552,7 +549,7 @@ fn curve_chart(eval: &Evaluation, item: &ReviewItem, frames: std::ops::Range<usi
         y_label: if flag {
             "on (1) / off (0)".to_owned()
         } else {
-            format!("{}{}", item.name, unit_suffix(item.dimension))
+            format!("{}{}", item.name, unit_label(item.dimension))
         },
         series,
         contact: None,
@@ -578,29 +575,13 @@ fn plot_chart(eval: &Evaluation, plot: &PlannedPlot, frames: std::ops::Range<usi
         Style::Lines => {
             let mut dimension = Dimension::Dimensionless;
             for item in &plot.items {
-                let v = values(item.node, item.output);
-                let w = item.shape.width();
                 if item.shape.kind != PortKind::Flag {
                     dimension = item.dimension;
                 }
-                let axes: &[&str] = if item.shape.kind == PortKind::Vec3 {
-                    &["x", "y", "z"]
-                } else {
-                    &[""]
-                };
-                for (k, a) in axes.iter().enumerate() {
-                    chart.series.push(Series {
-                        name: if a.is_empty() {
-                            item.name.clone()
-                        } else {
-                            format!("{}.{a}", item.name)
-                        },
-                        values: f32s(frames.clone().map(|f| v[f * w + k])),
-                        y: None,
-                    });
-                }
+                let v = values(item.node, item.output);
+                chart.series.extend(curves(v, item.shape, &item.name, frames.clone()));
             }
-            chart.y_label = format!("value{}", unit_suffix(dimension));
+            chart.y_label = format!("value{}", unit_label(dimension));
         }
         Style::Weight => {
             chart.style = "body_weights";
