@@ -70,6 +70,7 @@ const PIECES: &[&str] = &[
     "write",
     "bake",
     "plot",
+    "review",
     "include",
     "as",
     "format 1",

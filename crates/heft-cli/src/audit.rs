@@ -4,11 +4,11 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
 use clap::Args;
-use heft_audit::body::{BodyModel, Mapping, centre_of_mass};
-use heft_audit::skeleton::{Reading, Skeleton, arms_track, feet_contact, feet_tracks, parse_overrides};
-use heft_audit::{Chain, Limits, Motion, Report, Severity, audit};
+use heft_audit::body::BodyModel;
+use heft_audit::skeleton::{Reading, parse_overrides};
+use heft_audit::{Limits, Motion, Report, Severity, audit};
 use heft_formats::character::{self, Axes, Outside, Request};
-use heft_node_sdk::ParamValue;
+use heft_formats::motion::{GraphBody, body_mass, graph_motion, implied_weight, skeleton_of};
 use heft_runtime::registry::Registry;
 use heft_runtime::{check, eval, read_graph};
 
@@ -228,19 +228,8 @@ fn write_json(path: &Path, report: &Report, source: &Source) -> Result<(), Strin
 /// The weight curve with the findings shaded.
 fn plot(path: &Path, m: &Motion, report: &Report, source: &Source) -> Result<(), String> {
     let dt = 1.0 / m.rate;
-    let n = m.com.len();
-    let times: Vec<f64> = (0..n).map(|i| i as f64 * dt).collect();
-    // m (g + a_z) / m g = 1 + a_z / g, a_z by central second differences (the ends repeat
-    // their neighbour).
-    let weight: Vec<f64> = (0..n)
-        .map(|i| {
-            let k = i.clamp(1, n.saturating_sub(2).max(1));
-            if n < 3 {
-                return 1.0;
-            }
-            1.0 + (m.com[k + 1][2] - 2.0 * m.com[k][2] + m.com[k - 1][2]) / (dt * dt * heft_audit::G)
-        })
-        .collect();
+    let times: Vec<f64> = (0..m.com.len()).map(|i| i as f64 * dt).collect();
+    let weight = implied_weight(m);
     let time_of = |frame: i64| (frame - m.start_frame) as f64 * dt;
     let marked: Vec<heft_formats::plots::Marked> = report
         .findings
@@ -432,67 +421,25 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
     }
     let mass = match args.mass {
         Some(m) => m,
-        None => spec
-            .params
-            .iter()
-            .position(|p| p.name == "body_mass")
-            .and_then(|k| match node.params.get(k) {
-                Some(ParamValue::Number(m)) => Some(*m),
-                _ => None,
-            })
-            .ok_or_else(|| {
-                format!(
-                    "node `{}` has no `body_mass`: give the body mass with --mass",
-                    node.name
-                )
-            })?,
+        None => body_mass(&plan, cn).ok_or_else(|| {
+            format!(
+                "node `{}` has no `body_mass`: give the body mass with --mass",
+                node.name
+            )
+        })?,
     };
     let model = body_model(args.body.as_deref(), BodyModel::Winter)?;
     let evaluation = eval::evaluate(&plan, None).map_err(|e| e.located(&plan))?;
-    // The arms, from the centre of mass's node's transform outputs when their names say
-    // which joints they are (the jump planner's `upper_arm_l`, `forearm_l`, `hand_l`, ...).
-    let transforms: Vec<(String, usize)> = spec
-        .outputs
-        .iter()
-        .enumerate()
-        .filter(|(_, o)| o.kind == heft_node_sdk::PortKind::Transform)
-        .map(|(k, o)| (o.name.clone(), k))
-        .collect();
-    let names: Vec<String> = transforms.iter().map(|(n, _)| n.clone()).collect();
-    let mapping = Mapping::of(&names, &[]);
+    let body = GraphBody {
+        com: (cn, cp),
+        contact: flag,
+        feet: foot_ports,
+        clearance: args.ground_clearance,
+        mass,
+        model,
+    };
+    let read = graph_motion(&plan, &evaluation.values, &body);
     let frames = plan.timeline.frames();
-    let joint = |j: usize, f: usize| {
-        let v = &evaluation.values[cn][transforms[j].1];
-        [v[7 * f], v[7 * f + 1], v[7 * f + 2]]
-    };
-    let arms = arms_track(model, &mapping, frames, joint);
-    let com: Vec<[f64; 3]> = evaluation.values[cn][cp]
-        .chunks_exact(3)
-        .map(|c| [c[0], c[1], c[2]])
-        .collect();
-    let chains = graph_chains(&plan, &evaluation.values);
-    let feet: Vec<(String, Vec<[f64; 3]>)> = if foot_ports.is_empty() {
-        feet_tracks(&mapping, frames, joint, |j| {
-            format!("{}.{}", node.name, transforms[j].0)
-        })
-    } else {
-        foot_ports
-            .iter()
-            .map(|&(n, k)| {
-                let v = &evaluation.values[n][k];
-                let w = plan.nodes[n].ty.spec().outputs[k].kind.width(0);
-                let name = format!("{}.{}", plan.nodes[n].name, plan.nodes[n].ty.spec().outputs[k].name);
-                (
-                    name,
-                    (0..frames).map(|f| [v[w * f], v[w * f + 1], v[w * f + 2]]).collect(),
-                )
-            })
-            .collect()
-    };
-    let contact: Vec<bool> = match flag {
-        Some((n, k)) => evaluation.values[n][k].iter().map(|v| *v > 0.5).collect(),
-        None => feet_contact(&feet, frames, args.ground_clearance),
-    };
     let tl = plan.timeline;
     let (first, count) = match args.frames {
         None => (0, frames),
@@ -507,29 +454,15 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
             ((a - tl.start_frame) as usize, (b - a + 1) as usize)
         }
     };
-    let skeleton_com_difference = (first..first + count)
-        .map(|f| {
-            centre_of_mass(model, &mapping, |j| joint(j, f)).ok().map(|c| {
-                let d = [c[0] - com[f][0], c[1] - com[f][1], c[2] - com[f][2]];
-                (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt()
-            })
-        })
+    let skeleton_com_difference = read.com_difference[first..first + count]
+        .iter()
+        .copied()
         .collect::<Option<Vec<f64>>>()
         .map(|d| d.into_iter().fold(0.0, f64::max));
-    let motion = Motion {
-        start_frame: tl.start_frame,
-        rate: f64::from(tl.rate_num) / f64::from(tl.rate_den),
-        com,
-        contact,
-        mass,
-        arms: arms.clone(),
-        chains,
-        feet,
-    };
-    let motion = motion.frames(first, count);
+    let motion = read.motion.frames(first, count);
     let source = Source {
         input: args.input.display().to_string(),
-        body_model: arms.is_some().then_some(model.word()),
+        body_model: read.arms.then_some(model.word()),
         skeleton_com_difference,
         com: format!("{}.{}", node.name, com_spec.name),
         contact: match flag {
@@ -539,78 +472,6 @@ fn from_graph(registry: &Registry, args: &AuditArgs, color: bool) -> Result<(Mot
         ..Source::default()
     };
     Ok((motion, source))
-}
-
-/// The graph's strands as chains: every node with a `positions` output (points, m) and a
-/// connected `anchor` (a transform), split into `count` strands of `segments + 1` points when
-/// the node has those parameters.
-fn graph_chains(plan: &check::Plan, values: &[Vec<Vec<f64>>]) -> Vec<Chain> {
-    let frames = plan.timeline.frames();
-    let mut out = Vec::new();
-    for (i, node) in plan.nodes.iter().enumerate() {
-        let spec = node.ty.spec();
-        let Some(pk) = spec.outputs.iter().position(|o| {
-            o.name == "positions"
-                && o.kind == heft_node_sdk::PortKind::Points
-                && o.dimension == heft_node_sdk::Dimension::Length
-        }) else {
-            continue;
-        };
-        let Some(Some((an, ak))) = spec
-            .inputs
-            .iter()
-            .position(|p| p.name == "anchor")
-            .map(|k| node.inputs[k])
-        else {
-            continue;
-        };
-        if plan.nodes[an].ty.spec().outputs[ak].kind != heft_node_sdk::PortKind::Transform {
-            continue;
-        }
-        let integer = |name: &str| {
-            spec.params
-                .iter()
-                .position(|p| p.name == name)
-                .and_then(|k| match node.params.get(k) {
-                    Some(ParamValue::Integer(v)) => usize::try_from(*v).ok(),
-                    _ => None,
-                })
-        };
-        let pos = &values[i][pk];
-        let width = pos.len().checked_div(frames).unwrap_or(0);
-        let points = width / 3;
-        let (count, per) = match (integer("count"), integer("segments")) {
-            (Some(c), Some(s)) if c * (s + 1) == points && c > 0 => (c, s + 1),
-            _ => (1, points),
-        };
-        let anchor_values = &values[an][ak];
-        let anchor: Vec<[f64; 3]> = (0..frames)
-            .map(|f| [anchor_values[7 * f], anchor_values[7 * f + 1], anchor_values[7 * f + 2]])
-            .collect();
-        for s in 0..count {
-            let name = if count == 1 {
-                node.name.clone()
-            } else {
-                format!("{}[{s}]", node.name)
-            };
-            let chain: Vec<Vec<[f64; 3]>> = (0..frames)
-                .map(|f| {
-                    (0..per)
-                        .map(|k| {
-                            let at = f * width + 3 * (s * per + k);
-                            [pos[at], pos[at + 1], pos[at + 2]]
-                        })
-                        .collect()
-                })
-                .collect();
-            out.push(Chain {
-                name,
-                anchor: anchor.clone(),
-                points: chain,
-            });
-        }
-    }
-    out
 }
 
 fn body_model(word: Option<&str>, default: BodyModel) -> Result<BodyModel, String> {
@@ -675,13 +536,7 @@ fn from_character(args: &AuditArgs) -> Result<(Motion, Source), String> {
     };
     let times: Vec<f64> = (start..start + count).map(|i| i as f64 / args.rate).collect();
     let ch = character::load(&args.input, &req, &times).map_err(fail)?;
-    let skeleton = Skeleton {
-        names: ch.nodes.iter().map(|n| n.name.clone()).collect(),
-        parents: ch.nodes.iter().map(|n| n.parent).collect(),
-        positions: (0..times.len())
-            .map(|f| (0..ch.nodes.len()).map(|j| ch.axes.point(ch.world[j][f].t)).collect())
-            .collect(),
-    };
+    let skeleton = skeleton_of(&ch);
     let reading = Reading {
         model,
         overrides,

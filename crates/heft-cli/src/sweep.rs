@@ -5,6 +5,7 @@ use std::process::ExitCode;
 use std::time::Instant;
 
 use heft_formats::output;
+use heft_formats::review_out::{SweepPoint, sweep_index};
 use heft_node_sdk::ParamValue;
 use heft_runtime::check::{Overrides, Plan};
 use heft_runtime::diag::render;
@@ -267,10 +268,11 @@ pub(crate) fn run(
             return ExitCode::from(1);
         }
     }
-    let table: PathBuf = match shard {
-        Some((i, n)) => out.join(format!("sweep-shard-{i}-of-{n}.csv")),
-        None => out.join("sweep.csv"),
+    let stem = match shard {
+        Some((i, n)) => format!("sweep-shard-{i}-of-{n}"),
+        None => "sweep".to_owned(),
     };
+    let table: PathBuf = out.join(format!("{stem}.csv"));
     let bytes = match w.into_inner() {
         Ok(b) => b,
         Err(e) => {
@@ -282,13 +284,35 @@ pub(crate) fn run(
         eprintln!("error: cannot write the table: {e}");
         return ExitCode::from(1);
     }
+    // The same rows as a page, each point linking to its review page (the graph's first), or
+    // to its run.json when the graph has none.
+    let page = base.reviews.first().map_or("run.json", |r| r.file.as_str());
+    let points: Vec<SweepPoint> = rows[1..]
+        .iter()
+        .zip(&results)
+        .map(|(row, r)| SweepPoint {
+            cells: row.clone(),
+            link: r.error.is_none().then(|| format!("point-{:04}/{page}", r.index)),
+        })
+        .collect();
+    let title = format!(
+        "Sweep of {} over {}",
+        graph.graph.display(),
+        axes.iter().map(|a| a.target.as_str()).collect::<Vec<_>>().join(", ")
+    );
+    let index = out.join(format!("{stem}.html"));
+    if let Err(e) = output::write_atomically(&index, sweep_index(&title, &rows[0], &points).as_bytes()) {
+        eprintln!("error: cannot write the index page: {e}");
+        return ExitCode::from(1);
+    }
     if !quiet {
         println!(
-            "swept {} of {} points ({} failed); table {}",
+            "swept {} of {} points ({} failed); table {}, index {}",
             results.len(),
             total,
             failed,
-            table.display()
+            table.display(),
+            index.display()
         );
     }
     if failed > 0 {

@@ -42,6 +42,7 @@ use std::sync::Arc;
 
 use crate::character::{Affine, Axes, Character};
 use crate::commit::{StagedFile, Transaction};
+use crate::motion::character_of;
 use crate::output::WriteError;
 use crate::quat::{Quat, conj, mul, normalise, rotate};
 use std::io::Write;
@@ -462,12 +463,6 @@ impl Rigid {
         let inv = conj(self.r);
         (normalise(mul(inv, r)), rotate(inv, sub(t, self.t)))
     }
-}
-
-/// The character a node read, if it is a `track.character`.
-fn character_of(plan: &Plan, node: usize) -> Option<Arc<Character>> {
-    let hierarchy = plan.nodes[node].ty.instance.as_ref()?.hierarchy.clone()?;
-    hierarchy.downcast::<Character>().ok()
 }
 
 /// The frames of a bake (indices into the timeline).

@@ -10,11 +10,13 @@ pub mod character;
 pub mod commit;
 pub mod csv_out;
 pub mod gltf_out;
+pub mod motion;
 pub mod output;
 pub mod parquet_out;
 pub mod plots;
 pub mod plugin_lock;
 pub mod quat;
+pub mod review_out;
 pub mod tracks;
 
 use std::path::PathBuf;

@@ -390,6 +390,16 @@ impl<'a> Writer<'a> {
                 columns: plot.items.iter().map(|i| i.name.clone()).collect(),
             });
         }
+        for (file, columns) in crate::review_out::stage_all(plan, eval, graph_path, dir, &mut staged)? {
+            outputs.push(OutputEntry {
+                file,
+                node: String::new(),
+                port: String::new(),
+                kind: "review page".to_owned(),
+                format: None,
+                columns,
+            });
+        }
         let mut plugins: Vec<PluginEntry> = Vec::new();
         for n in &plan.nodes {
             let Some(p) = n.ty.plugin() else { continue };

@@ -39,7 +39,8 @@ pub fn draw(plan: &Plan, eval: &Evaluation, plot: &PlannedPlot, path: &Path) -> 
     }
 }
 
-fn unit_label(d: Dimension) -> String {
+/// ` [unit]` of a dimension, or nothing for a plain number (axis labels).
+pub(crate) fn unit_label(d: Dimension) -> String {
     match d.si_symbol() {
         "" => String::new(),
         s => format!(" [{s}]"),

@@ -485,3 +485,319 @@ pub fn plan_plot(
         Err(problems)
     }
 }
+
+/// What a review page shows of one series.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ReviewShow {
+    /// Points in the 3D view: chains of this many joints drawn as lines or tubes (a strand's
+    /// points, or `joints N`), or loose points when `None`.
+    Points {
+        /// Joints per chain.
+        chain: Option<usize>,
+    },
+    /// A vec3 or transform in metres: a point in the 3D view with its path.
+    Point,
+    /// A list of colliders (`heft_node_sdk::colliders`' layout): capsules in the 3D view.
+    Colliders,
+    /// A scalar, a flag or a vec3 of another dimension: a curve under the view, with a cursor.
+    Curve,
+}
+
+/// One series a review page shows.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReviewItem {
+    /// Node index.
+    pub node: usize,
+    /// Output index.
+    pub output: usize,
+    /// Its shape.
+    pub shape: Shape,
+    /// Its dimension.
+    pub dimension: Dimension,
+    /// `node.port`.
+    pub name: String,
+    /// How it is shown.
+    pub show: ReviewShow,
+}
+
+/// How a review draws strands at first (the page switches between them).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StrandLook {
+    /// One line per strand.
+    Lines,
+    /// Tubes of the review's `strand_radius`.
+    Tubes,
+}
+
+/// A checked `review` block.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlannedReview {
+    /// File name in the output folder (`.html`).
+    pub file: String,
+    /// The page's title.
+    pub title: String,
+    /// The frames shown (first and last frame numbers), when not the whole run.
+    pub range: Option<(i64, i64)>,
+    /// `body = NODE`: the node whose joints are drawn (a character's with its bones) and whose
+    /// motion is audited, as written.
+    pub body_name: Option<(String, crate::diag::Span)>,
+    /// The body node's index, once checked.
+    pub body: Option<usize>,
+    /// The series shown, in the block's order (colliders too).
+    pub items: Vec<ReviewItem>,
+    /// `mass = ..`: the body mass the audit uses (kg), instead of the body node's `body_mass`.
+    pub mass: Option<f64>,
+    /// How strands are drawn at first.
+    pub strands: StrandLook,
+    /// The radius of a strand drawn as a tube, m.
+    pub strand_radius: f64,
+    /// Whether the graph's plots are drawn on the page too.
+    pub plots: bool,
+    /// Whether the body's motion is audited and its findings put on the timeline.
+    pub audit: bool,
+}
+
+/// The radius of strands drawn as tubes when the block gives none: 3 mm, a braid's.
+pub const DEFAULT_STRAND_RADIUS: f64 = 0.003;
+
+/// `on` / `off` (or `true` / `false`).
+fn switch(v: &Value) -> Option<bool> {
+    match v {
+        Value::Word(w) if w == "on" || w == "true" => Some(true),
+        Value::Word(w) if w == "off" || w == "false" => Some(false),
+        _ => None,
+    }
+}
+
+/// Checks a `review` block: the plan of what it shows (the lines that could be read) and the
+/// problems found, so that the checker, which fills in the chains of a strand node's points and
+/// the body node, reports its own problems with the block's others.
+pub fn plan_review(
+    src: &Arc<Source>,
+    block: &OutputBlock,
+    resolve: &Resolve<'_>,
+    param_of: &ParamOf<'_>,
+) -> (PlannedReview, Vec<Problem>) {
+    debug_assert_eq!(block.kind, BlockKind::Review);
+    let mut problems = Vec::new();
+    if let Err(p) = check_file_name(src, block, &["html"]) {
+        problems.push(p);
+    }
+    let mut title = block.file.value.clone();
+    let mut range = None;
+    let mut body_name = None;
+    let mut mass = None;
+    let mut strands = StrandLook::Lines;
+    let mut strand_radius = DEFAULT_STRAND_RADIUS;
+    let mut plots = true;
+    let mut audit = true;
+    let mut items = Vec::new();
+    for opt in &block.options {
+        let v = &opt.value;
+        let bad =
+            |what: &str| Problem::new(src, v.span, format!("`{}` takes {what}", opt.name.value)).label("not accepted");
+        match (opt.name.value.as_str(), &v.value) {
+            ("title", Value::Text(t)) => title = t.clone(),
+            ("title", _) => problems.push(bad("a quoted text")),
+            ("frames", value) => {
+                match frame_range(value) {
+                    Some(r) => range = Some(r),
+                    None => problems.push(bad("a range of frame numbers `A..B`").label("not a frame range").help(
+                        "for example `frames = 12..84`: the first and last frames shown, inside the run's range",
+                    )),
+                }
+            }
+            ("body", Value::Word(w)) => body_name = Some((w.clone(), v.span)),
+            ("body", _) => problems.push(
+                bad("the name of a node with joints (a `track.character`, a jump planner)").label("not a node name"),
+            ),
+            ("colliders", Value::Reference { node, param }) => {
+                // `node.port`, with each name's own place for the messages.
+                let start = v.span.start;
+                let port = PortRef {
+                    node: crate::graph::Spanned {
+                        value: node.clone(),
+                        span: crate::diag::Span {
+                            len: node.len(),
+                            ..v.span
+                        },
+                    },
+                    port: crate::graph::Spanned {
+                        value: param.clone(),
+                        span: crate::diag::Span {
+                            start: start + node.len() + 1,
+                            len: param.len(),
+                            ..v.span
+                        },
+                    },
+                };
+                match resolve(&port) {
+                    Ok((node, output, shape, dimension)) => {
+                        let whole = shape.points % heft_node_sdk::colliders::POINTS_PER_COLLIDER == 0;
+                        if shape.kind != PortKind::Points || dimension != Dimension::Length || !whole {
+                            problems.push(
+                                Problem::new(
+                                    src,
+                                    v.span,
+                                    if shape.kind == PortKind::Points && dimension == Dimension::Length {
+                                        format!(
+                                            "`{}` has {} points: a list of colliders has three per collider",
+                                            port.text(),
+                                            shape.points
+                                        )
+                                    } else {
+                                        format!(
+                                            "`{}` is {} ({}): a list of colliders is points in m, three per collider",
+                                            port.text(),
+                                            shape.kind.name(),
+                                            dimension.describe()
+                                        )
+                                    },
+                                )
+                                .label("not a collider list")
+                                .help(
+                                    "name an output that a strand's `colliders` input reads, such as `odile.colliders`",
+                                ),
+                            );
+                        } else {
+                            items.push(ReviewItem {
+                                node,
+                                output,
+                                shape,
+                                dimension,
+                                name: port.text(),
+                                show: ReviewShow::Colliders,
+                            });
+                        }
+                    }
+                    Err(p) => problems.push(p),
+                }
+            }
+            ("colliders", _) => problems.push(bad("an output `node.port` holding a list of colliders")),
+            ("mass", Value::Number { value, unit, .. }) => match unit.as_ref().and_then(|u| units::lookup(&u.value)) {
+                Some((Dimension::Mass, f)) if value * f > 0.0 => mass = Some(value * f),
+                _ => problems.push(bad("a positive mass with its unit, such as `55 kg`")),
+            },
+            ("mass", Value::Reference { node, param }) => match param_of(node, param) {
+                Ok((m, Dimension::Mass)) if m > 0.0 => mass = Some(m),
+                Ok((_, d)) => problems.push(
+                    Problem::new(src, v.span, format!("`{node}.{param}` is {}, not a mass", d.describe()))
+                        .label("not a mass"),
+                ),
+                Err(why) => problems.push(Problem::new(src, v.span, why).label("no such parameter")),
+            },
+            ("mass", _) => problems.push(bad("a positive mass with its unit, such as `55 kg`, or `node.param`")),
+            ("strands", Value::Word(w)) if w == "lines" => strands = StrandLook::Lines,
+            ("strands", Value::Word(w)) if w == "tubes" => strands = StrandLook::Tubes,
+            ("strands", _) => problems.push(bad("lines or tubes")),
+            ("strand_radius", Value::Number { value, unit, .. }) => {
+                match unit.as_ref().and_then(|u| units::lookup(&u.value)) {
+                    Some((Dimension::Length, f)) if value * f > 0.0 && value * f <= 1.0 => strand_radius = value * f,
+                    _ => problems.push(bad("a length above 0 and at most 1 m, such as `3 mm`")),
+                }
+            }
+            ("strand_radius", _) => problems.push(bad("a length above 0 and at most 1 m, such as `3 mm`")),
+            ("plots", value) => match switch(value) {
+                Some(b) => plots = b,
+                None => problems.push(bad("on or off")),
+            },
+            ("audit", value) => match switch(value) {
+                Some(b) => audit = b,
+                None => problems.push(bad("on or off")),
+            },
+            (other, _) => problems.push(
+                Problem::new(src, opt.name.span, format!("`review` has no option `{other}`"))
+                    .label("unknown option")
+                    .help(
+                        "options: title = \"..\", frames = A..B, body = NODE, colliders = node.port, mass = .. kg, \
+                         strands = lines | tubes, strand_radius = .. mm, plots = on | off, audit = on | off",
+                    ),
+            ),
+        }
+    }
+    if block.items.is_empty() && body_name.is_none() && items.is_empty() {
+        problems.push(
+            Problem::new(src, block.file.span, "this review shows nothing")
+                .help("list series such as `braid.positions` or `weight.force`, or a body: `body = odile`"),
+        );
+    }
+    for item in &block.items {
+        let (node, output, shape, dimension) = match resolve(&item.port) {
+            Ok(r) => r,
+            Err(p) => {
+                problems.push(p);
+                continue;
+            }
+        };
+        let show = match (shape.kind, &item.chains) {
+            (PortKind::Points, Some(c)) if c.value < 2 => {
+                problems.push(Problem::new(src, c.span, "a chain needs at least 2 points").label("too short"));
+                continue;
+            }
+            (PortKind::Points, Some(c)) if shape.points % c.value != 0 => {
+                problems.push(
+                    Problem::new(
+                        src,
+                        c.span,
+                        format!(
+                            "`{}` has {} points, not a whole number of chains of {} joints",
+                            item.port.text(),
+                            shape.points,
+                            c.value
+                        ),
+                    )
+                    .label("does not divide"),
+                );
+                continue;
+            }
+            (_, Some(c)) if shape.kind != PortKind::Points => {
+                problems.push(Problem::new(src, c.span, "`joints` is for points outputs").label("not points"));
+                continue;
+            }
+            (PortKind::Points, chain) if dimension == Dimension::Length => ReviewShow::Points {
+                chain: chain.as_ref().map(|c| c.value),
+            },
+            (PortKind::Vec3 | PortKind::Transform, _) if dimension == Dimension::Length => ReviewShow::Point,
+            (PortKind::Scalar | PortKind::Flag | PortKind::Vec3, _) => ReviewShow::Curve,
+            _ => {
+                problems.push(
+                    Problem::new(
+                        src,
+                        item.port.span(),
+                        format!(
+                            "`{}` is {} in {}: a review draws positions in m and curves of scalars, flags and vectors",
+                            item.port.text(),
+                            shape.kind.name(),
+                            dimension.describe()
+                        ),
+                    )
+                    .label("cannot be shown")
+                    .help("points, vec3 and transforms in m are drawn in 3D; scalars, flags and other vec3 as curves"),
+                );
+                continue;
+            }
+        };
+        items.push(ReviewItem {
+            node,
+            output,
+            shape,
+            dimension,
+            name: item.port.text(),
+            show,
+        });
+    }
+    let planned = PlannedReview {
+        file: block.file.value.clone(),
+        title,
+        range,
+        body_name,
+        body: None,
+        items,
+        mass,
+        strands,
+        strand_radius,
+        plots,
+        audit,
+    };
+    (planned, problems)
+}

@@ -9,9 +9,9 @@ use std::sync::Arc;
 use heft_node_sdk::host::Plugin;
 use heft_node_sdk::{Dimension, ParamSpec, ParamType, ParamValue, PortKind, Shape, Timeline};
 
-use crate::blocks::{self, PlannedBake, PlannedPlot};
+use crate::blocks::{self, PlannedBake, PlannedPlot, PlannedReview, ReviewShow};
 use crate::diag::{Place, Problem, Source, Span};
-use crate::graph::BlockKind;
+use crate::graph::{BlockKind, OutputBlock};
 use crate::graph::{GraphFile, ParamLine, PortRef, Spanned, UnitText, Value, parse_value};
 use crate::registry::{NodeType, Provider, Registry, closest};
 use crate::units;
@@ -114,6 +114,8 @@ pub struct Plan {
     pub bakes: Vec<PlannedBake>,
     /// Plots to draw.
     pub plots: Vec<PlannedPlot>,
+    /// Review pages to write.
+    pub reviews: Vec<PlannedReview>,
 }
 
 /// The memory an evaluation of a plan holds: every node output over every frame.
@@ -1424,6 +1426,7 @@ pub fn check(
     };
     let mut bakes = Vec::new();
     let mut plots = Vec::new();
+    let mut reviews = Vec::new();
     let block_src = |b: &crate::graph::OutputBlock| srcs.get(usize::from(b.file.span.file)).unwrap_or(src);
     let mut files: BTreeMap<String, Span> = BTreeMap::new();
     for block in &graph.blocks {
@@ -1488,27 +1491,8 @@ pub fn check(
                             ),
                         );
                     }
-                    if let Some((a, z)) = b.range {
-                        let last = timeline.start_frame + timeline.frame_count as i64 - 1;
-                        if a < timeline.start_frame || z > last {
-                            let at = block
-                                .options
-                                .iter()
-                                .find(|o| o.name.value == "frames")
-                                .map_or(block.file.span, |o| o.value.span);
-                            problems.push(
-                                Problem::at(
-                                    srcs,
-                                    at,
-                                    format!(
-                                        "the bake's frames {a}..{z} are not all in the run's frames {}..{last}",
-                                        timeline.start_frame
-                                    ),
-                                )
-                                .label("outside the run")
-                                .help("bake a range inside the graph's `frames` (or the `--frames` given)"),
-                            );
-                        }
+                    if let Some(p) = range_outside(srcs, block, b.range, timeline) {
+                        problems.push(p);
                     }
                     if let Some((name, span)) = b.character.clone() {
                         let found = by_name.get(name.as_str()).copied();
@@ -1565,6 +1549,50 @@ pub fn check(
                 }
                 Err(mut p) => problems.append(&mut p),
             },
+            BlockKind::Review => {
+                let (mut r, mut found) = blocks::plan_review(block_src(block), block, &resolve, &param_of);
+                problems.append(&mut found);
+                for item in &mut r.items {
+                    if let ReviewShow::Points { chain } = &mut item.show {
+                        *chain = chain.or_else(|| strand_joints(&states[item.node], item.shape.points));
+                    }
+                }
+                if let Some(p) = range_outside(srcs, block, r.range, timeline) {
+                    problems.push(p);
+                }
+                if let Some((name, span)) = &r.body_name {
+                    let found = by_name.get(name.as_str()).copied();
+                    let joints = |i: usize| {
+                        states[i].ty.as_ref().is_some_and(|t| {
+                            t.spec()
+                                .outputs
+                                .iter()
+                                .any(|o| o.kind == PortKind::Transform && o.dimension == Dimension::Length)
+                        })
+                    };
+                    match found {
+                        Some(i) if joints(i) => r.body = Some(i),
+                        Some(_) => problems.push(
+                            Problem::at(
+                                srcs,
+                                *span,
+                                format!("`{name}` has no joints (transform outputs) to draw"),
+                            )
+                            .label("not a body")
+                            .help("a body is a node with transform outputs: a `track.character`, a jump planner"),
+                        ),
+                        None => {
+                            let mut p =
+                                Problem::at(srcs, *span, format!("no node named `{name}`")).label("unknown node");
+                            if let Some(close) = closest(name, by_name.keys().copied()) {
+                                p = p.help(format!("did you mean `{close}`?"));
+                            }
+                            problems.push(p);
+                        }
+                    }
+                }
+                reviews.push(r);
+            }
         }
     }
 
@@ -1600,7 +1628,46 @@ pub fn check(
         writes,
         bakes,
         plots,
+        reviews,
     })
+}
+
+/// The problem with a block's `frames = A..B` that is not all inside the run's frames.
+fn range_outside(
+    srcs: &[Arc<Source>],
+    block: &OutputBlock,
+    range: Option<(i64, i64)>,
+    timeline: Timeline,
+) -> Option<Problem> {
+    let (a, z) = range?;
+    let last = timeline.start_frame + timeline.frame_count as i64 - 1;
+    if a >= timeline.start_frame && z <= last {
+        return None;
+    }
+    let at = block
+        .options
+        .iter()
+        .find(|o| o.name.value == "frames")
+        .map_or(block.file.span, |o| o.value.span);
+    let (what, verb) = match block.kind {
+        BlockKind::Bake => ("bake", "bake"),
+        BlockKind::Plot => ("plot", "draw"),
+        BlockKind::Review => ("review", "show"),
+    };
+    Some(
+        Problem::at(
+            srcs,
+            at,
+            format!(
+                "the {what}'s frames {a}..{z} are not all in the run's frames {}..{last}",
+                timeline.start_frame
+            ),
+        )
+        .label("outside the run")
+        .help(format!(
+            "{verb} a range inside the graph's `frames` (or the `--frames` given)"
+        )),
+    )
 }
 
 /// Walks back from `start` along drivers that could not be ordered until a node repeats, and

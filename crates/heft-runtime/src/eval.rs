@@ -250,9 +250,9 @@ pub fn evaluate_observed(
 /// A node runs in windows when its type can ([`heft_node_sdk::host::Plugin::windowed`]) and
 /// every input it reads comes from a node evaluated whole before the windows; nodes that read a
 /// windowed node's output run whole after them. A windowed node's output is gathered whole when
-/// a node or a plot reads it, or a bake that cannot be written window by window (one that reads
-/// a node evaluated after the windows); every other output of it goes to the writers one window
-/// at a time and is not held ([`Schedule::streamed`]).
+/// a node, a plot or a review page reads it, or a bake that cannot be written window by window
+/// (one that reads a node evaluated after the windows); every other output of it goes to the
+/// writers one window at a time and is not held ([`Schedule::streamed`]).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Schedule {
     /// For each node: it advances window by window.
@@ -309,6 +309,26 @@ impl Schedule {
         for plot in &plan.plots {
             for item in &plot.items {
                 kept[item.node][item.output] = true;
+            }
+        }
+        // A review page shows its items, its body and, with its audit, reads the positions of
+        // every strand node too (`heft_formats::motion::graph_chains`): all whole.
+        for review in &plan.reviews {
+            for item in &review.items {
+                kept[item.node][item.output] = true;
+            }
+            if let Some(b) = review.body {
+                kept[b].iter_mut().for_each(|k| *k = true);
+                if review.audit {
+                    for (node, k) in plan.nodes.iter().zip(kept.iter_mut()) {
+                        let spec = node.ty.spec();
+                        for (port, held) in spec.outputs.iter().zip(k.iter_mut()) {
+                            if port.name == "positions" && port.kind == PortKind::Points {
+                                *held = true;
+                            }
+                        }
+                    }
+                }
             }
         }
         let mut streamed_bakes = Vec::with_capacity(plan.bakes.len());

@@ -28,10 +28,12 @@ pub const FORMAT_VERSION: u32 = 1;
 
 /// The statements of the language, for help texts.
 const STATEMENTS: &str = "statements are `format`, `rate`, `frames`, `name = plugin.node`, `a.out -> b.in`, \
-                          `write node.port [as NAME] [format csv|parquet]`, `bake \"file.glb\"`, `plot \"file.svg\"` and `include \"recipe.graph\" as name`";
+                          `write node.port [as NAME] [format csv|parquet]`, `bake \"file.glb\"`, `plot \"file.svg\"`, `review \"file.html\"` and `include \"recipe.graph\" as name`";
 
 /// Words that start a statement and cannot name a node.
-pub const KEYWORDS: &[&str] = &["format", "rate", "frames", "write", "as", "bake", "plot", "include"];
+pub const KEYWORDS: &[&str] = &[
+    "format", "rate", "frames", "write", "as", "bake", "plot", "review", "include",
+];
 
 /// A value with its place in the source.
 #[derive(Debug, Clone, PartialEq)]
@@ -179,6 +181,27 @@ pub enum BlockKind {
     Bake,
     /// `plot "file.svg"`: a picture.
     Plot,
+    /// `review "file.html"`: a page that plays the run in 3D with its curves and findings.
+    Review,
+}
+
+impl BlockKind {
+    /// The keyword that opens the block.
+    pub fn word(self) -> &'static str {
+        match self {
+            BlockKind::Bake => "bake",
+            BlockKind::Plot => "plot",
+            BlockKind::Review => "review",
+        }
+    }
+    /// The file extension of the example in messages.
+    fn example_extension(self) -> &'static str {
+        match self {
+            BlockKind::Bake => "glb",
+            BlockKind::Plot => "svg",
+            BlockKind::Review => "html",
+        }
+    }
 }
 
 /// One series line in an output block: `node.port`, or `node.port joints N`.
@@ -190,10 +213,10 @@ pub struct BlockItem {
     pub chains: Option<Spanned<usize>>,
 }
 
-/// `bake "file"` or `plot "file"` with its indented series lines and options.
+/// `bake "file"`, `plot "file"` or `review "file"` with its indented series lines and options.
 #[derive(Debug, Clone, PartialEq)]
 pub struct OutputBlock {
-    /// Bake or plot.
+    /// Bake, plot or review.
     pub kind: BlockKind,
     /// The file name as written (relative to the output folder).
     pub file: Spanned<String>,
@@ -227,7 +250,7 @@ pub struct GraphFile {
     pub wires: Vec<Wire>,
     /// Outputs to write.
     pub writes: Vec<WriteDecl>,
-    /// Bakes and plots.
+    /// Bakes, plots and review pages.
     pub blocks: Vec<OutputBlock>,
     /// Recipes to include (expanded by [`crate::recipes::expand`]).
     pub includes: Vec<IncludeDecl>,
@@ -730,11 +753,11 @@ fn statement(
                 overrides: Vec::new(),
             }));
         }
-        "bake" | "plot" => {
-            let kind = if word.value == "bake" {
-                BlockKind::Bake
-            } else {
-                BlockKind::Plot
+        "bake" | "plot" | "review" => {
+            let kind = match word.value.as_str() {
+                "bake" => BlockKind::Bake,
+                "plot" => BlockKind::Plot,
+                _ => BlockKind::Review,
             };
             line.skip_ws();
             let at = line.at();
@@ -746,7 +769,7 @@ fn statement(
                     format!(
                         "expected a quoted file name: `{} \"name.{}\"`",
                         word.value,
-                        if kind == BlockKind::Bake { "glb" } else { "svg" }
+                        kind.example_extension()
                     ),
                 )
                 .label("not a quoted file name"));
@@ -925,7 +948,7 @@ fn override_line(source: &Arc<Source>, line: &mut Line<'_>, inc: &mut IncludeDec
     Ok(())
 }
 
-/// An indented line under `bake` or `plot`: `name = value` or `node.port [joints N]`.
+/// An indented line under `bake`, `plot` or `review`: `name = value` or `node.port [joints N]`.
 fn block_line(source: &Arc<Source>, line: &mut Line<'_>, block: &mut OutputBlock) -> Result<(), Problem> {
     line.skip_ws();
     let rest = line.rest();
@@ -1178,6 +1201,56 @@ mod tests {
         assert!(matches!(&n.params[3].value.value, Value::Word(w) if w == "ring"));
         assert_eq!(g.wires.len(), 1);
         assert_eq!(g.writes[1].name.as_ref().map(|n| n.value.as_str()), Some("speed"));
+    }
+
+    #[test]
+    fn reads_a_review_block_whose_keyword_names_no_node() {
+        let g = parse_ok(
+            "format 1\nrate 24 fps\nframes 0..9\nreview \"r.html\"\n    body = odile\n    colliders = odile.colliders\n    braid.positions joints 17\n    frames = 2..8\n",
+        );
+        let b = &g.blocks[0];
+        assert_eq!((b.kind, b.file.value.as_str()), (BlockKind::Review, "r.html"));
+        assert_eq!(b.items.len(), 1);
+        assert_eq!(b.items[0].chains.as_ref().map(|c| c.value), Some(17));
+        let options: Vec<(&str, &Value)> = b
+            .options
+            .iter()
+            .map(|o| (o.name.value.as_str(), &o.value.value))
+            .collect();
+        assert_eq!(
+            options,
+            vec![
+                ("body", &Value::Word("odile".into())),
+                (
+                    "colliders",
+                    &Value::Reference {
+                        node: "odile".into(),
+                        param: "colliders".into()
+                    }
+                ),
+                ("frames", &Value::Text("2..8".into())),
+            ]
+        );
+        let src = Source::new(
+            "t.graph",
+            "format 1\nrate 24 fps\nframes 0..9\nreview = trajectory.jump\nreview 3\n",
+        );
+        let (_, p) = parse(&src);
+        let said: Vec<(String, &str)> = p.iter().map(|p| (p.location(), p.message.as_str())).collect();
+        assert_eq!(
+            said,
+            vec![
+                // `review` starts a statement, so it cannot name a node.
+                (
+                    "t.graph:4:8".to_owned(),
+                    "expected a number, a vector `(x, y, z)`, a word or `node.param`"
+                ),
+                (
+                    "t.graph:5:8".to_owned(),
+                    "expected a quoted file name: `review \"name.html\"`"
+                ),
+            ]
+        );
     }
 
     #[test]

@@ -138,6 +138,14 @@ fn rename(g: &mut GraphFile, prefix: &str) {
             .to_string_lossy()
             .into_owned();
         b.items.iter_mut().for_each(|i| p(&mut i.port.node.value));
+        // A review's `body = NODE` names one of the recipe's nodes.
+        if b.kind == crate::graph::BlockKind::Review {
+            for o in b.options.iter_mut().filter(|o| o.name.value == "body") {
+                if let Value::Word(node) = &mut o.value.value {
+                    p(node);
+                }
+            }
+        }
     }
 }
 
