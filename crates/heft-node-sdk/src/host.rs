@@ -475,6 +475,35 @@ impl Plugin {
         summaries: &mut [f64],
         threads: usize,
     ) -> Result<Vec<String>, CallError> {
+        let evaluate = self.table.evaluate;
+        // SAFETY: `call` is built by `with_call` for this call alone (see there).
+        Plugin::with_call(
+            node_index,
+            params,
+            timeline,
+            inputs,
+            outputs,
+            summaries,
+            threads,
+            |call| unsafe { evaluate(call) },
+        )
+    }
+
+    /// Builds the call of a node over these buffers, runs `f` on it (the plugin function to
+    /// call), and reads its status, message and warnings. Every pointer in the call refers to
+    /// data borrowed for this function: inputs shared, outputs and summaries exclusively (`&mut`),
+    /// distinct slices; the sinks' buffers live here.
+    #[allow(clippy::too_many_arguments)]
+    fn with_call(
+        node_index: u32,
+        params: &[u8],
+        timeline: Timeline,
+        inputs: &[(&[f64], usize)],
+        outputs: &mut [(&mut [f64], usize)],
+        summaries: &mut [f64],
+        threads: usize,
+        f: impl FnOnce(&Call) -> i32,
+    ) -> Result<Vec<String>, CallError> {
         let in_views: Vec<SeriesView> = inputs
             .iter()
             .map(|(data, width)| SeriesView {
@@ -503,10 +532,7 @@ impl Plugin {
         call.summaries = summaries.as_mut_ptr();
         call.summary_count = summaries.len();
         call.threads = threads.max(1);
-        // SAFETY: every pointer in `call` refers to data borrowed for this function: inputs
-        // shared, outputs and summaries exclusively (`&mut`), distinct slices; the sinks'
-        // buffers live here.
-        let code = unsafe { (self.table.evaluate)(&call) };
+        let code = f(&call);
         match Status::from_code(code) {
             Status::Ok => Ok(warnings),
             status => Err(CallError {
@@ -563,45 +589,20 @@ impl Plugin {
                 "a window outside the timeline, or outputs not sized to it".to_owned(),
             ));
         }
-        let in_views: Vec<SeriesView> = inputs
-            .iter()
-            .map(|(data, width)| SeriesView {
-                data: data.as_ptr(),
-                len: data.len(),
-                width: *width,
-            })
-            .collect();
-        let out_views: Vec<SeriesViewMut> = outputs
-            .iter_mut()
-            .map(|(data, width)| SeriesViewMut {
-                data: data.as_mut_ptr(),
-                len: data.len(),
-                width: *width,
-            })
-            .collect();
-        let mut message = Vec::new();
-        let mut warnings = Vec::new();
-        let mut call = Plugin::call(node_index, params, timeline);
-        call.inputs = in_views.as_ptr();
-        call.input_count = in_views.len();
-        call.outputs = out_views.as_ptr();
-        call.output_count = out_views.len();
-        call.message = byte_sink(&mut message);
-        call.warning = text_sink(&mut warnings);
-        call.summaries = summaries.as_mut_ptr();
-        call.summary_count = summaries.len();
-        call.threads = threads.max(1);
         carry.release = Some(release);
-        // SAFETY: as in `evaluate_with_threads`; `carry.ptr` is null or the pointer this
-        // plugin stored for this node type at the window before, and the slot is exclusively
-        // ours for the call.
-        let code = unsafe { advance(&call, window, &raw mut carry.ptr) };
-        match Status::from_code(code) {
-            Status::Ok => Ok(warnings),
-            status => Err(CallError {
-                status,
-                message: String::from_utf8_lossy(&message).into_owned(),
-            }),
-        }
+        let slot = &raw mut carry.ptr;
+        // SAFETY: `call` is built by `with_call` for this call alone (see there); `slot` holds
+        // null or the pointer this plugin stored for this node type at the window before, and
+        // is exclusively ours for the call.
+        Plugin::with_call(
+            node_index,
+            params,
+            timeline,
+            inputs,
+            outputs,
+            summaries,
+            threads,
+            |call| unsafe { advance(call, window, slot) },
+        )
     }
 }
