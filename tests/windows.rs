@@ -176,3 +176,49 @@ fn only_what_is_read_whole_is_held() {
     assert!(status.success());
     assert!(out.join("energy.svg").is_file());
 }
+
+/// A run that fails after some windows were written leaves the output folder as it was: the
+/// streamed files were only staged, and are removed; the error names the node and the frame.
+#[test]
+fn a_run_that_fails_after_some_windows_leaves_the_folder_as_it_was() {
+    let scratch = tempfile::tempdir().expect("temp dir");
+    // A still head that jumps 3 km between frames 20 and 21 (a glitch in the data): the strand
+    // is flung faster than a strand can move, and the jump is named.
+    let mut csv = String::from("time,x,y,z,qx,qy,qz,qw\n");
+    for f in 0..40 {
+        let x = if f <= 20 { 0.0 } else { 3000.0 };
+        csv.push_str(&format!("{},{x},0,1.5,0,0,0,1\n", f as f64 / 24.0));
+    }
+    std::fs::write(scratch.path().join("head.csv"), csv).expect("write");
+    let graph = scratch.path().join("glitch.graph");
+    std::fs::write(
+        &graph,
+        "format 1\nrate 24 fps\nframes 0..39\nhead = track.transform\n    file = \"head.csv\"\n    rotation = quaternion\n\
+         braid = strand.euler\n    segments = 8\nhead.value -> braid.anchor\nwrite braid.positions as braid\n\
+         bake \"braid.glb\"\n    braid.positions\n",
+    )
+    .expect("write");
+    let out = scratch.path().join("out");
+    std::fs::create_dir_all(&out).expect("folder");
+    std::fs::write(out.join("braid.csv"), "an earlier run's file\n").expect("write");
+    let o = heft()
+        .args(["run", "--window", "4", "--out"])
+        .arg(&out)
+        .arg(&graph)
+        .output()
+        .expect("heft runs");
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("braid") && err.contains("jumps at frame 2"), "{err}");
+    assert_eq!(
+        std::fs::read_to_string(out.join("braid.csv")).expect("kept"),
+        "an earlier run's file\n"
+    );
+    let mut left: Vec<String> = std::fs::read_dir(&out)
+        .expect("out")
+        .map(|e| e.expect("entry").file_name().to_string_lossy().into_owned())
+        .filter(|n| n != ".heft-lock")
+        .collect();
+    left.sort();
+    assert_eq!(left, ["braid.csv"], "nothing staged is left behind");
+}
