@@ -222,3 +222,14 @@ fn a_run_that_fails_after_some_windows_leaves_the_folder_as_it_was() {
     left.sort();
     assert_eq!(left, ["braid.csv"], "nothing staged is left behind");
 }
+
+/// `heft nodes` says which node types run in windows: the strand nodes do, a wind field does not.
+#[test]
+fn the_node_docs_say_which_types_run_in_windows() {
+    for (ty, windowed) in [("xpbd.strand", true), ("strand.euler", true), ("noise.wind", false)] {
+        let o = heft().args(["nodes", ty]).output().expect("heft runs");
+        assert!(o.status.success(), "{ty}");
+        let text = String::from_utf8_lossy(&o.stdout);
+        assert_eq!(text.contains("Runs in windows of frames"), windowed, "{ty}: {text}");
+    }
+}

@@ -131,6 +131,14 @@ pub fn describe_type(t: &NodeType) -> String {
     if !spec.notes.is_empty() {
         let _ = writeln!(out, "\n{}", spec.notes);
     }
+    if let crate::registry::Provider::Plugin { plugin, index } = &t.provider
+        && plugin.plugin.windowed(*index)
+    {
+        let _ = writeln!(
+            out,
+            "\nRuns in windows of frames: `heft run` holds a window of its outputs at a time (see `--window`)."
+        );
+    }
     let _ = writeln!(out, "\ninputs:");
     if spec.inputs.is_empty() {
         let _ = writeln!(out, "  (none)");
