@@ -824,6 +824,60 @@ pub struct SummaryModel<'a> {
     pub max_speed: f64,
 }
 
+/// One lane group's part of a [`Summary`], lane by lane (see [`Lanes::group_figures`]).
+#[derive(Debug, Clone, Copy)]
+pub struct GroupFigures<const N: usize> {
+    momentum: [[f64; N]; 3],
+    kinetic: [f64; N],
+    gravity: [f64; N],
+    stretch: [f64; N],
+    bending: [f64; N],
+    ok: bool,
+    live: usize,
+}
+
+impl<const N: usize> Default for GroupFigures<N> {
+    fn default() -> GroupFigures<N> {
+        GroupFigures {
+            momentum: [[0.0; N]; 3],
+            kinetic: [0.0; N],
+            gravity: [0.0; N],
+            stretch: [0.0; N],
+            bending: [0.0; N],
+            ok: true,
+            live: 0,
+        }
+    }
+}
+
+impl Summary {
+    /// Adds a lane group's part, lane by lane.
+    pub fn add<const N: usize>(&mut self, f: &GroupFigures<N>) {
+        for l in 0..f.live {
+            for k in 0..3 {
+                self.momentum[k] += f.momentum[k][l];
+            }
+            self.kinetic += f.kinetic[l];
+            self.gravity += f.gravity[l];
+            self.elastic += f.stretch[l] + f.bending[l];
+        }
+        self.surely_intact &= f.ok;
+    }
+}
+
+impl Default for Summary {
+    /// Nothing yet: zero figures, no strand near a blow-up.
+    fn default() -> Summary {
+        Summary {
+            momentum: [0.0; 3],
+            kinetic: 0.0,
+            gravity: 0.0,
+            elastic: 0.0,
+            surely_intact: true,
+        }
+    }
+}
+
 /// The per-frame figures of a state, as the strand contract defines them: total momentum
 /// sum m v (N s), kinetic energy sum 1/2 m |v|^2 and gravitational energy -sum m g . x (J),
 /// elastic energy sum 1/2 k (|x_{j+1} - x_j| - l0)^2 + sum 1/2 c |x_{i-1} - 2 x_i + x_{i+1}|^2
@@ -945,77 +999,92 @@ impl<T: Real, const N: usize> Lanes<T, N> {
     }
 
     /// The frame loop's per-frame figures of the state in the lanes, in one vectorised pass
-    /// (see [`Summary`]); `mass` is the mass of each particle of a strand, `h` the substep.
+    /// (see [`Summary`]); `mass` is the mass of each particle of a strand, `h` the substep. The
+    /// lane groups' parts ([`Lanes::group_figures`]) are added in group order, so threads that
+    /// each compute the parts of their own groups give the same bits.
     #[inline(always)]
-    #[allow(clippy::needless_range_loop)] // lane loops: x, y, z of one lane from three rows
     pub fn summary(&self, m: &SummaryModel<'_>) -> Summary {
         let n = self.particles;
+        let mut out = Summary::default();
+        for g in 0..self.groups() {
+            let live = (self.strands - g * N).min(N);
+            out.add(&Self::group_figures(
+                &self.origin[g],
+                &self.x[g * n..(g + 1) * n],
+                live,
+                m,
+            ));
+        }
+        out
+    }
+
+    /// One lane group's part of the [`Summary`]: its origins `o`, its particles `xs`, and `live`
+    /// strands in its lanes (the rest are padding).
+    #[inline(always)]
+    #[allow(clippy::needless_range_loop)] // lane loops: x, y, z of one lane from three rows
+    pub fn group_figures(
+        o: &Lanes3<f64, N>,
+        xs: &[Particle<T, N>],
+        live: usize,
+        m: &SummaryModel<'_>,
+    ) -> GroupFigures<N> {
         let inv_h = 1.0 / m.h;
         let max_s2 = (0.98 * m.max_speed * m.h).powi(2);
         let max_l2 = (0.98 * m.max_length).powi(2);
-        let mut out = Summary {
-            momentum: [0.0; 3],
-            kinetic: 0.0,
-            gravity: 0.0,
-            elastic: 0.0,
-            surely_intact: true,
+        let mut f = GroupFigures {
+            momentum: [[0.0f64; N]; 3],
+            kinetic: [0.0f64; N],
+            gravity: [0.0f64; N],
+            stretch: [0.0f64; N],
+            bending: [0.0f64; N],
+            ok: true,
+            live,
         };
-        for g in 0..self.groups() {
-            let live = (self.strands - g * N).min(N);
-            let o = &self.origin[g];
-            let xs = &self.x[g * n..(g + 1) * n];
-            let mut lp = [[0.0f64; N]; 3];
-            let mut lk = [0.0f64; N];
-            let mut lg = [0.0f64; N];
-            let mut es = [0.0f64; N];
-            let mut eb = [0.0f64; N];
-            let mut ok = true;
-            for (i, (q, &mass)) in xs.iter().zip(m.mass).enumerate() {
-                for l in 0..N {
-                    let rel = [0, 1, 2].map(|k| q[0][k][l].wide());
-                    let v = [0, 1, 2].map(|k| q[1][k][l].wide() * inv_h);
-                    let x = [0, 1, 2].map(|k| o[k][l] + rel[k]);
-                    for k in 0..3 {
-                        lp[k][l] += mass * v[k];
-                    }
-                    let v2 = v[0] * v[0] + v[1] * v[1] + v[2] * v[2];
-                    lk[l] += 0.5 * mass * v2;
-                    lg[l] -= mass * (m.gravity[0] * x[0] + m.gravity[1] * x[1] + m.gravity[2] * x[2]);
-                    // A NaN step fails the comparison.
-                    let s = [0, 1, 2].map(|k| q[1][k][l].wide());
-                    let s2 = s[0] * s[0] + s[1] * s[1] + s[2] * s[2];
-                    ok &= rel[0].is_finite() & rel[1].is_finite() & rel[2].is_finite() & (s2 <= max_s2);
-                }
-                if i >= 1 {
-                    let p = &xs[i - 1];
-                    for l in 0..N {
-                        let d = [0, 1, 2].map(|k| q[0][k][l].wide() - p[0][k][l].wide());
-                        let l2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2];
-                        let e = l2.sqrt() - m.rest_length;
-                        es[l] += 0.5 * m.stretch_k[i - 1] * e * e;
-                        ok &= l2 <= max_l2;
-                    }
-                }
-                if i >= 2 && m.bending_k[i - 2] != 0.0 {
-                    let (p, r) = (&xs[i - 2], &xs[i - 1]);
-                    let c = m.bending_k[i - 2];
-                    for l in 0..N {
-                        let b = [0, 1, 2].map(|k| p[0][k][l].wide() - 2.0 * r[0][k][l].wide() + q[0][k][l].wide());
-                        eb[l] += 0.5 * c * (b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
-                    }
-                }
-            }
-            for l in 0..live {
+        let (lp, lk, lg, es, eb) = (
+            &mut f.momentum,
+            &mut f.kinetic,
+            &mut f.gravity,
+            &mut f.stretch,
+            &mut f.bending,
+        );
+        let mut ok = true;
+        for (i, (q, &mass)) in xs.iter().zip(m.mass).enumerate() {
+            for l in 0..N {
+                let rel = [0, 1, 2].map(|k| q[0][k][l].wide());
+                let v = [0, 1, 2].map(|k| q[1][k][l].wide() * inv_h);
+                let x = [0, 1, 2].map(|k| o[k][l] + rel[k]);
                 for k in 0..3 {
-                    out.momentum[k] += lp[k][l];
+                    lp[k][l] += mass * v[k];
                 }
-                out.kinetic += lk[l];
-                out.gravity += lg[l];
-                out.elastic += es[l] + eb[l];
+                let v2 = v[0] * v[0] + v[1] * v[1] + v[2] * v[2];
+                lk[l] += 0.5 * mass * v2;
+                lg[l] -= mass * (m.gravity[0] * x[0] + m.gravity[1] * x[1] + m.gravity[2] * x[2]);
+                // A NaN step fails the comparison.
+                let s = [0, 1, 2].map(|k| q[1][k][l].wide());
+                let s2 = s[0] * s[0] + s[1] * s[1] + s[2] * s[2];
+                ok &= rel[0].is_finite() & rel[1].is_finite() & rel[2].is_finite() & (s2 <= max_s2);
             }
-            out.surely_intact &= ok;
+            if i >= 1 {
+                let p = &xs[i - 1];
+                for l in 0..N {
+                    let d = [0, 1, 2].map(|k| q[0][k][l].wide() - p[0][k][l].wide());
+                    let l2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2];
+                    let e = l2.sqrt() - m.rest_length;
+                    es[l] += 0.5 * m.stretch_k[i - 1] * e * e;
+                    ok &= l2 <= max_l2;
+                }
+            }
+            if i >= 2 && m.bending_k[i - 2] != 0.0 {
+                let (p, r) = (&xs[i - 2], &xs[i - 1]);
+                let c = m.bending_k[i - 2];
+                for l in 0..N {
+                    let b = [0, 1, 2].map(|k| p[0][k][l].wide() - 2.0 * r[0][k][l].wide() + q[0][k][l].wide());
+                    eb[l] += 0.5 * c * (b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
+                }
+            }
         }
-        out
+        f.ok = ok;
+        f
     }
 
     /// Origins and particles of lane group `g`.

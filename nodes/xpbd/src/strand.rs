@@ -8,8 +8,8 @@ use heft_strand_common::geometry::{cross, dot, sub};
 use heft_strand_common::{Collider, FrameEnv, Method, Pin, Setup, State, V3};
 
 use crate::solver::{
-    Coeffs, LaneColliders, Lanes, Lanes3, Model, Near, Particle, Real, Scratch, SubstepInput, Summary, SummaryModel,
-    substep,
+    Coeffs, GroupFigures, LaneColliders, Lanes, Lanes3, Model, Near, Particle, Real, Scratch, SubstepInput, Summary,
+    SummaryModel, substep,
 };
 
 /// An XPBD strand node type with lanes of `T`.
@@ -197,6 +197,8 @@ struct Group<T: Real, const N: usize> {
     loaded: bool,
     /// The figures of the state the last frame left (`None` before the first frame).
     summary: Option<Summary>,
+    /// Each lane group's part of them, computed by the thread that ran the group.
+    figures: Vec<GroupFigures<N>>,
     /// The substep of the last frame (the lanes hold h v).
     stored_h: f64,
     /// The threads the last frame ran on (its store is split the same way).
@@ -274,30 +276,46 @@ struct FrameJob<'a, T: Real> {
     wind_gain: f64,
     /// Move each lane's origin to its particle 0 before the substeps (as a load would).
     reorigin: bool,
+    /// What the frame's figures are taken with (see [`Lanes::group_figures`]).
+    model: &'a SummaryModel<'a>,
+    /// The node's strands (the last group's lanes past them are padding).
+    strands: usize,
 }
 
 impl<T: Real> FrameJob<'_, T> {
-    /// Runs the frame's substeps for consecutive lane groups: their origins, particles
-    /// (`origin.len()` groups of `particles` each) and pin offsets, with one thread's scratch.
+    /// Runs the frame's substeps for consecutive lane groups from group `first`: their origins,
+    /// particles (`origin.len()` groups of `particles` each) and pin offsets, with one thread's
+    /// scratch; then takes each group's part of the frame's figures into `figures`.
+    #[allow(clippy::too_many_arguments)]
     fn run<const N: usize>(
         &self,
+        first: usize,
         origin: &mut [Lanes3<f64, N>],
         x: &mut [Particle<T, N>],
         start: &[Lanes3<f64, N>],
         end: &[Lanes3<f64, N>],
         worker: &mut Worker<T, N>,
+        figures: &mut [GroupFigures<N>],
     ) {
         let particles = x.len() / origin.len().max(1);
-        for (g, (origin, x)) in origin.iter_mut().zip(x.chunks_exact_mut(particles)).enumerate() {
+        let groups = origin.iter_mut().zip(x.chunks_exact_mut(particles)).zip(figures);
+        for (g, ((origin, x), figures)) in groups.enumerate() {
             self.arch.dispatch(GroupRun {
-                origin,
-                x,
+                origin: &mut *origin,
+                x: &mut *x,
                 start: &start[g],
                 end: &end[g],
                 wind: &mut worker.wind,
                 near: &mut worker.near,
                 scratch: &mut worker.scratch,
                 job: *self,
+            });
+            let live = self.strands.saturating_sub((first + g) * N).min(N);
+            *figures = self.arch.dispatch(Figures {
+                origin,
+                x,
+                live,
+                model: self.model,
             });
         }
     }
@@ -358,6 +376,7 @@ impl<T: Real, const N: usize> Group<T, N> {
             workers: vec![Worker::new(setup.particles)],
             loaded: false,
             summary: None,
+            figures: Vec::new(),
             stored_h: 1.0,
             threads: 1,
             lanes,
@@ -393,6 +412,16 @@ impl<T: Real, const N: usize> Group<T, N> {
         let root = setup.pin != Pin::Free;
         let tip = setup.pin == Pin::BothEnds;
         let free = (usize::from(root), n - usize::from(tip));
+        let model = SummaryModel {
+            mass: &setup.mass,
+            gravity: setup.gravity,
+            h,
+            stretch_k: &setup.segment_k,
+            rest_length: setup.rest_length,
+            bending_k: &setup.bend_c,
+            max_length: heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
+            max_speed: heft_strand_common::BLOW_UP_SPEED,
+        };
         let job = FrameJob {
             arch,
             env,
@@ -403,6 +432,8 @@ impl<T: Real, const N: usize> Group<T, N> {
             free,
             wind_gain: coeffs.h2_decay * setup.drag,
             reorigin,
+            model: &model,
+            strands: setup.strands,
         };
         // Lane groups are independent within a frame: contiguous ranges of them run on
         // `threads` threads, each with its own scratch, and every group computes the same bits
@@ -416,6 +447,8 @@ impl<T: Real, const N: usize> Group<T, N> {
         let mut origin: &mut [Lanes3<f64, N>] = &mut self.lanes.origin;
         let mut x: &mut [Particle<T, N>] = &mut self.lanes.x;
         let (mut start, mut end): (&[Lanes3<f64, N>], &[Lanes3<f64, N>]) = (&self.start, &self.end);
+        self.figures.resize(groups, GroupFigures::default());
+        let mut figures: &mut [GroupFigures<N>] = &mut self.figures;
         let mut parts = Vec::with_capacity(threads);
         for (k, worker) in self.workers.iter_mut().take(threads).enumerate() {
             let count = share(k, threads, groups).len();
@@ -423,19 +456,20 @@ impl<T: Real, const N: usize> Group<T, N> {
             let (p, p_rest) = std::mem::take(&mut x).split_at_mut(count * n);
             let (a, a_rest) = start.split_at(count);
             let (b, b_rest) = end.split_at(count);
-            (origin, x, start, end) = (o_rest, p_rest, a_rest, b_rest);
-            parts.push((o, p, a, b, worker));
+            let (f, f_rest) = std::mem::take(&mut figures).split_at_mut(count);
+            (origin, x, start, end, figures) = (o_rest, p_rest, a_rest, b_rest, f_rest);
+            parts.push((share(k, threads, groups).start, o, p, a, b, worker, f));
         }
         let mut parts = parts.into_iter();
-        if let Some((o, p, a, b, worker)) = parts.next() {
+        if let Some((g, o, p, a, b, worker, f)) = parts.next() {
             if threads == 1 {
-                job.run(o, p, a, b, worker);
+                job.run(g, o, p, a, b, worker, f);
             } else {
                 std::thread::scope(|scope| {
                     let others: Vec<_> = parts
-                        .map(|(o, p, a, b, worker)| scope.spawn(move || job.run(o, p, a, b, worker)))
+                        .map(|(g, o, p, a, b, worker, f)| scope.spawn(move || job.run(g, o, p, a, b, worker, f)))
                         .collect();
-                    job.run(o, p, a, b, worker);
+                    job.run(g, o, p, a, b, worker, f);
                     for handle in others {
                         // A panic in a worker reaches the node's caller with its own message.
                         if let Err(payload) = handle.join() {
@@ -447,25 +481,29 @@ impl<T: Real, const N: usize> Group<T, N> {
         }
         // The state stays in the lanes: the frame loop asks for it through `Method::store`.
         self.stored_h = h;
-        struct Figures<'a, T: Real, const N: usize>(&'a Lanes<T, N>, SummaryModel<'a>);
-        impl<T: Real, const N: usize> pulp::WithSimd for Figures<'_, T, N> {
-            type Output = Summary;
-            #[inline(always)]
-            fn with_simd<S: pulp::Simd>(self, _: S) -> Summary {
-                self.0.summary(&self.1)
-            }
+        // The groups' parts of the figures, added in group order (the same bits for any split).
+        let mut summary = Summary::default();
+        for f in &self.figures {
+            summary.add(f);
         }
-        let model = SummaryModel {
-            mass: &setup.mass,
-            gravity: setup.gravity,
-            h,
-            stretch_k: &setup.segment_k,
-            rest_length: setup.rest_length,
-            bending_k: &setup.bend_c,
-            max_length: heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
-            max_speed: heft_strand_common::BLOW_UP_SPEED,
-        };
-        self.summary = Some(arch.dispatch(Figures(&self.lanes, model)));
+        self.summary = Some(summary);
+    }
+}
+
+/// One lane group's part of the frame's figures ([`Lanes::group_figures`]), under the widest
+/// SIMD instruction set the CPU has, as [`GroupRun`].
+struct Figures<'a, T: Real, const N: usize> {
+    origin: &'a Lanes3<f64, N>,
+    x: &'a [Particle<T, N>],
+    live: usize,
+    model: &'a SummaryModel<'a>,
+}
+
+impl<T: Real, const N: usize> pulp::WithSimd for Figures<'_, T, N> {
+    type Output = GroupFigures<N>;
+    #[inline(always)]
+    fn with_simd<S: pulp::Simd>(self, _: S) -> GroupFigures<N> {
+        Lanes::<T, N>::group_figures(self.origin, self.x, self.live, self.model)
     }
 }
 
