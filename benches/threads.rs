@@ -15,8 +15,8 @@
 //! - `threads_1024x32`: 1024 strands of 32 particles (64 lane groups of 16), the case.
 //! - `threads_208x32`: 208 strands of 32 particles (13 lane groups): the least work a frame
 //!   splits across 2 threads (the node's `MIN_WORK_PER_THREAD`, 4096 lane-group
-//!   particle-substeps a thread; here 4160): the threads are started every frame, so this shows
-//!   whether starting them pays at the smallest split allowed.
+//!   particle-substeps a thread; here 4160): whether handing a share of every frame to another
+//!   thread pays at the smallest split allowed.
 //!
 //! The results are the same bits at any thread count (nodes/xpbd/tests/threads.rs checks it);
 //! each configuration is run once, and its outputs compared with the one-thread run's, before

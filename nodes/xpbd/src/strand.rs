@@ -226,9 +226,9 @@ impl<T: Real, const N: usize> Worker<T, N> {
 }
 
 /// The least work a thread is given, in lane-group particle-substeps (a group of `N` lanes
-/// advancing one particle by one substep): below it, starting a thread for the frame costs more
-/// than it saves. benches/threads.rs times the least split it allows (208 strands of 32 particles
-/// at 20 substeps: 4160 a thread): 1.11 times one thread in a quiet run.
+/// advancing one particle by one substep): below it, handing a share of the frame to another
+/// thread costs more than it saves. benches/threads.rs times the least split it allows (208
+/// strands of 32 particles at 20 substeps: 4160 a thread): 1.54 times one thread in one run.
 const MIN_WORK_PER_THREAD: usize = 4096;
 
 /// How many threads run a frame's `groups` lane groups of `particles` particles over `substeps`
@@ -332,10 +332,8 @@ impl<T: Real, const N: usize> Group<T, N> {
             self.lanes.store(x, v, self.stored_h);
             return;
         }
-        std::thread::scope(|scope| {
+        rayon::scope(|scope| {
             let (mut x, mut v) = (x, v);
-            let mut handles = Vec::with_capacity(self.threads);
-            let mut own = None;
             for k in 0..self.threads {
                 let g = share(k, self.threads, groups);
                 let range = (g.start * N).min(strands)..(g.end * N).min(strands);
@@ -344,20 +342,7 @@ impl<T: Real, const N: usize> Group<T, N> {
                 (x, v) = (xb, vb);
                 let lanes = &self.lanes;
                 let h = self.stored_h;
-                if k == 0 {
-                    // The calling thread stores the first range itself.
-                    own = Some((range, xa, va));
-                } else {
-                    handles.push(scope.spawn(move || lanes.store_strands(range, xa, va, h)));
-                }
-            }
-            if let Some((range, xa, va)) = own {
-                self.lanes.store_strands(range, xa, va, self.stored_h);
-            }
-            for handle in handles {
-                if let Err(payload) = handle.join() {
-                    std::panic::resume_unwind(payload);
-                }
+                scope.spawn(move |_| lanes.store_strands(range, xa, va, h));
             }
         });
     }
@@ -465,17 +450,11 @@ impl<T: Real, const N: usize> Group<T, N> {
             if threads == 1 {
                 job.run(g, o, p, a, b, worker, f);
             } else {
-                std::thread::scope(|scope| {
-                    let others: Vec<_> = parts
-                        .map(|(g, o, p, a, b, worker, f)| scope.spawn(move || job.run(g, o, p, a, b, worker, f)))
-                        .collect();
-                    job.run(g, o, p, a, b, worker, f);
-                    for handle in others {
-                        // A panic in a worker reaches the node's caller with its own message.
-                        if let Err(payload) = handle.join() {
-                            std::panic::resume_unwind(payload);
-                        }
+                rayon::scope(|scope| {
+                    for (g, o, p, a, b, worker, f) in parts {
+                        scope.spawn(move |_| job.run(g, o, p, a, b, worker, f));
                     }
+                    scope.spawn(move |_| job.run(g, o, p, a, b, worker, f));
                 });
             }
         }
