@@ -803,7 +803,7 @@ fn pair<T>(s: &mut [T], i: usize) -> (&mut T, &mut T) {
     (&mut a[i], &mut b[0])
 }
 
-/// What [`Lanes::summary`] needs of the model.
+/// What [`Lanes::group_figures`] needs of the model.
 #[derive(Debug, Clone, Copy)]
 pub struct SummaryModel<'a> {
     /// Mass of each particle of a strand, kg.
@@ -998,28 +998,10 @@ impl<T: Real, const N: usize> Lanes<T, N> {
         }
     }
 
-    /// The frame loop's per-frame figures of the state in the lanes, in one vectorised pass
-    /// (see [`Summary`]); `mass` is the mass of each particle of a strand, `h` the substep. The
-    /// lane groups' parts ([`Lanes::group_figures`]) are added in group order, so threads that
-    /// each compute the parts of their own groups give the same bits.
-    #[inline(always)]
-    pub fn summary(&self, m: &SummaryModel<'_>) -> Summary {
-        let n = self.particles;
-        let mut out = Summary::default();
-        for g in 0..self.groups() {
-            let live = (self.strands - g * N).min(N);
-            out.add(&Self::group_figures(
-                &self.origin[g],
-                &self.x[g * n..(g + 1) * n],
-                live,
-                m,
-            ));
-        }
-        out
-    }
-
-    /// One lane group's part of the [`Summary`]: its origins `o`, its particles `xs`, and `live`
-    /// strands in its lanes (the rest are padding).
+    /// One lane group's part of the frame loop's per-frame figures ([`Summary`], in one
+    /// vectorised pass): its origins `o`, its particles `xs`, and `live` strands in its lanes
+    /// (the rest are padding). The groups' parts are added in group order ([`Summary::add`]), so
+    /// threads that each take the parts of their own groups give the same bits.
     #[inline(always)]
     #[allow(clippy::needless_range_loop)] // lane loops: x, y, z of one lane from three rows
     pub fn group_figures(
