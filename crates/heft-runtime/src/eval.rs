@@ -251,8 +251,9 @@ pub fn evaluate_observed(
 /// every input it reads comes from a node evaluated whole before the windows; nodes that read a
 /// windowed node's output run whole after them. A windowed node's output is gathered whole when
 /// a node, a plot or a review page reads it, or a bake that cannot be written window by window
-/// (one that reads a node evaluated after the windows); every other output of it goes to the
-/// writers one window at a time and is not held ([`Schedule::streamed`]).
+/// (one that reads a node evaluated after the windows, or a series or an anchor from a windowed
+/// node); every other output of it goes to the writers one window at a time and is not held
+/// ([`Schedule::streamed`]).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Schedule {
     /// For each node: it advances window by window.
@@ -333,14 +334,24 @@ impl Schedule {
         }
         let mut streamed_bakes = Vec::with_capacity(plan.bakes.len());
         for bake in &plan.bakes {
+            // A bake written window by window takes only its points window by window; its
+            // series and anchors it writes when it is laid out, so they must come from nodes
+            // evaluated before the windows.
             let mut read = Vec::new();
+            let mut streams = true;
             for item in &bake.items {
                 read.push((item.node, item.output));
+                let before = !windowed[item.node] && !after[item.node];
+                streams &= if item.shape.kind == PortKind::Points {
+                    !after[item.node]
+                } else {
+                    before
+                };
                 if let crate::blocks::BakeAnchor::Series { node, output } = item.anchor {
                     read.push((node, output));
+                    streams &= !windowed[node] && !after[node];
                 }
             }
-            let streams = read.iter().all(|&(node, _)| !after[node]);
             if !streams {
                 for (node, output) in read {
                     kept[node][output] = true;
