@@ -15,19 +15,7 @@ use serde_json::Value;
 /// The example graphs that bake glTF: those with a line starting with `bake`, so that new
 /// examples are covered without a change here.
 fn baking_graphs() -> Vec<PathBuf> {
-    let mut graphs: Vec<PathBuf> = std::fs::read_dir(workspace_root().join("graphs"))
-        .expect("graphs/")
-        .map(|e| e.expect("entry").path())
-        .filter(|p| p.extension().is_some_and(|e| e == "graph"))
-        .filter(|p| {
-            std::fs::read_to_string(p)
-                .unwrap_or_else(|e| panic!("{}: {e}", p.display()))
-                .lines()
-                .any(|l| l.split_whitespace().next() == Some("bake"))
-        })
-        .collect();
-    graphs.sort();
-    graphs
+    heft_integration_tests::example_graphs_with("bake")
 }
 
 /// Runs every baking graph once per test process, each into its own folder; returns them.

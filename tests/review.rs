@@ -22,19 +22,7 @@ const TOLERANCE: f64 = 1e-4;
 
 /// The example graphs with a review block (a line starting with `review`).
 fn reviewing_graphs() -> Vec<PathBuf> {
-    let mut graphs: Vec<PathBuf> = std::fs::read_dir(workspace_root().join("graphs"))
-        .expect("graphs/")
-        .map(|e| e.expect("entry").path())
-        .filter(|p| p.extension().is_some_and(|e| e == "graph"))
-        .filter(|p| {
-            std::fs::read_to_string(p)
-                .unwrap_or_else(|e| panic!("{}: {e}", p.display()))
-                .lines()
-                .any(|l| l.split_whitespace().next() == Some("review"))
-        })
-        .collect();
-    graphs.sort();
-    graphs
+    heft_integration_tests::example_graphs_with("review")
 }
 
 fn run_into(graph: &Path, out: &Path) {

@@ -8,6 +8,24 @@ use std::sync::OnceLock;
 
 use heft_runtime::registry::Registry;
 
+/// The example graphs in graphs/ with a line starting with `keyword` (`bake`, `review`), sorted,
+/// so that a new example is covered without a change to the test that reads them.
+pub fn example_graphs_with(keyword: &str) -> Vec<PathBuf> {
+    let mut graphs: Vec<PathBuf> = std::fs::read_dir(workspace_root().join("graphs"))
+        .expect("graphs/")
+        .map(|e| e.expect("entry").path())
+        .filter(|p| p.extension().is_some_and(|e| e == "graph"))
+        .filter(|p| {
+            std::fs::read_to_string(p)
+                .unwrap_or_else(|e| panic!("{}: {e}", p.display()))
+                .lines()
+                .any(|l| l.split_whitespace().next() == Some(keyword))
+        })
+        .collect();
+    graphs.sort();
+    graphs
+}
+
 /// The workspace root.
 pub fn workspace_root() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))

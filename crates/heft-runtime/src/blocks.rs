@@ -150,6 +150,36 @@ pub fn check_file_name(src: &Arc<Source>, block: &OutputBlock, extensions: &[&st
     Ok(())
 }
 
+/// What is wrong with a series line's `joints N` (`c`) for an output of shape `shape`, if
+/// anything: only points form chains, a chain has at least 2 joints, and the chains share the
+/// points out evenly.
+fn chain_problem(
+    src: &Arc<Source>,
+    item: &crate::graph::BlockItem,
+    shape: Shape,
+    c: &crate::graph::Spanned<usize>,
+) -> Option<Problem> {
+    if shape.kind != PortKind::Points {
+        return Some(Problem::new(src, c.span, "`joints` is for points outputs").label("not points"));
+    }
+    if c.value < 2 {
+        return Some(Problem::new(src, c.span, "a chain needs at least 2 points").label("too short"));
+    }
+    (!shape.points.is_multiple_of(c.value)).then(|| {
+        Problem::new(
+            src,
+            c.span,
+            format!(
+                "`{}` has {} points, not a whole number of chains of {} joints",
+                item.port.text(),
+                shape.points,
+                c.value
+            ),
+        )
+        .label("does not divide")
+    })
+}
+
 /// Checks a `bake` block.
 pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) -> Result<PlannedBake, Vec<Problem>> {
     debug_assert_eq!(block.kind, BlockKind::Bake);
@@ -234,29 +264,11 @@ pub fn plan_bake(src: &Arc<Source>, block: &OutputBlock, resolve: &Resolve<'_>) 
                 );
                 continue;
             }
-            (PortKind::Points, Some(c)) if shape.points % c.value != 0 => {
-                problems.push(
-                    Problem::new(
-                        src,
-                        c.span,
-                        format!(
-                            "`{}` has {} points, not a whole number of chains of {} joints",
-                            item.port.text(),
-                            shape.points,
-                            c.value
-                        ),
-                    )
-                    .label("does not divide"),
-                );
-                continue;
-            }
-            (PortKind::Points, Some(c)) if c.value < 2 => {
-                problems.push(Problem::new(src, c.span, "a chain needs at least 2 points").label("too short"));
-                continue;
-            }
-            (PortKind::Vec3 | PortKind::Transform, Some(c)) => {
-                problems.push(Problem::new(src, c.span, "`joints` is for points outputs").label("not points"));
-                continue;
+            (_, Some(c)) => {
+                if let Some(p) = chain_problem(src, item, shape, c) {
+                    problems.push(p);
+                    continue;
+                }
             }
             _ => {}
         }
@@ -729,31 +741,11 @@ pub fn plan_review(
                 continue;
             }
         };
+        if let Some(p) = item.chains.as_ref().and_then(|c| chain_problem(src, item, shape, c)) {
+            problems.push(p);
+            continue;
+        }
         let show = match (shape.kind, &item.chains) {
-            (PortKind::Points, Some(c)) if c.value < 2 => {
-                problems.push(Problem::new(src, c.span, "a chain needs at least 2 points").label("too short"));
-                continue;
-            }
-            (PortKind::Points, Some(c)) if shape.points % c.value != 0 => {
-                problems.push(
-                    Problem::new(
-                        src,
-                        c.span,
-                        format!(
-                            "`{}` has {} points, not a whole number of chains of {} joints",
-                            item.port.text(),
-                            shape.points,
-                            c.value
-                        ),
-                    )
-                    .label("does not divide"),
-                );
-                continue;
-            }
-            (_, Some(c)) if shape.kind != PortKind::Points => {
-                problems.push(Problem::new(src, c.span, "`joints` is for points outputs").label("not points"));
-                continue;
-            }
             (PortKind::Points, chain) if dimension == Dimension::Length => ReviewShow::Points {
                 chain: chain.as_ref().map(|c| c.value),
             },
