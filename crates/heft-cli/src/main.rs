@@ -353,7 +353,12 @@ fn run(
     };
     // The streamed outputs are written window by window as the evaluation goes; the rest after.
     let mut writer = output::Writer::new(plan, &out, schedule.clone());
+    // A long shot spends most of its time in the windows: the bar says how far they are.
+    let total = plan.timeline.frames();
     let evaluation = eval::evaluate_in_windows(plan, threads, schedule, &done, &mut |frames| {
+        if let Some(b) = &bar {
+            b.set_message(format!("frames written: {} of {total}", frames.range.end));
+        }
         writer.window(frames).map_err(|e| e.to_string())
     });
     if let Some(b) = &bar {
