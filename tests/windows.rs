@@ -150,7 +150,7 @@ fn only_what_is_read_whole_is_held() {
     assert!(s.streamed[braid].iter().all(|&x| x), "nothing reads the braid whole");
     assert_eq!(s.streamed_bakes, [true, true, true]);
     let frames = plan.timeline.frames() as u128;
-    let whole = plan.footprint().total;
+    let whole = heft_runtime::eval::Schedule::whole(&plan).footprint(&plan).total;
     let held = s.footprint(&plan).total;
     let braid_per_frame: u128 = plan.nodes[braid].outputs.iter().map(|o| 8 * o.width() as u128).sum();
     assert_eq!(whole - held, braid_per_frame * (frames - s.window as u128));

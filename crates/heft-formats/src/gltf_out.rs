@@ -1486,24 +1486,14 @@ impl<'p> BakeWriter<'p> {
 
     /// The .glb's header, its document chunk and the header of its binary chunk.
     fn glb_head(doc: &Document<'_>, len: usize) -> Result<Vec<u8>, String> {
-        let mut json_bytes = serde_json::to_vec(doc).map_err(|e| e.to_string())?;
-        while !json_bytes.len().is_multiple_of(4) {
-            json_bytes.push(b' ');
-        }
-        let bin = len.next_multiple_of(4);
-        if !glb_fits(json_bytes.len(), bin) {
-            return Err("the bake is larger than a .glb file can hold (4 GiB)".to_owned());
-        }
-        let total = (12 + 8 + json_bytes.len() + 8 + bin) as u32;
-        let mut head = Vec::with_capacity(12 + 8 + json_bytes.len() + 8);
-        head.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
-        head.extend_from_slice(&2u32.to_le_bytes());
-        head.extend_from_slice(&total.to_le_bytes());
-        head.extend_from_slice(&(json_bytes.len() as u32).to_le_bytes());
-        head.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
-        head.extend_from_slice(&json_bytes);
-        head.extend_from_slice(&(bin as u32).to_le_bytes());
-        head.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
+        let json = serde_json::to_vec(doc).map_err(|e| e.to_string())?;
+        let (room, bin) = (json.len().next_multiple_of(4), len.next_multiple_of(4));
+        let (front, back) = glb_framing(room, bin)?;
+        let mut head = Vec::with_capacity(20 + room + 8);
+        head.extend_from_slice(&front);
+        head.extend_from_slice(&json);
+        head.resize(20 + room, b' ');
+        head.extend_from_slice(&back);
         Ok(head)
     }
 
@@ -1599,18 +1589,9 @@ impl<'p> BakeWriter<'p> {
                 // still JSON, and the chunk stays 4-byte aligned), the header in front, the
                 // buffer's chunk header after it.
                 let bin_len = len.next_multiple_of(4);
-                if !glb_fits(room, bin_len) {
-                    return Err(err("the bake is larger than a .glb file can hold (4 GiB)".to_owned()));
-                }
-                let mut head = Vec::with_capacity(20);
-                head.extend_from_slice(&0x4654_6C67u32.to_le_bytes()); // "glTF"
-                head.extend_from_slice(&2u32.to_le_bytes());
-                head.extend_from_slice(&((at + bin_len) as u32).to_le_bytes());
-                head.extend_from_slice(&(room as u32).to_le_bytes());
-                head.extend_from_slice(&0x4E4F_534Au32.to_le_bytes()); // "JSON"
+                let (head, back) = glb_framing(room, bin_len).map_err(err)?;
                 let mut tail = vec![b' '; room - text.len()];
-                tail.extend_from_slice(&(bin_len as u32).to_le_bytes());
-                tail.extend_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
+                tail.extend_from_slice(&back);
                 bin.write_at(0, &head).map_err(io)?;
                 bin.write_at(20, &text).map_err(io)?;
                 bin.write_at(20 + text.len() as u64, &tail).map_err(io)?;
@@ -1659,6 +1640,30 @@ impl<'p> BakeWriter<'p> {
             }
         }
     }
+}
+
+/// The bytes around a .glb's document chunk of `room` bytes (4-byte aligned) and its binary
+/// chunk of `bin` bytes (aligned): the file header and the document chunk's header in front, the
+/// binary chunk's header after (glTF 2.0, section 4.4.3).
+fn glb_framing(room: usize, bin: usize) -> Result<([u8; 20], [u8; 8]), String> {
+    if !glb_fits(room, bin) {
+        return Err("the bake is larger than a .glb file can hold (4 GiB)".to_owned());
+    }
+    let mut front = [0u8; 20];
+    let fields = [
+        0x4654_6C67u32,
+        2,
+        (12 + 8 + room + 8 + bin) as u32,
+        room as u32,
+        0x4E4F_534A,
+    ]; // "glTF", version, length, "JSON"
+    for (at, v) in fields.iter().enumerate() {
+        front[4 * at..4 * at + 4].copy_from_slice(&v.to_le_bytes());
+    }
+    let mut back = [0u8; 8];
+    back[..4].copy_from_slice(&(bin as u32).to_le_bytes());
+    back[4..].copy_from_slice(&0x004E_4942u32.to_le_bytes()); // "BIN\0"
+    Ok((front, back))
 }
 
 /// Counts the bytes written to it (a document's length without holding its text).

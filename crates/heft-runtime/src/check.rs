@@ -118,35 +118,14 @@ pub struct Plan {
     pub reviews: Vec<PlannedReview>,
 }
 
-/// The memory an evaluation of a plan holds: every node output over every frame.
+/// The memory an evaluation of a plan holds (`eval::Schedule::footprint`): what it keeps whole
+/// over every frame, and a window of the rest.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Footprint {
     /// Bytes of all outputs together.
     pub total: u128,
     /// The largest single output: (node, output, bytes).
     pub largest: Option<(usize, usize, u128)>,
-}
-
-impl Plan {
-    /// The bytes the evaluation's outputs take (8 per value), known before anything is
-    /// allocated, so that a run that cannot fit is refused before it starts.
-    pub fn footprint(&self) -> Footprint {
-        let frames = u128::from(self.timeline.frame_count);
-        let mut f = Footprint {
-            total: 0,
-            largest: None,
-        };
-        for (i, n) in self.nodes.iter().enumerate() {
-            for (k, shape) in n.outputs.iter().enumerate() {
-                let bytes = frames * shape.width() as u128 * 8;
-                f.total += bytes;
-                if f.largest.is_none_or(|(_, _, b)| bytes > b) {
-                    f.largest = Some((i, k, bytes));
-                }
-            }
-        }
-        f
-    }
 }
 
 fn si_text(v: f64, d: Dimension) -> String {
