@@ -747,13 +747,19 @@ pub fn substep<T: Real, const N: usize>(
     // particle i - 1 is final.
     let mut dx_root = [[T::ZERO; N]; 3];
     for i in 0..n {
-        let sp = &spread[i];
+        // Local copies: read through references, the loop is compiled lane by lane.
+        let Spread { along, r, g } = spread[i];
+        let mut d = [[T::ZERO; N]; 3];
+        for k in 0..3 {
+            for l in 0..N {
+                d[k][l] = r[k][l] + g[l] * dx_root[k][l];
+            }
+        }
+        dx_root = d;
         let step = &mut x[i][1];
         for k in 0..3 {
             for l in 0..N {
-                let d = sp.r[k][l] + sp.g[l] * dx_root[k][l];
-                dx_root[k][l] = d;
-                step[k][l] += sp.along[k][l] + d;
+                step[k][l] += along[k][l] + d[k][l];
             }
         }
         if i >= 1 {
