@@ -34,7 +34,7 @@
 //!
 //! Three passes over a group's particles: root to tip (steps 1 to 3 and the solve's forward
 //! elimination), tip to root (its back substitution and the spreading's elimination), root to
-//! tip (the spreading's back substitution, the last sweep, steps 6 and 7).
+//! tip (the spreading's back substitution, the last sweep in red-black order, steps 6 and 7).
 //!
 //! Layout: strands are grouped `N` at a time ("lanes"). For each particle index `i` of a group
 //! the position and the step of its `N` strands are stored x, y, z rows of `N` lanes
@@ -647,14 +647,19 @@ pub const ELIMINATION_LAG: usize = 2;
 /// spreading left, and leaves a solved segment (-C = alpha_tilde lambda) as it is. The
 /// strands' stretch hardly needs it (at 32, 256 and 4096 segments the figures agree to 0.03 %
 /// of the length without it), but f32 lanes do: without it they drift 4.2e-4 m from the f64
-/// lanes over 2 s of a busy scene (tests/precision.rs), with it 1.9e-6 m.
+/// lanes over 2 s of a busy scene (tests/precision.rs), with it 2.2e-6 m. The sweep runs in
+/// red-black order: the even segments, which share no particle, then the odd ones. Root to tip
+/// one after the other, every projection would wait for the one before it (a square root and
+/// a division); in this order no chain of dependent projections is longer than two, so the
+/// lanes' projections overlap in the processor.
 ///
 /// **Order.** Pass 1, root to tip: place particle j + 1 (predict, or pin), project the
 /// bending constraint centred on j (Gauss-Seidel: bending is linear and local), eliminate
 /// segment j - 2 ([`ELIMINATION_LAG`]). Pass 2, tip to root: back-substitute dlambda_j =
 /// rho_j - u_j dlambda_{j+1}, and eliminate particle j + 1's row of the spreading system.
-/// Pass 3, root to tip: back-substitute particle j + 1's correction, project segment j, and
-/// finish particle j (x += s) and push it out of the colliders. Until then a particle's
+/// Pass 3, root to tip: back-substitute particle j + 1's correction; when segment j is even,
+/// project it, then the odd segment j - 1, and finish particles j - 1 and j (x += s) and push
+/// them out of the colliders. Until then a particle's
 /// position is x + s with x its position at the start of the substep: the constraints read
 /// differences of x (exact for nearby particles) plus differences of s (small numbers, at full
 /// relative precision) and write only s.
@@ -762,11 +767,26 @@ pub fn substep<T: Real, const N: usize>(
                 step[k][l] += along[k][l] + d[k][l];
             }
         }
-        if i >= 1 {
-            let (p, q) = pair(x, i - 1);
-            correct(c, i - 1, &seg[i - 1].lam, p, q);
-            done_with(c, inp, &free, i - 1, &mut x[i - 1]);
+        // Segment j = i - 1 now has both its particles. The sweep goes in red-black order:
+        // an even segment as soon as it can, then the odd one before it, which both its
+        // neighbours have moved; particles up to j are then final.
+        if i >= 1 && (i - 1) % 2 == 0 {
+            let j = i - 1;
+            let (p, q) = pair(x, j);
+            correct(c, j, &seg[j].lam, p, q);
+            if j >= 1 {
+                let (p, q) = pair(x, j - 1);
+                correct(c, j - 1, &seg[j - 1].lam, p, q);
+                done_with(c, inp, &free, j - 1, &mut x[j - 1]);
+            }
+            done_with(c, inp, &free, j, &mut x[j]);
         }
+    }
+    // The last segment, when odd, and the particles it touches.
+    if m % 2 == 0 {
+        let (p, q) = pair(x, m - 1);
+        correct(c, m - 1, &seg[m - 1].lam, p, q);
+        done_with(c, inp, &free, m - 1, &mut x[m - 1]);
     }
     done_with(c, inp, &free, m, &mut x[m]);
 }

@@ -731,10 +731,12 @@ impl<T: Real> Method for Xpbd<T> {
         let model = Xpbd::<T>::model(setup, false);
         // A placeholder step; `frame` remakes the coefficients (in place) for the real one.
         let coeffs = Coeffs::new(&model, 1.0);
-        // Lanes per group: up to 16 (4 AVX2 registers of f64, 2 of f32), so several
-        // independent chains of dependent projections are in flight while a group's state
-        // (16 lanes x 32 particles x position and step: 12 KB in f32, 24 KB in f64) stays in
-        // the L1 cache. Measured in benches/strands.rs: 8 and 32 lanes are slower for both types.
+        // Lanes per group: up to 16 (4 AVX2 registers of f64, 2 of f32; 2 and 1 of AVX-512), so
+        // several independent chains of dependent projections are in flight while a group's
+        // state (16 lanes x 32 particles x position and step: 12 KB in f32, 24 KB in f64) stays
+        // in the L1 cache. Measured in benches/strands.rs: 8 and 32 lanes are slower for both
+        // types with AVX2; with AVX-512, 32 lanes of f32 are 0.89 times 16 (benches/threads.rs,
+        // one run).
         let engine = match lanes_for(setup.strands) {
             1 => Engine::L1(Group::new(setup)),
             2 => Engine::L2(Group::new(setup)),
