@@ -191,61 +191,144 @@ impl<'a> FieldView<'a> {
     /// instruction set their caller runs on).
     #[inline(always)]
     pub fn sample_lanes<const N: usize>(&self, p: &[[f64; N]; 3]) -> [[f64; N]; 3] {
+        let cells = Cells::locate(self.dims, self.spacing, self.origin, p);
+        cells.gather::<3>(self.samples, self.dims)
+    }
+
+    /// True when `other` has the same grid: dimensions, spacing and origin.
+    pub fn same_grid(&self, other: &FieldView<'_>) -> bool {
+        self.dims == other.dims && self.spacing == other.spacing && self.origin == other.origin
+    }
+}
+
+/// Where `N` points fall in a grid: per lane, whether it is inside, its cell's lower sample
+/// and the fractions along each axis.
+struct Cells<const N: usize> {
+    inside: [bool; N],
+    lower: [[usize; N]; 3],
+    /// 1 to the upper sample along the axis, 0 along an axis with one sample.
+    step: [[usize; N]; 3],
+    frac: [[f64; N]; 3],
+}
+
+impl<const N: usize> Cells<N> {
+    #[inline(always)]
+    fn locate(dims: [usize; 3], spacing: f64, origin: [f64; 3], p: &[[f64; N]; 3]) -> Cells<N> {
+        // One division per call, not one per lane and axis.
+        let inv_spacing = 1.0 / spacing;
         let mut inside = [true; N];
         let mut lower = [[0usize; N]; 3];
         let mut step = [[0usize; N]; 3];
         let mut frac = [[0.0f64; N]; 3];
-        let [nx, ny, _] = self.dims;
-        let stride = [3, 3 * nx, 3 * nx * ny];
         for a in 0..3 {
-            let n = self.dims[a];
+            let n = dims[a];
             let top = (n - 1) as f64;
-            let (o, last) = (self.origin[a], n.saturating_sub(2));
+            let (o, last) = (origin[a], n.saturating_sub(2));
+            let last = last as f64;
             for l in 0..N {
-                let mut u = (p[a][l] - o) / self.spacing;
+                let mut u = (p[a][l] - o) * inv_spacing;
                 inside[l] &= u >= -SNAP_CELLS && u <= top + SNAP_CELLS;
-                // Where u >= -SNAP_CELLS, u + 0.5 > 0 and truncation is the floor: the nearest
-                // sample (ties, far from any snap, go up), without a call to the C library's
-                // round or floor on targets whose baseline has no rounding instruction. Lanes
-                // outside (or not finite) compute a clamped cell and are zeroed below.
-                let nearest = (u + 0.5) as usize as f64;
+                // The nearest sample (ties, far from any snap, go up). Lanes outside (or not
+                // finite) compute a clamped cell and are zeroed in `gather`.
+                let nearest = (u + 0.5).floor();
                 if (u - nearest).abs() <= SNAP_CELLS {
                     u = nearest;
                 }
                 let u = u.clamp(0.0, top);
-                let i = (u as usize).min(last);
-                lower[a][l] = i;
-                // The step to the upper sample: zero along an axis with one sample.
-                step[a][l] = stride[a] * ((i + 1).min(n - 1) - i);
-                frac[a][l] = u - i as f64;
+                // In 0..=last whatever u is (`min` returns `last` for a NaN), so the one
+                // conversion to an index is exact. The rounding stays in f64: conversions
+                // between floating point and integers are slow in the vector units.
+                let i = u.floor().min(last);
+                let k = i as usize;
+                lower[a][l] = k;
+                step[a][l] = (k + 1).min(n - 1) - k;
+                frac[a][l] = u - i;
             }
         }
-        let mut v = [[0.0f64; N]; 3];
+        Cells {
+            inside,
+            lower,
+            step,
+            frac,
+        }
+    }
+
+    /// The trilinear interpolation of `W` values per sample (`samples` holds `W` values per
+    /// sample, x fastest), per lane; zero for the lanes outside.
+    #[inline(always)]
+    fn gather<const W: usize>(&self, samples: &[f64], dims: [usize; 3]) -> [[f64; N]; W] {
+        let [nx, ny, _] = dims;
+        let (lower, step, frac) = (&self.lower, &self.step, &self.frac);
+        let mut v = [[0.0f64; N]; W];
         for l in 0..N {
-            if !inside[l] {
+            if !self.inside[l] {
                 continue;
             }
-            let base = 3 * (lower[0][l] + nx * (lower[1][l] + ny * lower[2][l]));
+            let base = W * (lower[0][l] + nx * (lower[1][l] + ny * lower[2][l]));
             let (fx, fy, fz) = (frac[0][l], frac[1][l], frac[2][l]);
             let (gx, gy, gz) = (1.0 - fx, 1.0 - fy, 1.0 - fz);
-            let (sx, sy, sz) = (step[0][l], step[1][l], step[2][l]);
+            let (sx, sy, sz) = (W * step[0][l], W * nx * step[1][l], W * nx * ny * step[2][l]);
             // The eight corners in the order x fastest, each weight the product of its axes'
             // factors in x, y, z order, read as four pairs along x (one slice each: adjacent
             // in memory unless the grid has one sample along x). Samples are finite
             // (`from_frame` checks), so a corner of weight zero adds zero.
             let rows = [(gy, gz, 0), (fy, gz, sy), (gy, fz, sz), (fy, fz, sy + sz)];
             for (wy, wz, off) in rows {
-                let r = &self.samples[base + off..][..sx + 3];
+                let r = &samples[base + off..][..sx + W];
                 let (w0, w1) = (gx * wy * wz, fx * wy * wz);
-                for c in 0..3 {
+                for c in 0..W {
                     v[c][l] += w0 * r[c];
                 }
-                for c in 0..3 {
+                for c in 0..W {
                     v[c][l] += w1 * r[sx + c];
                 }
             }
         }
         v
+    }
+}
+
+/// Two frames of a field on the same grid with their samples side by side (the first frame's
+/// velocity, then the second's), so that a point's cell, weights and corner reads serve both:
+/// what a strand node samples every substep, between the frames around it.
+#[derive(Debug, Clone, Default)]
+pub struct FieldPair {
+    dims: [usize; 3],
+    spacing: f64,
+    origin: [f64; 3],
+    /// 6 values per sample.
+    samples: Vec<f64>,
+}
+
+impl FieldPair {
+    /// Holds `a` and `b` side by side, reusing the storage; false (and `self` left empty) when
+    /// their grids differ ([`FieldView::same_grid`]).
+    pub fn fill(&mut self, a: &FieldView<'_>, b: &FieldView<'_>) -> bool {
+        self.samples.clear();
+        if !a.same_grid(b) {
+            return false;
+        }
+        (self.dims, self.spacing, self.origin) = (a.dims, a.spacing, a.origin);
+        self.samples.reserve(2 * a.samples.len());
+        for (p, q) in a.samples.chunks_exact(3).zip(b.samples.chunks_exact(3)) {
+            self.samples.extend_from_slice(p);
+            self.samples.extend_from_slice(q);
+        }
+        true
+    }
+
+    /// True when it holds two frames.
+    pub fn is_filled(&self) -> bool {
+        !self.samples.is_empty()
+    }
+
+    /// The two frames' [`FieldView::sample_lanes`] at `N` points at once: exactly their values,
+    /// with one cell lookup per point.
+    #[inline(always)]
+    pub fn sample_lanes<const N: usize>(&self, p: &[[f64; N]; 3]) -> ([[f64; N]; 3], [[f64; N]; 3]) {
+        let cells = Cells::locate(self.dims, self.spacing, self.origin, p);
+        let v = cells.gather::<6>(&self.samples, self.dims);
+        ([v[0], v[1], v[2]], [v[3], v[4], v[5]])
     }
 }
 
@@ -406,6 +489,57 @@ mod tests {
 
     /// Lanes sample as the one-point call does, bit for bit, inside, on the faces, outside and
     /// for a non-finite point, whatever lane a point is in.
+    #[test]
+    fn a_pair_samples_both_frames_as_their_views_do() {
+        // Two frames on one grid (one sample along y), points inside, on faces, on the corner
+        // samples, outside and not finite: each lane of the pair is the bits of each view's own
+        // sample.
+        let (dims, h, o) = ([5, 1, 4], 0.25, [0.5, -0.5, 1.0]);
+        let a = frame(dims, h, o, |p| [p[0].sin(), p[2] * p[0], (p[1] - p[2]).cos()]);
+        let b = frame(dims, h, o, |p| [p[2] - p[0], (3.0 * p[0]).cos(), p[0] * p[0] * p[2]]);
+        let (va, vb) = (
+            FieldView::from_frame(&a).expect("valid"),
+            FieldView::from_frame(&b).expect("valid"),
+        );
+        let mut pair = FieldPair::default();
+        assert!(pair.fill(&va, &vb));
+        assert!(pair.is_filled());
+        let mut points = vec![
+            [0.5, -0.5, 1.0],
+            [1.5, -0.5, 1.75],
+            [1.5, -0.5, 1.7500000001],
+            [f64::NAN, -0.5, 1.2],
+        ];
+        points.extend([[0.4, -0.5, 1.2], [0.9, -0.4, 1.2], [1.6, -0.5, 1.2], [0.9, -0.5, 0.9]]);
+        for k in 0..40 {
+            let f = k as f64;
+            points.push([
+                0.5 + (f * 0.618_034).fract(),
+                -0.5,
+                1.0 + (f * 0.414_214).fract() * 0.75,
+            ]);
+        }
+        for chunk in points.chunks_exact(8) {
+            let lanes: [[f64; 8]; 3] = std::array::from_fn(|ax| std::array::from_fn(|l| chunk[l][ax]));
+            let (ga, gb) = pair.sample_lanes(&lanes);
+            let (wa, wb) = (va.sample_lanes(&lanes), vb.sample_lanes(&lanes));
+            for ax in 0..3 {
+                for l in 0..8 {
+                    assert_eq!(ga[ax][l].to_bits(), wa[ax][l].to_bits(), "{:?}, axis {ax}", chunk[l]);
+                    assert_eq!(gb[ax][l].to_bits(), wb[ax][l].to_bits(), "{:?}, axis {ax}", chunk[l]);
+                }
+            }
+        }
+        // A corner sample of each frame.
+        let (ga, gb) = pair.sample_lanes(&[[0.5], [-0.5], [1.0]]);
+        assert_eq!([ga[0][0], ga[1][0], ga[2][0]], va.at(0, 0, 0));
+        assert_eq!([gb[0][0], gb[1][0], gb[2][0]], vb.at(0, 0, 0));
+        // A grid that moved between the frames is not paired.
+        let moved = frame(dims, h, [0.6, -0.5, 1.0], |p| p);
+        assert!(!pair.fill(&va, &FieldView::from_frame(&moved).expect("valid")));
+        assert!(!pair.is_filled());
+    }
+
     #[test]
     fn lanes_sample_as_one_point_does() {
         let f = frame([4, 3, 2], 0.5, [-1.0, 0.0, 2.0], |p| {

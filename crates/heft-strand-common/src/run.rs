@@ -10,7 +10,7 @@ use crate::geometry::{
 };
 use crate::setup::{Pin, Setup};
 use heft_node_sdk::colliders::{self as collider_list, Capsule as ListedCapsule};
-use heft_node_sdk::field::FieldView;
+use heft_node_sdk::field::{FieldPair, FieldView};
 
 /// The simulated state: positions and velocities of every particle, strand-major (strand s,
 /// particle i at index s * particles + i).
@@ -102,6 +102,8 @@ pub struct Ambient<'e> {
     /// The anchor's rigid velocity field (zero without an anchor).
     pub anchor: RigidVelocity,
     wind: Option<(&'e FieldView<'e>, &'e FieldView<'e>, f64, f64)>,
+    /// The same two frames side by side, when they share a grid.
+    pair: Option<&'e FieldPair>,
 }
 
 impl Ambient<'_> {
@@ -121,12 +123,17 @@ impl Ambient<'_> {
     }
 
     /// [`Ambient::wind`] at `N` points at once (`x[axis][lane]`), each lane's value exactly
-    /// [`Ambient::wind`]'s, through [`FieldView::sample_lanes`].
+    /// [`Ambient::wind`]'s, through [`FieldPair::sample_lanes`] when the two frames share a
+    /// grid (one cell lookup and one pass over the corners for both), else
+    /// [`FieldView::sample_lanes`] of each.
     #[inline(always)]
     pub fn wind_lanes<const N: usize>(&self, x: &[[f64; N]; 3]) -> [[f64; N]; 3] {
         match self.wind {
             Some((w0, w1, frac, _)) => {
-                let (a, b) = (w0.sample_lanes(x), w1.sample_lanes(x));
+                let (a, b) = match self.pair {
+                    Some(pair) => pair.sample_lanes(x),
+                    None => (w0.sample_lanes(x), w1.sample_lanes(x)),
+                };
                 std::array::from_fn(|c| std::array::from_fn(|l| a[c][l] * (1.0 - frac) + b[c][l] * frac))
             }
             None => [[0.0; N]; 3],
@@ -149,6 +156,8 @@ struct Tables {
     pose_a: Vec<Pose>,
     pose_b: Vec<Pose>,
     colliders: Vec<Colliders>,
+    /// The frame's two wind fields side by side (see [`FieldPair`]).
+    wind: FieldPair,
 }
 
 impl Tables {
@@ -157,6 +166,7 @@ impl Tables {
             pose_a: vec![Pose::IDENTITY; substeps + 1],
             pose_b: vec![Pose::IDENTITY; substeps + 1],
             colliders: vec![Colliders::default(); substeps + 1],
+            wind: FieldPair::default(),
         }
     }
 }
@@ -316,6 +326,7 @@ impl<'a> FrameEnv<'a> {
             relative_damping: self.setup.relative_damping,
             anchor: self.anchor_velocity(k),
             wind: self.wind.as_ref().map(|(a, b)| (a, b, frac, self.setup.drag)),
+            pair: self.tables.wind.is_filled().then_some(&self.tables.wind),
         }
     }
 
@@ -909,7 +920,9 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
                     FieldView::from_frame(s.frame(f))
                         .map_err(|e| NodeError::new(format!("input `wind` at frame {}: {e}", tl.frame_number(f))))
                 };
-                Some((view(i - 1)?, view(i)?))
+                let (a, b) = (view(i - 1)?, view(i)?);
+                tables.wind.fill(&a, &b);
+                Some((a, b))
             }
             None => None,
         };
