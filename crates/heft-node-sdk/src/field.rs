@@ -273,15 +273,21 @@ impl<const N: usize> Cells<N> {
             // in memory unless the grid has one sample along x). Samples are finite
             // (`from_frame` checks), so a corner of weight zero adds zero.
             let rows = [(gy, gz, 0), (fy, gz, sy), (gy, fz, sz), (fy, fz, sy + sz)];
+            // The lane's values side by side, so that the loops over them are vector operations.
+            let mut acc = [0.0f64; W];
             for (wy, wz, off) in rows {
                 let r = &samples[base + off..][..sx + W];
+                let (lo, hi) = (&r[..W], &r[sx..sx + W]);
                 let (w0, w1) = (gx * wy * wz, fx * wy * wz);
                 for c in 0..W {
-                    v[c][l] += w0 * r[c];
+                    acc[c] += w0 * lo[c];
                 }
                 for c in 0..W {
-                    v[c][l] += w1 * r[sx + c];
+                    acc[c] += w1 * hi[c];
                 }
+            }
+            for c in 0..W {
+                v[c][l] = acc[c];
             }
         }
         v
