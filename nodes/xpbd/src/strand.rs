@@ -69,8 +69,8 @@ across the strand by the tension's geometric stiffness (Tournier, Nesme, Gilles 
 Constrained Dynamics\", ACM TOG; Andrews, Teichmann & Kry 2017, Computer Graphics Forum), so that the fast \
 transverse waves of a finely divided, taut strand are advanced as by backward Euler and not explicitly (a \
 Laplacian along the strand with weight lambda_j / l0, whose rows sum to zero: momentum is kept); then one \
-Gauss-Seidel sweep of the stretch constraints from the solve's multipliers takes out the linearisation's \
-remainder; push particles out of the colliders (pinned ones excepted) to their nearest surface point and remove \
+Gauss-Seidel sweep of the stretch constraints from the solve's multipliers, even segments then odd ones, \
+takes out the linearisation's remainder; push particles out of the colliders (pinned ones excepted) to their nearest surface point and remove \
 their inward velocity relative \
 to the surface there; v = (x - x_prev) / h. A collider is a sphere on `collider_k`, or, with `collider_k_end` \
 connected, a capsule from `collider_k` to `collider_k_end`, straight or tapered (radius from \
@@ -87,7 +87,8 @@ also resists unequal neighbouring segment lengths, which the stretch stiffness k
 free strand matches Euler-Bernoulli theory to 0.3 % at 40 segments.\n\
 Layout: strands are grouped 1, 2, 4, 8 or 16 at a time (by count) into SIMD lanes; each particle index holds \
 the x, y, z of its group's strands contiguously and the solver runs the same branch-free arithmetic on every \
-lane, compiled for the widest SIMD instruction set the CPU has (AVX2 where present, picked at run time; \
+lane, compiled for the widest SIMD instruction set the CPU has (AVX-512 or AVX2 where present, picked at run \
+time; \
 HEFT_SIMD=portable forces the target's baseline). The arithmetic is never contracted into fused multiply-adds, \
 so results are bit-identical whatever the CPU, and a strand's result does not depend on its group. Positions \
 are held relative to each strand's particle 0 at the start of the frame (kept in f64), so the precision does \
@@ -228,7 +229,8 @@ impl<T: Real, const N: usize> Worker<T, N> {
 /// The least work a thread is given, in lane-group particle-substeps (a group of `N` lanes
 /// advancing one particle by one substep): below it, handing a share of the frame to another
 /// thread costs more than it saves. benches/threads.rs times the least split it allows (208
-/// strands of 32 particles at 20 substeps: 4160 a thread): 1.54 times one thread in one run.
+/// strands of 32 particles at 20 substeps: 4160 a thread): 1.19 times one thread in one run (1.54
+/// times when a substep was 1.7 times slower).
 const MIN_WORK_PER_THREAD: usize = 4096;
 
 /// How many threads run a frame's `groups` lane groups of `particles` particles over `substeps`
