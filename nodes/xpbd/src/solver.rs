@@ -770,7 +770,7 @@ pub fn substep<T: Real, const N: usize>(
         // Segment j = i - 1 now has both its particles. The sweep goes in red-black order:
         // an even segment as soon as it can, then the odd one before it, which both its
         // neighbours have moved; particles up to j are then final.
-        if i >= 1 && (i - 1) % 2 == 0 {
+        if i >= 1 && (i - 1).is_multiple_of(2) {
             let j = i - 1;
             let (p, q) = pair(x, j);
             correct(c, j, &seg[j].lam, p, q);
@@ -783,7 +783,7 @@ pub fn substep<T: Real, const N: usize>(
         }
     }
     // The last segment, when odd, and the particles it touches.
-    if m % 2 == 0 {
+    if m.is_multiple_of(2) {
         let (p, q) = pair(x, m - 1);
         correct(c, m - 1, &seg[m - 1].lam, p, q);
         done_with(c, inp, &free, m - 1, &mut x[m - 1]);
