@@ -134,7 +134,15 @@ impl Ambient<'_> {
                     Some(pair) => pair.sample_lanes(x),
                     None => (w0.sample_lanes(x), w1.sample_lanes(x)),
                 };
-                std::array::from_fn(|c| std::array::from_fn(|l| a[c][l] * (1.0 - frac) + b[c][l] * frac))
+                // Plain loops over local rows: nested `from_fn` closures compile lane by lane.
+                let (ga, gb) = (1.0 - frac, frac);
+                let mut w = [[0.0; N]; 3];
+                for c in 0..3 {
+                    for l in 0..N {
+                        w[c][l] = a[c][l] * ga + b[c][l] * gb;
+                    }
+                }
+                w
             }
             None => [[0.0; N]; 3],
         }

@@ -572,7 +572,12 @@ impl<T: Real, const N: usize> pulp::WithSimd for GroupRun<'_, T, N> {
                 let ambient = env.ambient(k);
                 // The whole lane group's particle at once (FieldView::sample_lanes).
                 for (xi, wi) in x.iter().zip(wind.iter_mut()) {
-                    let p = std::array::from_fn(|c| std::array::from_fn(|l| origin[c][l] + xi[0][c][l].wide()));
+                    let mut p = [[0.0f64; N]; 3];
+                    for c in 0..3 {
+                        for l in 0..N {
+                            p[c][l] = origin[c][l] + xi[0][c][l].wide();
+                        }
+                    }
                     let w = ambient.wind_lanes::<N>(&p);
                     for c in 0..3 {
                         for l in 0..N {
