@@ -205,9 +205,9 @@ impl<'a> FieldView<'a> {
 /// and the fractions along each axis.
 struct Cells<const N: usize> {
     inside: [bool; N],
-    lower: [[usize; N]; 3],
-    /// 1 to the upper sample along the axis, 0 along an axis with one sample.
-    step: [[usize; N]; 3],
+    /// The flat index of the cell's lower sample, i + nx (j + ny k): a whole number, exact in
+    /// f64 (a grid has far fewer than 2^53 samples).
+    corner: [f64; N],
     frac: [[f64; N]; 3],
 }
 
@@ -217,9 +217,10 @@ impl<const N: usize> Cells<N> {
         // One division per call, not one per lane and axis.
         let inv_spacing = 1.0 / spacing;
         let mut inside = [true; N];
-        let mut lower = [[0usize; N]; 3];
-        let mut step = [[0usize; N]; 3];
+        let mut corner = [0.0f64; N];
         let mut frac = [[0.0f64; N]; 3];
+        // The flat index's step along each axis.
+        let stride = [1.0, dims[0] as f64, (dims[0] * dims[1]) as f64];
         for a in 0..3 {
             let n = dims[a];
             let top = (n - 1) as f64;
@@ -235,39 +236,35 @@ impl<const N: usize> Cells<N> {
                     u = nearest;
                 }
                 let u = u.clamp(0.0, top);
-                // In 0..=last whatever u is (`min` returns `last` for a NaN), so the one
-                // conversion to an index is exact. The rounding stays in f64: conversions
-                // between floating point and integers are slow in the vector units.
+                // In 0..=last whatever u is (`min` returns `last` for a NaN). The index stays
+                // in f64 until `gather` converts it once per lane: conversions between
+                // floating point and integers are slow in the vector units.
                 let i = u.floor().min(last);
-                let k = i as usize;
-                lower[a][l] = k;
-                step[a][l] = (k + 1).min(n - 1) - k;
+                corner[l] += i * stride[a];
                 frac[a][l] = u - i;
             }
         }
-        Cells {
-            inside,
-            lower,
-            step,
-            frac,
-        }
+        Cells { inside, corner, frac }
     }
 
     /// The trilinear interpolation of `W` values per sample (`samples` holds `W` values per
     /// sample, x fastest), per lane; zero for the lanes outside.
     #[inline(always)]
     fn gather<const W: usize>(&self, samples: &[f64], dims: [usize; 3]) -> [[f64; N]; W] {
-        let [nx, ny, _] = dims;
-        let (lower, step, frac) = (&self.lower, &self.step, &self.frac);
+        let [nx, ny, nz] = dims;
+        // The step to the upper sample along each axis: none along an axis with one sample
+        // (its cell's lower sample is then the only one, and its upper weight is zero).
+        let up = |n: usize, stride: usize| if n > 1 { W * stride } else { 0 };
+        let (sx, sy, sz) = (up(nx, 1), up(ny, nx), up(nz, nx * ny));
+        let frac = &self.frac;
         let mut v = [[0.0f64; N]; W];
         for l in 0..N {
             if !self.inside[l] {
                 continue;
             }
-            let base = W * (lower[0][l] + nx * (lower[1][l] + ny * lower[2][l]));
+            let base = W * self.corner[l] as usize;
             let (fx, fy, fz) = (frac[0][l], frac[1][l], frac[2][l]);
             let (gx, gy, gz) = (1.0 - fx, 1.0 - fy, 1.0 - fz);
-            let (sx, sy, sz) = (W * step[0][l], W * nx * step[1][l], W * nx * ny * step[2][l]);
             // The eight corners in the order x fastest, each weight the product of its axes'
             // factors in x, y, z order, read as four pairs along x (one slice each: adjacent
             // in memory unless the grid has one sample along x). Samples are finite
