@@ -50,10 +50,26 @@ fn graph_file(dir: &Path) -> PathBuf {
     path
 }
 
+/// The plan of `graph`.
+fn plan_of(graph: &Path) -> check::Plan {
+    let (g, problems) = read_graph(graph).expect("readable");
+    check::check(&g, problems, &registry(), &Overrides::default()).expect("plans")
+}
+
+/// `heft run --quiet` of `graph` into `out`, in windows of `window` frames (the default
+/// without); true when it succeeds.
+fn run_in_windows(graph: &Path, out: &Path, window: Option<&str>) -> bool {
+    let mut cmd = heft();
+    cmd.args(["run", "--quiet", "--out"]).arg(out).arg(graph);
+    if let Some(w) = window {
+        cmd.args(["--window", w]);
+    }
+    cmd.status().expect("heft runs").success()
+}
+
 /// The files of `graph` from a whole evaluation written at the end (`output::write_all`).
 fn written_whole(graph: &Path, out: &Path) {
-    let (g, problems) = read_graph(graph).expect("readable");
-    let plan = check::check(&g, problems, &registry(), &Overrides::default()).expect("plans");
+    let plan = plan_of(graph);
     let e = eval::evaluate(&plan, Some(1)).expect("evaluates");
     let dir = heft_formats::output::OutputDir::open(out).expect("output folder");
     heft_formats::output::write_all(&plan, &e, graph, &dir, std::time::Duration::ZERO).expect("writes");
@@ -106,13 +122,7 @@ fn a_run_in_windows_writes_the_files_of_a_whole_evaluation() {
     written_whole(&graph, &whole);
     for window in [None, Some("1"), Some("7"), Some("40")] {
         let out = scratch.path().join(format!("window-{}", window.unwrap_or("default")));
-        let mut cmd = heft();
-        cmd.args(["run", "--quiet", "--out"]).arg(&out).arg(&graph);
-        if let Some(w) = window {
-            cmd.args(["--window", w]);
-        }
-        let status = cmd.status().expect("heft runs");
-        assert!(status.success(), "window {window:?}");
+        assert!(run_in_windows(&graph, &out, window), "window {window:?}");
         let compared = same_files(&whole, &out, &format!("window {window:?}"));
         // braid.csv, braid.parquet, braid.energy.csv, three bakes and one .bin.
         assert_eq!(compared, 7, "window {window:?}");
@@ -124,13 +134,7 @@ fn a_run_in_windows_writes_the_files_of_a_whole_evaluation() {
         let whole = scratch.path().join(format!("{name}-whole"));
         written_whole(&graph, &whole);
         let out = scratch.path().join(format!("{name}-3"));
-        let status = heft()
-            .args(["run", "--quiet", "--window", "3", "--out"])
-            .arg(&out)
-            .arg(&graph)
-            .status()
-            .expect("heft runs");
-        assert!(status.success(), "{name}");
+        assert!(run_in_windows(&graph, &out, Some("3")), "{name}");
         assert!(same_files(&whole, &out, name) >= 4, "{name}");
     }
 }
@@ -142,8 +146,7 @@ fn a_run_in_windows_writes_the_files_of_a_whole_evaluation() {
 fn only_what_is_read_whole_is_held() {
     let scratch = tempfile::tempdir().expect("temp dir");
     let graph = graph_file(scratch.path());
-    let (g, problems) = read_graph(&graph).expect("readable");
-    let plan = check::check(&g, problems, &registry(), &Overrides::default()).expect("plans");
+    let plan = plan_of(&graph);
     let braid = plan.nodes.iter().position(|n| n.name == "braid").expect("braid");
     let s = eval::Schedule::windows(&plan, 1 << 20);
     assert!(s.windowed[braid] && s.has_windows());
@@ -161,8 +164,7 @@ fn only_what_is_read_whole_is_held() {
         + "plot \"energy.svg\"\n    braid.energy\nbake \"momentum.glb\"\n    braid.momentum\n";
     let plotted = scratch.path().join("plotted.graph");
     std::fs::write(&plotted, text).expect("write");
-    let (g, problems) = read_graph(&plotted).expect("readable");
-    let plan = check::check(&g, problems, &registry(), &Overrides::default()).expect("plans");
+    let plan = plan_of(&plotted);
     let s = eval::Schedule::windows(&plan, 1 << 20);
     let spec = plan.nodes[braid].ty.spec();
     for (k, port) in spec.outputs.iter().enumerate() {
@@ -171,13 +173,7 @@ fn only_what_is_read_whole_is_held() {
     }
     assert_eq!(s.streamed_bakes, [true, true, true, false]);
     let out = scratch.path().join("plotted");
-    let status = heft()
-        .args(["run", "--quiet", "--window", "4", "--out"])
-        .arg(&out)
-        .arg(&plotted)
-        .status()
-        .expect("heft runs");
-    assert!(status.success());
+    assert!(run_in_windows(&plotted, &out, Some("4")));
     assert!(out.join("energy.svg").is_file());
     let whole = scratch.path().join("plotted-whole");
     written_whole(&plotted, &whole);

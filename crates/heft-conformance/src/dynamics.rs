@@ -932,20 +932,15 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
                 [1, 2].iter().find_map(|&w| {
                     let r = subject.run_in_windows(&setup, w);
                     match (&a, &r) {
-                        (Ok(x), Ok(y)) => compare(x, y).err().map(|v| match v {
-                            Verdict::Fail { message, frame, .. } => Verdict::Fail {
-                                message: format!(
+                        (Ok(x), Ok(y)) => compare(x, y).err().map(|v| {
+                            history(
+                                v,
+                                &format!(
                                     "the result depends on the windows of frames it is evaluated in: in windows of \
-                                     {w} frame(s), {}",
-                                    message
-                                        .replacen("two identical calls differ: ", "", 1)
-                                        .replacen("the first time", "whole", 1)
-                                        .replacen("the second", "in windows", 1)
+                                     {w} frame(s), "
                                 ),
-                                frame,
-                                property: Some(Property::History),
-                            },
-                            r => r,
+                                ["whole", "in windows"],
+                            )
                         }),
                         (Err(x), Err(y)) if x == y => None,
                         (x, y) => Some(
@@ -978,19 +973,12 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
                 }
                 (Ok(x), Ok(y), Ok(z)) => compare(x, y)
                     .and_then(|()| {
-                        compare(x, z).map_err(|v| match v {
-                            Verdict::Fail { message, frame, .. } => Verdict::Fail {
-                                message: format!(
-                                    "the result depends on the calls made before: {}",
-                                    message
-                                        .replacen("two identical calls differ: ", "", 1)
-                                        .replacen("the first time", "in the first call", 1)
-                                        .replacen("the second", "when called again after another call", 1)
-                                ),
-                                frame,
-                                property: Some(Property::History),
-                            },
-                            r => r,
+                        compare(x, z).map_err(|v| {
+                            history(
+                                v,
+                                "the result depends on the calls made before: ",
+                                ["in the first call", "when called again after another call"],
+                            )
                         })
                     })
                     .and_then(|()| all_finite(x, subject).map_err(|v| v.about(Property::Finiteness))),
@@ -1015,6 +1003,26 @@ pub fn check_history(subject: &Subject, d: &Dynamics, tolerances: &Tolerances) -
             examples: first_error.into_inner().into_iter().collect(),
         },
     )
+}
+
+/// A failed comparison of two runs that should agree, told as a history failure: `lead`
+/// (ending in its separator), then `compare`'s message with its two runs named `runs` instead of "the first time" and
+/// "the second".
+fn history(v: Verdict, lead: &str, runs: [&str; 2]) -> Verdict {
+    match v {
+        Verdict::Fail { message, frame, .. } => Verdict::Fail {
+            message: format!(
+                "{lead}{}",
+                message
+                    .replacen("two identical calls differ: ", "", 1)
+                    .replacen("the first time", runs[0], 1)
+                    .replacen("the second", runs[1], 1)
+            ),
+            frame,
+            property: Some(Property::History),
+        },
+        r => r,
+    }
 }
 
 fn outcome(r: &Result<Run, RunError>) -> String {

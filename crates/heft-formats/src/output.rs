@@ -107,12 +107,29 @@ struct OutputEntry {
     columns: Vec<String>,
 }
 
+/// One summary value of a node, as run.json and the review pages list it.
 #[derive(Serialize)]
-struct SummaryEntry {
+pub(crate) struct SummaryEntry {
     node: String,
     name: String,
     value: f64,
     unit: &'static str,
+}
+
+/// Every node's summary values, in the graph's order.
+pub(crate) fn summary_entries(plan: &Plan, eval: &Evaluation) -> Vec<SummaryEntry> {
+    plan.nodes
+        .iter()
+        .zip(&eval.summaries)
+        .flat_map(|(n, values)| {
+            n.ty.spec().summaries.iter().zip(values).map(|(s, v)| SummaryEntry {
+                node: n.name.clone(),
+                name: s.name.clone(),
+                value: *v,
+                unit: s.dimension.si_symbol(),
+            })
+        })
+        .collect()
 }
 
 #[derive(Serialize)]
@@ -453,19 +470,7 @@ impl<'a> Writer<'a> {
                 })
                 .collect(),
             outputs,
-            summaries: plan
-                .nodes
-                .iter()
-                .zip(&eval.summaries)
-                .flat_map(|(n, values)| {
-                    n.ty.spec().summaries.iter().zip(values).map(|(s, v)| SummaryEntry {
-                        node: n.name.clone(),
-                        name: s.name.clone(),
-                        value: *v,
-                        unit: s.dimension.si_symbol(),
-                    })
-                })
-                .collect(),
+            summaries: summary_entries(plan, eval),
             warnings: eval.warnings.iter().map(|(n, w)| format!("{n}: {w}")).collect(),
             evaluation_seconds: eval.wall.saturating_sub(in_windows).as_secs_f64(),
             writing_seconds: (in_windows + writing.elapsed()).as_secs_f64(),

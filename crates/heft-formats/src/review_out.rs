@@ -49,7 +49,7 @@ use serde::Serialize;
 
 use crate::commit::Transaction;
 use crate::motion;
-use crate::output::WriteError;
+use crate::output::{SummaryEntry, WriteError, summary_entries};
 use crate::plots::unit_label;
 
 /// The page's script: the 3D view, the charts, the controls and the test hook.
@@ -128,7 +128,7 @@ struct Page {
     scene: Vec<SceneItem>,
     charts: Vec<Chart>,
     audit: AuditPart,
-    summaries: Vec<Summary>,
+    summaries: Vec<SummaryEntry>,
 }
 
 #[derive(Serialize)]
@@ -196,14 +196,6 @@ struct PageFinding {
     #[serde(flatten)]
     finding: Finding,
     words: &'static str,
-}
-
-#[derive(Serialize)]
-struct Summary {
-    node: String,
-    name: String,
-    value: f64,
-    unit: &'static str,
 }
 
 /// One shown 3D series: frame-major values, of which the page stores the first `columns` of
@@ -315,7 +307,7 @@ pub fn write_page(
         scene,
         charts,
         audit: audit_part(plan, eval, review, frames.clone()),
-        summaries: summaries(plan, eval),
+        summaries: summary_entries(plan, eval),
     };
     let json = serde_json::to_string(&page).map_err(|e| e.to_string())?;
     let io = |e: std::io::Error| e.to_string();
@@ -683,22 +675,6 @@ fn audit_part(plan: &Plan, eval: &Evaluation, review: &PlannedReview, frames: st
             })
             .collect(),
     }
-}
-
-/// Every node's summary values, in the graph's order.
-fn summaries(plan: &Plan, eval: &Evaluation) -> Vec<Summary> {
-    plan.nodes
-        .iter()
-        .zip(&eval.summaries)
-        .flat_map(|(n, values)| {
-            n.ty.spec().summaries.iter().zip(values).map(|(s, v)| Summary {
-                node: n.name.clone(),
-                name: s.name.clone(),
-                value: *v,
-                unit: s.dimension.si_symbol(),
-            })
-        })
-        .collect()
 }
 
 /// Text for HTML: `&`, `<`, `>` and `"` escaped.

@@ -224,8 +224,7 @@ impl<const N: usize> Cells<N> {
         for a in 0..3 {
             let n = dims[a];
             let top = (n - 1) as f64;
-            let (o, last) = (origin[a], n.saturating_sub(2));
-            let last = last as f64;
+            let (o, last) = (origin[a], n.saturating_sub(2) as f64);
             for l in 0..N {
                 let mut u = (p[a][l] - o) * inv_spacing;
                 inside[l] &= u >= -SNAP_CELLS && u <= top + SNAP_CELLS;

@@ -152,22 +152,27 @@ pub fn node_threads(threads: usize, nodes: usize) -> usize {
     (threads / nodes.max(1)).max(1)
 }
 
-fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>], threads: usize) -> Result<NodeResult, EvalError> {
-    let node = &plan.nodes[i];
-    let spec = node.ty.spec();
-    let frames = plan.timeline.frames();
-    let empty: &[f64] = &[];
-    let inputs: Vec<(&[f64], usize)> = node
+/// Node `i`'s inputs as the plugin call takes them: each connected port's values with its
+/// width, from the results of the nodes evaluated before; an unconnected port is empty.
+fn node_inputs<'a>(plan: &Plan, i: usize, done: &'a [Option<NodeResult>]) -> Vec<(&'a [f64], usize)> {
+    plan.nodes[i]
         .inputs
         .iter()
         .map(|src| match src {
             Some((a, k)) => match &done[*a] {
                 Some(r) => (r.outputs[*k].as_slice(), plan.nodes[*a].outputs[*k].width()),
-                None => (empty, 0),
+                None => (&[][..], 0),
             },
-            None => (empty, 0),
+            None => (&[][..], 0),
         })
-        .collect();
+        .collect()
+}
+
+fn run_node(plan: &Plan, i: usize, done: &[Option<NodeResult>], threads: usize) -> Result<NodeResult, EvalError> {
+    let node = &plan.nodes[i];
+    let spec = node.ty.spec();
+    let frames = plan.timeline.frames();
+    let inputs = node_inputs(plan, i, done);
     if let Some(data) = &node.host_data {
         // A host node's data (a track read from a file) is checked like any node's outputs:
         // a value that overflowed on reading (1e306 kN is 1e309 N) is refused here.
@@ -512,18 +517,7 @@ fn advance_node(
     let Provider::Plugin { plugin, index } = &node.ty.provider else {
         return Err(fail("a host node cannot run in windows".to_owned()));
     };
-    let empty: &[f64] = &[];
-    let inputs: Vec<(&[f64], usize)> = node
-        .inputs
-        .iter()
-        .map(|src| match src {
-            Some((s, k)) => match &done[*s] {
-                Some(r) => (r.outputs[*k].as_slice(), plan.nodes[*s].outputs[*k].width()),
-                None => (empty, 0),
-            },
-            None => (empty, 0),
-        })
-        .collect();
+    let inputs = node_inputs(plan, i, done);
     for (buf, shape) in a.window.iter_mut().zip(&node.outputs) {
         buf.clear();
         buf.resize(range.len() * shape.width(), UNWRITTEN);

@@ -748,8 +748,8 @@ pub fn substep<T: Real, const N: usize>(
         g_tip = sp.g;
         r_tip = sp.r;
     }
-    // Pass 3: dx_i = r_i + g_i dx_{i-1} (g_0 = 0), then segment i - 1's projection, and
-    // particle i - 1 is final.
+    // Pass 3: dx_i = r_i + g_i dx_{i-1} (g_0 = 0), then the last sweep in red-black order,
+    // finishing each particle once no segment is left to move it.
     let mut dx_root = [[T::ZERO; N]; 3];
     for i in 0..n {
         // Local copies: read through references, the loop is compiled lane by lane.
@@ -772,11 +772,9 @@ pub fn substep<T: Real, const N: usize>(
         // neighbours have moved; particles up to j are then final.
         if i >= 1 && (i - 1).is_multiple_of(2) {
             let j = i - 1;
-            let (p, q) = pair(x, j);
-            correct(c, j, &seg[j].lam, p, q);
+            correct_segment(c, seg, x, j);
             if j >= 1 {
-                let (p, q) = pair(x, j - 1);
-                correct(c, j - 1, &seg[j - 1].lam, p, q);
+                correct_segment(c, seg, x, j - 1);
                 done_with(c, inp, &free, j - 1, &mut x[j - 1]);
             }
             done_with(c, inp, &free, j, &mut x[j]);
@@ -784,11 +782,17 @@ pub fn substep<T: Real, const N: usize>(
     }
     // The last segment, when odd, and the particles it touches.
     if m.is_multiple_of(2) {
-        let (p, q) = pair(x, m - 1);
-        correct(c, m - 1, &seg[m - 1].lam, p, q);
+        correct_segment(c, seg, x, m - 1);
         done_with(c, inp, &free, m - 1, &mut x[m - 1]);
     }
     done_with(c, inp, &free, m, &mut x[m]);
+}
+
+/// [`correct`] on segment `j` of the chain `x`, from the solve's multiplier.
+#[inline(always)]
+fn correct_segment<T: Real, const N: usize>(c: &Coeffs<T>, seg: &[Segment<T, N>], x: &mut [Particle<T, N>], j: usize) {
+    let (p, q) = pair(x, j);
+    correct(c, j, &seg[j].lam, p, q);
 }
 
 /// The compliant projection of segment j's constraint from multiplier `lam`: dlambda =
@@ -1040,13 +1044,8 @@ impl<T: Real, const N: usize> Lanes<T, N> {
         let max_s2 = (0.98 * m.max_speed * m.h).powi(2);
         let max_l2 = (0.98 * m.max_length).powi(2);
         let mut f = GroupFigures {
-            momentum: [[0.0f64; N]; 3],
-            kinetic: [0.0f64; N],
-            gravity: [0.0f64; N],
-            stretch: [0.0f64; N],
-            bending: [0.0f64; N],
-            ok: true,
             live,
+            ..GroupFigures::default()
         };
         let (lp, lk, lg, es, eb) = (
             &mut f.momentum,
