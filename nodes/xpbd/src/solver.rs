@@ -706,6 +706,7 @@ pub fn substep<T: Real, const N: usize>(
     // (i - 1) and its tip's side (i), the impulse b_i = n_{i-1} dlambda_{i-1} - n_i dlambda_i,
     // and row i of (I + W L) dx = W b, rows below eliminated: dx_i = r_i + g_i dx_{i-1}.
     let inv_l0 = T::ONE / c.rest_length;
+    let half = T::of(0.5);
     let mut lam_tip = [T::ZERO; N];
     let mut n_tip = [[T::ZERO; N]; 3];
     let mut kappa_tip = [T::ZERO; N];
@@ -725,21 +726,27 @@ pub fn substep<T: Real, const N: usize>(
             sg.lam = lam_root;
             n_root = sg.n;
         }
+        // The correction w_i b_i = w_i (n_{i-1} dlambda_{i-1} - n_i dlambda_i), split along the
+        // strand's tangent at i, t = n_{i-1} + n_i, and across it, along n_{i-1} - n_i (which is
+        // orthogonal to t, both directions being unit vectors):
+        // w_i b_i = w_i / 2 (dlambda_{i-1} - dlambda_i) t + w_i / 2 (dlambda_{i-1} + dlambda_i)
+        // (n_{i-1} - n_i). Only the part across is spread. An end particle has one segment:
+        // its correction lies along it, all of it.
+        let (wa, wb) = if i == 0 || i == m {
+            (w, T::ZERO)
+        } else {
+            (half * w, half * w)
+        };
         let sp = &mut spread[i];
         for l in 0..N {
-            // The correction w_i b_i, split along the strand's tangent at i (t = n_{i-1} + n_i)
-            // and across it; only the part across it is spread.
-            let c = [0, 1, 2].map(|k| w * (n_root[k][l] * lam_root[l] - n_tip[k][l] * lam_tip[l]));
-            let t = [0, 1, 2].map(|k| n_root[k][l] + n_tip[k][l]);
-            let along =
-                (t[0] * c[0] + t[1] * c[1] + t[2] * c[2]) / (t[0] * t[0] + t[1] * t[1] + t[2] * t[2]).max(T::TINY_SQ);
+            let a = wa * (lam_root[l] - lam_tip[l]);
+            let b = wb * (lam_root[l] + lam_tip[l]);
             let wk = w * kappa_tip[l];
             let inv = T::ONE / (T::ONE + w * kappa_root[l] + (wk - wk * g_tip[l]));
             sp.g[l] = w * kappa_root[l] * inv;
             for k in 0..3 {
-                let a = along * t[k];
-                sp.along[k][l] = a;
-                sp.r[k][l] = ((c[k] - a) + wk * r_tip[k][l]) * inv;
+                sp.along[k][l] = a * (n_root[k][l] + n_tip[k][l]);
+                sp.r[k][l] = (b * (n_root[k][l] - n_tip[k][l]) + wk * r_tip[k][l]) * inv;
             }
         }
         lam_tip = lam_root;
