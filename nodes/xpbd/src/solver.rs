@@ -42,8 +42,11 @@
 //! with no branches and the compiler vectorises them. The passes along a strand are sequential
 //! in `i`; the lanes give the parallelism. Every lane's arithmetic is the same sequence of IEEE
 //! operations whatever `N` is and whatever instruction set runs it (Rust neither reassociates
-//! nor contracts floating-point operations), so a strand's result depends neither on its group
-//! nor on the CPU. The node runs the substeps through `pulp`, which compiles them once per
+//! nor contracts floating-point operations; the fused multiply-adds are written out as
+//! [`Real::mul_add`], rounded once on every path), so a strand's result depends neither on its
+//! group nor on the CPU. The eliminations' chains of pivots are written so that each pivot
+//! waits for the last one by a fused multiply-add and a division only: a single strand (one
+//! lane) is bound by those chains. The node runs the substeps through `pulp`, which compiles them once per
 //! instruction set and picks the widest the CPU has at run time; every function on the substep
 //! path is `#[inline(always)]` so that it is compiled inside that choice.
 //!
@@ -62,7 +65,7 @@
 use heft_strand_common::{Collider, Colliders};
 
 use std::fmt::Debug;
-use std::ops::{Add, AddAssign, Div, Mul, Sub, SubAssign};
+use std::ops::{Add, AddAssign, Div, Mul, Neg, Sub, SubAssign};
 
 /// The number type of the lanes: f64 or f32. Both have the same IEEE semantics, so the solver is
 /// one generic code path.
@@ -78,6 +81,7 @@ pub trait Real:
     + Div<Output = Self>
     + AddAssign
     + SubAssign
+    + Neg<Output = Self>
     + 'static
 {
     /// 0.
@@ -99,6 +103,8 @@ pub trait Real:
     fn max(self, other: Self) -> Self;
     /// The smaller of two values (the other one when one is NaN, as `f64::min`).
     fn min(self, other: Self) -> Self;
+    /// self * a + b, rounded once (IEEE fused multiply-add).
+    fn mul_add(self, a: Self, b: Self) -> Self;
 }
 
 /// `Real` for a float type, its smallest squared length given.
@@ -128,6 +134,10 @@ macro_rules! real {
             #[inline(always)]
             fn min(self, other: $t) -> $t {
                 <$t>::min(self, other)
+            }
+            #[inline(always)]
+            fn mul_add(self, a: $t, b: $t) -> $t {
+                <$t>::mul_add(self, a, b)
             }
         }
     };
@@ -337,7 +347,7 @@ fn predict<T: Real, const N: usize>(
     let [x, s] = p;
     for k in 0..3 {
         for l in 0..N {
-            s[k][l] = c.decay * s[k][l] + base[k][l];
+            s[k][l] = c.decay.mul_add(s[k][l], base[k][l]);
         }
     }
     if let Some(w) = inp.spin {
@@ -440,7 +450,7 @@ fn eliminate<T: Real, const N: usize>(
         let dx = (qx[0][l] - px[0][l]) + (qs[0][l] - ps[0][l]);
         let dy = (qx[1][l] - px[1][l]) + (qs[1][l] - ps[1][l]);
         let dz = (qx[2][l] - px[2][l]) + (qs[2][l] - ps[2][l]);
-        let r = (dx * dx + dy * dy + dz * dz).max(T::TINY_SQ).sqrt();
+        let r = dz.mul_add(dz, dy.mul_add(dy, dx * dx)).max(T::TINY_SQ).sqrt();
         let inv_r = T::ONE / r;
         n[0][l] = dx * inv_r;
         n[1][l] = dy * inv_r;
@@ -457,17 +467,20 @@ fn eliminate<T: Real, const N: usize>(
         let w = c.inv_mass[k];
         let prev = &mut seg[k - 1];
         for l in 0..N {
-            let cos = prev.n[0][l] * n[0][l] + prev.n[1][l] * n[1][l] + prev.n[2][l] * n[2][l];
-            let e = T::ZERO - w * cos;
-            let u = e * run.inv_pivot[l];
-            prev.up[l] = u;
+            let cos = prev.n[2][l].mul_add(n[2][l], prev.n[1][l].mul_add(n[1][l], prev.n[0][l] * n[0][l]));
+            // e = -w cos.
+            let wc = w * cos;
+            prev.up[l] = -(wc * run.inv_pivot[l]);
             // The pivot is at least alpha_k / h^2 in exact arithmetic (the system is the sum of
             // a positive semi-definite J W J^T and alpha / h^2 times the identity); the floor
-            // keeps rounding from taking it lower.
-            let beta = (diag - e * u).max(floor);
+            // keeps rounding from taking it lower (and a NaN out). e^2 is formed off the chain
+            // of pivots, so that each pivot waits for the last one's inverse by one fused
+            // multiply-add, the floor and a division only.
+            let beta = (-(wc * wc)).mul_add(run.inv_pivot[l], diag);
+            let beta = if beta > floor { beta } else { floor };
             let inv = T::ONE / beta;
             run.inv_pivot[l] = inv;
-            run.rho[l] = (rhs[l] - e * run.rho[l]) * inv;
+            run.rho[l] = wc.mul_add(run.rho[l], rhs[l]) * inv;
         }
     }
     let s = &mut seg[k];
@@ -482,13 +495,14 @@ fn eliminate<T: Real, const N: usize>(
 #[inline(always)]
 fn bend<T: Real, const N: usize>(kk: [T; 3], p: &mut Particle<T, N>, q: &mut Particle<T, N>, r: &mut Particle<T, N>) {
     let [ka, kb, kc] = kk;
+    let (nka, nkc) = (-ka, -kc);
     let ([px, ps], [qx, qs], [rx, rs]) = (p, q, r);
     for k in 0..3 {
         for l in 0..N {
             let u = (px[k][l] - (qx[k][l] + qx[k][l]) + rx[k][l]) + (ps[k][l] - (qs[k][l] + qs[k][l]) + rs[k][l]);
-            ps[k][l] -= ka * u;
-            qs[k][l] += kb * u;
-            rs[k][l] -= kc * u;
+            ps[k][l] = nka.mul_add(u, ps[k][l]);
+            qs[k][l] = kb.mul_add(u, qs[k][l]);
+            rs[k][l] = nkc.mul_add(u, rs[k][l]);
         }
     }
 }
@@ -710,7 +724,8 @@ pub fn substep<T: Real, const N: usize>(
     let mut lam_tip = [T::ZERO; N];
     let mut n_tip = [[T::ZERO; N]; 3];
     let mut kappa_tip = [T::ZERO; N];
-    let mut g_tip = [T::ZERO; N];
+    let mut wr_tip = [T::ZERO; N];
+    let mut inv_tip = [T::ZERO; N];
     let mut r_tip = [[T::ZERO; N]; 3];
     for i in (0..n).rev() {
         let w = c.inv_mass[i];
@@ -720,7 +735,7 @@ pub fn substep<T: Real, const N: usize>(
         if i >= 1 {
             let sg = &mut seg[i - 1];
             for l in 0..N {
-                lam_root[l] = sg.rho[l] - sg.up[l] * lam_tip[l];
+                lam_root[l] = (-sg.up[l]).mul_add(lam_tip[l], sg.rho[l]);
                 kappa_root[l] = (T::ZERO - lam_root[l]).max(T::ZERO) * inv_l0;
             }
             sg.lam = lam_root;
@@ -741,18 +756,23 @@ pub fn substep<T: Real, const N: usize>(
         for l in 0..N {
             let a = wa * (lam_root[l] - lam_tip[l]);
             let b = wb * (lam_root[l] + lam_tip[l]);
-            let wk = w * kappa_tip[l];
-            let inv = T::ONE / (T::ONE + w * kappa_root[l] + (wk - wk * g_tip[l]));
-            sp.g[l] = w * kappa_root[l] * inv;
+            // The pivot 1 + w kappa_{i-1} + w kappa_i (1 - g_{i+1}) with g_{i+1} =
+            // w_{i+1} kappa_i / pivot_{i+1}: the part that does not depend on the last pivot
+            // formed first, so that each pivot waits for the last one's inverse by one fused
+            // multiply-add and a division only.
+            let (wr, wk) = (w * kappa_root[l], w * kappa_tip[l]);
+            let inv = T::ONE / (-(wk * wr_tip[l])).mul_add(inv_tip[l], (T::ONE + wr) + wk);
+            inv_tip[l] = inv;
+            wr_tip[l] = wr;
+            sp.g[l] = wr * inv;
             for k in 0..3 {
                 sp.along[k][l] = a * (n_root[k][l] + n_tip[k][l]);
-                sp.r[k][l] = (b * (n_root[k][l] - n_tip[k][l]) + wk * r_tip[k][l]) * inv;
+                sp.r[k][l] = b.mul_add(n_root[k][l] - n_tip[k][l], wk * r_tip[k][l]) * inv;
             }
         }
         lam_tip = lam_root;
         n_tip = n_root;
         kappa_tip = kappa_root;
-        g_tip = sp.g;
         r_tip = sp.r;
     }
     // Pass 3: dx_i = r_i + g_i dx_{i-1} (g_0 = 0), then the last sweep in red-black order,
@@ -764,7 +784,7 @@ pub fn substep<T: Real, const N: usize>(
         let mut d = [[T::ZERO; N]; 3];
         for k in 0..3 {
             for l in 0..N {
-                d[k][l] = r[k][l] + g[l] * dx_root[k][l];
+                d[k][l] = g[l].mul_add(dx_root[k][l], r[k][l]);
             }
         }
         dx_root = d;
@@ -821,16 +841,16 @@ fn correct<T: Real, const N: usize>(
         let dx = (qx[0][l] - px[0][l]) + (qs[0][l] - ps[0][l]);
         let dy = (qx[1][l] - px[1][l]) + (qs[1][l] - ps[1][l]);
         let dz = (qx[2][l] - px[2][l]) + (qs[2][l] - ps[2][l]);
-        let r = (dx * dx + dy * dy + dz * dz).max(T::TINY_SQ).sqrt();
+        let r = dz.mul_add(dz, dy.mul_add(dy, dx * dx)).max(T::TINY_SQ).sqrt();
         // dlambda / r: the direction's normalisation folded in.
         let f = (((l0 - r) - at * lam[l]) * inv_d) / r;
-        let (fa, fb) = (wp * f, wq * f);
-        ps[0][l] -= fa * dx;
-        ps[1][l] -= fa * dy;
-        ps[2][l] -= fa * dz;
-        qs[0][l] += fb * dx;
-        qs[1][l] += fb * dy;
-        qs[2][l] += fb * dz;
+        let (fa, fb) = (-(wp * f), wq * f);
+        ps[0][l] = fa.mul_add(dx, ps[0][l]);
+        ps[1][l] = fa.mul_add(dy, ps[1][l]);
+        ps[2][l] = fa.mul_add(dz, ps[2][l]);
+        qs[0][l] = fb.mul_add(dx, qs[0][l]);
+        qs[1][l] = fb.mul_add(dy, qs[1][l]);
+        qs[2][l] = fb.mul_add(dz, qs[2][l]);
     }
 }
 
