@@ -104,8 +104,8 @@ the default 20 substeps, 344 % at 256). Measured with the defaults swinging down
 most 0.11 % longer than at rest at 32 and at 256 segments (Hooke's share 0.05 %). Finer strands need shorter \
 steps for the solve's linearisation: swinging down from horizontal, 4096 segments of 0.1 mm stay within 0.44 % \
 at 80 substeps and stop with the blow-up error at 20 and 40; on a character's head through a jump, against \
-the head, a 40 cm strand holds at the default 20 substeps with 256 segments and needs about segments / 6.4 substeps above that \
-(80 at 512, 640 at 4096). Bending is one sweep, stiff bending is softened by about h^2 times the stencil's \
+the head, a 40 cm strand holds at the default 20 substeps with 192 segments and needs about segments / 6.4 \
+substeps from 256 up (40 at 256, 80 at 512, 640 at 4096). Bending is one sweep, stiff bending is softened by about h^2 times the stencil's \
 stiffness over the particle mass. The swing of a stiff strand is damped as by backward Euler, about pi omega h \
 of its amplitude per period (0.4 % for a 1 m pendulum at 100 substeps at 24 frames/s, 2 % at 20).\n\
 Stability: no step limit for any stiffness: the solve stays bounded as the compliance goes to 0 (its pivots are \
