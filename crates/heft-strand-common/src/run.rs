@@ -32,6 +32,9 @@ pub trait Method: Sized + Send + 'static {
     /// must end each substep k (1..=substeps) on `env.pin_target(s, slot, k)`, and every free
     /// particle must be passed through `env.project(k, ..)` after each substep. It may split the
     /// strands across up to `env.threads` threads, and must give the same bits for any count.
+    /// The step may differ from one frame to the next (a frame run again with more substeps,
+    /// see [`Method::rewind`], and the next with `substeps` again): a method that holds the
+    /// velocity as a step x - x_prev scales that step to the new h, keeping the velocity.
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>);
 
     /// The elastic energy of the method's model, J; by default stretch plus bending as
@@ -49,6 +52,42 @@ pub trait Method: Sized + Send + 'static {
         true
     }
 
+    /// Keeps, in `keep` or in the method, what it takes to run the coming frame again from
+    /// where it starts (see [`Method::rewind`]); the frame loop calls it before every frame when
+    /// `reruns` is above 0. By default a copy of `state`, all that a method needs whose state
+    /// is `state` and whose frames take any step `env.h`. A method with state of its own (a
+    /// layout of its own, the last positions) keeps that too.
+    fn mark(&mut self, state: &State, keep: &mut State) {
+        keep.clone_from(state);
+    }
+
+    /// Goes back to the last [`Method::mark`]: the next `frame` runs from where the marked one
+    /// started, with a step `env.h` that may differ from the last frame's. By default `state`
+    /// is set to `keep`.
+    fn rewind(&mut self, state: &mut State, keep: &State) {
+        state.clone_from(keep);
+    }
+
+    /// Keeps, in `held` or in the method, the state a try of a frame left while the frame runs
+    /// again from its start (see [`Method::merge`]); by default a copy of `state`.
+    fn hold(&mut self, state: &State, held: &mut State) {
+        held.clone_from(state);
+    }
+
+    /// After a frame ran again at a finer step: the strands whose `take` is true get the held
+    /// try's values back (see [`Method::hold`]), so that each strand keeps the first try it
+    /// came out right from, whatever the others did; the state is then held at the held try's
+    /// step (a method whose velocity is a step x - x_prev scales the other strands' steps to
+    /// it). By default the strands' positions and velocities are copied from `held`.
+    fn merge(&mut self, state: &mut State, held: &State, take: &[bool]) {
+        let p = state.x.len() / take.len().max(1);
+        for (s, _) in take.iter().enumerate().filter(|(_, t)| **t) {
+            let r = s * p..(s + 1) * p;
+            state.x[r.clone()].copy_from_slice(&held.x[r.clone()]);
+            state.v[r.clone()].copy_from_slice(&held.v[r]);
+        }
+    }
+
     /// Writes the positions and velocities of the state the last `frame` left, strand-major,
     /// three values a particle, m and m/s. Called only when [`Method::fills_state`] is false;
     /// by default it writes nothing.
@@ -62,8 +101,9 @@ pub trait Method: Sized + Send + 'static {
     }
 
     /// True when the method knows from its own layout that no strand of `state` is blown up
-    /// (see [`blown_strand`]), so the frame loop may skip that check. It must never be true for
-    /// a state [`blown_strand`] would flag; by default false (the frame loop always checks).
+    /// or overlong (see [`blown_strand`], [`overlong_strand`] with [`overlong_factor`]), so the
+    /// frame loop may skip those checks. It must never be true for a state either would flag;
+    /// by default false (the frame loop always checks).
     fn surely_intact(&self, _setup: &Setup, _state: &State) -> bool {
         false
     }
@@ -78,6 +118,13 @@ pub trait Method: Sized + Send + 'static {
     /// What the blow-up message calls the limit of [`Method::stability_limit`] ("... for these
     /// parameters is about ... s").
     const LIMIT_NAME: &'static str = "the explicit stability limit";
+
+    /// True when the frame loop watches the method's strands for crumpling (see
+    /// [`OverlongLimit`]): a step too coarse for a fine, stiff strand that shows as more length
+    /// than a pull explains before it blows up. False for a method whose stretch inside its
+    /// step limit is the strand's physics (explicit springs: a soft strand's springs vibrate
+    /// as far as its energy takes them), and whose coarse steps blow up instead.
+    const WATCHES_CRUMPLING: bool = true;
 
     /// True when `stretch_stiffness` is the strand's axial stiffness in the method's model
     /// (springs, compliant constraints): a segment beyond [`BLOW_UP_STRETCH`] rest lengths at a
@@ -169,6 +216,15 @@ struct Tables {
 }
 
 impl Tables {
+    /// Room for `substeps` substeps (keeps the larger tables of a rerun).
+    fn resize(&mut self, substeps: usize) {
+        if self.pose_a.len() < substeps + 1 {
+            self.pose_a.resize(substeps + 1, Pose::IDENTITY);
+            self.pose_b.resize(substeps + 1, Pose::IDENTITY);
+            self.colliders.resize(substeps + 1, Colliders::default());
+        }
+    }
+
     fn new(substeps: usize) -> Tables {
         Tables {
             pose_a: vec![Pose::IDENTITY; substeps + 1],
@@ -693,6 +749,17 @@ pub struct Running<M> {
     pinned_inside: Option<i64>,
     /// The next frame (timeline index) the loop computes.
     next: usize,
+    /// What it takes to run the coming frame again (see [`Method::mark`]).
+    kept: State,
+    /// A try of the frame held while the frame runs again (see [`Method::hold`]).
+    held: State,
+    /// Per strand, whether the last frame kept it overlong.
+    crumpled: Vec<bool>,
+    /// The frames run again after a blow-up: frame number and the substeps they ran at.
+    reruns: Vec<(i64, usize)>,
+    /// The strands kept crumpled (see [`OverlongLimit`]): frame number, strand and its
+    /// [`overlong_ratio`].
+    overlong: Vec<(i64, usize, f64)>,
 }
 
 impl<M> std::fmt::Debug for Running<M> {
@@ -887,6 +954,17 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
             moving,
             pinned_inside,
             next: 1,
+            kept: State {
+                x: Vec::new(),
+                v: Vec::new(),
+            },
+            held: State {
+                x: Vec::new(),
+                v: Vec::new(),
+            },
+            crumpled: Vec::new(),
+            reruns: Vec::new(),
+            overlong: Vec::new(),
         });
     }
     let Some(Running {
@@ -896,15 +974,19 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
         moving,
         pinned_inside,
         next,
+        kept,
+        held,
+        crumpled,
+        reruns,
+        overlong,
     }) = run.as_mut()
     else {
         return Err(NodeError::new("the simulation did not start"));
     };
 
-    let substeps = setup.substeps;
     let dt = tl.dt();
-    let h = dt / substeps as f64;
     let first = window.start;
+    let limit = overlong_limit::<M>(setup);
     for i in window.start.max(1)..window.end {
         let anchor = match &inputs.anchor {
             Some(s) => Some(track(s, "anchor", &tl, i)?),
@@ -934,50 +1016,127 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
             }
             None => None,
         };
-        for k in 0..=substeps {
-            let frac = k as f64 / substeps as f64;
-            tables.pose_a[k] = anchor.map_or(Pose::IDENTITY, |t| t.pose(frac));
-            if setup.pin == Pin::BothEnds {
-                tables.pose_b[k] = if end_on_b {
-                    end.map_or(Pose::IDENTITY, |t| t.pose(frac))
-                } else {
-                    tables.pose_a[k]
-                };
-            }
-            colliders_at(setup, moving, frac, &mut tables.colliders[k]);
-            tables.colliders[k].friction.step = h;
+        if setup.reruns > 0 {
+            method.mark(state, kept);
         }
-        let env = FrameEnv {
-            setup,
-            h,
-            substeps,
-            frame_dt: dt,
-            frame: i,
-            gravity: setup.gravity,
-            threads,
-            anchor,
-            anchor_angular_ends,
-            end,
-            moving,
-            wind,
-            tables,
+        // The frame at `substeps`, and when a strand blows up for want of a shorter step, again
+        // from its start at twice the substeps, up to `reruns` times.
+        let mut rerun = 0;
+        // Per strand, true once it came out right at some try of this frame: it keeps that try.
+        let mut settled: Vec<bool> = Vec::new();
+        let filled = loop {
+            let substeps = setup.substeps << rerun;
+            let h = dt / substeps as f64;
+            tables.resize(substeps);
+            for k in 0..=substeps {
+                let frac = k as f64 / substeps as f64;
+                tables.pose_a[k] = anchor.map_or(Pose::IDENTITY, |t| t.pose(frac));
+                if setup.pin == Pin::BothEnds {
+                    tables.pose_b[k] = if end_on_b {
+                        end.map_or(Pose::IDENTITY, |t| t.pose(frac))
+                    } else {
+                        tables.pose_a[k]
+                    };
+                }
+                colliders_at(setup, moving, frac, &mut tables.colliders[k]);
+                tables.colliders[k].friction.step = h;
+            }
+            let env = FrameEnv {
+                setup,
+                h,
+                substeps,
+                frame_dt: dt,
+                frame: i,
+                gravity: setup.gravity,
+                threads,
+                anchor,
+                anchor_angular_ends,
+                end,
+                moving,
+                wind,
+                tables,
+            };
+            method.frame(setup, state, &env);
+            let mut filled = method.fills_state();
+            if rerun > 0 {
+                // The strands that came out right at a coarser step take that result back.
+                method.merge(state, held, &settled);
+            } else if method.surely_intact(setup, state) {
+                crumpled.clear();
+                break filled;
+            }
+            if !filled {
+                method.store(state.x.as_flattened_mut(), state.v.as_flattened_mut());
+                filled = true;
+            }
+            let found: Vec<Found> = (0..setup.strands)
+                .map(|s| match settled.get(s) {
+                    Some(true) => Found::Fine,
+                    _ => inspect::<M>(setup, state, s, &limit),
+                })
+                .collect();
+            let frame = tl.frame_number(i);
+            if let Some(s) = found.iter().position(|f| *f == Found::Blown) {
+                // A strand torn apart by its anchor jumping (a glitch in the motion data) is
+                // the data's fault, not the step's: say so, naming the anchor and the frame.
+                if let Some(e) = anchor_jump(&inputs, &tl, i)? {
+                    return Err(e);
+                }
+                let physics = matches!(diagnose::<M>(setup, state, s, h, wind_used), Diagnosis::Physics { .. });
+                if rerun == 0 && (physics || setup.reruns == 0) {
+                    return Err(NodeError::new(blow_up_message::<M>(
+                        setup, state, s, frame, h, dt, wind_used,
+                    )));
+                }
+                if rerun == setup.reruns || physics {
+                    // The advice is for the last step tried.
+                    let mut tried = setup.clone();
+                    tried.substeps = substeps;
+                    let message = blow_up_message::<M>(&tried, state, s, frame, h, dt, wind_used);
+                    let counts: Vec<String> = (1..=rerun).map(|r| (setup.substeps << r).to_string()).collect();
+                    return Err(NodeError::new(format!(
+                        "{message} (it went wrong at the {} substeps given, and again each time the frame was run \
+                         from its start at {} substeps: `reruns` = {})",
+                        setup.substeps,
+                        counts.join(", "),
+                        setup.reruns
+                    )));
+                }
+            }
+            // A strand kept crumpled last frame is not run again for it: a rerun starts from the
+            // crumple and cannot mend it.
+            let again = |s: usize, f: &Found| match f {
+                Found::Fine => false,
+                Found::Blown => true,
+                Found::Overlong(_) => !crumpled.get(s).copied().unwrap_or(false),
+            };
+            if rerun < setup.reruns && found.iter().enumerate().any(|(s, f)| again(s, f)) {
+                settled = found.iter().enumerate().map(|(s, f)| !again(s, f)).collect();
+                method.hold(state, held);
+                method.rewind(state, kept);
+                rerun += 1;
+                continue;
+            }
+            crumpled.clear();
+            crumpled.extend(found.iter().map(|f| matches!(f, Found::Overlong(_))));
+            for (s, f) in found.iter().enumerate() {
+                if let Found::Overlong(ratio) = f {
+                    overlong.push((frame, s, *ratio));
+                }
+            }
+            break filled;
         };
-        method.frame(setup, state, &env);
-        let mut filled = method.fills_state();
+        if rerun > 0 {
+            reruns.push((tl.frame_number(i), setup.substeps << rerun));
+        }
+        let mut filled = filled;
         let mut fill = |state: &mut State| {
             if !filled {
                 method.store(state.x.as_flattened_mut(), state.v.as_flattened_mut());
                 filled = true;
             }
         };
-        if !method.surely_intact(setup, state) {
-            fill(state);
-            if let Err(e) = check_blow_up::<M>(setup, state, &tl, i, h, wind_used) {
-                // A strand torn apart by its anchor jumping (a glitch in the motion data) is
-                // the data's fault, not the step's: say so, naming the anchor and the frame.
-                return Err(anchor_jump(&inputs, &tl, i)?.unwrap_or(e));
-            }
-        }
+        let substeps = setup.substeps << rerun;
         if pinned_inside.is_none() && !tables.colliders[substeps].is_empty() {
             fill(state);
             let c = &tables.colliders[substeps];
@@ -1000,7 +1159,75 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
             "a pinned particle is inside a collider from frame {f}: pins follow their anchor and are not pushed out"
         ));
     }
+    if !reruns.is_empty() && window.end == frames {
+        io.warn(rerun_summary(setup.substeps, reruns));
+    }
+    // The worst strand and frame, the first of equals.
+    let worst = overlong.iter().fold(None, |w: Option<&(i64, usize, f64)>, o| match w {
+        Some(w) if w.2 >= o.2 => Some(w),
+        _ => Some(o),
+    });
+    if let Some(&(frame, s, ratio)) = worst
+        && window.end == frames
+    {
+        let mut frames: Vec<i64> = overlong.iter().map(|o| o.0).collect();
+        frames.dedup();
+        io.warn(format!(
+            "strands came out crumpled, up to {:.1} % longer than at rest (strand {s} at frame {frame}), in {}, and \
+             `reruns` = {} did not mend it: a step too coarse for their segments (raise `substeps`), or a pull \
+             harder than their `stretch_stiffness` holds within {} %",
+            100.0 * (ratio - 1.0),
+            frame_list(&frames),
+            setup.reruns,
+            100.0 * OVERLONG
+        ));
+    }
     Ok(())
+}
+
+/// Frame numbers in order as a short list: "frame 7", "frames 7 to 9, 12".
+fn frame_list(frames: &[i64]) -> String {
+    let mut runs: Vec<(i64, i64)> = Vec::new();
+    for &f in frames {
+        match runs.last_mut() {
+            Some((_, last)) if *last + 1 == f => *last = f,
+            _ => runs.push((f, f)),
+        }
+    }
+    let parts: Vec<String> = runs
+        .iter()
+        .map(|&(a, b)| if a == b { a.to_string() } else { format!("{a} to {b}") })
+        .collect();
+    let noun = if frames.len() == 1 { "frame" } else { "frames" };
+    format!("{noun} {}", parts.join(", "))
+}
+
+/// The warning that lists the frames run again after a blow-up (frame number, substeps), by
+/// the substeps they ran at ("frames 41 to 44 at 40, frame 42 at 80").
+fn rerun_summary(substeps: usize, reruns: &[(i64, usize)]) -> String {
+    let mut counts: Vec<usize> = reruns.iter().map(|r| r.1).collect();
+    counts.sort_unstable();
+    counts.dedup();
+    let parts: Vec<String> = counts
+        .iter()
+        .map(|&n| {
+            let frames: Vec<i64> = reruns.iter().filter(|r| r.1 == n).map(|r| r.0).collect();
+            format!("{} at {n}", frame_list(&frames))
+        })
+        .collect();
+    let most = counts.last().copied().unwrap_or(substeps);
+    let count = reruns.len();
+    let (noun, their) = if count == 1 {
+        ("frame", "its")
+    } else {
+        ("frames", "their")
+    };
+    format!(
+        "{count} {noun} went wrong at the {substeps} substeps given (a strand blew up or crumpled) and ran again \
+         from {their} start with more: {}; the rest ran at {substeps} (`substeps` = {most} runs every frame at one \
+         step)",
+        parts.join(", ")
+    )
 }
 
 /// The rest shape: each strand laid along `rest_direction` from its start point; for
@@ -1072,23 +1299,130 @@ pub const BLOW_UP_STRETCH: f64 = 10.0;
 /// The first strand that blew up (a non-finite value, a segment longer than 10 rest lengths,
 /// or a speed above 1e4 m/s), if any.
 pub fn blown_strand(setup: &Setup, state: &State) -> Option<usize> {
+    (0..setup.strands).find(|&s| is_blown(setup, state, s))
+}
+
+/// Whether strand `s` is blown up (see [`blown_strand`]).
+fn is_blown(setup: &Setup, state: &State, s: usize) -> bool {
     let p = setup.particles;
     let max_l2 = (BLOW_UP_STRETCH * setup.rest_length).powi(2);
     let max_v2 = BLOW_UP_SPEED * BLOW_UP_SPEED;
-    (0..setup.strands).find(|&s| {
-        let x = &state.x[s * p..(s + 1) * p];
-        let v = &state.v[s * p..(s + 1) * p];
-        // Written so that NaN fails every comparison and counts as blown up.
-        let mut ok = true;
-        for (xi, vi) in x.iter().zip(v) {
-            ok &= xi.iter().all(|c| c.is_finite()) & (dot(*vi, *vi) <= max_v2);
-        }
-        for w in x.windows(2) {
-            let e = sub(w[1], w[0]);
-            ok &= dot(e, e) <= max_l2;
-        }
-        !ok
-    })
+    let x = &state.x[s * p..(s + 1) * p];
+    let v = &state.v[s * p..(s + 1) * p];
+    // Written so that NaN fails every comparison and counts as blown up.
+    let mut ok = true;
+    for (xi, vi) in x.iter().zip(v) {
+        ok &= xi.iter().all(|c| c.is_finite()) & (dot(*vi, *vi) <= max_v2);
+    }
+    for w in x.windows(2) {
+        let e = sub(w[1], w[0]);
+        ok &= dot(e, e) <= max_l2;
+    }
+    !ok
+}
+
+/// How much longer than at rest a strand may be (beyond ten times the stretch its weight gives
+/// it hanging still) before the frame loop takes the frame's step for too coarse: 1 %, the
+/// issue's bound for a strand of 256 segments. A stable run of a stiff strand stays inside it:
+/// Juno's 40 cm ponytail through her jump (graphs/juno.graph with `segments` and `substeps`
+/// changed) at 256, 512 and 1024 segments and 40, 80 and 160 substeps, at most 0.38 %, 0.79 %
+/// and 0.64 % (measured). A fine strand whose step is too coarse crumples into a growing zigzag:
+/// the same at 256 and 20, 2 to 7 % in a frame or two before it blows up or recovers.
+pub const OVERLONG: f64 = 0.01;
+
+/// When the frame loop counts a strand as crumpled (see [`OverlongLimit::stretch`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OverlongLimit {
+    /// The least stretch that counts: the larger of [`OVERLONG`] and ten times the hanging
+    /// stretch of the top segment (T / (E A), for a stretchable model).
+    pub base: f64,
+    /// Twice the stretch per joule of kinetic energy about the strand's centre of mass:
+    /// 2 x 4 / (L (E A)_min), for a stretchable model (0 for rigid segments).
+    pub per_joule: f64,
+    /// The strand's mass, kg.
+    pub mass: f64,
+}
+
+impl OverlongLimit {
+    /// The stretch (length over the larger of the rest length and the end-to-end distance,
+    /// minus 1) above which a strand with kinetic energy `kinetic` (J) about its centre of mass
+    /// counts as crumpled. A strand's motion about its centre pulls it with a tension of about
+    /// 4 K / L (a uniform strand spinning about its middle carries T = m omega^2 L / 8 =
+    /// 3 K / L there, K = m L^2 omega^2 / 24), which a soft strand must be let stretch by:
+    /// twice T / (E A) (a load applied suddenly stretches a spring twice as far as at rest).
+    /// Stiff strands stay at [`OVERLONG`].
+    pub fn stretch(&self, kinetic: f64) -> f64 {
+        self.base.max(self.per_joule * kinetic)
+    }
+}
+
+/// The crumple limit of the strands of `setup` under method `M` (see [`OverlongLimit`]).
+pub fn overlong_limit<M: Method>(setup: &Setup) -> OverlongLimit {
+    let (hanging, per_joule) = if M::STRETCHABLE {
+        let ea = setup
+            .segment_k
+            .iter()
+            .fold(f64::INFINITY, |m, k| m.min(k * setup.rest_length));
+        let length = setup.rest_length * setup.segments as f64;
+        (
+            hanging_stretch(setup).map_or(0.0, |(_, ratio)| ratio - 1.0),
+            2.0 * 4.0 / (length * ea),
+        )
+    } else {
+        (0.0, 0.0)
+    };
+    OverlongLimit {
+        base: OVERLONG.max(10.0 * hanging),
+        per_joule,
+        mass: setup.mass.iter().sum(),
+    }
+}
+
+/// A strand's length (the sum of its segments) over the larger of its rest length and the
+/// distance between its ends: above 1, more length than a pull from its ends explains. A strand
+/// pulled straight beyond its rest length gives 1.
+pub fn overlong_ratio(setup: &Setup, x: &[V3]) -> f64 {
+    let rest = setup.rest_length * setup.segments as f64;
+    let length: f64 = x.windows(2).map(|w| norm(sub(w[1], w[0]))).sum();
+    length / rest.max(norm(sub(x[x.len() - 1], x[0])))
+}
+
+/// The kinetic energy of a strand's particles about their centre of mass, J.
+pub fn kinetic_about_centre(setup: &Setup, v: &[V3]) -> f64 {
+    let (mut p, mut k) = ([0.0; 3], 0.0);
+    for (vi, &m) in v.iter().zip(&setup.mass) {
+        p = axpy(p, m, *vi);
+        k += 0.5 * m * dot(*vi, *vi);
+    }
+    let mass: f64 = setup.mass.iter().sum();
+    (k - dot(p, p) / (2.0 * mass)).max(0.0)
+}
+
+/// What the frame loop finds of a strand after a try of a frame.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Found {
+    Fine,
+    /// See [`blown_strand`].
+    Blown,
+    /// Crumpled ([`OverlongLimit`]), with its [`overlong_ratio`].
+    Overlong(f64),
+}
+
+fn inspect<M: Method>(setup: &Setup, state: &State, s: usize, limit: &OverlongLimit) -> Found {
+    if is_blown(setup, state, s) {
+        return Found::Blown;
+    }
+    if !M::WATCHES_CRUMPLING {
+        return Found::Fine;
+    }
+    let p = setup.particles;
+    let (x, v) = (&state.x[s * p..(s + 1) * p], &state.v[s * p..(s + 1) * p]);
+    let ratio = overlong_ratio(setup, x);
+    if ratio > 1.0 + limit.stretch(kinetic_about_centre(setup, v)) {
+        Found::Overlong(ratio)
+    } else {
+        Found::Fine
+    }
 }
 
 /// Why a strand counts as blown up (see [`blown_strand`]).
@@ -1156,18 +1490,81 @@ pub fn hanging_stretch(setup: &Setup) -> Option<(f64, f64)> {
     Some((tension, 1.0 + tension / setup.stretch_stiffness))
 }
 
-/// The blow-up message of strand `s` at frame number `frame`, told apart by cause:
+/// Why strand `s` blew up, as far as the step is concerned (see [`diagnose`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Diagnosis {
+    /// h above, or within 20 % of, the method's step limit `limit`: a numerical instability.
+    AboveLimit {
+        /// The limit, s.
+        limit: f64,
+    },
+    /// The strand's physics: segment `segment` stretched to `ratio` rest lengths by a load its
+    /// stiffness cannot carry; more substeps will not help. `limit` is the method's step
+    /// limit, if it has one.
+    Physics {
+        /// The segment.
+        segment: usize,
+        /// Its length over the rest length.
+        ratio: f64,
+        /// The method's step limit, s.
+        limit: Option<f64>,
+    },
+    /// h within a factor 2 of the limit `limit`.
+    NearLimit {
+        /// The limit, s.
+        limit: f64,
+    },
+    /// h well inside the limit `limit`, but too coarse for the solver to keep up.
+    InsideLimit {
+        /// The limit, s.
+        limit: f64,
+    },
+    /// The method has no step limit; a coarse step costs accuracy.
+    NoLimit,
+}
+
+/// Why strand `s` of `state` blew up at a step `h`:
 ///
-/// - h above (or within 20 % of) the method's step limit: a numerical instability; the advice is
-///   the substeps that put h at 0.8 of the limit.
+/// - h above (or within 20 % of) the method's step limit: a numerical instability.
 /// - For a stretchable model ([`Method::STRETCHABLE`]), a segment beyond 10 rest lengths while
 ///   h is at most half the limit (the method is stable there), or, for a method without a
 ///   limit, while the strand's weight alone would stretch its top segment that far when applied
 ///   suddenly (an undamped spring k under a constant force F switched on at t = 0 moves as
 ///   x = (F / k)(1 - cos omega t), twice its static stretch at the turn): the strand's physics;
 ///   more substeps will not help, a stiffer or lighter strand will.
-/// - Otherwise: double the substeps (h within a factor 2 of the limit; or well inside it but too
-///   coarse for the solver, such as rigid segments' projection; or the method has no limit).
+/// - Otherwise a step too coarse: h within a factor 2 of the limit; or well inside it but too
+///   coarse for the solver, such as rigid segments' projection; or the method has no limit.
+pub fn diagnose<M: Method>(setup: &Setup, state: &State, s: usize, h: f64, wind: bool) -> Diagnosis {
+    let cause = blow_up_cause(setup, state, s).unwrap_or(BlowUp::NonFinite);
+    let limit = M::stability_limit(setup, wind);
+    // A model with rigid segments ignores `stretch_stiffness`: its over-long segments are the
+    // solver falling behind.
+    let hanging = if M::STRETCHABLE { hanging_stretch(setup) } else { None };
+    match (limit, cause) {
+        (Some(l), _) if h > 0.8 * l => Diagnosis::AboveLimit { limit: l },
+        (Some(l), BlowUp::Stretch { segment, ratio }) if M::STRETCHABLE && h <= 0.5 * l => Diagnosis::Physics {
+            segment,
+            ratio,
+            limit: Some(l),
+        },
+        (None, BlowUp::Stretch { segment, ratio })
+            if M::STRETCHABLE && hanging.is_some_and(|(_, r)| 2.0 * r - 1.0 > BLOW_UP_STRETCH) =>
+        {
+            Diagnosis::Physics {
+                segment,
+                ratio,
+                limit: None,
+            }
+        }
+        (Some(l), _) if h > 0.5 * l => Diagnosis::NearLimit { limit: l },
+        (Some(l), _) => Diagnosis::InsideLimit { limit: l },
+        (None, _) => Diagnosis::NoLimit,
+    }
+}
+
+/// The blow-up message of strand `s` at frame number `frame`, told apart by cause (see
+/// [`diagnose`]): for a numerical instability, the substeps that put h at 0.8 of the limit;
+/// for the strand's physics, a stiffer or lighter strand; otherwise twice the substeps.
 pub fn blow_up_message<M: Method>(
     setup: &Setup,
     state: &State,
@@ -1177,8 +1574,6 @@ pub fn blow_up_message<M: Method>(
     dt: f64,
     wind: bool,
 ) -> String {
-    let cause = blow_up_cause(setup, state, s).unwrap_or(BlowUp::NonFinite);
-    let limit = M::stability_limit(setup, wind);
     let name = M::LIMIT_NAME;
     let head = format!("strand {s} blew up at frame {frame}");
     let doubled = 2 * setup.substeps as u64;
@@ -1189,25 +1584,9 @@ pub fn blow_up_message<M: Method>(
             format!("raise `substeps` to at least {need}")
         }
     };
-    // A model with rigid segments ignores `stretch_stiffness`: no advice names it.
-    let hanging = if M::STRETCHABLE { hanging_stretch(setup) } else { None };
-    let weight = match hanging {
-        Some((tension, ratio)) => format!(
-            "; hanging still from its pin, its weight alone would stretch the top segment to about {ratio:.3e} rest \
-             lengths: a tension of {tension:.3e} N against `stretch_stiffness` {:.3e} N",
-            setup.stretch_stiffness
-        ),
-        None => String::new(),
-    };
-    let physical = |segment: usize, ratio: f64, why: String| {
-        format!(
-            "{head}: it stretches past {BLOW_UP_STRETCH} times its rest length under its load (segment {segment} is \
-             {ratio:.3e} rest lengths long{weight}); {why}, so this is the strand's physics and more substeps will \
-             not help: give it a stiffer `stretch_stiffness` or a lighter `mass_per_length`"
-        )
-    };
-    match (limit, cause) {
-        (Some(l), _) if h > 0.8 * l => {
+    let coarse = "use fewer `segments` or a higher frame rate";
+    match diagnose::<M>(setup, state, s, h, wind) {
+        Diagnosis::AboveLimit { limit: l } => {
             let relation = if h > l { "above" } else { "close to" };
             let instead = if M::STRETCHABLE {
                 "lower `stretch_stiffness` or `bending_stiffness`, raise `mass_per_length`, or use a method without \
@@ -1221,62 +1600,45 @@ pub fn blow_up_message<M: Method>(
                  instability): {advice}"
             )
         }
-        (Some(l), BlowUp::Stretch { segment, ratio }) if M::STRETCHABLE && h <= 0.5 * l => physical(
-            segment,
-            ratio,
-            format!(
-                "h = {h:.3e} s is {:.1} times below {name} for these parameters (about {l:.3e} s), where the method \
-                 is stable",
-                l / h
-            ),
-        ),
-        (None, BlowUp::Stretch { segment, ratio })
-            if M::STRETCHABLE && hanging.is_some_and(|(_, r)| 2.0 * r - 1.0 > BLOW_UP_STRETCH) =>
-        {
-            physical(
-                segment,
-                ratio,
-                "the method has no step-size stability limit, and a load applied suddenly stretches a spring twice \
-                 as far as at rest"
+        Diagnosis::Physics { segment, ratio, limit } => {
+            let weight = match hanging_stretch(setup) {
+                Some((tension, ratio)) => format!(
+                    "; hanging still from its pin, its weight alone would stretch the top segment to about \
+                     {ratio:.3e} rest lengths: a tension of {tension:.3e} N against `stretch_stiffness` {:.3e} N",
+                    setup.stretch_stiffness
+                ),
+                None => String::new(),
+            };
+            let why = match limit {
+                Some(l) => format!(
+                    "h = {h:.3e} s is {:.1} times below {name} for these parameters (about {l:.3e} s), where the \
+                     method is stable",
+                    l / h
+                ),
+                None => "the method has no step-size stability limit, and a load applied suddenly stretches a \
+                         spring twice as far as at rest"
                     .to_owned(),
+            };
+            format!(
+                "{head}: it stretches past {BLOW_UP_STRETCH} times its rest length under its load (segment {segment} \
+                 is {ratio:.3e} rest lengths long{weight}); {why}, so this is the strand's physics and more substeps \
+                 will not help: give it a stiffer `stretch_stiffness` or a lighter `mass_per_length`"
             )
         }
-        (Some(l), _) if h > 0.5 * l => format!(
+        Diagnosis::NearLimit { limit: l } => format!(
             "{head} (h = {h:.3e} s, within a factor 2 of {name} for these parameters, about {l:.3e} s): {}",
-            raise(doubled, "use fewer `segments` or a higher frame rate")
+            raise(doubled, coarse)
         ),
-        (Some(l), _) => format!(
+        Diagnosis::InsideLimit { limit: l } => format!(
             "{head} (h = {h:.3e} s, well inside {name} for these parameters, about {l:.3e} s, but too coarse for \
              the solver to keep up): {}",
-            raise(doubled, "use fewer `segments` or a higher frame rate")
+            raise(doubled, coarse)
         ),
-        (None, _) => format!(
+        Diagnosis::NoLimit => format!(
             "{head} (h = {h:.3e} s; this method has no step-size stability limit, but a coarse step costs accuracy): \
              {}",
-            raise(doubled, "use fewer `segments` or a higher frame rate")
+            raise(doubled, coarse)
         ),
-    }
-}
-
-fn check_blow_up<M: Method>(
-    setup: &Setup,
-    state: &State,
-    tl: &Timeline,
-    i: usize,
-    h: f64,
-    wind: bool,
-) -> Result<(), NodeError> {
-    match blown_strand(setup, state) {
-        None => Ok(()),
-        Some(s) => Err(NodeError::new(blow_up_message::<M>(
-            setup,
-            state,
-            s,
-            tl.frame_number(i),
-            h,
-            tl.dt(),
-            wind,
-        ))),
     }
 }
 
@@ -1774,5 +2136,220 @@ mod tests {
             ),
             "{msg}"
         );
+    }
+
+    // ------------------------------------------------------------ frames run again
+
+    /// How [`Shaky`] goes wrong.
+    const BLOWS_UP: u8 = 0;
+    const CRUMPLES: u8 = 1;
+    const OVERSTRETCHES: u8 = 2;
+    const BLOWS_UP_SECOND: u8 = 3;
+
+    thread_local! {
+        /// The frames (timeline index) and substeps [`Shaky`] was called with, in order.
+        static CALLS: std::cell::RefCell<Vec<(usize, usize)>> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+
+    /// A method that moves every particle along +x at 1 m/s, substep by substep (nothing else
+    /// acts), and goes wrong at frame 3 (timeline index) while it runs fewer than `FINE`
+    /// substeps: particle 1 of strand 0 made NaN (`BLOWS_UP`), or moved half a rest length off
+    /// the line, which leaves the strand's ends where they were and makes it 2 % longer
+    /// (`CRUMPLES`), or its last segment stretched to 12 rest lengths (`OVERSTRETCHES`).
+    struct Shaky<const HOW: u8, const FINE: usize>;
+    impl<const HOW: u8, const FINE: usize> Method for Shaky<HOW, FINE> {
+        fn new(_: &Setup) -> Self {
+            Shaky
+        }
+        fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>) {
+            CALLS.with(|c| c.borrow_mut().push((env.frame, env.substeps)));
+            for _ in 0..env.substeps {
+                for x in state.x.iter_mut() {
+                    x[0] += env.h;
+                }
+            }
+            for v in state.v.iter_mut() {
+                *v = [1.0, 0.0, 0.0];
+            }
+            if env.frame == 3 && env.substeps < FINE {
+                let l0 = setup.rest_length;
+                let last = setup.particles - 1;
+                match HOW {
+                    BLOWS_UP => state.x[1][0] = f64::NAN,
+                    BLOWS_UP_SECOND => state.x[setup.particles + 1][0] = f64::NAN,
+                    CRUMPLES => state.x[1][1] += 0.5 * l0,
+                    _ => state.x[last][2] -= 11.0 * l0,
+                }
+            }
+        }
+    }
+
+    /// Runs `M` on a free strand laid along -z from the origin, no gravity, for 6 frames: the
+    /// result, the positions of every frame and the warnings.
+    fn run_shaky<M: Method>(changes: &[(&str, ParamValue)]) -> (Result<(), NodeError>, Vec<f64>, Vec<String>) {
+        CALLS.with(|c| c.borrow_mut().clear());
+        let spec = node_spec("t", "", "");
+        let mut p = Params::defaults(&spec).expect("defaults");
+        for (name, value) in [
+            ("pin", ParamValue::Choice("free".into())),
+            ("gravity", ParamValue::Number(0.0)),
+        ]
+        .into_iter()
+        .chain(changes.iter().cloned())
+        {
+            p = p.with(name, value).expect("a parameter");
+        }
+        let setup = Setup::from_params(&p).expect("valid");
+        let tl = Timeline {
+            start_frame: 0,
+            frame_count: 6,
+            rate_num: 24,
+            rate_den: 1,
+        };
+        let n = setup.total_particles();
+        let (mut x, mut v, mut m, mut e) = (vec![0.0; 6 * 3 * n], vec![0.0; 6 * 3 * n], vec![0.0; 18], vec![0.0; 6]);
+        let inputs: Vec<Series<'_>> = spec.inputs.iter().map(|_| Series::new(&[], 0)).collect();
+        let mut io = Io::new(
+            tl,
+            &spec,
+            inputs,
+            vec![&mut x, &mut v, &mut m, &mut e],
+            vec![3 * n, 3 * n, 3, 1],
+        );
+        let result = evaluate_with::<M>(&setup, &mut io);
+        let warnings = io.warnings().to_vec();
+        drop(io);
+        (result, x, warnings)
+    }
+
+    fn calls() -> Vec<(usize, usize)> {
+        CALLS.with(|c| c.borrow().clone())
+    }
+
+    /// Every particle of frame f at its start plus f / 24 m along x (1 m/s): a frame run again
+    /// starts where the frame started, not where the failed try left it.
+    fn drifted_exactly(x: &[f64], particles: usize) {
+        for f in 0..6 {
+            for i in 0..particles {
+                let at = &x[(f * particles + i) * 3..][..3];
+                let want = [f as f64 / 24.0, 0.0, -(i as f64) * 0.4 / 12.0];
+                for k in 0..3 {
+                    assert!(
+                        (at[k] - want[k]).abs() < 1e-12,
+                        "frame {f} particle {i}: {at:?} against {want:?}"
+                    );
+                }
+            }
+        }
+    }
+
+    /// Frame 3 blows up at 20 and 40 substeps and not at 80: with the default `reruns` (3) it
+    /// runs at 20, 40, then 80, the rest at 20; the output is the undisturbed motion, and a
+    /// warning names the frame and its substeps.
+    #[test]
+    fn a_frame_that_blows_up_runs_again_from_its_start_with_twice_the_substeps() {
+        let (result, x, warnings) = run_shaky::<Shaky<BLOWS_UP, 80>>(&[]);
+        result.expect("runs");
+        assert_eq!(calls(), [(1, 20), (2, 20), (3, 20), (3, 40), (3, 80), (4, 20), (5, 20)]);
+        drifted_exactly(&x, 13);
+        assert_eq!(
+            warnings,
+            [
+                "1 frame went wrong at the 20 substeps given (a strand blew up or crumpled) and ran again from its \
+              start with more: frame 3 at 80; the rest ran at 20 (`substeps` = 80 runs every frame at one step)"
+            ]
+        );
+    }
+
+    /// With `reruns` = 1 the same frame stops the run at 40 substeps, and the error says what
+    /// was tried; with 0, the first blow-up stops it, with the message of a run without reruns.
+    #[test]
+    fn a_frame_still_blowing_up_after_its_reruns_stops_the_run_saying_what_was_tried() {
+        let (result, _, _) = run_shaky::<Shaky<BLOWS_UP, 80>>(&[("reruns", ParamValue::Integer(1))]);
+        let msg = result.expect_err("blows up").0;
+        assert_eq!(calls(), [(1, 20), (2, 20), (3, 20), (3, 40)]);
+        assert!(msg.starts_with("strand 0 blew up at frame 3 (h = 1.042e-3 s"), "{msg}");
+        // The default strand's explicit limit, 5.26e-4 s: 1.25 / 24 s over it.
+        assert!(msg.contains("raise `substeps` to at least 99"), "{msg}");
+        assert!(
+            msg.ends_with(
+                "(it went wrong at the 20 substeps given, and again each time the frame was run from its start at \
+                 40 substeps: `reruns` = 1)"
+            ),
+            "{msg}"
+        );
+        let (result, _, _) = run_shaky::<Shaky<BLOWS_UP, 80>>(&[("reruns", ParamValue::Integer(0))]);
+        let msg = result.expect_err("blows up").0;
+        assert_eq!(calls(), [(1, 20), (2, 20), (3, 20)]);
+        assert!(msg.starts_with("strand 0 blew up at frame 3 (h = 2.083e-3 s"), "{msg}");
+        assert!(
+            msg.contains("raise `substeps` to at least 99") && !msg.contains("reruns"),
+            "{msg}"
+        );
+    }
+
+    /// A strand crumpled 2 % longer than at rest (beyond [`OVERLONG`], 1 %) without a blow-up runs
+    /// again too; when no rerun mends it, the frame is kept and a warning gives the worst length,
+    /// and the frames after it, which start crumpled, are not run again for it.
+    #[test]
+    fn a_crumpled_strand_runs_again_and_is_kept_with_a_warning_when_that_does_not_mend_it() {
+        let (result, x, warnings) = run_shaky::<Shaky<CRUMPLES, 40>>(&[]);
+        result.expect("runs");
+        assert_eq!(calls(), [(1, 20), (2, 20), (3, 20), (3, 40), (4, 20), (5, 20)]);
+        drifted_exactly(&x, 13);
+        assert_eq!(warnings.len(), 1, "{warnings:?}");
+        assert!(warnings[0].contains("frame 3 at 40"), "{warnings:?}");
+        let (result, x, warnings) = run_shaky::<Shaky<CRUMPLES, 1000>>(&[("reruns", ParamValue::Integer(2))]);
+        result.expect("runs");
+        assert_eq!(calls(), [(1, 20), (2, 20), (3, 20), (3, 40), (3, 80), (4, 20), (5, 20)]);
+        // Kept: particle 1 of frame 3 (and after) is half a rest length off the line; two of the
+        // 12 segments are sqrt(1 + 0.5^2) rest lengths long, the strand 1.97 % longer.
+        let l0 = 0.4 / 12.0;
+        assert!((x[(3 * 13 + 1) * 3 + 1] - 0.5 * l0).abs() < 1e-15);
+        let over = 2.0 * ((1.0f64 + 0.25).sqrt() - 1.0) / 12.0;
+        assert_eq!(warnings.len(), 2, "{warnings:?}");
+        assert!(warnings[0].contains("frame 3 at 80"), "{warnings:?}");
+        assert!(
+            warnings[1].starts_with(&format!(
+                "strands came out crumpled, up to {:.1} % longer than at rest (strand 0 at frame 3), in frames 3 to \
+                 5",
+                100.0 * over
+            )),
+            "{warnings:?}"
+        );
+    }
+
+    /// Only the strand that blew up takes the finer step: the other keeps the try it came out
+    /// right from, the same bits as in a run where nothing went wrong, so a strand's result does
+    /// not depend on the others.
+    #[test]
+    fn a_frame_run_again_changes_only_the_strands_that_went_wrong() {
+        let two = [
+            ("count", ParamValue::Integer(2)),
+            ("placement", ParamValue::Choice("line".into())),
+        ];
+        let (result, x, _) = run_shaky::<Shaky<BLOWS_UP_SECOND, 80>>(&two);
+        result.expect("runs");
+        assert_eq!(calls(), [(1, 20), (2, 20), (3, 20), (3, 40), (3, 80), (4, 20), (5, 20)]);
+        let (result, clean, warnings) = run_shaky::<Shaky<BLOWS_UP_SECOND, 0>>(&two);
+        result.expect("runs");
+        assert!(warnings.is_empty(), "{warnings:?}");
+        let n = 13 * 3;
+        for f in 0..6 {
+            let (a, b) = (&x[f * 2 * n..][..n], &clean[f * 2 * n..][..n]);
+            assert!(a.iter().zip(b).all(|(p, q)| p.to_bits() == q.to_bits()), "frame {f}");
+            assert!(x[f * 2 * n + n..][..n].iter().all(|c| c.is_finite()), "frame {f}");
+        }
+    }
+
+    /// A blow-up the loop calls the strand's physics (a segment past 10 rest lengths at a step
+    /// half the stability limit or less) is not run again: more substeps do not mend it.
+    #[test]
+    fn a_blow_up_that_is_the_strands_physics_is_not_run_again() {
+        // 200 substeps: h = 2.08e-4 s, 0.4 times the default strand's limit of 5.26e-4 s.
+        let (result, _, _) = run_shaky::<Shaky<OVERSTRETCHES, 1000>>(&[("substeps", ParamValue::Integer(200))]);
+        let msg = result.expect_err("blows up").0;
+        assert_eq!(calls(), [(1, 200), (2, 200), (3, 200)]);
+        assert!(msg.contains("this is the strand's physics"), "{msg}");
     }
 }

@@ -94,6 +94,8 @@ pub struct Setup {
     pub gravity: V3,
     /// Solver steps per frame.
     pub substeps: usize,
+    /// How many times a frame that blows up is run again, each time with twice the substeps.
+    pub reruns: u32,
     /// Unit direction the free strand is laid along at the first frame (anchor-local).
     pub rest_direction: V3,
     /// Where particle 0 of each strand is pinned / starts, anchor-local (placement + start_offset), m.
@@ -148,6 +150,10 @@ impl Setup {
         let substeps = params.integer("substeps")?;
         if !(1..=10000).contains(&substeps) {
             return Err(NodeError::new(format!("`substeps` = {substeps} is outside 1..=10000")));
+        }
+        let reruns = params.integer("reruns")?;
+        if !(0..=6).contains(&reruns) {
+            return Err(NodeError::new(format!("`reruns` = {reruns} is outside 0..=6")));
         }
         let pin = match params.choice("pin")? {
             "one_end" => Pin::OneEnd,
@@ -269,6 +275,7 @@ impl Setup {
             drag,
             gravity: [0.0, 0.0, -g],
             substeps: substeps as usize,
+            reruns: reruns as u32,
             rest_direction: scale(dir, 1.0 / dn),
             start_offsets,
             end_offsets,

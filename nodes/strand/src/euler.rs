@@ -18,6 +18,8 @@ pub struct Euler;
 pub struct EulerMethod {
     f: Vec<V3>,
     started: bool,
+    /// `started` at the last [`Method::mark`].
+    marked_started: bool,
 }
 
 impl Method for EulerMethod {
@@ -25,7 +27,25 @@ impl Method for EulerMethod {
         EulerMethod {
             f: vec![[0.0; 3]; setup.particles],
             started: false,
+            marked_started: false,
         }
+    }
+
+    /// Explicit springs: a soft strand's stretch inside the step limit is its physics, and a
+    /// step beyond the limit blows up.
+    const WATCHES_CRUMPLING: bool = false;
+
+    fn mark(&mut self, state: &State, keep: &mut State) {
+        keep.clone_from(state);
+        self.marked_started = self.started;
+    }
+
+    /// Back to the marked state. The velocities stand for v_{-1/2} of the last step; a frame
+    /// with another h takes them as its own (a first-order change of the half step, in the
+    /// frames run again only).
+    fn rewind(&mut self, state: &mut State, keep: &State) {
+        state.clone_from(keep);
+        self.started = self.marked_started;
     }
 
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>) {

@@ -28,6 +28,12 @@ pub struct VerletMethod {
     /// Scratch of the initial projection ([`project_onto_constraints`]).
     start: StartScratch,
     started: bool,
+    /// The step of the last frame, s.
+    last_h: f64,
+    /// `prev`, `started` and `last_h` at the last [`Method::mark`].
+    marked: (Vec<V3>, bool, f64),
+    /// `prev` and `last_h` of a try of a frame held while it runs again ([`Method::hold`]).
+    held: (Vec<V3>, f64),
 }
 
 /// Newton iterations of the initial projection at most. Measured on 200 hanging or free chains
@@ -222,7 +228,44 @@ impl Method for VerletMethod {
                 .collect(),
             start: StartScratch::new(setup.particles),
             started: false,
+            last_h: f64::NAN,
+            marked: (Vec::new(), false, f64::NAN),
+            held: (Vec::new(), f64::NAN),
         }
+    }
+
+    fn hold(&mut self, state: &State, held: &mut State) {
+        held.clone_from(state);
+        self.held.0.clone_from(&self.prev);
+        self.held.1 = self.last_h;
+    }
+
+    /// The strands of `take` back to the held try, the others' x - x_prev scaled to its step.
+    fn merge(&mut self, state: &mut State, held: &State, take: &[bool]) {
+        let p = state.x.len() / take.len().max(1);
+        let ratio = self.held.1 / self.last_h;
+        for (s, &t) in take.iter().enumerate() {
+            for n in s * p..(s + 1) * p {
+                if t {
+                    (state.x[n], state.v[n], self.prev[n]) = (held.x[n], held.v[n], self.held.0[n]);
+                } else {
+                    self.prev[n] = axpy(state.x[n], -ratio, sub(state.x[n], self.prev[n]));
+                }
+            }
+        }
+        self.last_h = self.held.1;
+    }
+
+    fn mark(&mut self, state: &State, keep: &mut State) {
+        keep.clone_from(state);
+        self.marked.0.clone_from(&self.prev);
+        (self.marked.1, self.marked.2) = (self.started, self.last_h);
+    }
+
+    fn rewind(&mut self, state: &mut State, keep: &State) {
+        state.clone_from(keep);
+        self.prev.clone_from(&self.marked.0);
+        (self.started, self.last_h) = (self.marked.1, self.marked.2);
     }
 
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>) {
@@ -230,6 +273,15 @@ impl Method for VerletMethod {
         let inv_h = 1.0 / h;
         let start = !self.started;
         self.started = true;
+        if !start && self.last_h != h {
+            // A step of another length than the last frame's (a frame run again at more
+            // substeps, or the one after it): x - x_prev scaled to keep the velocity.
+            let ratio = h / self.last_h;
+            for (prev, x) in self.prev.iter_mut().zip(&state.x) {
+                *prev = axpy(*x, -ratio, sub(*x, *prev));
+            }
+        }
+        self.last_h = h;
         let p = setup.particles;
         let (l0, c_b) = (setup.rest_length, &setup.bend_c[..]);
         let colliders = env.has_colliders();

@@ -887,6 +887,9 @@ pub struct SummaryModel<'a> {
     pub max_length: f64,
     /// See `max_length`.
     pub max_speed: f64,
+    /// The frame loop's crumple limit (a strand's length over the larger of its rest length and
+    /// the distance between its ends, see `heft_strand_common::OverlongLimit`).
+    pub crumple: heft_strand_common::OverlongLimit,
 }
 
 /// One lane group's part of a [`Summary`], lane by lane (see [`Lanes::group_figures`]).
@@ -947,10 +950,11 @@ impl Default for Summary {
 /// sum m v (N s), kinetic energy sum 1/2 m |v|^2 and gravitational energy -sum m g . x (J),
 /// elastic energy sum 1/2 k (|x_{j+1} - x_j| - l0)^2 + sum 1/2 c |x_{i-1} - 2 x_i + x_{i+1}|^2
 /// (J), from v = s / h and x = o + x_rel in f64, summed per lane, then over lanes in order; and
-/// whether no strand is near blowing up: every position and step finite, every speed at most
-/// 0.98 of the limit, every segment at most 0.98 of the limit long. The 2 % margin covers the
-/// rounding between these numbers and the world positions and velocities the frame loop's own
-/// check reads, so `surely_intact` means that check would pass.
+/// whether no strand is near blowing up or crumpling: every position and step finite, every
+/// speed at most 0.98 of the limit, every segment at most 0.98 of the limit long, every strand's
+/// length at most 0.999 of its overlong limit. The margins cover the rounding between these
+/// numbers and the world positions and velocities the frame loop's own checks read, so
+/// `surely_intact` means those checks would pass.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Summary {
     /// N s.
@@ -1090,6 +1094,7 @@ impl<T: Real, const N: usize> Lanes<T, N> {
             &mut f.bending,
         );
         let mut ok = true;
+        let mut length = [0.0f64; N];
         for (i, (q, &mass)) in xs.iter().zip(m.mass).enumerate() {
             for l in 0..N {
                 let rel = [0, 1, 2].map(|k| q[0][k][l].wide());
@@ -1111,7 +1116,9 @@ impl<T: Real, const N: usize> Lanes<T, N> {
                 for l in 0..N {
                     let d = [0, 1, 2].map(|k| q[0][k][l].wide() - p[0][k][l].wide());
                     let l2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2];
-                    let e = l2.sqrt() - m.rest_length;
+                    let r = l2.sqrt();
+                    length[l] += r;
+                    let e = r - m.rest_length;
                     es[l] += 0.5 * m.stretch_k[i - 1] * e * e;
                     ok &= l2 <= max_l2;
                 }
@@ -1123,6 +1130,22 @@ impl<T: Real, const N: usize> Lanes<T, N> {
                     let b = [0, 1, 2].map(|k| p[0][k][l].wide() - 2.0 * r[0][k][l].wide() + q[0][k][l].wide());
                     eb[l] += 0.5 * c * (b[0] * b[0] + b[1] * b[1] + b[2] * b[2]);
                 }
+            }
+        }
+        // The strand's length against the overlong limit, with a margin of 1e-3 of it for the
+        // rounding between these numbers and the world positions (f32 lanes: about 1.2e-7 of the
+        // strand's reach per segment, 5e-4 over 4096 segments at most).
+        if let (Some(first), Some(last)) = (xs.first(), xs.last()) {
+            let rest = m.rest_length * (xs.len() - 1) as f64;
+            let c = &m.crumple;
+            for l in 0..N {
+                let d = [0, 1, 2].map(|k| last[0][k][l].wide() - first[0][k][l].wide());
+                let span = (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt();
+                let p = [0, 1, 2].map(|k| lp[k][l]);
+                // The kinetic energy about the centre of mass, less a margin of 1e-3 of itself.
+                let about = (lk[l] - (p[0] * p[0] + p[1] * p[1] + p[2] * p[2]) / (2.0 * c.mass)).max(0.0);
+                let limit = 1.0 + c.stretch((1.0 - 1.0e-3) * about);
+                ok &= length[l] <= (1.0 - 1.0e-3) * limit * rest.max(span);
             }
         }
         f.ok = ok;

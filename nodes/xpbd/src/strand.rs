@@ -89,8 +89,10 @@ Layout: strands are grouped 1, 2, 4, 8 or 16 at a time (by count) into SIMD lane
 the x, y, z of its group's strands contiguously and the solver runs the same branch-free arithmetic on every \
 lane, compiled for the widest SIMD instruction set the CPU has (AVX-512 or AVX2 where present, picked at run \
 time; \
-HEFT_SIMD=portable forces the target's baseline). The arithmetic is never contracted into fused multiply-adds, \
-so results are bit-identical whatever the CPU, and a strand's result does not depend on its group. Positions \
+HEFT_SIMD=portable forces the target's baseline). The compiler never contracts the arithmetic, and the fused \
+multiply-adds the solver writes out are rounded once on every path (an instruction, or the C library's fma), so \
+results are bit-identical whatever the CPU, and a strand's result does not depend on its group (only a frame \
+run again, below, runs all of the node's strands at the finer step). Positions \
 are held relative to each strand's particle 0 at the start of the frame (kept in f64), so the precision does \
 not depend on how far from the world origin the strand is; the velocity is held as the step s = x - x_prev, a \
 number of its own that the constraints correct directly, never as a difference of two positions. The run starts \
@@ -103,18 +105,21 @@ Gauss-Seidel sweep would leave about h^2 g (n - 1) on the top segment: 5 % of a 
 the default 20 substeps, 344 % at 256). Measured with the defaults swinging down from horizontal: the strand at \
 most 0.11 % longer than at rest at 32 and at 256 segments (Hooke's share 0.05 %). Finer strands need shorter \
 steps for the solve's linearisation: swinging down from horizontal, 4096 segments of 0.1 mm stay within 0.44 % \
-at 80 substeps and stop with the blow-up error at 20 and 40; on a character's head through a jump, against \
-the head, a 40 cm strand holds at the default 20 substeps with 192 segments and needs about segments / 6.4 \
-substeps from 256 up (40 at 256, 80 at 512, 640 at 4096). Bending is one sweep, stiff bending is softened by about h^2 times the stencil's \
+at 80 substeps, and at 20 run two frames again (below) and stay within 0.57 %; on a character's head through a \
+jump, against the head, a 40 cm strand holds at the default 20 substeps with 192 segments and needs about \
+segments / 6.4 substeps from 256 up (40 at 256, 80 at 512, 640 at 4096) to run no frame again; at fewer, the \
+frames of fastest motion run again at finer steps and the strand stays within 1 % (256 at 20: 7 of 73 frames). Bending is one sweep, stiff bending is softened by about h^2 times the stencil's \
 stiffness over the particle mass. The swing of a stiff strand is damped as by backward Euler, about pi omega h \
 of its amplitude per period (0.4 % for a 1 m pendulum at 100 substeps at 24 frames/s, 2 % at 20).\n\
 Stability: no step limit for any stiffness: the solve stays bounded as the compliance goes to 0 (its pivots are \
 at least alpha / h^2 and the matrix is diagonally dominant) and the damping is backward Euler; E A = 1e9 N and E \
 I = 1e3 N m^2 run at 1 substep per frame. An explicit spring chain with the defaults would need h < 2 / \
 omega_max = 5.3e-4 s (omega_max = 2 sqrt(k / m) = 3795 rad/s), 80 substeps at 24 frames/s. Large steps cost \
-accuracy; the contract's blow-up check still runs every frame (non-finite values, a segment beyond 10 rest \
-lengths, a speed above 1e4 m/s) and fires when an anchor or initial state is violent or a very fine strand's \
-step too coarse: raise `substeps`.\n\
+accuracy; the contract's checks still run every frame: a blow-up (non-finite values, a segment beyond 10 rest \
+lengths, a speed above 1e4 m/s), when an anchor or initial state is violent or a very fine strand's step too \
+coarse, and a crumpled strand (more than 1 % longer than its rest length or its end-to-end distance), the first \
+sign of a step too coarse. Either runs the frame again from its start at twice the substeps, up to `reruns` \
+times; a blow-up left after them stops the run, a crumple left is kept and named in a warning.\n\
 Energy output: kinetic + m g z + 1/2 k (l - l0)^2 + the bending energy, from the positions.\n"
     };
 }
@@ -207,6 +212,31 @@ struct Group<T: Real, const N: usize> {
     stored_h: f64,
     /// The threads the last frame ran on (its store is split the same way).
     threads: usize,
+    /// The lanes as the last [`Method::mark`] found them (empty until a mark of loaded lanes),
+    /// with `loaded` and `stored_h` then.
+    kept: Kept<T, N>,
+    /// The lanes a try of a frame left, held while it runs again ([`Method::hold`]).
+    held: Kept<T, N>,
+}
+
+/// A lane group's state at the start of a frame, to run the frame again (see [`Method::mark`]).
+#[derive(Debug)]
+struct Kept<T: Real, const N: usize> {
+    origin: Vec<Lanes3<f64, N>>,
+    x: Vec<Particle<T, N>>,
+    loaded: bool,
+    stored_h: f64,
+}
+
+impl<T: Real, const N: usize> Kept<T, N> {
+    fn new() -> Kept<T, N> {
+        Kept {
+            origin: Vec::new(),
+            x: Vec::new(),
+            loaded: false,
+            stored_h: 1.0,
+        }
+    }
 }
 
 /// The scratch one thread reuses from lane group to lane group: wind per particle, colliders
@@ -370,6 +400,78 @@ impl<T: Real, const N: usize> Group<T, N> {
             stored_h: 1.0,
             threads: 1,
             lanes,
+            kept: Kept::new(),
+            held: Kept::new(),
+        }
+    }
+
+    /// Holds the lanes a try of a frame left (see [`Method::hold`]).
+    fn hold(&mut self) {
+        let held = &mut self.held;
+        held.stored_h = self.stored_h;
+        held.origin.clone_from(&self.lanes.origin);
+        held.x.clone_from(&self.lanes.x);
+    }
+
+    /// The strands of `take` back to the held lanes, the others' steps scaled to the held step
+    /// (see [`Method::merge`]).
+    fn merge(&mut self, take: &[bool]) {
+        let held = &self.held;
+        let ratio = T::of(held.stored_h / self.stored_h);
+        let n = self.lanes.particles();
+        for g in 0..self.lanes.groups() {
+            for l in 0..N {
+                let s = g * N + l;
+                if s >= take.len() {
+                    break;
+                }
+                if take[s] {
+                    for c in 0..3 {
+                        self.lanes.origin[g][c][l] = held.origin[g][c][l];
+                    }
+                    for i in g * n..(g + 1) * n {
+                        for c in 0..3 {
+                            self.lanes.x[i][0][c][l] = held.x[i][0][c][l];
+                            self.lanes.x[i][1][c][l] = held.x[i][1][c][l];
+                        }
+                    }
+                } else {
+                    for i in g * n..(g + 1) * n {
+                        for c in 0..3 {
+                            self.lanes.x[i][1][c][l] = self.lanes.x[i][1][c][l] * ratio;
+                        }
+                    }
+                }
+            }
+        }
+        self.stored_h = held.stored_h;
+        // The frame's figures were taken before the merge: the frame loop checks the state.
+        self.summary = None;
+    }
+
+    /// Keeps the lanes (when loaded; `state` otherwise, which the first frame loads from).
+    fn mark(&mut self, state: &State, keep: &mut State) {
+        let kept = &mut self.kept;
+        kept.loaded = self.loaded;
+        kept.stored_h = self.stored_h;
+        if self.loaded {
+            kept.origin.clone_from(&self.lanes.origin);
+            kept.x.clone_from(&self.lanes.x);
+        } else {
+            keep.clone_from(state);
+        }
+    }
+
+    /// Back to the last [`Group::mark`].
+    fn rewind(&mut self, state: &mut State, keep: &State) {
+        let kept = &self.kept;
+        self.loaded = kept.loaded;
+        self.stored_h = kept.stored_h;
+        if kept.loaded {
+            self.lanes.origin.clone_from(&kept.origin);
+            self.lanes.x.clone_from(&kept.x);
+        } else {
+            state.clone_from(keep);
         }
     }
 
@@ -386,6 +488,18 @@ impl<T: Real, const N: usize> Group<T, N> {
         let h = env.h;
         let n = setup.particles;
         let reorigin = self.loaded;
+        if self.loaded && self.stored_h != h {
+            // A step of another length than the last frame's (a frame run again at more
+            // substeps, or the one after it): the steps s = h v scaled to keep the velocity.
+            let ratio = T::of(h / self.stored_h);
+            for p in self.lanes.x.iter_mut() {
+                for row in p[1].iter_mut() {
+                    for s in row.iter_mut() {
+                        *s = *s * ratio;
+                    }
+                }
+            }
+        }
         if !self.loaded {
             // The first step is taken from half a step back on the path of the particles'
             // acceleration at the start: gravity for a strand as laid out (exact for a free
@@ -411,6 +525,7 @@ impl<T: Real, const N: usize> Group<T, N> {
             bending_k: &setup.bend_c,
             max_length: heft_strand_common::BLOW_UP_STRETCH * setup.rest_length,
             max_speed: heft_strand_common::BLOW_UP_SPEED,
+            crumple: heft_strand_common::overlong_limit::<Xpbd<T>>(setup),
         };
         let job = FrameJob {
             arch,
@@ -809,6 +924,48 @@ impl<T: Real> Method for Xpbd<T> {
             Engine::L4(e) => e.store(x, v),
             Engine::L8(e) => e.store(x, v),
             Engine::L16(e) => e.store(x, v),
+        }
+    }
+
+    /// The lanes (or, before the first frame, `state`).
+    fn mark(&mut self, state: &State, keep: &mut State) {
+        match &mut self.engine {
+            Engine::L1(e) => e.mark(state, keep),
+            Engine::L2(e) => e.mark(state, keep),
+            Engine::L4(e) => e.mark(state, keep),
+            Engine::L8(e) => e.mark(state, keep),
+            Engine::L16(e) => e.mark(state, keep),
+        }
+    }
+
+    fn hold(&mut self, _state: &State, _held: &mut State) {
+        match &mut self.engine {
+            Engine::L1(e) => e.hold(),
+            Engine::L2(e) => e.hold(),
+            Engine::L4(e) => e.hold(),
+            Engine::L8(e) => e.hold(),
+            Engine::L16(e) => e.hold(),
+        }
+    }
+
+    fn merge(&mut self, _state: &mut State, _held: &State, take: &[bool]) {
+        match &mut self.engine {
+            Engine::L1(e) => e.merge(take),
+            Engine::L2(e) => e.merge(take),
+            Engine::L4(e) => e.merge(take),
+            Engine::L8(e) => e.merge(take),
+            Engine::L16(e) => e.merge(take),
+        }
+    }
+
+    /// Back to the marked lanes; the next frame scales their steps to its h.
+    fn rewind(&mut self, state: &mut State, keep: &State) {
+        match &mut self.engine {
+            Engine::L1(e) => e.rewind(state, keep),
+            Engine::L2(e) => e.rewind(state, keep),
+            Engine::L4(e) => e.rewind(state, keep),
+            Engine::L8(e) => e.rewind(state, keep),
+            Engine::L16(e) => e.rewind(state, keep),
         }
     }
 
