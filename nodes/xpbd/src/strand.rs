@@ -106,9 +106,10 @@ the default 20 substeps, 344 % at 256). Measured with the defaults swinging down
 most 0.11 % longer than at rest at 32 and at 256 segments (Hooke's share 0.05 %). Finer strands need shorter \
 steps for the solve's linearisation: swinging down from horizontal, 4096 segments of 0.1 mm stay within 0.44 % \
 at 80 substeps, and at 20 run two frames again (below) and stay within 0.57 %; on a character's head through a \
-jump, against the head, a 40 cm strand holds at the default 20 substeps with 192 segments and needs about \
-segments / 6.4 substeps from 256 up (40 at 256, 80 at 512, 640 at 4096) to run no frame again; at fewer, the \
-frames of fastest motion run again at finer steps and the strand stays within 1 % (256 at 20: 7 of 73 frames). Bending is one sweep, stiff bending is softened by about h^2 times the stencil's \
+jump, against the head, a 40 cm strand runs every frame at one step within 1 % with 64 segments at the default \
+20 substeps and needs about segments / 6.4 substeps from 256 up (40 at 256, 80 at 512, 640 at 4096); at fewer, \
+the frames of fastest motion run again at finer steps and the strand stays within 1 % (256 at 20: 7 of 73 \
+frames). Bending is one sweep, stiff bending is softened by about h^2 times the stencil's \
 stiffness over the particle mass. The swing of a stiff strand is damped as by backward Euler, about pi omega h \
 of its amplitude per period (0.4 % for a 1 m pendulum at 100 substeps at 24 frames/s, 2 % at 20).\n\
 Stability: no step limit for any stiffness: the solve stays bounded as the compliance goes to 0 (its pivots are \
