@@ -218,6 +218,8 @@ struct Group<T: Real, const N: usize> {
     kept: Kept<T, N>,
     /// The lanes a try of a frame left, held while it runs again ([`Method::hold`]).
     held: Kept<T, N>,
+    /// True when the next frame is to keep its start in `kept` (see [`Group::mark`]).
+    keep: bool,
 }
 
 /// A lane group's state at the start of a frame, to run the frame again (see [`Method::mark`]).
@@ -319,23 +321,28 @@ struct FrameJob<'a, T: Real> {
 }
 
 impl<T: Real> FrameJob<'_, T> {
-    /// Runs the frame's substeps for consecutive lane groups from group `first`: their origins,
-    /// particles (`origin.len()` groups of `particles` each) and pin offsets, with one thread's
-    /// scratch; then takes each group's part of the frame's figures into `figures`.
-    #[allow(clippy::too_many_arguments)]
-    fn run<const N: usize>(
-        &self,
-        first: usize,
-        origin: &mut [Lanes3<f64, N>],
-        x: &mut [Particle<T, N>],
-        start: &[Lanes3<f64, N>],
-        end: &[Lanes3<f64, N>],
-        worker: &mut Worker<T, N>,
-        figures: &mut [GroupFigures<N>],
-    ) {
+    /// Runs the frame's substeps for one thread's share of the lane groups (see [`Share`]),
+    /// then takes each group's part of the frame's figures. When the share carries room to
+    /// keep the frame's start, each group is copied there first, while it is in the cache the
+    /// substeps are about to read it into.
+    fn run<const N: usize>(&self, share: Share<'_, T, N>) {
+        let Share {
+            first,
+            origin,
+            x,
+            start,
+            end,
+            worker,
+            figures,
+            mut kept,
+        } = share;
         let particles = x.len() / origin.len().max(1);
         let groups = origin.iter_mut().zip(x.chunks_exact_mut(particles)).zip(figures);
         for (g, ((origin, x), figures)) in groups.enumerate() {
+            if let Some((ko, kx)) = &mut kept {
+                ko[g] = *origin;
+                kx[g * particles..(g + 1) * particles].copy_from_slice(x);
+            }
             self.arch.dispatch(GroupRun {
                 origin: &mut *origin,
                 x: &mut *x,
@@ -356,6 +363,23 @@ impl<T: Real> FrameJob<'_, T> {
         }
     }
 }
+
+/// One thread's share of a frame: consecutive lane groups from group `first`, their origins,
+/// particles (`origin.len()` groups of `particles` each), pin offsets, figures, the thread's
+/// scratch, and, when the frame's start is to be kept (see [`Method::mark`]), the room for it.
+struct Share<'a, T: Real, const N: usize> {
+    first: usize,
+    origin: &'a mut [Lanes3<f64, N>],
+    x: &'a mut [Particle<T, N>],
+    start: &'a [Lanes3<f64, N>],
+    end: &'a [Lanes3<f64, N>],
+    worker: &'a mut Worker<T, N>,
+    figures: &'a mut [GroupFigures<N>],
+    kept: Option<StartRoom<'a, T, N>>,
+}
+
+/// Room for the origins and particles of a thread's lane groups at the start of a frame.
+type StartRoom<'a, T, const N: usize> = (&'a mut [Lanes3<f64, N>], &'a mut [Particle<T, N>]);
 
 impl<T: Real, const N: usize> Group<T, N> {
     /// Writes the state the last frame left (see [`Lanes::store`]), split across the threads
@@ -403,6 +427,7 @@ impl<T: Real, const N: usize> Group<T, N> {
             lanes,
             kept: Kept::new(),
             held: Kept::new(),
+            keep: false,
         }
     }
 
@@ -450,14 +475,14 @@ impl<T: Real, const N: usize> Group<T, N> {
         self.summary = None;
     }
 
-    /// Keeps the lanes (when loaded; `state` otherwise, which the first frame loads from).
+    /// Keeps the lanes (when loaded: each thread copies its groups as the next frame starts
+    /// them; `state` otherwise, which the first frame loads from).
     fn mark(&mut self, state: &State, keep: &mut State) {
         let kept = &mut self.kept;
         kept.loaded = self.loaded;
         kept.stored_h = self.stored_h;
         if self.loaded {
-            kept.origin.clone_from(&self.lanes.origin);
-            kept.x.clone_from(&self.lanes.x);
+            self.keep = true;
         } else {
             keep.clone_from(state);
         }
@@ -555,6 +580,14 @@ impl<T: Real, const N: usize> Group<T, N> {
         let (mut start, mut end): (&[Lanes3<f64, N>], &[Lanes3<f64, N>]) = (&self.start, &self.end);
         self.figures.resize(groups, GroupFigures::default());
         let mut figures: &mut [GroupFigures<N>] = &mut self.figures;
+        // The frame's start, kept group by group as the threads reach them (see `Group::mark`).
+        let keep = std::mem::take(&mut self.keep);
+        if keep {
+            self.kept.origin.resize(groups, [[0.0; N]; 3]);
+            self.kept.x.resize(groups * n, [[[T::ZERO; N]; 3]; 2]);
+        }
+        let (mut kept_origin, mut kept_x): (&mut [Lanes3<f64, N>], &mut [Particle<T, N>]) =
+            (&mut self.kept.origin, &mut self.kept.x);
         let mut parts = Vec::with_capacity(threads);
         for (k, worker) in self.workers.iter_mut().take(threads).enumerate() {
             let count = share(k, threads, groups).len();
@@ -564,18 +597,35 @@ impl<T: Real, const N: usize> Group<T, N> {
             let (b, b_rest) = end.split_at(count);
             let (f, f_rest) = std::mem::take(&mut figures).split_at_mut(count);
             (origin, x, start, end, figures) = (o_rest, p_rest, a_rest, b_rest, f_rest);
-            parts.push((share(k, threads, groups).start, o, p, a, b, worker, f));
+            let kept = if keep {
+                let (ko, ko_rest) = std::mem::take(&mut kept_origin).split_at_mut(count);
+                let (kx, kx_rest) = std::mem::take(&mut kept_x).split_at_mut(count * n);
+                (kept_origin, kept_x) = (ko_rest, kx_rest);
+                Some((ko, kx))
+            } else {
+                None
+            };
+            parts.push(Share {
+                first: share(k, threads, groups).start,
+                origin: o,
+                x: p,
+                start: a,
+                end: b,
+                worker,
+                figures: f,
+                kept,
+            });
         }
         let mut parts = parts.into_iter();
-        if let Some((g, o, p, a, b, worker, f)) = parts.next() {
+        if let Some(first) = parts.next() {
             if threads == 1 {
-                job.run(g, o, p, a, b, worker, f);
+                job.run(first);
             } else {
                 rayon::scope(|scope| {
-                    for (g, o, p, a, b, worker, f) in parts {
-                        scope.spawn(move |_| job.run(g, o, p, a, b, worker, f));
+                    for part in parts {
+                        scope.spawn(move |_| job.run(part));
                     }
-                    scope.spawn(move |_| job.run(g, o, p, a, b, worker, f));
+                    scope.spawn(move |_| job.run(first));
                 });
             }
         }
