@@ -447,11 +447,8 @@ impl<T: Real, const N: usize> Group<T, N> {
         let n = self.lanes.particles();
         for g in 0..self.lanes.groups() {
             for l in 0..N {
-                let s = g * N + l;
-                if s >= take.len() {
-                    break;
-                }
-                if take[s] {
+                // Padding lanes follow the strand they repeat.
+                if take[self.lanes.strand_of(g, l)] {
                     for c in 0..3 {
                         self.lanes.origin[g][c][l] = held.origin[g][c][l];
                     }
