@@ -742,7 +742,7 @@ impl Colliders {
     /// the particle inside another collider. Where two colliders overlap (an elbow, a thigh
     /// against the trunk, a shin on the ground), pushes out of one and the other converge
     /// slowly on the crease between them; a particle still inside after the passes goes
-    /// there in Gauss-Newton steps on the two deepest surfaces ([`crease_step`]). Only a
+    /// there in Gauss-Newton steps on the two deepest surfaces (`crease_step`). Only a
     /// particle squeezed between surfaces that face each other, with no way out, may stay
     /// inside. Returns true when anything moved.
     #[inline]

@@ -101,8 +101,8 @@ pub trait Method: Sized + Send + 'static {
     }
 
     /// True when the method knows from its own layout that no strand of `state` is blown up
-    /// or overlong (see [`blown_strand`], [`overlong_strand`] with [`overlong_factor`]), so the
-    /// frame loop may skip those checks. It must never be true for a state either would flag;
+    /// or crumpled (see [`blown_strand`], and [`overlong_ratio`] against
+    /// [`OverlongLimit::stretch`]), so the frame loop may skip those checks. It must never be true for a state either would flag;
     /// by default false (the frame loop always checks).
     fn surely_intact(&self, _setup: &Setup, _state: &State) -> bool {
         false
@@ -755,7 +755,8 @@ pub struct Running<M> {
     held: State,
     /// Per strand, whether the last frame kept it overlong.
     crumpled: Vec<bool>,
-    /// The frames run again after a blow-up: frame number and the substeps they ran at.
+    /// The frames run again after a blow-up or a crumple: frame number and the most substeps
+    /// they ran at.
     reruns: Vec<(i64, usize)>,
     /// The strands kept crumpled (see [`OverlongLimit`]): frame number, strand and its
     /// [`overlong_ratio`].

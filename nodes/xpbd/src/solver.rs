@@ -497,7 +497,7 @@ fn length<T: Real>(dx: T, dy: T, dz: T) -> T {
 
 /// The bending constraint C = (p - 2 q + r) / l0 (a vector, linear in the positions, so one
 /// projection solves it exactly), compliance alpha_b = l0 / (E I); positions x + s as in
-/// [`stretch`], corrections into the steps.
+/// [`eliminate`] and [`correct`], corrections into the steps.
 #[inline(always)]
 fn bend<T: Real, const N: usize>(kk: [T; 3], p: &mut Particle<T, N>, q: &mut Particle<T, N>, r: &mut Particle<T, N>) {
     let [ka, kb, kc] = kk;
