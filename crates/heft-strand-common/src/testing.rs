@@ -843,6 +843,12 @@ impl<M: Method, const FRAME: usize> Method for RerunOnce<M, FRAME> {
     fn rewind(&mut self, state: &mut crate::State, keep: &crate::State) {
         self.inner.rewind(state, keep);
     }
+    fn hold(&mut self, state: &crate::State, held: &mut crate::State) {
+        self.inner.hold(state, held);
+    }
+    fn merge(&mut self, state: &mut crate::State, held: &crate::State, take: &[bool]) {
+        self.inner.merge(state, held, take);
+    }
     fn store(&self, x: &mut [f64], v: &mut [f64]) {
         self.inner.store(x, v);
         if self.spoil {
@@ -860,6 +866,7 @@ impl<M: Method, const FRAME: usize> Method for RerunOnce<M, FRAME> {
     }
     const LIMIT_NAME: &'static str = M::LIMIT_NAME;
     const STRETCHABLE: bool = M::STRETCHABLE;
+    const WATCHES_CRUMPLING: bool = M::WATCHES_CRUMPLING;
 }
 
 /// A free strand (12 segments, 0.4 m, laid along x, no damping) thrown at (1, 0, 2) m/s under
@@ -873,8 +880,8 @@ impl<M: Method, const FRAME: usize> Method for RerunOnce<M, FRAME> {
 /// (x - x_prev) / h, leapfrog Euler's v): kept across the change, it stands for v(t - h / 4),
 /// g h / 4 behind the parabola's, for the frame at h / 2; back at h it stands for v(t - h / 2)
 /// again, exact, and the positions keep the frame's lag g h T / 4 (2.1e-4 m at 24 fps and 20
-/// substeps, 4.3e-5 m at 100). Exact methods return rounding; a rerun that did not start from the frame's start,
-/// or lost the velocity, returns far more.
+/// substeps, 4.3e-5 m at 100). Exact methods return rounding; a rerun that did not start from
+/// the frame's start, or lost the velocity, returns far more.
 pub fn rerun_free_fall<N: Node, M: Method>(substeps: usize) -> f64 {
     let tl = timeline(24, 6);
     let g = heft_node_sdk::STANDARD_GRAVITY;
