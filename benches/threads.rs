@@ -18,6 +18,12 @@
 //!   particle-substeps a thread; here 4160): whether handing a share of every frame to another
 //!   thread pays at the smallest split allowed.
 //!
+//! Each group also runs `2_calls_at_once`: two independent one-thread calls on two threads at
+//! once (twice the work, counted so). It shares nothing but the machine, so its ratio to one
+//! thread is the most the machine gave to 2 threads in this run: one core running alone may
+//! clock higher than two running together, and a shared host may lend the second core to others.
+//! The summary prints both ratios and how much of that ceiling the node's 2 threads reach.
+//!
 //! The results are the same bits at any thread count (nodes/xpbd/tests/threads.rs checks it);
 //! each configuration is run once, and its outputs compared with the one-thread run's, before
 //! it is timed.
@@ -118,8 +124,31 @@ fn bench_case(c: &mut Criterion, case: Case) {
             b.iter(|| black_box(call.run_with_threads(threads)))
         });
     }
+    // The machine's own ceiling in this run: two independent one-thread calls on two threads
+    // of this process at once, twice the work of one call and nothing shared but the machine
+    // (cores, caches, memory, the allocator). On a shared host this is what 2 threads could
+    // give at best, whatever the node does.
+    let mut other = node_call(case.strands, case.particles);
+    other.run_with_threads(1).expect("xpbd.strand_fast evaluates");
+    assert!(other.bits() == one, "{}: a second call gives other bits", case.group);
+    g.throughput(Throughput::Elements(2 * elements(case)));
+    g.bench_function(INDEPENDENT, |b| {
+        b.iter(|| {
+            std::thread::scope(|s| {
+                let helper = s.spawn(|| black_box(other.run_with_threads(1)));
+                black_box(call.run_with_threads(1)).expect("xpbd.strand_fast evaluates");
+                helper
+                    .join()
+                    .expect("the second call returns")
+                    .expect("xpbd.strand_fast evaluates");
+            })
+        })
+    });
     g.finish();
 }
+
+/// The bench of two independent one-thread calls at once (see [`bench_case`]).
+const INDEPENDENT: &str = "2_calls_at_once";
 
 fn main() {
     let started = SystemTime::now();
@@ -159,6 +188,20 @@ fn main() {
                 line += &format!(", {:.2} x 1 thread", one / ns);
             }
             eprintln!("{line}");
+        }
+        if let (Some(one), Some(two), Some(both)) = (
+            one,
+            heft_benches::mean_ns(case.group, &bench_name(2), started),
+            heft_benches::mean_ns(case.group, INDEPENDENT, started),
+        ) {
+            // `both` did twice the work of one call.
+            let ceiling = 2.0 * one / both;
+            eprintln!(
+                "  {}/{INDEPENDENT}: {:.2} x 1 thread (two independent calls: the most this machine gave to 2 threads in this run); 2 threads reach {:.0} % of it",
+                case.group,
+                ceiling,
+                100.0 * (one / two) / ceiling
+            );
         }
     }
 }
