@@ -94,7 +94,8 @@ pub struct Setup {
     pub gravity: V3,
     /// Solver steps per frame.
     pub substeps: usize,
-    /// How many times a frame that blows up is run again, each time with twice the substeps.
+    /// How many times a frame in which a strand blows up or crumples is run again, each time with
+    /// twice the substeps.
     pub reruns: u32,
     /// Unit direction the free strand is laid along at the first frame (anchor-local).
     pub rest_direction: V3,

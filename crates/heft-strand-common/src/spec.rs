@@ -114,9 +114,10 @@ pub fn node_spec(name: &str, doc: &str, notes: &str) -> NodeSpec {
             "reruns",
             3,
             (0, 6),
-            "How many times a frame in which a strand blows up is run again from its start, each time with twice \
-             the substeps (3: up to 8 times `substeps`); 0 stops the run at the first blow-up. Not when the cause \
-             is the strand's physics or a jump in the anchor's motion, which more substeps do not mend.",
+            "How many times a frame in which a strand blows up or crumples is run again from its start, each time \
+             with twice the substeps (3: up to 8 times `substeps`); the other strands keep their first try. 0 stops \
+             the run at the first blow-up. Not when the cause is the strand's physics or a jump in the anchor's \
+             motion, which more substeps do not mend.",
         ),
         ParamSpec::vec3(
             "rest_direction",

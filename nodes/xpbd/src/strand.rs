@@ -91,8 +91,9 @@ lane, compiled for the widest SIMD instruction set the CPU has (AVX-512 or AVX2 
 time; \
 HEFT_SIMD=portable forces the target's baseline). The compiler never contracts the arithmetic, and the fused \
 multiply-adds the solver writes out are rounded once on every path (an instruction, or the C library's fma), so \
-results are bit-identical whatever the CPU, and a strand's result does not depend on its group (only a frame \
-run again, below, runs all of the node's strands at the finer step). Positions \
+results are bit-identical whatever the CPU, and a strand's result does not depend on its group or on the other \
+strands (a frame run again, below, runs the lanes at the finer step, and every strand that came out right at the \
+coarser step takes that result back). Positions \
 are held relative to each strand's particle 0 at the start of the frame (kept in f64), so the precision does \
 not depend on how far from the world origin the strand is; the velocity is held as the step s = x - x_prev, a \
 number of its own that the constraints correct directly, never as a difference of two positions. The run starts \
