@@ -14,7 +14,7 @@ use heft_node_sdk::field::{FieldPair, FieldView};
 
 /// The simulated state: positions and velocities of every particle, strand-major (strand s,
 /// particle i at index s * particles + i).
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct State {
     /// Positions, m.
     pub x: Vec<V3>,
@@ -955,14 +955,8 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
             moving,
             pinned_inside,
             next: 1,
-            kept: State {
-                x: Vec::new(),
-                v: Vec::new(),
-            },
-            held: State {
-                x: Vec::new(),
-                v: Vec::new(),
-            },
+            kept: State::default(),
+            held: State::default(),
             crumpled: Vec::new(),
             reruns: Vec::new(),
             overlong: Vec::new(),
