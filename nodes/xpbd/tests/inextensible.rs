@@ -126,7 +126,6 @@ fn a_strand_of_4096_segments_needs_80_substeps() {
     for (name, runner) in BOTH {
         let r = swing(runner, 4096, &[int("substeps", 80)]).expect("runs at 80 substeps");
         assert!(r.warnings.is_empty(), "{name}: {:?}", r.warnings);
-        let r = swing(runner, 4096, &[int("substeps", 80)]).expect("runs at 80 substeps");
         let (total, _, worst) = stretch(&r, 4096);
         assert!(
             total < 0.01 && worst < 0.01,
