@@ -29,8 +29,8 @@ pub mod testing;
 
 pub use geometry::{Capsule, CapsuleContact, Collider, Colliders, Ground, Pose, RigidVelocity, Sphere, Track, V3};
 pub use run::{
-    Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, Diagnosis, FrameEnv, Method, OVERLONG, OverlongLimit, Running,
-    State, advance, advance_with, blow_up_cause, blow_up_message, blown_strand, check, diagnose, evaluate,
+    Ambient, BLOW_UP_SPEED, BLOW_UP_STRETCH, BlowUp, Diagnosis, FrameEnv, Method, OVERLONG, Out, OverlongLimit,
+    Running, State, advance, advance_with, blow_up_cause, blow_up_message, blown_strand, check, diagnose, evaluate,
     evaluate_with, hanging_stretch, kinetic_about_centre, overlong_limit, overlong_ratio, rest_state,
 };
 pub use setup::{ColliderParams, Pin, Placement, Setup, step_limit};

@@ -37,6 +37,18 @@ pub trait Method: Sized + Send + 'static {
     /// velocity as a step x - x_prev scales that step to the new h, keeping the velocity.
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>);
 
+    /// [`Method::frame`], writing as it goes the positions and velocities of the state it
+    /// leaves into `out` (positions, velocities), as [`Method::store`] would write them after
+    /// it: true when it wrote them. A method whose threads each write their own strands as
+    /// they finish them saves the threads a second hand-over a frame, and reads the strands
+    /// while they are in the cache. Called only when [`Method::fills_state`] is false, for a
+    /// frame's first try; by default `frame` alone, writing nothing (false).
+    fn frame_and_store(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>, out: Out<'_>) -> bool {
+        let _ = out;
+        self.frame(setup, state, env);
+        false
+    }
+
     /// The elastic energy of the method's model, J; by default stretch plus bending as
     /// [`crate::forces`] defines them.
     fn elastic_energy(&self, setup: &Setup, state: &State) -> f64 {
@@ -131,6 +143,16 @@ pub trait Method: Sized + Send + 'static {
     /// step well inside the limit is then the strand's physics, not the step. False for rigid
     /// segments, where an over-long segment is the solver falling behind.
     const STRETCHABLE: bool = true;
+}
+
+/// One frame's positions and velocities in the outputs, strand-major, three values a particle
+/// (see [`Method::frame_and_store`]).
+#[derive(Debug)]
+pub struct Out<'a> {
+    /// Positions, m.
+    pub x: &'a mut [f64],
+    /// Velocities, m/s.
+    pub v: &'a mut [f64],
 }
 
 /// Gravity, damping, relative damping and wind at one substep boundary: the acceleration a
@@ -947,7 +969,7 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
             io.warn(&w);
         }
         let method = M::new(setup);
-        write_frame(io, 0, setup, &state, &method, true)?;
+        write_frame(io, 0, setup, &state, &method, true, false)?;
         *run = Some(Running {
             state,
             method,
@@ -1019,6 +1041,8 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
         let mut rerun = 0;
         // Per strand, true once it came out right at some try of this frame: it keeps that try.
         let mut settled: Vec<bool> = Vec::new();
+        // True when the outputs hold the frame as the loop leaves it.
+        let mut written;
         let filled = loop {
             let substeps = setup.substeps << rerun;
             let h = dt / substeps as f64;
@@ -1051,7 +1075,20 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
                 wind,
                 tables,
             };
-            method.frame(setup, state, &env);
+            // The first try writes the frame's outputs as it goes, when the method can; a
+            // rerun leaves them to the store below.
+            written = if rerun == 0 && !method.fills_state() {
+                let at = (i - first) * 3 * n..(i - first + 1) * 3 * n;
+                let (x, v) = io.output_pair("positions", "velocities")?;
+                let out = Out {
+                    x: &mut x[at.clone()],
+                    v: &mut v[at],
+                };
+                method.frame_and_store(setup, state, &env, out)
+            } else {
+                method.frame(setup, state, &env);
+                false
+            };
             let mut filled = method.fills_state();
             if rerun > 0 {
                 // The strands that came out right at a coarser step take that result back.
@@ -1144,7 +1181,7 @@ pub fn advance_with<M: Method>(setup: &Setup, run: &mut Option<Running<M>>, io: 
                 *pinned_inside = Some(tl.frame_number(i));
             }
         }
-        write_frame(io, i - first, setup, state, method, filled)?;
+        write_frame(io, i - first, setup, state, method, filled, written)?;
     }
     *next = window.end;
     if let Some(f) = *pinned_inside
@@ -1794,8 +1831,9 @@ fn anchor_jump(inputs: &Inputs<'_>, tl: &Timeline, i: usize) -> Result<Option<No
     Ok(None)
 }
 
-/// Writes frame `i` of every output: from `state` when `filled`, else positions and velocities
-/// straight from the method ([`Method::store`]).
+/// Writes frame `i` of every output. Positions and velocities: none when `written` (the method
+/// wrote them as it ran the frame), from `state` when `filled`, else straight from the method
+/// ([`Method::store`]).
 fn write_frame<M: Method>(
     io: &mut Io<'_>,
     i: usize,
@@ -1803,11 +1841,14 @@ fn write_frame<M: Method>(
     state: &State,
     method: &M,
     filled: bool,
+    written: bool,
 ) -> Result<(), NodeError> {
     let elastic = method.elastic_energy(setup, state);
     let n = state.x.len();
     let frame = i * 3 * n..(i + 1) * 3 * n;
-    if filled {
+    if written {
+        // The method wrote them as it ran the frame (Method::frame_and_store).
+    } else if filled {
         io.output("positions")?.0[frame.clone()].copy_from_slice(state.x.as_flattened());
         io.output("velocities")?.0[frame].copy_from_slice(state.v.as_flattened());
     } else {

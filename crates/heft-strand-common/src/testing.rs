@@ -88,7 +88,7 @@ fn call(
     inputs: Inputs<'_>,
     eval: impl FnOnce(&mut Io<'_>) -> Result<(), NodeError>,
 ) -> Result<Run, NodeError> {
-    let (result, run) = call_raw(spec, n, tl, inputs, eval);
+    let (result, run) = call_raw(spec, n, tl, inputs, 1, eval);
     result.map(|()| run)
 }
 
@@ -98,6 +98,7 @@ fn call_raw(
     n: usize,
     tl: Timeline,
     inputs: Inputs<'_>,
+    threads: usize,
     eval: impl FnOnce(&mut Io<'_>) -> Result<(), NodeError>,
 ) -> (Result<(), NodeError>, Run) {
     let frames = tl.frames();
@@ -125,7 +126,7 @@ fn call_raw(
     let mut bufs: Vec<Vec<f64>> = widths.iter().map(|w| vec![0.0; frames * w]).collect();
     let (result, warnings) = {
         let outs: Vec<&mut [f64]> = bufs.iter_mut().map(Vec::as_mut_slice).collect();
-        let mut io = Io::new(tl, spec, series, outs, widths);
+        let mut io = Io::new(tl, spec, series, outs, widths).with_threads(threads);
         let r = eval(&mut io);
         (r, io.warnings().to_vec())
     };
@@ -163,15 +164,26 @@ pub fn run_raw<N: Node>(
     let spec = N::spec();
     let p = params(&spec, changes);
     let n = N::output_points(&p, &[]).expect("valid point counts")[0];
-    call_raw(&spec, n, tl, inputs, |io| N::evaluate(&p, io))
+    call_raw(&spec, n, tl, inputs, 1, |io| N::evaluate(&p, io))
 }
 
 /// Runs method `M` on a prepared setup (spec of node type `N` for the ports).
 pub fn run_setup<N: Node, M: Method>(setup: &Setup, tl: Timeline, inputs: Inputs<'_>) -> Result<Run, NodeError> {
+    run_setup_threads::<N, M>(setup, tl, inputs, 1)
+}
+
+/// [`run_setup`], the node allowed `threads` threads ([`Io::threads`]).
+pub fn run_setup_threads<N: Node, M: Method>(
+    setup: &Setup,
+    tl: Timeline,
+    inputs: Inputs<'_>,
+    threads: usize,
+) -> Result<Run, NodeError> {
     let spec = N::spec();
-    call(&spec, setup.total_particles(), tl, inputs, |io| {
+    let (result, run) = call_raw(&spec, setup.total_particles(), tl, inputs, threads, |io| {
         evaluate_with::<M>(setup, io)
-    })
+    });
+    result.map(|()| run)
 }
 
 /// A transform series: translation and unit quaternion (x, y, z, w) per frame from `f(time)`.
@@ -807,6 +819,53 @@ pub fn resting_on_a_slope<N: Node>(static_friction: f64, friction: f64, substeps
     ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2) + (a[2] - b[2]).powi(2)).sqrt()
 }
 
+/// Method `M` without [`Method::frame_and_store`]: the frame loop writes every frame through
+/// [`Method::store`] after the frame, to check the outputs `M` writes as it runs a frame against.
+#[derive(Debug)]
+pub struct StoreAfter<M>(pub M);
+
+impl<M: Method> Method for StoreAfter<M> {
+    fn new(setup: &Setup) -> Self {
+        StoreAfter(M::new(setup))
+    }
+    fn frame(&mut self, setup: &Setup, state: &mut crate::State, env: &crate::FrameEnv<'_>) {
+        self.0.frame(setup, state, env);
+    }
+    fn elastic_energy(&self, setup: &Setup, state: &crate::State) -> f64 {
+        self.0.elastic_energy(setup, state)
+    }
+    fn fills_state(&self) -> bool {
+        self.0.fills_state()
+    }
+    fn mark(&mut self, state: &crate::State, keep: &mut crate::State) {
+        self.0.mark(state, keep);
+    }
+    fn rewind(&mut self, state: &mut crate::State, keep: &crate::State) {
+        self.0.rewind(state, keep);
+    }
+    fn hold(&mut self, state: &crate::State, held: &mut crate::State) {
+        self.0.hold(state, held);
+    }
+    fn merge(&mut self, state: &mut crate::State, held: &crate::State, take: &[bool]) {
+        self.0.merge(state, held, take);
+    }
+    fn store(&self, x: &mut [f64], v: &mut [f64]) {
+        self.0.store(x, v);
+    }
+    fn momentum_and_energy(&self, setup: &Setup, state: &crate::State) -> (crate::V3, f64, f64) {
+        self.0.momentum_and_energy(setup, state)
+    }
+    fn surely_intact(&self, setup: &Setup, state: &crate::State) -> bool {
+        self.0.surely_intact(setup, state)
+    }
+    fn stability_limit(setup: &Setup, wind: bool) -> Option<f64> {
+        M::stability_limit(setup, wind)
+    }
+    const LIMIT_NAME: &'static str = M::LIMIT_NAME;
+    const STRETCHABLE: bool = M::STRETCHABLE;
+    const WATCHES_CRUMPLING: bool = M::WATCHES_CRUMPLING;
+}
+
 /// Method `M` made to blow up once: the first try of frame `FRAME` (timeline index) comes out
 /// with a NaN in particle 0, so the frame loop runs that frame again at twice the substeps
 /// (its `reruns`), from where the frame started. Everything else is `M`'s.
@@ -830,6 +889,25 @@ impl<M: Method, const FRAME: usize> Method for RerunOnce<M, FRAME> {
         if self.spoil && self.inner.fills_state() {
             state.x[0][0] = f64::NAN;
         }
+    }
+    /// The spoiled try goes into the outputs too, when `M` writes them as it runs the frame:
+    /// the rerun must replace it there.
+    fn frame_and_store(
+        &mut self,
+        setup: &Setup,
+        state: &mut crate::State,
+        env: &crate::FrameEnv<'_>,
+        out: crate::Out<'_>,
+    ) -> bool {
+        let crate::Out { x, v } = out;
+        let written = self
+            .inner
+            .frame_and_store(setup, state, env, crate::Out { x: &mut *x, v });
+        self.spoil = env.frame == FRAME && env.substeps == setup.substeps;
+        if self.spoil && written {
+            x[0] = f64::NAN;
+        }
+        written
     }
     fn elastic_energy(&self, setup: &Setup, state: &crate::State) -> f64 {
         self.inner.elastic_energy(setup, state)

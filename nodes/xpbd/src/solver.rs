@@ -868,6 +868,31 @@ fn pair<T>(s: &mut [T], i: usize) -> (&mut T, &mut T) {
     (&mut a[i], &mut b[0])
 }
 
+/// Stores the strands of lanes `lanes` of one lane group (its origins `o` and particles `xs`)
+/// as [`Lanes::store`] does, into `x` and `v` that hold just those strands: world positions
+/// o + x and velocities s (1 / h), in f64, strand-major, three values a particle.
+#[inline]
+pub fn store_group<T: Real, const N: usize>(
+    o: &Lanes3<f64, N>,
+    xs: &[Particle<T, N>],
+    lanes: std::ops::Range<usize>,
+    x: &mut [f64],
+    v: &mut [f64],
+    h: f64,
+) {
+    let inv_h = 1.0 / h;
+    let per_strand = 3 * xs.len();
+    for (s, l) in lanes.enumerate() {
+        let (x, v) = (&mut x[s * per_strand..], &mut v[s * per_strand..]);
+        for (i, [a, b]) in xs.iter().enumerate() {
+            for k in 0..3 {
+                x[3 * i + k] = o[k][l] + a[k][l].wide();
+                v[3 * i + k] = b[k][l].wide() * inv_h;
+            }
+        }
+    }
+}
+
 /// What [`Lanes::group_figures`] needs of the model.
 #[derive(Debug, Clone, Copy)]
 pub struct SummaryModel<'a> {
@@ -1051,19 +1076,22 @@ impl<T: Real, const N: usize> Lanes<T, N> {
     /// disjoint ranges.
     pub fn store_strands(&self, strands: std::ops::Range<usize>, x: &mut [f64], v: &mut [f64], h: f64) {
         let n = self.particles;
-        let inv_h = 1.0 / h;
+        let per_strand = 3 * n;
         let first = strands.start;
-        for s in strands {
-            let (g, l) = (s / N, s % N);
-            let o = self.origin[g];
-            for i in 0..n {
-                let [a, b] = &self.x[g * n + i];
-                let at = 3 * ((s - first) * n + i);
-                for k in 0..3 {
-                    x[at + k] = o[k][l] + a[k][l].wide();
-                    v[at + k] = b[k][l].wide() * inv_h;
-                }
-            }
+        let mut s = strands.start;
+        while s < strands.end {
+            let g = s / N;
+            let lanes = s % N..(strands.end - g * N).min(N);
+            let at = (s - first) * per_strand..(s - first + lanes.len()) * per_strand;
+            store_group(
+                &self.origin[g],
+                &self.x[g * n..(g + 1) * n],
+                lanes.clone(),
+                &mut x[at.clone()],
+                &mut v[at],
+                h,
+            );
+            s += lanes.len();
         }
     }
 

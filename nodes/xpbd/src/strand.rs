@@ -5,11 +5,11 @@ use std::marker::PhantomData;
 
 use heft_node_sdk::{Io, Node, NodeError, NodeSpec, Params};
 use heft_strand_common::geometry::{cross, dot, sub};
-use heft_strand_common::{Collider, FrameEnv, Method, Pin, Setup, State, V3};
+use heft_strand_common::{Collider, FrameEnv, Method, Out, Pin, Setup, State, V3};
 
 use crate::solver::{
     Coeffs, GroupFigures, LaneColliders, Lanes, Lanes3, Model, Near, Particle, Real, Scratch, SubstepInput, Summary,
-    SummaryModel, substep,
+    SummaryModel, store_group, substep,
 };
 
 /// An XPBD strand node type with lanes of `T`.
@@ -323,7 +323,8 @@ struct FrameJob<'a, T: Real> {
 
 impl<T: Real> FrameJob<'_, T> {
     /// Runs the frame's substeps for one thread's share of the lane groups (see [`Share`]),
-    /// then takes each group's part of the frame's figures. When the share carries room to
+    /// then takes each group's part of the frame's figures and, when the share carries the
+    /// outputs' part, writes the group's strands there. When the share carries room to
     /// keep the frame's start, each group is copied there first, while it is in the cache the
     /// substeps are about to read it into.
     fn run<const N: usize>(&self, share: Share<'_, T, N>) {
@@ -336,6 +337,7 @@ impl<T: Real> FrameJob<'_, T> {
             worker,
             figures,
             mut kept,
+            mut out,
         } = share;
         let particles = x.len() / origin.len().max(1);
         let groups = origin.iter_mut().zip(x.chunks_exact_mut(particles)).zip(figures);
@@ -356,11 +358,15 @@ impl<T: Real> FrameJob<'_, T> {
             });
             let live = self.strands.saturating_sub((first + g) * N).min(N);
             *figures = self.arch.dispatch(Figures {
-                origin,
-                x,
+                origin: &*origin,
+                x: &*x,
                 live,
                 model: self.model,
             });
+            if let Some(Out { x: ox, v: ov }) = &mut out {
+                let at = g * N * 3 * particles..(g * N + live) * 3 * particles;
+                store_group(origin, x, 0..live, &mut ox[at.clone()], &mut ov[at], self.env.h);
+            }
         }
     }
 }
@@ -377,6 +383,8 @@ struct Share<'a, T: Real, const N: usize> {
     worker: &'a mut Worker<T, N>,
     figures: &'a mut [GroupFigures<N>],
     kept: Option<StartRoom<'a, T, N>>,
+    /// The outputs' part for the share's strands, when the frame writes them as it goes.
+    out: Option<Out<'a>>,
 }
 
 /// Room for the origins and particles of a thread's lane groups at the start of a frame.
@@ -499,6 +507,8 @@ impl<T: Real, const N: usize> Group<T, N> {
         }
     }
 
+    /// Runs a frame (see [`Method::frame`]) on the lanes, split across the threads, and when
+    /// given `out`, each thread writes its strands there as it finishes them: true when it did.
     #[allow(clippy::too_many_arguments)]
     fn frame(
         &mut self,
@@ -508,7 +518,8 @@ impl<T: Real, const N: usize> Group<T, N> {
         env: &FrameEnv<'_>,
         coeffs: &Coeffs<T>,
         shared: &[([f64; 3], Option<[f64; 3]>)],
-    ) {
+        out: Option<Out<'_>>,
+    ) -> bool {
         let h = env.h;
         let n = setup.particles;
         let reorigin = self.loaded;
@@ -586,9 +597,20 @@ impl<T: Real, const N: usize> Group<T, N> {
         }
         let (mut kept_origin, mut kept_x): (&mut [Lanes3<f64, N>], &mut [Particle<T, N>]) =
             (&mut self.kept.origin, &mut self.kept.x);
+        let written = out.is_some();
+        let mut out = out.map(|o| (o.x, o.v));
+        let (strands, per_strand) = (setup.strands, 3 * n);
         let mut parts = Vec::with_capacity(threads);
         for (k, worker) in self.workers.iter_mut().take(threads).enumerate() {
-            let count = share(k, threads, groups).len();
+            let g = share(k, threads, groups);
+            let count = g.len();
+            let out = out.as_mut().map(|(x, v)| {
+                let len = ((g.end * N).min(strands) - (g.start * N).min(strands)) * per_strand;
+                let (xa, xb) = std::mem::take(x).split_at_mut(len);
+                let (va, vb) = std::mem::take(v).split_at_mut(len);
+                (*x, *v) = (xb, vb);
+                Out { x: xa, v: va }
+            });
             let (o, o_rest) = std::mem::take(&mut origin).split_at_mut(count);
             let (p, p_rest) = std::mem::take(&mut x).split_at_mut(count * n);
             let (a, a_rest) = start.split_at(count);
@@ -612,6 +634,7 @@ impl<T: Real, const N: usize> Group<T, N> {
                 worker,
                 figures: f,
                 kept,
+                out,
             });
         }
         let mut parts = parts.into_iter();
@@ -635,6 +658,7 @@ impl<T: Real, const N: usize> Group<T, N> {
             summary.add(f);
         }
         self.summary = Some(summary);
+        written
     }
 }
 
@@ -873,6 +897,40 @@ fn instruction_set() -> pulp::Arch {
 }
 
 impl<T: Real> Xpbd<T> {
+    /// A frame (see [`Method::frame`]), writing the outputs as it goes when given them: true
+    /// when it wrote them.
+    fn run_frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>, out: Option<Out<'_>>) -> bool {
+        let wind = env.has_wind();
+        if self.made_for != (env.h, wind, env.gravity) {
+            self.model.damping_rate = setup.damping_rate(wind);
+            self.model.gravity = env.gravity;
+            self.coeffs.update(&self.model, env.h);
+            self.made_for = (env.h, wind, env.gravity);
+        }
+        let c = &self.coeffs;
+        let cr = setup.relative_damping;
+        if self.shared.len() < env.substeps {
+            self.shared.resize(env.substeps, ([0.0; 3], None));
+        }
+        for (k, slot) in self.shared.iter_mut().enumerate().take(env.substeps) {
+            // The anchor's rigid velocity v_lin + w x (x - o) that goes with the velocity
+            // (x_k - x_{k-1}) / h held at boundary k.
+            let a = env.anchor_velocity(k);
+            let lin = [0, 1, 2].map(|i| a.linear[i] - cross(a.angular, a.origin)[i]);
+            let base = [0, 1, 2].map(|i| c.h2_gravity[i] + c.h2_decay * cr * lin[i]);
+            let rotating = cr != 0.0 && a.angular != [0.0; 3];
+            *slot = (base, rotating.then(|| a.angular.map(|w| c.h2_decay * cr * w)));
+        }
+        let shared = &self.shared[..env.substeps];
+        match &mut self.engine {
+            Engine::L1(e) => e.frame(self.arch, setup, state, env, c, shared, out),
+            Engine::L2(e) => e.frame(self.arch, setup, state, env, c, shared, out),
+            Engine::L4(e) => e.frame(self.arch, setup, state, env, c, shared, out),
+            Engine::L8(e) => e.frame(self.arch, setup, state, env, c, shared, out),
+            Engine::L16(e) => e.frame(self.arch, setup, state, env, c, shared, out),
+        }
+    }
+
     /// The figures of the state the last frame left.
     fn summary(&self) -> Option<Summary> {
         match &self.engine {
@@ -929,35 +987,12 @@ impl<T: Real> Method for Xpbd<T> {
     }
 
     fn frame(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>) {
-        let wind = env.has_wind();
-        if self.made_for != (env.h, wind, env.gravity) {
-            self.model.damping_rate = setup.damping_rate(wind);
-            self.model.gravity = env.gravity;
-            self.coeffs.update(&self.model, env.h);
-            self.made_for = (env.h, wind, env.gravity);
-        }
-        let c = &self.coeffs;
-        let cr = setup.relative_damping;
-        if self.shared.len() < env.substeps {
-            self.shared.resize(env.substeps, ([0.0; 3], None));
-        }
-        for (k, slot) in self.shared.iter_mut().enumerate().take(env.substeps) {
-            // The anchor's rigid velocity v_lin + w x (x - o) that goes with the velocity
-            // (x_k - x_{k-1}) / h held at boundary k.
-            let a = env.anchor_velocity(k);
-            let lin = [0, 1, 2].map(|i| a.linear[i] - cross(a.angular, a.origin)[i]);
-            let base = [0, 1, 2].map(|i| c.h2_gravity[i] + c.h2_decay * cr * lin[i]);
-            let rotating = cr != 0.0 && a.angular != [0.0; 3];
-            *slot = (base, rotating.then(|| a.angular.map(|w| c.h2_decay * cr * w)));
-        }
-        let shared = &self.shared[..env.substeps];
-        match &mut self.engine {
-            Engine::L1(e) => e.frame(self.arch, setup, state, env, c, shared),
-            Engine::L2(e) => e.frame(self.arch, setup, state, env, c, shared),
-            Engine::L4(e) => e.frame(self.arch, setup, state, env, c, shared),
-            Engine::L8(e) => e.frame(self.arch, setup, state, env, c, shared),
-            Engine::L16(e) => e.frame(self.arch, setup, state, env, c, shared),
-        }
+        self.run_frame(setup, state, env, None);
+    }
+
+    /// Each thread writes the strands of its lane groups as it finishes them.
+    fn frame_and_store(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>, out: Out<'_>) -> bool {
+        self.run_frame(setup, state, env, Some(out))
     }
 
     /// The state stays in the lanes between frames.

@@ -6,7 +6,7 @@ use heft_node_sdk::colliders::{self, Capsule};
 use heft_node_sdk::field;
 use heft_node_sdk::host::Plugin;
 use heft_strand_common::Setup;
-use heft_strand_common::testing::{choice, int, num, params, timeline, transform};
+use heft_strand_common::testing::{StoreAfter, choice, int, num, params, run_setup_threads, timeline, transform};
 use heft_xpbd::strand::frame_threads;
 
 /// 75 strands of 32 particles: five groups of 16 lanes, the last with 11 strands and 5 padding
@@ -194,4 +194,47 @@ fn windows_of_any_size_give_the_bits_of_the_whole_evaluation() {
             );
         }
     }
+}
+
+/// Each thread writes the positions and velocities of its strands into the outputs as it
+/// finishes them (`Method::frame_and_store`): the bits the frame loop's `Method::store` writes
+/// after the frame, with 1 to 3 threads, the last lane group's 5 padding lanes among them.
+#[test]
+fn outputs_written_as_a_frame_runs_are_the_bits_of_the_store_after_it() {
+    fn compare<N: heft_node_sdk::Node, M: heft_strand_common::Method>(name: &str) {
+        let tl = timeline(24, 9);
+        let setup = Setup::from_params(&params(&N::spec(), &changes())).expect("a valid setup");
+        let anchor = transform(tl, |t| ([0.0, 0.2 * t, 1.0 + 0.1 * t * t], [0.0, 0.0, 0.0, 1.0]));
+        let inputs = [("anchor", anchor)];
+        for threads in 1..=3 {
+            assert_eq!(
+                frame_threads(&setup, threads),
+                threads,
+                "threads used when {threads} are allowed"
+            );
+            let written = run_setup_threads::<N, M>(&setup, tl, &inputs, threads).expect("runs");
+            let stored = run_setup_threads::<N, StoreAfter<M>>(&setup, tl, &inputs, threads).expect("runs");
+            let per_frame = 3 * written.n;
+            let last = &written.positions[per_frame * (tl.frames() - 1)..];
+            assert!(written.positions[..per_frame] != *last, "{name}: the strands moved");
+            for (port, a, b) in [
+                ("positions", &written.positions, &stored.positions),
+                ("velocities", &written.velocities, &stored.velocities),
+                ("momentum", &written.momentum, &stored.momentum),
+                ("energy", &written.energy, &stored.energy),
+            ] {
+                let differ = a
+                    .iter()
+                    .zip(b.iter())
+                    .filter(|(x, y)| x.to_bits() != y.to_bits())
+                    .count();
+                assert!(
+                    a.len() == b.len() && differ == 0,
+                    "{name}, {threads} threads: {differ} values of `{port}` differ"
+                );
+            }
+        }
+    }
+    compare::<heft_xpbd::XpbdStrand, heft_xpbd::Xpbd<f64>>("xpbd.strand");
+    compare::<heft_xpbd::XpbdStrandF32, heft_xpbd::Xpbd<f32>>("xpbd.strand_fast");
 }
