@@ -43,8 +43,7 @@ pub trait Method: Sized + Send + 'static {
     /// they finish them saves the threads a second hand-over a frame, and reads the strands
     /// while they are in the cache. Called only when [`Method::fills_state`] is false, for a
     /// frame's first try; by default `frame` alone, writing nothing (false).
-    fn frame_and_store(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>, out: Out<'_>) -> bool {
-        let _ = out;
+    fn frame_and_store(&mut self, setup: &Setup, state: &mut State, env: &FrameEnv<'_>, _out: Out<'_>) -> bool {
         self.frame(setup, state, env);
         false
     }

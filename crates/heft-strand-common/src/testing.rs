@@ -86,9 +86,10 @@ fn call(
     n: usize,
     tl: Timeline,
     inputs: Inputs<'_>,
+    threads: usize,
     eval: impl FnOnce(&mut Io<'_>) -> Result<(), NodeError>,
 ) -> Result<Run, NodeError> {
-    let (result, run) = call_raw(spec, n, tl, inputs, 1, eval);
+    let (result, run) = call_raw(spec, n, tl, inputs, threads, eval);
     result.map(|()| run)
 }
 
@@ -152,7 +153,7 @@ pub fn run<N: Node>(
     let spec = N::spec();
     let p = params(&spec, changes);
     let n = N::output_points(&p, &[])?[0];
-    call(&spec, n, tl, inputs, |io| N::evaluate(&p, io))
+    call(&spec, n, tl, inputs, 1, |io| N::evaluate(&p, io))
 }
 
 /// Runs node type `N` and returns the buffers whether or not it fails.
@@ -180,10 +181,9 @@ pub fn run_setup_threads<N: Node, M: Method>(
     threads: usize,
 ) -> Result<Run, NodeError> {
     let spec = N::spec();
-    let (result, run) = call_raw(&spec, setup.total_particles(), tl, inputs, threads, |io| {
+    call(&spec, setup.total_particles(), tl, inputs, threads, |io| {
         evaluate_with::<M>(setup, io)
-    });
-    result.map(|()| run)
+    })
 }
 
 /// A transform series: translation and unit quaternion (x, y, z, w) per frame from `f(time)`.

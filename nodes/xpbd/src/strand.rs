@@ -284,6 +284,12 @@ fn share(k: usize, threads: usize, groups: usize) -> std::ops::Range<usize> {
     k * groups / threads..(k + 1) * groups / threads
 }
 
+/// How many of the node's `strands` the lane groups `groups` hold (the last group's lanes past
+/// them are padding).
+fn strands_in(groups: &std::ops::Range<usize>, lanes: usize, strands: usize) -> usize {
+    (groups.end * lanes).min(strands) - (groups.start * lanes).min(strands)
+}
+
 /// Lanes per group for `strands` strands (see `Method::new` of [`Xpbd`]).
 fn lanes_for(strands: usize) -> usize {
     match strands {
@@ -405,7 +411,8 @@ impl<T: Real, const N: usize> Group<T, N> {
             let (mut x, mut v) = (x, v);
             for k in 0..self.threads {
                 let g = share(k, self.threads, groups);
-                let range = (g.start * N).min(strands)..(g.end * N).min(strands);
+                let first = (g.start * N).min(strands);
+                let range = first..first + strands_in(&g, N, strands);
                 let (xa, xb) = std::mem::take(&mut x).split_at_mut(range.len() * per_strand);
                 let (va, vb) = std::mem::take(&mut v).split_at_mut(range.len() * per_strand);
                 (x, v) = (xb, vb);
@@ -518,7 +525,7 @@ impl<T: Real, const N: usize> Group<T, N> {
         env: &FrameEnv<'_>,
         coeffs: &Coeffs<T>,
         shared: &[([f64; 3], Option<[f64; 3]>)],
-        out: Option<Out<'_>>,
+        mut out: Option<Out<'_>>,
     ) -> bool {
         let h = env.h;
         let n = setup.particles;
@@ -598,14 +605,12 @@ impl<T: Real, const N: usize> Group<T, N> {
         let (mut kept_origin, mut kept_x): (&mut [Lanes3<f64, N>], &mut [Particle<T, N>]) =
             (&mut self.kept.origin, &mut self.kept.x);
         let written = out.is_some();
-        let mut out = out.map(|o| (o.x, o.v));
-        let (strands, per_strand) = (setup.strands, 3 * n);
         let mut parts = Vec::with_capacity(threads);
         for (k, worker) in self.workers.iter_mut().take(threads).enumerate() {
             let g = share(k, threads, groups);
             let count = g.len();
-            let out = out.as_mut().map(|(x, v)| {
-                let len = ((g.end * N).min(strands) - (g.start * N).min(strands)) * per_strand;
+            let out = out.as_mut().map(|Out { x, v }| {
+                let len = strands_in(&g, N, setup.strands) * 3 * n;
                 let (xa, xb) = std::mem::take(x).split_at_mut(len);
                 let (va, vb) = std::mem::take(v).split_at_mut(len);
                 (*x, *v) = (xb, vb);
